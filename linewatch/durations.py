@@ -1,0 +1,51 @@
+"""Parse and show durations such as `30m`, `8h`, `1h30m`, `90s`, `2d`."""
+
+from __future__ import annotations
+
+import re
+
+_PART = re.compile(r"(\d+(?:\.\d+)?)\s*([smhdw])", re.IGNORECASE)
+_UNIT = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0, "w": 604800.0}
+
+
+def parse_duration(text: str | int | float) -> float:
+    """Seconds in `text`; a bare number is seconds. Raises ValueError with a readable message."""
+    if isinstance(text, bool):
+        raise ValueError(f"not a duration: {text!r}")
+    if isinstance(text, int | float):
+        if text < 0:
+            raise ValueError(f"a duration cannot be negative: {text}")
+        return float(text)
+    s = str(text).strip()
+    if not s:
+        raise ValueError("empty duration")
+    try:
+        value = float(s)
+    except ValueError:
+        pos = 0
+        total = 0.0
+        for m in _PART.finditer(s):
+            if s[pos : m.start()].strip():
+                break
+            total += float(m.group(1)) * _UNIT[m.group(2).lower()]
+            pos = m.end()
+        if pos == 0 or s[pos:].strip():
+            raise ValueError(
+                f"not a duration: {s!r} (use a number with s, m, h, d or w, e.g. 30m or 1h30m)"
+            ) from None
+        return total
+    if value < 0:
+        raise ValueError(f"a duration cannot be negative: {s}")
+    return value
+
+
+def format_duration(seconds: float) -> str:
+    """Compact form: 45s, 12m, 3h05m, 2d04h."""
+    s = int(round(max(0.0, seconds)))
+    if s < 60:
+        return f"{s}s"
+    if s < 3600:
+        return f"{s // 60}m{s % 60:02d}s" if s < 600 and s % 60 else f"{s // 60}m"
+    if s < 86400:
+        return f"{s // 3600}h{(s % 3600) // 60:02d}m"
+    return f"{s // 86400}d{(s % 86400) // 3600:02d}h"

@@ -1,0 +1,1 @@
+"""Pure computation: constants, charts, limits, run rules, summaries. No I/O, no UI."""

@@ -1,0 +1,1 @@
+"""Following growing log files: formats, tailing, waking, feed health. No UI imports."""

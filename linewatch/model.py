@@ -1,0 +1,74 @@
+"""Plain records that flow one way through linewatch: bytes -> readings -> signals -> alarms.
+
+They carry no behaviour and import nothing heavy, so every layer (feeds, engine, store, faces)
+can share them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+CHART_INDIVIDUALS = "individuals"
+CHART_MOVING_RANGE = "moving-range"
+CHART_XBAR = "xbar"
+CHART_RANGE = "range"
+CHART_STDEV = "stdev"
+LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)
+DISPERSION_CHARTS = (CHART_MOVING_RANGE, CHART_RANGE, CHART_STDEV)
+
+
+@dataclass(frozen=True, slots=True)
+class Reading:
+    """One measured value of one characteristic, with where it came from."""
+
+    characteristic: str
+    value: float
+    file: str
+    line: int
+    time: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Rejected:
+    """A row that could not become a point, with file, 1-based line and the reason."""
+
+    file: str
+    line: int
+    reason: str
+
+
+@dataclass(frozen=True, slots=True)
+class Limits:
+    """Control limits of one chart; `sigma` is the standard deviation of the plotted statistic."""
+
+    characteristic: str
+    chart: str
+    center: float
+    ucl: float
+    lcl: float
+    sigma: float
+    phase: int = 0
+    start_index: int = 0
+
+
+@dataclass(frozen=True, slots=True)
+class Signal:
+    """A run rule fired at one plotted point of one chart."""
+
+    characteristic: str
+    chart: str
+    rule: str
+    index: int
+    line: int
+    value: float
+    file: str | None = None
+    time: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class FeedEvent:
+    """Something happened to a followed file: appeared, vanished, rotated, truncated, stale, ..."""
+
+    kind: str
+    file: str
+    detail: str = ""

@@ -1,0 +1,1 @@
+"""SQLite store: schema, ingest state, alarms, audit chain, collector lease. No UI imports."""

@@ -1,0 +1,1 @@
+"""The Textual face. Only this package may import textual or rich."""
