@@ -8,6 +8,7 @@ Nothing here imports textual or rich.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from collections.abc import Callable
 from typing import Protocol
 
 # Alarm states (ISA-18.2 / IEC 62682 wording).
@@ -154,3 +155,17 @@ class LineActions(Protocol):
     def unshelve(self, alarm_id: int) -> None: ...
 
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None: ...
+
+
+class SnapshotSource(Protocol):
+    """Where a face gets its picture. `snapshot()` is cheap and thread-safe; `subscribe` registers a
+    callback called (from any thread, possibly often) with the new version whenever something
+    changed, so the face can schedule a batched redraw instead of polling."""
+
+    def snapshot(self) -> LineSnapshot: ...
+
+    def detail(self, characteristic: str) -> CharacteristicView | None:
+        """The characteristic with its full recent chart history, phases and statistics."""
+        ...
+
+    def subscribe(self, callback: Callable[[int], None]) -> None: ...
