@@ -1,0 +1,283 @@
+"""One characteristic from raw values to limits and signals: batch (history) and live.
+
+`analyse_history` is the vectorised path used by `check`; `CharacteristicEngine` is the live path
+used by `watch`, fed values in any chunking. Given the same values and the same baseline, both
+produce the same limits and the same signals (a property test holds them to it).
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from linewatch.engine.charts import chart_names, plotted_series, subgroup_stats
+from linewatch.engine.limits import (
+    MIN_BASELINE,
+    ChartLimits,
+    LimitSet,
+    estimate_limits,
+    given_limits,
+)
+from linewatch.engine.rulebook import BEYOND, RuleSpec
+from linewatch.engine.rules import evaluate
+from linewatch.engine.stream import ChartLimitsState, ChartRules
+from linewatch.errors import NotEnoughData
+
+HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
+
+
+@dataclass(frozen=True, slots=True)
+class ChartSetup:
+    """How one characteristic is charted."""
+
+    name: str
+    subgroup_size: int = 1
+    dispersion: str = "range"
+    rules: tuple[RuleSpec, ...] = ()
+    baseline: int | None = None  # plotted points; None: all points (batch only)
+    center: float | None = None
+    sigma: float | None = None
+
+    @property
+    def charts(self) -> tuple[str, str]:
+        return chart_names(self.subgroup_size, self.dispersion)
+
+    @property
+    def dispersion_rules(self) -> tuple[RuleSpec, ...]:
+        """Dispersion charts get only the beyond-limits test of the selected sets."""
+        return tuple(r for r in self.rules if r.kind == BEYOND)
+
+
+@dataclass(frozen=True, slots=True)
+class Firing:
+    """A rule fired at a plotted point (row position is into the values fed so far)."""
+
+    chart: str
+    rule: str
+    index: int
+    row: int
+    value: float
+
+
+@dataclass(slots=True)
+class HistoryResult:
+    """What `analyse_history` found."""
+
+    limits: LimitSet
+    location: np.ndarray
+    dispersion: np.ndarray
+    firings: list[Firing]
+    leftover: int  # values of a trailing incomplete subgroup, left out
+
+
+def _limit_state(lim: ChartLimits) -> ChartLimitsState:
+    if lim.asymmetric:
+        return ChartLimitsState(lim.center, lim.sigma, lim.ucl, lim.lcl)
+    return ChartLimitsState(lim.center, lim.sigma)
+
+
+def _evaluate_series(values, lim: ChartLimits, specs) -> dict[str, np.ndarray]:
+    st = _limit_state(lim)
+    return {s.id: evaluate(s, values, st.center, st.sigma, st.ucl, st.lcl) for s in specs}
+
+
+def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
+    """Limits and rule firings over a whole series of individual values (vectorised)."""
+    x = np.asarray(values, dtype=float)
+    n = setup.subgroup_size
+    loc, disp = plotted_series(x, n, setup.dispersion)
+    leftover = x.shape[0] - (x.shape[0] // n) * n if n > 1 else 0
+    if setup.sigma is not None and setup.center is not None:
+        limits = given_limits(setup.center, setup.sigma, n, setup.dispersion)
+    else:
+        b = loc.values.shape[0] if setup.baseline is None else setup.baseline
+        if loc.values.shape[0] < max(b, MIN_BASELINE):
+            need = max(b, MIN_BASELINE) * n
+            raise NotEnoughData(
+                f"too few points for limits on {setup.name}: {x.shape[0] - leftover} values, "
+                f"{need} needed"
+            )
+        disp_base = disp.values[: b - 1] if n == 1 else disp.values[:b]
+        limits = estimate_limits(loc.values[:b], disp_base, n, setup.dispersion)
+    firings: list[Firing] = []
+    for series, lim, specs in (
+        (loc, limits.location, setup.rules),
+        (disp, limits.dispersion, setup.dispersion_rules),
+    ):
+        for rule_id, fired in _evaluate_series(series.values, lim, specs).items():
+            for pos in np.flatnonzero(fired):
+                firings.append(
+                    Firing(series.chart, rule_id, int(series.indices[pos]), int(series.rows[pos]),
+                           float(series.values[pos]))
+                )
+    order = {setup.charts[0]: 0, setup.charts[1]: 1}
+    rule_order = {r.id: i for i, r in enumerate(setup.rules)}
+    firings.sort(key=lambda f: (f.index, order[f.chart], rule_order[f.rule]))
+    return HistoryResult(limits, loc.values, disp.values, firings, leftover)
+
+
+@dataclass(slots=True)
+class PlottedPoint:
+    """A live plotted point with the rules that fired at it (empty until judged)."""
+
+    chart: str
+    index: int
+    value: float
+    row: int
+    phase: int
+    judged: bool = False
+    rules: list[str] = field(default_factory=list)
+
+
+@dataclass(slots=True)
+class LiveOutput:
+    """What one `push` produced."""
+
+    points: list[PlottedPoint] = field(default_factory=list)
+    firings: list[Firing] = field(default_factory=list)
+    limits: LimitSet | None = None  # set when new limits took effect in this push
+    judged: dict[str, tuple[int, int]] = field(default_factory=dict)  # chart -> index range
+
+
+class CharacteristicEngine:
+    """Live charting of one characteristic: feed values in order, in any chunking."""
+
+    def __init__(self, setup: ChartSetup) -> None:
+        if setup.baseline is None and setup.sigma is None:
+            raise ValueError("a live engine needs a baseline length or known limits")
+        self.setup = setup
+        self.loc_chart, self.disp_chart = setup.charts
+        self.values_seen = 0
+        self.pending: list[float] = []
+        self.pending_rows: list[int] = []
+        self.prev_value: float | None = None
+        self.phase = 0
+        self.phase_start = 0
+        self.limits: LimitSet | None = None
+        self.next_index = 0
+        self.loc_history: deque[PlottedPoint] = deque(maxlen=HISTORY_KEEP)
+        self.disp_history: deque[PlottedPoint] = deque(maxlen=HISTORY_KEEP)
+        self.waiting: list[tuple[PlottedPoint, PlottedPoint | None]] = []
+        self.phase_baseline = setup.baseline or 0
+        self.loc_rules: ChartRules | None = None
+        self.disp_rules: ChartRules | None = None
+        if setup.sigma is not None and setup.center is not None:
+            self._apply_limits(
+                given_limits(setup.center, setup.sigma, setup.subgroup_size, setup.dispersion)
+            )
+
+    # -- limits -------------------------------------------------------------------------------
+    def _apply_limits(self, limits: LimitSet) -> None:
+        self.limits = limits
+        self.loc_rules = ChartRules(self.setup.rules, _limit_state(limits.location))
+        self.disp_rules = ChartRules(self.setup.dispersion_rules, _limit_state(limits.dispersion))
+
+    @property
+    def baseline_needed(self) -> int:
+        """Plotted points still needed before this phase has limits (0 once it has them)."""
+        if self.limits is not None:
+            return 0
+        return max(0, max(self.phase_baseline, MIN_BASELINE) - len(self.waiting))
+
+    def _try_estimate(self) -> LimitSet | None:
+        need = max(self.phase_baseline, MIN_BASELINE)
+        if len(self.waiting) < need:
+            return None
+        base = self.waiting[:need]
+        loc = np.array([p.value for p, _ in base])
+        if self.setup.subgroup_size == 1:
+            disp = np.array([d.value for _, d in base[1:] if d is not None])
+        else:
+            disp = np.array([d.value for _, d in base if d is not None])
+        try:
+            return estimate_limits(loc, disp, self.setup.subgroup_size, self.setup.dispersion)
+        except NotEnoughData:
+            return None  # σ̂ = 0 so far: keep collecting, the baseline grows
+
+    # -- feeding ------------------------------------------------------------------------------
+    def push(self, values) -> LiveOutput:
+        """Feed the next values (in order); returns new points, firings and new limits."""
+        out = LiveOutput()
+        n = self.setup.subgroup_size
+        for v in values:
+            x = float(v)
+            row = self.values_seen
+            self.values_seen += 1
+            if n == 1:
+                loc = PlottedPoint(self.loc_chart, self.next_index, x, row, self.phase)
+                disp = None
+                if self.prev_value is not None:
+                    disp = PlottedPoint(self.disp_chart, self.next_index, abs(x - self.prev_value),
+                                        row, self.phase)
+                self.prev_value = x
+            else:
+                self.pending.append(x)
+                self.pending_rows.append(row)
+                if len(self.pending) < n:
+                    continue
+                mean, spread = subgroup_stats(self.pending, self.setup.dispersion)
+                loc = PlottedPoint(self.loc_chart, self.next_index, mean, row, self.phase)
+                disp = PlottedPoint(self.disp_chart, self.next_index, spread, row, self.phase)
+                self.pending = []
+                self.pending_rows = []
+            self.next_index += 1
+            self._plot(loc, disp, out)
+        return out
+
+    def _plot(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput) -> None:
+        self.loc_history.append(loc)
+        out.points.append(loc)
+        if disp is not None:
+            self.disp_history.append(disp)
+            out.points.append(disp)
+        if self.limits is None:
+            self.waiting.append((loc, disp))
+            limits = self._try_estimate()
+            if limits is None:
+                return
+            self._apply_limits(limits)
+            out.limits = limits
+            pending, self.waiting = self.waiting, []
+            for p, d in pending:
+                self._judge(p, d, out)
+            return
+        self._judge(loc, disp, out)
+
+    def _judge(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput) -> None:
+        assert self.loc_rules is not None and self.disp_rules is not None
+        for point, rules in ((loc, self.loc_rules), (disp, self.disp_rules)):
+            if point is None or point.judged:
+                continue
+            point.judged = True
+            point.rules = rules.push(point.value)
+            lo, _ = out.judged.get(point.chart, (point.index, point.index))
+            out.judged[point.chart] = (lo, point.index)
+            for rule_id in point.rules:
+                out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
+                                          point.value))
+
+    # -- phases -------------------------------------------------------------------------------
+    def new_baseline(self, start_index: int, baseline: int | None = None) -> None:
+        """Start a new phase at location index `start_index`; limits are re-estimated from the
+        next `baseline` plotted points from there. Points already judged keep their signals."""
+        if start_index > self.next_index or start_index < 0:
+            raise ValueError(f"a new phase can start at points 0..{self.next_index}")
+        oldest = self.loc_history[0].index if self.loc_history else self.next_index
+        if start_index < oldest:
+            raise ValueError(f"point {start_index} is too far back (oldest kept: {oldest})")
+        self.phase += 1
+        self.phase_start = start_index
+        self.phase_baseline = baseline or self.setup.baseline or self.phase_baseline
+        disp_by_index = {d.index: d for d in self.disp_history}
+        self.waiting = [
+            (p, disp_by_index.get(p.index)) for p in self.loc_history if p.index >= start_index
+        ]
+        if self.setup.subgroup_size == 1 and self.waiting:
+            # the moving range that spans the phase boundary is not part of the new baseline
+            first, _ = self.waiting[0]
+            self.waiting[0] = (first, None)
+        self.limits = None
+        self.loc_rules = None
+        self.disp_rules = None
