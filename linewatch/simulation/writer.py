@@ -1,0 +1,125 @@
+"""Pace a generated stream of actions onto real files, the way gauges append to their logs.
+
+Simulated time runs `speed` times faster than wall time; rows stamped before the start (the
+history) are written at once. Each row is one unbuffered write() (rarely two, to leave a partial
+line for a moment), so a follower sees it immediately. Stops after `duration` wall seconds or
+when `stop` is set, always at a row boundary, and closes every file.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+import time
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import BinaryIO
+
+from linewatch.simulate import Action, Header, Note, Rotate, Row
+
+PARTIAL_PAUSE = 0.03  # seconds between the two pieces of a split row
+
+
+@dataclass(slots=True)
+class WriteStats:
+    """What a run wrote: good and junk rows per file, rotations, wall seconds."""
+
+    rows: dict[str, int] = field(default_factory=dict)
+    junk: dict[str, int] = field(default_factory=dict)
+    rotations: int = 0
+    split_rows: int = 0
+    seconds: float = 0.0
+
+
+class LogFiles:
+    """Open-on-demand append handles for the logs in one folder, with rename rotation."""
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.handles: dict[str, BinaryIO] = {}
+
+    def write(self, name: str, data: bytes) -> None:
+        handle = self.handles.get(name)
+        if handle is None:
+            handle = open(self.folder / name, "ab", buffering=0)  # noqa: SIM115 - kept open
+            self.handles[name] = handle
+        handle.write(data)
+
+    def rotate(self, name: str) -> None:
+        """Rename `name` to `name.1` (an older `.1` becomes `.2`); the next write starts anew."""
+        handle = self.handles.pop(name, None)
+        if handle is not None:
+            handle.close()
+        path = self.folder / name
+        older = self.folder / f"{name}.1"
+        if older.exists():
+            os.replace(older, self.folder / f"{name}.2")
+        if path.exists():
+            os.replace(path, older)
+
+    def close(self) -> None:
+        for handle in self.handles.values():
+            handle.close()
+        self.handles.clear()
+
+
+def write_feeds(
+    folder: Path,
+    actions: Iterable[Action],
+    *,
+    speed: float = 1.0,
+    duration: float | None = None,
+    stop: threading.Event | None = None,
+    on_note: Callable[[Note], None] | None = None,
+    clock: Callable[[], float] = time.monotonic,
+) -> WriteStats:
+    """Write `actions` into `folder` at `speed`; return what was written."""
+    if not speed > 0:
+        raise ValueError("speed must be more than 0")
+    stop = stop or threading.Event()
+    folder.mkdir(parents=True, exist_ok=True)
+    files = LogFiles(folder)
+    stats = WriteStats()
+    began = clock()
+    try:
+        for action in actions:
+            due = max(0.0, action.t / speed)
+            if duration is not None and due >= duration:
+                remaining = duration - (clock() - began)
+                if remaining > 0:
+                    stop.wait(remaining)
+                break
+            wait = due - (clock() - began)
+            if wait > 0 and stop.wait(wait):
+                break
+            if stop.is_set():
+                break
+            _apply(files, action, stats, on_note)
+    finally:
+        files.close()
+        stats.seconds = clock() - began
+    return stats
+
+
+def _apply(
+    files: LogFiles, action: Action, stats: WriteStats, on_note: Callable[[Note], None] | None
+) -> None:
+    if isinstance(action, Row):
+        if action.split:
+            files.write(action.file, action.data[: action.split])
+            time.sleep(PARTIAL_PAUSE)
+            files.write(action.file, action.data[action.split :])
+            stats.split_rows += 1
+        else:
+            files.write(action.file, action.data)
+        tally = stats.rows if action.value is not None else stats.junk
+        tally[action.file] = tally.get(action.file, 0) + 1
+    elif isinstance(action, Header):
+        if action.data:
+            files.write(action.file, action.data)
+    elif isinstance(action, Rotate):
+        files.rotate(action.file)
+        stats.rotations += 1
+    elif isinstance(action, Note) and on_note is not None:
+        on_note(action)
