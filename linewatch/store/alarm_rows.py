@@ -1,0 +1,158 @@
+"""Alarm rows and their derived ISA-18.2 / IEC 62682 state. The lifecycle rules (when to raise,
+extend, return, close) live in `linewatch.alarms`; this module only stores and reads."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+from typing import TYPE_CHECKING, Any
+
+from linewatch.view import ACKNOWLEDGED, NORMAL, RETURNED_UNACKNOWLEDGED, SHELVED, UNACKNOWLEDGED
+
+if TYPE_CHECKING:
+    from linewatch.store.db import Store
+
+
+@dataclass(slots=True)
+class AlarmRecord:
+    """One alarm as stored. `active`: the condition is present; `acknowledged`: a person has
+    acknowledged it; the state shown is derived from these and `shelved_until`."""
+
+    id: int
+    kind: str
+    characteristic: str
+    chart: str
+    rule: str
+    first_index: int | None
+    last_index: int | None
+    priority: int
+    raised_at: float
+    updated_at: float
+    active: bool
+    acknowledged: bool = False
+    acknowledged_by: str | None = None
+    acknowledged_from: str | None = None
+    acknowledged_at: float | None = None
+    reason: str | None = None
+    note: str | None = None
+    shelved_until: float | None = None
+    shelved_by: str | None = None
+    shelve_reason: str | None = None
+    returned_at: float | None = None
+    closed_at: float | None = None
+    file: str | None = None
+    detail: str = ""
+
+    def state(self, now: float) -> str:
+        """shelved while shelved_until lies ahead; otherwise from (active, acknowledged)."""
+        if self.closed_at is None and self.shelved_until is not None and self.shelved_until > now:
+            return SHELVED
+        if self.active:
+            return ACKNOWLEDGED if self.acknowledged else UNACKNOWLEDGED
+        return NORMAL if self.acknowledged else RETURNED_UNACKNOWLEDGED
+
+    @property
+    def is_open(self) -> bool:
+        """Not yet closed (closed = returned to normal and acknowledged)."""
+        return self.closed_at is None
+
+    def as_dict(self) -> dict[str, Any]:
+        """All stored fields, for JSON (the hook, exports)."""
+        return {f.name: getattr(self, f.name) for f in fields(self)}
+
+
+_COLUMNS = tuple(f.name for f in fields(AlarmRecord))
+_SELECT = f"SELECT {', '.join(_COLUMNS)} FROM alarms"
+
+
+def _record(row: Any) -> AlarmRecord:
+    record = AlarmRecord(*tuple(row))
+    record.active = bool(record.active)
+    record.acknowledged = bool(record.acknowledged)
+    return record
+
+
+class AlarmRows:
+    """Insert, update and query alarm rows."""
+
+    def __init__(self, store: Store) -> None:
+        self.store = store
+
+    def insert(self, **values: Any) -> int:
+        """Add an alarm; returns its id."""
+        unknown = set(values) - set(_COLUMNS)
+        if unknown or "id" in values:
+            raise ValueError(f"not alarm columns: {sorted(unknown | ({'id'} & set(values)))}")
+        names = list(values)
+        with self.store.transaction() as conn:
+            cursor = conn.execute(
+                f"INSERT INTO alarms ({', '.join(names)}) VALUES ({', '.join('?' * len(names))})",
+                [values[n] for n in names],
+            )
+            return int(cursor.lastrowid or 0)
+
+    def update(self, alarm_id: int, **values: Any) -> None:
+        """Change some fields of one alarm."""
+        unknown = set(values) - set(_COLUMNS) | ({"id"} & set(values))
+        if unknown:
+            raise ValueError(f"not updatable alarm columns: {sorted(unknown)}")
+        assignments = ", ".join(f"{n} = ?" for n in values)
+        with self.store.transaction() as conn:
+            conn.execute(
+                f"UPDATE alarms SET {assignments} WHERE id = ?", [*values.values(), alarm_id]
+            )
+
+    def get(self, alarm_id: int) -> AlarmRecord | None:
+        """One alarm by id."""
+        rows = self.store.query(f"{_SELECT} WHERE id = ?", (alarm_id,))
+        return _record(rows[0]) if rows else None
+
+    def open(self, characteristic: str | None = None) -> list[AlarmRecord]:
+        """Alarms not yet closed (optionally of one characteristic), oldest first."""
+        if characteristic is None:
+            rows = self.store.query(f"{_SELECT} WHERE closed_at IS NULL ORDER BY id")
+        else:
+            rows = self.store.query(
+                f"{_SELECT} WHERE closed_at IS NULL AND characteristic = ? ORDER BY id",
+                (characteristic,),
+            )
+        return [_record(r) for r in rows]
+
+    def active(self, characteristic: str, chart: str, rule: str) -> AlarmRecord | None:
+        """The alarm whose condition is still present for this characteristic, chart and rule."""
+        rows = self.store.query(
+            f"{_SELECT} WHERE closed_at IS NULL AND active = 1 AND characteristic = ? "
+            "AND chart = ? AND rule = ? ORDER BY id DESC LIMIT 1",
+            (characteristic, chart, rule),
+        )
+        return _record(rows[0]) if rows else None
+
+    def active_on_chart(self, characteristic: str, chart: str) -> list[AlarmRecord]:
+        """Every active alarm of one chart of one characteristic."""
+        rows = self.store.query(
+            f"{_SELECT} WHERE closed_at IS NULL AND active = 1 AND characteristic = ? "
+            "AND chart = ? ORDER BY id",
+            (characteristic, chart),
+        )
+        return [_record(r) for r in rows]
+
+    def shelf_expired(self, now: float) -> list[AlarmRecord]:
+        """Alarms whose shelving time has passed but that still carry it."""
+        rows = self.store.query(
+            f"{_SELECT} WHERE closed_at IS NULL AND shelved_until IS NOT NULL "
+            "AND shelved_until <= ? ORDER BY id",
+            (now,),
+        )
+        return [_record(r) for r in rows]
+
+    def all(self) -> list[AlarmRecord]:
+        """Every alarm, oldest first."""
+        return [_record(r) for r in self.store.query(f"{_SELECT} ORDER BY id")]
+
+    def between(self, since: float, until: float) -> list[AlarmRecord]:
+        """Alarms that were open at some moment of [since, until): raised before `until` and not
+        closed before `since`. Oldest first."""
+        rows = self.store.query(
+            f"{_SELECT} WHERE raised_at < ? AND (closed_at IS NULL OR closed_at >= ?) ORDER BY id",
+            (until, since),
+        )
+        return [_record(r) for r in rows]

@@ -1,0 +1,124 @@
+"""The store's tables as an ordered list of migrations; version N is MIGRATIONS[N - 1].
+
+A migration is never edited once released: a change to the schema is a new entry at the end, so a
+state directory written by an older linewatch is brought forward step by step on open.
+"""
+
+from __future__ import annotations
+
+MIGRATIONS: tuple[str, ...] = (
+    # 1: ingest state, points, limits, feed events, alarms, audit chain, collector lease.
+    """
+    CREATE TABLE meta (
+        key   TEXT PRIMARY KEY,
+        value TEXT NOT NULL
+    );
+    CREATE TABLE files (
+        path        TEXT PRIMARY KEY,
+        dev         INTEGER NOT NULL,
+        inode       INTEGER NOT NULL,
+        fingerprint TEXT NOT NULL,
+        offset      INTEGER NOT NULL CHECK (offset >= 0),
+        next_line   INTEGER NOT NULL CHECK (next_line >= 1),
+        updated_at  REAL NOT NULL
+    );
+    CREATE TABLE engine_state (
+        characteristic TEXT PRIMARY KEY,
+        state          TEXT NOT NULL,
+        updated_at     REAL NOT NULL
+    );
+    CREATE TABLE characteristics (
+        name           TEXT PRIMARY KEY,
+        unit           TEXT NOT NULL DEFAULT '',
+        lsl            REAL,
+        usl            REAL,
+        reasons        TEXT NOT NULL,
+        reaction_plan  TEXT NOT NULL DEFAULT '',
+        reaction_plans TEXT NOT NULL DEFAULT '{}'
+    );
+    CREATE TABLE points (
+        characteristic TEXT NOT NULL,
+        idx            INTEGER NOT NULL,
+        value          REAL NOT NULL,
+        line           INTEGER NOT NULL,
+        file           TEXT NOT NULL,
+        time           TEXT,
+        received_at    REAL NOT NULL,
+        PRIMARY KEY (characteristic, idx)
+    ) WITHOUT ROWID;
+    CREATE INDEX points_by_time ON points (received_at);
+    CREATE TABLE limits (
+        id             INTEGER PRIMARY KEY,
+        characteristic TEXT NOT NULL,
+        chart          TEXT NOT NULL,
+        phase          INTEGER NOT NULL,
+        start_index    INTEGER NOT NULL,
+        center         REAL NOT NULL,
+        ucl            REAL NOT NULL,
+        lcl            REAL NOT NULL,
+        sigma          REAL NOT NULL,
+        reason         TEXT NOT NULL DEFAULT '',
+        set_at         REAL NOT NULL
+    );
+    CREATE INDEX limits_by_characteristic ON limits (characteristic, chart, set_at);
+    CREATE TABLE feed_events (
+        id     INTEGER PRIMARY KEY,
+        at     REAL NOT NULL,
+        kind   TEXT NOT NULL,
+        file   TEXT NOT NULL,
+        detail TEXT NOT NULL DEFAULT ''
+    );
+    CREATE INDEX feed_events_by_time ON feed_events (at);
+    CREATE TABLE alarms (
+        id                INTEGER PRIMARY KEY,
+        kind              TEXT NOT NULL,
+        characteristic    TEXT NOT NULL,
+        chart             TEXT NOT NULL,
+        rule              TEXT NOT NULL,
+        first_index       INTEGER,
+        last_index        INTEGER,
+        priority          INTEGER NOT NULL,
+        raised_at         REAL NOT NULL,
+        updated_at        REAL NOT NULL,
+        active            INTEGER NOT NULL CHECK (active IN (0, 1)),
+        acknowledged      INTEGER NOT NULL DEFAULT 0 CHECK (acknowledged IN (0, 1)),
+        acknowledged_by   TEXT,
+        acknowledged_from TEXT,
+        acknowledged_at   REAL,
+        reason            TEXT,
+        note              TEXT,
+        shelved_until     REAL,
+        shelved_by        TEXT,
+        shelve_reason     TEXT,
+        returned_at       REAL,
+        closed_at         REAL,
+        file              TEXT,
+        detail            TEXT NOT NULL DEFAULT ''
+    );
+    CREATE INDEX alarms_open ON alarms (closed_at, characteristic, chart, rule);
+    CREATE INDEX alarms_by_time ON alarms (raised_at);
+    CREATE TABLE audit (
+        seq       INTEGER PRIMARY KEY,
+        at        REAL NOT NULL,
+        actor     TEXT NOT NULL,
+        action    TEXT NOT NULL,
+        subject   TEXT NOT NULL,
+        payload   TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        hash      TEXT NOT NULL
+    );
+    CREATE INDEX audit_by_time ON audit (at);
+    CREATE TRIGGER audit_no_update BEFORE UPDATE ON audit
+        BEGIN SELECT RAISE(ABORT, 'the audit trail is append-only'); END;
+    CREATE TRIGGER audit_no_delete BEFORE DELETE ON audit
+        BEGIN SELECT RAISE(ABORT, 'the audit trail is append-only'); END;
+    CREATE TABLE lease (
+        id          INTEGER PRIMARY KEY CHECK (id = 1),
+        holder      TEXT NOT NULL,
+        pid         INTEGER NOT NULL,
+        host        TEXT NOT NULL,
+        acquired_at REAL NOT NULL,
+        expires_at  REAL NOT NULL
+    );
+    """,
+)
