@@ -26,6 +26,36 @@ from linewatch.engine.stream import ChartLimitsState, ChartRules
 from linewatch.errors import NotEnoughData
 
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
+STATE_HISTORY = 500  # of those, how many are saved with the engine state
+
+
+def _lookback(specs) -> int:
+    return max((s.lookback for s in specs), default=1)
+
+
+def _limits_to_dict(lim: LimitSet) -> dict:
+    def chart(c: ChartLimits) -> list:
+        return [c.chart, c.center, c.ucl, c.lcl, c.sigma]
+
+    return {"location": chart(lim.location), "dispersion": chart(lim.dispersion),
+            "sigma_within": lim.sigma_within, "source": lim.source}
+
+
+def _limits_from_dict(d: dict) -> LimitSet:
+    return LimitSet(ChartLimits(*d["location"]), ChartLimits(*d["dispersion"]),
+                    d["sigma_within"], d["source"])
+
+
+def _point_to_list(p: PlottedPoint | None) -> list | None:
+    if p is None:
+        return None
+    return [p.index, p.value, p.row, p.phase, p.judged, p.rules]
+
+
+def _point_from_list(chart: str, a: list | None) -> PlottedPoint | None:
+    if a is None:
+        return None
+    return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]))
 
 
 @dataclass(frozen=True, slots=True)
@@ -163,6 +193,9 @@ class CharacteristicEngine:
         self.phase_baseline = setup.baseline or 0
         self.loc_rules: ChartRules | None = None
         self.disp_rules: ChartRules | None = None
+        # values pushed into the current rule states, enough to rebuild them after a restart
+        self.loc_fed: deque[float] = deque(maxlen=_lookback(setup.rules))
+        self.disp_fed: deque[float] = deque(maxlen=_lookback(setup.dispersion_rules))
         if setup.sigma is not None and setup.center is not None:
             self._apply_limits(
                 given_limits(setup.center, setup.sigma, setup.subgroup_size, setup.dispersion)
@@ -173,6 +206,8 @@ class CharacteristicEngine:
         self.limits = limits
         self.loc_rules = ChartRules(self.setup.rules, _limit_state(limits.location))
         self.disp_rules = ChartRules(self.setup.dispersion_rules, _limit_state(limits.dispersion))
+        self.loc_fed.clear()
+        self.disp_fed.clear()
 
     @property
     def baseline_needed(self) -> int:
@@ -247,11 +282,13 @@ class CharacteristicEngine:
 
     def _judge(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput) -> None:
         assert self.loc_rules is not None and self.disp_rules is not None
-        for point, rules in ((loc, self.loc_rules), (disp, self.disp_rules)):
+        for point, rules, fed in ((loc, self.loc_rules, self.loc_fed),
+                                  (disp, self.disp_rules, self.disp_fed)):
             if point is None or point.judged:
                 continue
             point.judged = True
             point.rules = rules.push(point.value)
+            fed.append(point.value)
             lo, _ = out.judged.get(point.chart, (point.index, point.index))
             out.judged[point.chart] = (lo, point.index)
             for rule_id in point.rules:
@@ -281,3 +318,69 @@ class CharacteristicEngine:
         self.limits = None
         self.loc_rules = None
         self.disp_rules = None
+
+    # -- persistence --------------------------------------------------------------------------
+    def signature(self) -> str:
+        """What the saved state depends on; a state saved under another setup is not reused."""
+        s = self.setup
+        rules = ",".join(f"{r.id}:{r.length}" for r in s.rules)
+        return f"{s.subgroup_size}|{s.dispersion}|{rules}|{s.baseline}|{s.center}|{s.sigma}"
+
+    def to_state(self) -> dict:
+        """A JSON-ready snapshot from which `from_state` rebuilds this engine exactly."""
+        disp_by_index = {d.index: d for d in self.disp_history}
+        hist = list(self.loc_history)[-STATE_HISTORY:]
+        return {
+            "signature": self.signature(),
+            "values_seen": self.values_seen,
+            "pending": self.pending,
+            "pending_rows": self.pending_rows,
+            "prev_value": self.prev_value,
+            "phase": self.phase,
+            "phase_start": self.phase_start,
+            "phase_baseline": self.phase_baseline,
+            "next_index": self.next_index,
+            "limits": _limits_to_dict(self.limits) if self.limits else None,
+            "waiting": [[_point_to_list(p), _point_to_list(d)] for p, d in self.waiting],
+            "history": [[_point_to_list(p), _point_to_list(disp_by_index.get(p.index))]
+                        for p in hist],
+            "loc_fed": list(self.loc_fed),
+            "disp_fed": list(self.disp_fed),
+        }
+
+    @classmethod
+    def from_state(cls, setup: ChartSetup, state: dict) -> CharacteristicEngine:
+        """Rebuild an engine saved by `to_state`; a state from another setup starts afresh."""
+        engine = cls(setup)
+        if state.get("signature") != engine.signature():
+            return engine
+        engine.values_seen = state["values_seen"]
+        engine.pending = list(state["pending"])
+        engine.pending_rows = list(state["pending_rows"])
+        engine.prev_value = state["prev_value"]
+        engine.phase = state["phase"]
+        engine.phase_start = state["phase_start"]
+        engine.phase_baseline = state["phase_baseline"]
+        engine.next_index = state["next_index"]
+        loc_c, disp_c = engine.loc_chart, engine.disp_chart
+        for p, d in state["history"]:
+            engine.loc_history.append(_point_from_list(loc_c, p))
+            if d is not None:
+                engine.disp_history.append(_point_from_list(disp_c, d))
+        by_index = {p.index: p for p in engine.loc_history}
+        dby_index = {d.index: d for d in engine.disp_history}
+        engine.waiting = []
+        for p, d in state["waiting"]:
+            lp = by_index.get(p[0]) or _point_from_list(loc_c, p)
+            dp = None if d is None else (dby_index.get(d[0]) or _point_from_list(disp_c, d))
+            engine.waiting.append((lp, dp))
+        if state["limits"] is None:
+            engine.limits = engine.loc_rules = engine.disp_rules = None
+        else:
+            engine._apply_limits(_limits_from_dict(state["limits"]))
+            assert engine.loc_rules is not None and engine.disp_rules is not None
+            engine.loc_rules.replay(state["loc_fed"])
+            engine.disp_rules.replay(state["disp_fed"])
+            engine.loc_fed.extend(state["loc_fed"])
+            engine.disp_fed.extend(state["disp_fed"])
+        return engine

@@ -37,7 +37,9 @@ class Series:
     rows: np.ndarray  # position of the source row (the last one for a subgroup) in the input
 
 
-def plotted_series(values: np.ndarray, subgroup_size: int, dispersion: str) -> tuple[Series, Series]:
+def plotted_series(
+    values: np.ndarray, subgroup_size: int, dispersion: str
+) -> tuple[Series, Series]:
     """Location and dispersion series of a whole history (vectorised)."""
     x = np.asarray(values, dtype=float)
     loc_name, disp_name = chart_names(subgroup_size, dispersion)

@@ -56,7 +56,7 @@ class RuleState:
         self.last_down = -(10**9)
         self.window: deque[int] = deque()
 
-    def push(self, x: float, side: int, level: int) -> bool:  # noqa: C901 - one branch per kind
+    def push(self, x: float, side: int, level: int) -> bool:
         kind = self.spec.kind
         i = self.n
         self.n += 1

@@ -84,7 +84,7 @@ def test_four_of_five_beyond_one_sigma_on_one_side(rule):
 def test_fifteen_within_one_sigma_counts_points_on_one_sigma_as_within():
     hugging = [1.0, -1.0, 0.0, 0.5, -0.5] * 3
     assert fires("n7", hugging) == [14]
-    assert fires("n7", hugging[:14] + [1.01]) == []
+    assert fires("n7", [*hugging[:14], 1.01]) == []
 
 
 def test_eight_beyond_one_sigma_needs_points_on_both_sides():

@@ -103,3 +103,25 @@ def test_live_engine_matches_history_for_any_chunking(values, n, dispersion, bas
     assert limits == hist.limits
     key = lambda f: (f.index, f.chart, f.rule)  # noqa: E731
     assert sorted(firings, key=key) == sorted(hist.firings, key=key)
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    st.lists(st.floats(-5, 5, allow_nan=False), min_size=0, max_size=150),
+    st.sampled_from([1, 3, 5]),
+    st.integers(2, 10),
+    st.lists(st.integers(0, 200), max_size=6),
+)
+def test_a_saved_and_restored_engine_continues_exactly(values, n, baseline, cuts):
+    import json
+
+    setup = ChartSetup("x", n, "range", tuple(resolve_rules(list(RULES))), baseline)
+    straight = CharacteristicEngine(setup)
+    expected = straight.push(values).firings
+    got = []
+    engine = CharacteristicEngine(setup)
+    for chunk in _chunks(values, cuts):
+        got.extend(engine.push(chunk).firings)
+        # as after a crash: only what went through JSON survives
+        engine = CharacteristicEngine.from_state(setup, json.loads(json.dumps(engine.to_state())))
+    assert got == expected

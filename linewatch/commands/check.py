@@ -1,0 +1,132 @@
+"""`linewatch check`: chart finished logs, report limits, signals, capability and the false-alarm
+budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from dataclasses import dataclass
+
+import numpy as np
+
+from linewatch.config import CharacteristicConfig
+from linewatch.engine.characteristic import HistoryResult, analyse_history
+from linewatch.errors import LinewatchError, NotEnoughData
+from linewatch.model import Rejected
+from linewatch.records import dumps, limits_record, rejected_record, signal_record
+from linewatch.selection import (
+    chart_setup,
+    feed_for_check,
+    load_optional_config,
+    select_characteristics,
+    validate_chart_options,
+)
+
+
+@dataclass(slots=True)
+class Column:
+    """All values of one characteristic across the logs, with where each came from."""
+
+    values: np.ndarray
+    lines: np.ndarray
+    files: list[str]  # file of each value, as ranges are rare: one entry per value source
+    file_index: np.ndarray  # index into `files` per value
+
+
+@dataclass(slots=True)
+class Analysis:
+    """One characteristic's results."""
+
+    config: CharacteristicConfig
+    column: Column
+    result: HistoryResult
+    summary: dict
+
+
+def _read_all(paths: list[str], feed, columns: list[str] | None):
+    """Read every log into per-characteristic columns plus the rejected rows."""
+    from linewatch.feeds.formats import read_log
+
+    batches = [read_log(p, feed, columns) for p in paths]
+    names: list[str] = []
+    for b in batches:
+        names.extend(k for k in b.values if k not in names)
+    cols: dict[str, Column] = {}
+    files = [b.file for b in batches]
+    for name in names:
+        vals = [np.asarray(b.values.get(name, []), dtype=float) for b in batches]
+        lines = [np.asarray(b.lines.get(name, []), dtype=np.int64) for b in batches]
+        fidx = [np.full(len(v), i, dtype=np.int32) for i, v in enumerate(vals)]
+        cols[name] = Column(np.concatenate(vals), np.concatenate(lines), files,
+                            np.concatenate(fidx))
+    rejected: list[Rejected] = [r for b in batches for r in b.rejected]
+    return cols, rejected
+
+
+def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
+             rejected: int) -> dict:
+    from linewatch.engine.budget import average_run_length
+    from linewatch.engine.summary import summarise
+
+    s = summarise(values, lsl=c.lsl, usl=c.usl, sigma_within=result.limits.sigma_within)
+    record = {"type": "summary", "characteristic": c.name, "points": int(values.shape[0]),
+              "rejected": rejected}
+    record.update({k: v for k, v in s.to_dict().items() if k != "points"})
+    budget = average_run_length(list(chart_setup(c, None).rules))
+    record["arl0"] = budget.arl
+    record["false_alarms_per_1000"] = budget.false_alarms_per_1000
+    if result.leftover:
+        record["left_out_values"] = result.leftover
+    return record
+
+
+def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
+    """Read the logs named in `args` and chart every selected characteristic."""
+    validate_chart_options(args)
+    config = load_optional_config(args.config)
+    feed = feed_for_check(config, args)
+    wanted = None
+    if args.column:
+        wanted = [config.characteristic(c).column if config.characteristic(c) else c
+                  for c in args.column]
+    elif config.characteristics:
+        wanted = [c.column for c in config.characteristics]
+    cols, rejected = _read_all(args.logs, feed, wanted)
+    chars = select_characteristics(config, args, list(cols))
+    if not chars:
+        raise LinewatchError("no numeric column to chart (name one with --column)")
+    out: list[Analysis] = []
+    for c in chars:
+        col = cols[c.column]
+        setup = chart_setup(c, None)
+        try:
+            result = analyse_history(col.values, setup)
+        except NotEnoughData as exc:
+            raise LinewatchError(str(exc)) from None
+        out.append(Analysis(c, col, result, _summary(col.values, c, result, len(rejected))))
+    return out, rejected
+
+
+def run(args: argparse.Namespace) -> int:
+    analyses, rejected = analyse(args)
+    several_files = len(args.logs) > 1
+    write = sys.stdout.write
+    if args.format == "jsonl":
+        lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
+        for a in analyses:
+            for lim in (a.result.limits.location, a.result.limits.dispersion):
+                lines.append(dumps(limits_record(a.config.name, lim)))
+            col = a.column
+            for f in a.result.firings:
+                rec = signal_record(a.config.name, f.chart, f.rule, f.index,
+                                    int(col.lines[f.row]), f.value)
+                if several_files:
+                    rec["file"] = col.files[int(col.file_index[f.row])]
+                lines.append(dumps(rec))
+            lines.append(dumps(a.summary))
+        write("\n".join(lines) + "\n")
+    else:
+        from linewatch.commands.check_text import render_text
+
+        write(render_text(analyses, rejected, several_files))
+    return 1 if any(a.result.firings for a in analyses) else 0

@@ -1,0 +1,87 @@
+"""The readable report of `linewatch check` (plain text, no colour, fits 80 columns)."""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from typing import TYPE_CHECKING
+
+from linewatch.engine.rulebook import RULES
+
+if TYPE_CHECKING:
+    from linewatch.commands.check import Analysis
+    from linewatch.model import Rejected
+
+MAX_LISTED = 12  # signals listed per rule before "... and N more"
+
+
+def _f(x, digits: int = 4) -> str:
+    if x is None:
+        return "—"
+    if isinstance(x, list | tuple):
+        return f"{_f(x[0], digits)} … {_f(x[1], digits)}"
+    return f"{x:.{digits}g}" if abs(x) < 1e5 else f"{x:.6g}"
+
+
+def _rule_text(analysis: Analysis, rule_id: str) -> str:
+    from linewatch.engine.rulebook import resolve_rules
+
+    spec = resolve_rules([rule_id], analysis.config.run_lengths)[0] if rule_id in RULES else None
+    return spec.describe() if spec else rule_id
+
+
+def render_text(analyses: list[Analysis], rejected: list[Rejected], several_files: bool) -> str:
+    """The whole report as one string."""
+    out: list[str] = []
+    w = out.append
+    for a in analyses:
+        c, res, s = a.config, a.result, a.summary
+        unit = f" [{c.unit}]" if c.unit else ""
+        w(f"== {c.name}{unit}: {s['points']} values, subgroup size {c.subgroup_size}")
+        lim = res.limits
+        source = "known centre and sigma" if lim.source == "given" else (
+            f"Phase I, baseline of {c.baseline or len(res.location)} plotted points")
+        w(f"   limits ({source}); sigma within = {_f(lim.sigma_within)}")
+        for chart in (lim.location, lim.dispersion):
+            w(f"   {chart.chart:<13} CL {_f(chart.center):>10}  UCL {_f(chart.ucl):>10}  "
+              f"LCL {_f(chart.lcl):>10}")
+        if res.leftover:
+            w(f"   note: the last {res.leftover} values form an incomplete subgroup and are "
+              "left out")
+        by_rule: dict[tuple[str, str], list] = defaultdict(list)
+        for f in res.firings:
+            by_rule[(f.chart, f.rule)].append(f)
+        if not by_rule:
+            w("   signals: none")
+        for (chart, rule), firings in by_rule.items():
+            w(f"   signal {rule} on {chart}: {_rule_text(a, rule)} — {len(firings)} point(s)")
+            for f in firings[:MAX_LISTED]:
+                where = f"line {int(a.column.lines[f.row])}"
+                if several_files:
+                    where = f"{a.column.files[int(a.column.file_index[f.row])]}:{where[5:]}"
+                w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}")
+            if len(firings) > MAX_LISTED:
+                w(f"      … and {len(firings) - MAX_LISTED} more")
+        w(f"   mean {_f(s.get('mean'))}  SD {_f(s.get('stdev'))}  95% CI of mean "
+          f"{_f(s.get('ci95'))}")
+        w(f"   min {_f(s.get('min'))}  Q1 {_f(s.get('q1'))}  median {_f(s.get('median'))}  "
+          f"Q3 {_f(s.get('q3'))}  max {_f(s.get('max'))}  outliers {len(s.get('outliers') or [])}")
+        if c.lsl is not None or c.usl is not None:
+            w(f"   specs LSL {_f(c.lsl)} USL {_f(c.usl)}: Cp {_f(s.get('cp'), 3)} "
+              f"(95% {_f(s.get('cp_ci95'), 3)})  Cpk {_f(s.get('cpk'), 3)} "
+              f"(95% {_f(s.get('cpk_ci95'), 3)})")
+            w(f"   Pp {_f(s.get('pp'), 3)}  Ppk {_f(s.get('ppk'), 3)}  expected out of spec "
+              f"{_f(s.get('ppm_out'), 4)} ppm")
+        if s.get("trend_slope") is not None:
+            w(f"   trend: slope {_f(s.get('trend_slope'))} per point, R² "
+              f"{_f(s.get('trend_r2'), 3)}, p {_f(s.get('trend_p'), 3)}")
+        if s.get("arl0"):
+            w(f"   false-alarm budget: in-control ARL {s['arl0']:.1f} points, about "
+              f"{s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+        w("")
+    if rejected:
+        w(f"rejected rows: {len(rejected)}")
+        for r in rejected[:MAX_LISTED]:
+            w(f"   {r.file}:{r.line}: {r.reason}")
+        if len(rejected) > MAX_LISTED:
+            w(f"   … and {len(rejected) - MAX_LISTED} more")
+    return "\n".join(out) + "\n"

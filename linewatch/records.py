@@ -1,0 +1,52 @@
+"""The JSON-lines records that `check` and `watch --format jsonl` print, built in one place."""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+from linewatch.engine.limits import ChartLimits
+from linewatch.model import Rejected
+
+
+def _num(x: float | None) -> float | None:
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def limits_record(characteristic: str, lim: ChartLimits) -> dict[str, Any]:
+    return {
+        "type": "limits",
+        "characteristic": characteristic,
+        "chart": lim.chart,
+        "center": _num(lim.center),
+        "ucl": _num(lim.ucl),
+        "lcl": _num(lim.lcl),
+        "sigma": _num(lim.sigma),
+    }
+
+
+def signal_record(
+    characteristic: str, chart: str, rule: str, index: int, line: int, value: float
+) -> dict[str, Any]:
+    return {
+        "type": "signal",
+        "characteristic": characteristic,
+        "chart": chart,
+        "rule": rule,
+        "index": index,
+        "line": line,
+        "value": _num(value),
+    }
+
+
+def rejected_record(r: Rejected) -> dict[str, Any]:
+    return {"type": "rejected", "file": r.file, "line": r.line, "reason": r.reason}
+
+
+def dumps(record: dict[str, Any]) -> str:
+    """One compact JSON line (NaN and infinities never appear: they become null)."""
+    return json.dumps(record, ensure_ascii=False, separators=(",", ":"))

@@ -1,0 +1,48 @@
+"""The core never imports the UI toolkit, and the fast paths stay free of heavy imports.
+
+Checked in a fresh interpreter, by looking at sys.modules after the imports.
+"""
+
+from __future__ import annotations
+
+import json
+import pkgutil
+import subprocess
+import sys
+
+import linewatch
+
+UI_PACKAGES = ("textual", "rich")
+
+
+def _modules_after(code: str) -> set[str]:
+    out = subprocess.run(
+        [sys.executable, "-c", code + "\nimport sys, json; print(json.dumps(sorted(sys.modules)))"],
+        capture_output=True, text=True, check=True,
+    )
+    return set(json.loads(out.stdout.strip().splitlines()[-1]))
+
+
+def _core_modules() -> list[str]:
+    names = []
+    for info in pkgutil.walk_packages(linewatch.__path__, "linewatch."):
+        if info.name.startswith("linewatch.ui") or info.name == "linewatch.__main__":
+            continue
+        names.append(info.name)
+    return names
+
+
+def test_no_core_module_imports_textual_or_rich():
+    core = _core_modules()
+    assert "linewatch.engine.rules" in core and "linewatch.config" in core
+    loaded = _modules_after("\n".join(f"import {m}" for m in core))
+    leaked = sorted(m for m in loaded if m.split(".")[0] in UI_PACKAGES)
+    assert leaked == []
+
+
+def test_help_and_the_check_command_module_load_no_heavy_libraries():
+    loaded = _modules_after(
+        "import linewatch.cli as c\nc.build_parser().format_help()\nimport linewatch.commands.check"
+    )
+    heavy = {"textual", "rich", "scipy.stats", "pandas", "sqlite3", "watchdog"}
+    assert not heavy & loaded
