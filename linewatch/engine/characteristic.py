@@ -49,13 +49,13 @@ def _limits_from_dict(d: dict) -> LimitSet:
 def _point_to_list(p: PlottedPoint | None) -> list | None:
     if p is None:
         return None
-    return [p.index, p.value, p.row, p.phase, p.judged, p.rules]
+    return [p.index, p.value, p.row, p.phase, p.judged, p.rules, p.meta]
 
 
 def _point_from_list(chart: str, a: list | None) -> PlottedPoint | None:
     if a is None:
         return None
-    return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]))
+    return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]), a[6])
 
 
 @dataclass(frozen=True, slots=True)
@@ -89,6 +89,7 @@ class Firing:
     index: int
     row: int
     value: float
+    meta: object = None  # what the caller attached to the row (live path: file, line, time)
 
 
 @dataclass(slots=True)
@@ -159,6 +160,7 @@ class PlottedPoint:
     phase: int
     judged: bool = False
     rules: list[str] = field(default_factory=list)
+    meta: object = None
 
 
 @dataclass(slots=True)
@@ -232,20 +234,24 @@ class CharacteristicEngine:
             return None  # σ̂ = 0 so far: keep collecting, the baseline grows
 
     # -- feeding ------------------------------------------------------------------------------
-    def push(self, values) -> LiveOutput:
-        """Feed the next values (in order); returns new points, firings and new limits."""
+    def push(self, values, meta=None) -> LiveOutput:
+        """Feed the next values (in order); returns new points, firings and new limits.
+
+        `meta`, when given, holds one JSON-ready item per value (e.g. file, line, time); it is
+        carried on the plotted point (a subgroup's from its last row) and on its firings."""
         out = LiveOutput()
         n = self.setup.subgroup_size
-        for v in values:
+        for k, v in enumerate(values):
             x = float(v)
+            tag = meta[k] if meta is not None else None
             row = self.values_seen
             self.values_seen += 1
             if n == 1:
-                loc = PlottedPoint(self.loc_chart, self.next_index, x, row, self.phase)
+                loc = PlottedPoint(self.loc_chart, self.next_index, x, row, self.phase, meta=tag)
                 disp = None
                 if self.prev_value is not None:
                     disp = PlottedPoint(self.disp_chart, self.next_index, abs(x - self.prev_value),
-                                        row, self.phase)
+                                        row, self.phase, meta=tag)
                 self.prev_value = x
             else:
                 self.pending.append(x)
@@ -253,8 +259,10 @@ class CharacteristicEngine:
                 if len(self.pending) < n:
                     continue
                 mean, spread = subgroup_stats(self.pending, self.setup.dispersion)
-                loc = PlottedPoint(self.loc_chart, self.next_index, mean, row, self.phase)
-                disp = PlottedPoint(self.disp_chart, self.next_index, spread, row, self.phase)
+                loc = PlottedPoint(self.loc_chart, self.next_index, mean, row, self.phase,
+                                   meta=tag)
+                disp = PlottedPoint(self.disp_chart, self.next_index, spread, row, self.phase,
+                                    meta=tag)
                 self.pending = []
                 self.pending_rows = []
             self.next_index += 1
@@ -293,7 +301,7 @@ class CharacteristicEngine:
             out.judged[point.chart] = (lo, point.index)
             for rule_id in point.rules:
                 out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
-                                          point.value))
+                                          point.value, point.meta))
 
     # -- phases -------------------------------------------------------------------------------
     def new_baseline(self, start_index: int, baseline: int | None = None) -> None:
@@ -318,6 +326,22 @@ class CharacteristicEngine:
         self.limits = None
         self.loc_rules = None
         self.disp_rules = None
+
+    def settle(self) -> LiveOutput:
+        """Form limits now if the waiting baseline already holds enough points (after
+        `new_baseline` reached back into points seen before)."""
+        out = LiveOutput()
+        if self.limits is not None or not self.waiting:
+            return out
+        limits = self._try_estimate()
+        if limits is None:
+            return out
+        self._apply_limits(limits)
+        out.limits = limits
+        pending, self.waiting = self.waiting, []
+        for p, d in pending:
+            self._judge(p, d, out)
+        return out
 
     # -- persistence --------------------------------------------------------------------------
     def signature(self) -> str:
