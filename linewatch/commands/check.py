@@ -66,9 +66,9 @@ def _read_all(paths: list[str], feed, columns: list[str] | None):
 def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
              rejected: int) -> dict:
     from linewatch.engine.budget import average_run_length
-    from linewatch.engine.summary import summarise
+    from linewatch.engine.summary import summarize
 
-    s = summarise(values, lsl=c.lsl, usl=c.usl, sigma_within=result.limits.sigma_within)
+    s = summarize(values, sigma_within=result.limits.sigma_within, lsl=c.lsl, usl=c.usl)
     record = {"type": "summary", "characteristic": c.name, "points": int(values.shape[0]),
               "rejected": rejected}
     record.update({k: v for k, v in s.to_dict().items() if k != "points"})

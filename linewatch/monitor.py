@@ -1,0 +1,473 @@
+"""The pipeline both faces share: feeds -> engine -> alarms -> store, then records to the face.
+
+One `Monitor` per process. It holds the collector lease when it can: the collector tails the
+files, runs the engines and commits every processed chunk — file offsets, engine state, points,
+limits, alarms and audit entries — in ONE transaction, so a crash loses nothing and doubles
+nothing. Other instances on the same state directory are viewers: they read the same store, and
+take over collecting within seconds when the collector goes away.
+
+Faces get two things: `records` (dicts in the jsonl format of `check`, plus feed/alarm records)
+through the `emit` callback, and `LineSnapshot`s through `snapshot()` (see `snapshot.py`).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import threading
+import time
+import uuid
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from linewatch.config import CharacteristicConfig, Config, FeedConfig
+from linewatch.engine.characteristic import CharacteristicEngine, LiveOutput
+from linewatch.errors import LinewatchError
+from linewatch.model import FeedEvent, Limits
+from linewatch.records import limits_record, rejected_record, signal_record
+from linewatch.selection import chart_setup
+
+Emit = Callable[[dict[str, Any]], None]
+TICK_SECONDS = 1.0  # lease renewal, stale checks, shelf expiry
+BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
+
+
+@dataclass(slots=True)
+class WatchPlan:
+    """What to watch: the feeds (with their patterns) and the characteristics."""
+
+    config: Config
+    feeds: list[FeedConfig]
+    characteristics: list[CharacteristicConfig]  # empty: discover every numeric column
+    columns: list[str] | None  # columns to keep (None: every numeric column)
+    baseline: int
+    overrides: Callable[[CharacteristicConfig], CharacteristicConfig] = field(
+        default=lambda c: c
+    )
+
+
+class Monitor:
+    """Collector or viewer of one state directory."""
+
+    def __init__(self, plan: WatchPlan, state_dir: Path, *, emit: Emit | None = None,
+                 poll_seconds: float | None = None, clock: Callable[[], float] = time.time):
+        from linewatch.alarms import AlarmBook
+        from linewatch.statedir import open_store
+        from linewatch.store.lease import Lease
+
+        self.plan = plan
+        self.config = plan.config
+        self.emit = emit or (lambda record: None)
+        self.clock = clock
+        self.poll_seconds = (
+            poll_seconds if poll_seconds is not None else plan.config.monitor.poll_seconds
+        )
+        self.state_dir = Path(state_dir)
+        self.store = open_store(self.state_dir, create=True,
+                                shared_group=plan.config.monitor.shared_group)
+        self.alarms = AlarmBook(self.store, plan.config)
+        self.instance = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
+        self.lease = Lease(self.store, self.instance)
+        self.role = "viewer"
+        self.engines: dict[str, CharacteristicEngine] = {}
+        self.char_configs: dict[str, CharacteristicConfig] = {
+            c.name: c for c in plan.characteristics
+        }
+        self.by_column: dict[str, str] = {c.column: c.name for c in plan.characteristics}
+        self.counts: dict[str, int] = {}  # good values per characteristic (this run)
+        self.rejected = 0
+        self.tailer = None
+        self.waker = None
+        self.health = None
+        self._listeners: list[Callable[[int], None]] = []
+        self._version = 0
+        self._last_tick = 0.0
+        self._lock = threading.RLock()
+        self._wake = threading.Event()
+        self.started = self.clock()
+        self.alarms.load_config(plan.config)
+
+    @property
+    def title(self) -> str:
+        src = self.config.source
+        return f"linewatch · {Path(src).stem}" if src else "linewatch"
+
+    def poke(self) -> None:
+        """Something changed outside the loop (an acknowledgement): tell the faces now."""
+        self._changed()
+
+    # -- listeners (faces) ---------------------------------------------------------------------
+    def subscribe(self, callback: Callable[[int], None]) -> None:
+        """`callback(version)` is called from the monitor thread after every change."""
+        self._listeners.append(callback)
+
+    def _changed(self) -> None:
+        self._version += 1
+        for cb in list(self._listeners):
+            cb(self._version)
+
+    # -- roles -----------------------------------------------------------------------------------
+    def _become_collector(self) -> None:
+        from linewatch.feeds.health import FeedHealth
+        from linewatch.feeds.tailer import Tailer
+        from linewatch.feeds.watcher import Waker
+
+        self.role = "collector"
+        saved = self.store.ingest.files()
+        self.tailer = Tailer(self.plan.feeds, self.plan.columns, saved)
+        patterns = [p for f in self.plan.feeds for p in f.paths]
+        self.waker = Waker(patterns, poll_seconds=self.poll_seconds or 0.0)
+        mon = self.config.monitor
+        self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
+        states = self.store.ingest.engines()
+        for name, text in states.items():
+            c = self._char_config(name)
+            if c is None:
+                continue
+            setup = chart_setup(c, self.plan.baseline)
+            self.engines[name] = CharacteristicEngine.from_state(setup, json.loads(text))
+        self.emit({"type": "role", "role": "collector", "instance": self.instance})
+
+    def _char_config(self, name: str) -> CharacteristicConfig | None:
+        c = self.char_configs.get(name)
+        if c is None and not self.plan.characteristics:
+            c = self.plan.overrides(CharacteristicConfig(name=name, column=name))
+            self.char_configs[name] = c
+            self.by_column[name] = name
+            self.store.history.save_characteristics([c])
+        return c
+
+    def _engine(self, name: str) -> CharacteristicEngine | None:
+        eng = self.engines.get(name)
+        if eng is None:
+            c = self._char_config(name)
+            if c is None:
+                return None
+            eng = CharacteristicEngine(chart_setup(c, self.plan.baseline))
+            self.engines[name] = eng
+        return eng
+
+    # -- the loop --------------------------------------------------------------------------------
+    def run(self, stop: threading.Event) -> None:
+        """Collect (or watch as a viewer) until `stop` is set; then finish what was read."""
+        try:
+            while not stop.is_set():
+                now = self.clock()
+                if self.role == "viewer":
+                    if self.lease.try_acquire(now):
+                        self._become_collector()
+                        self._changed()
+                        continue
+                    self._viewer_step()
+                    stop.wait(0.5)
+                    continue
+                if now - self._last_tick >= TICK_SECONDS:
+                    self._tick(now)
+                worked = self.step()
+                if not worked:
+                    assert self.waker is not None
+                    self.waker.wait(min(TICK_SECONDS, 0.5))
+            if self.role == "collector":
+                self.step()
+        finally:
+            self.close()
+
+    def close(self) -> None:
+        """Release the lease and close files and the store."""
+        if self.waker is not None:
+            self.waker.close()
+            self.waker = None
+        if self.tailer is not None and hasattr(self.tailer, "close"):
+            self.tailer.close()
+        if self.role == "collector":
+            try:
+                self.lease.release()
+            except Exception:  # noqa: BLE001 - best effort on the way out
+                pass
+        self.store.close()
+
+    def _viewer_step(self) -> None:
+        version = self.store.data_version()
+        if version != getattr(self, "_seen_data_version", None):
+            self._seen_data_version = version
+            self._changed()
+
+    def _tick(self, now: float) -> None:
+        self._last_tick = now
+        if not self.lease.renew(now):
+            self.role = "viewer"
+            self.emit({"type": "role", "role": "viewer", "instance": self.instance})
+            return
+        events = []
+        assert self.health is not None
+        for ev in self.health.tick(now):
+            events.append(ev)
+        with self.store.transaction():
+            for ev in events:
+                self._record_feed_event(ev, now)
+            self.alarms.tick(now)
+            self._serve_baseline_requests(now)
+        if events:
+            self._changed()
+
+    def step(self) -> bool:
+        """Read and process whatever is new; True when anything was read."""
+        assert self.tailer is not None
+        chunks = self.tailer.poll()
+        if not chunks:
+            return False
+        for chunk in chunks:
+            self._process_chunk(chunk)
+        self._changed()
+        return True
+
+    # -- processing --------------------------------------------------------------------------------
+    def _process_chunk(self, chunk) -> None:
+        now = self.clock()
+        records: list[dict[str, Any]] = []
+        raised = []
+        batch = chunk.batch
+        try:
+            with self.store.transaction():
+                for ev in chunk.events:
+                    records.append(self._record_feed_event(ev, now, raised))
+                if batch is not None:
+                    for r in batch.rejected:
+                        records.append(rejected_record(r))
+                        self.store.history.add_feed_event(
+                            FeedEvent("rejected", r.file, f"line {r.line}: {r.reason}"), now)
+                    self.rejected += len(batch.rejected)
+                    for column, values in batch.values.items():
+                        name = self.by_column.get(column) or (
+                            column if not self.plan.characteristics else None)
+                        if name is None or not values:
+                            continue
+                        records.extend(self._process_values(name, batch, column, now, raised))
+                    if batch.rows:
+                        assert self.health is not None
+                        self.health.rows_arrived(batch.file, batch.rows, now)
+                if chunk.state is not None:
+                    self._save_file_state(chunk.state, now)
+        except Exception:
+            # the transaction rolled back: forget in-memory progress and resume from the store
+            self._reload_from_store()
+            raise
+        for rec in records:
+            if rec:
+                self.emit(rec)
+        if raised:
+            self._run_hooks(raised)
+
+    def _process_values(self, name: str, batch, column: str, now: float, raised) -> list[dict]:
+        eng = self._engine(name)
+        if eng is None:
+            return []
+        c = self.char_configs[name]
+        values = batch.values[column]
+        lines = batch.lines[column]
+        times = batch.times.get(column) if batch.times else None
+        first = eng.values_seen
+        meta = [(batch.file, ln, times[k] if times else None) for k, ln in enumerate(lines)]
+        out: LiveOutput = eng.push(values, meta)
+        self.counts[name] = self.counts.get(name, 0) + len(values)
+        self.store.history.add_points(name, first, values, lines, batch.file, times, now)
+        records: list[dict] = []
+        if out.limits is not None:
+            for lim in (out.limits.location, out.limits.dispersion):
+                self.store.history.record_limits(
+                    Limits(name, lim.chart, lim.center, lim.ucl, lim.lcl, lim.sigma, eng.phase,
+                           eng.phase_start),
+                    reason="baseline" if eng.phase == 0 else "new baseline",
+                    now=now,
+                )
+                records.append(limits_record(name, lim))
+        fired: dict[str, dict[str, list[int]]] = {}
+        for f in out.firings:
+            fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
+            records.append(_signal_record(name, f))
+        for chart, (lo, hi) in out.judged.items():
+            raised += self.alarms.observe_chart(name, chart, lo, hi, fired.get(chart, {}), now)
+        if c.lsl is not None or c.usl is not None:
+            raised += self.alarms.observe_spec(name, first, values, c.lsl, c.usl, now)
+        assert self.health is not None
+        self.health.values_arrived(name, values)
+        self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
+        return records
+
+    def _save_file_state(self, state, now: float) -> None:
+        from linewatch.store.ingest import FileState
+
+        self.store.ingest.save_file(
+            FileState(state.path, state.dev, state.inode, state.fingerprint, state.offset,
+                      state.next_line),
+            now,
+        )
+
+    def _record_feed_event(self, ev: FeedEvent, now: float, raised=None) -> dict[str, Any]:
+        self.store.history.add_feed_event(ev, now)
+        stuck = ev.kind in ("stuck", "unstuck")
+        events = self.alarms.observe_feed(ev, now, characteristic=ev.file if stuck else None)
+        if raised is not None:
+            raised += events
+        return {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
+
+    def _reload_from_store(self) -> None:
+        self.engines.clear()
+        if self.tailer is not None and hasattr(self.tailer, "close"):
+            self.tailer.close()
+        self.role = "viewer"
+        self.lease.release()
+
+    def _run_hooks(self, events) -> None:
+        if not self.config.alarms.hook:
+            return
+        from linewatch.hooks import run_hook
+
+        for ev in events:
+            if ev.action == "raised":
+                run_hook(self.config.alarms.hook, self.alarms.list_record(ev.alarm),
+                         self.config.alarms.hook_timeout, on_problem=self._hook_problem)
+
+    def _hook_problem(self, message: str) -> None:
+        self.emit({"type": "hook", "problem": message})
+
+    # -- baselines -----------------------------------------------------------------------------------
+    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
+        """Start a new phase of limits (any instance may ask; the collector carries it out)."""
+        if not reason.strip():
+            raise LinewatchError("a reason is required for a new baseline")
+        request = json.dumps({"start": int(start_index), "reason": reason.strip(),
+                              "actor": _actor()})
+        with self.store.transaction():
+            self.store.set_meta(BASELINE_REQUEST + characteristic, request)
+        self._wake.set()
+
+    def _serve_baseline_requests(self, now: float) -> None:
+        for name in list(self.char_configs) + list(self.engines):
+            raw = self.store.get_meta(BASELINE_REQUEST + name)
+            if not raw:
+                continue
+            self.store.set_meta(BASELINE_REQUEST + name, "")
+            req = json.loads(raw)
+            eng = self._engine(name)
+            if eng is None:
+                continue
+            try:
+                eng.new_baseline(int(req["start"]))
+            except ValueError as exc:
+                self.emit({"type": "baseline", "characteristic": name, "problem": str(exc)})
+                continue
+            self.store.audit.append(
+                "new-baseline", name,
+                {"start_index": eng.phase_start, "phase": eng.phase, "reason": req["reason"]},
+                at=now, actor=req.get("actor"),
+            )
+            self.store.set_meta(f"phase-reason:{name}:{eng.phase}", req["reason"])
+            out = eng.settle()  # the new phase may already hold enough points for limits
+            if out.limits is not None:
+                for lim in (out.limits.location, out.limits.dispersion):
+                    self.store.history.record_limits(
+                        Limits(name, lim.chart, lim.center, lim.ucl, lim.lcl, lim.sigma,
+                               eng.phase, eng.phase_start),
+                        reason=req["reason"], now=now, new_baseline=True,
+                    )
+            self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
+            self.emit({"type": "baseline", "characteristic": name, "start_index": eng.phase_start,
+                       "reason": req["reason"]})
+
+
+def _signal_record(name: str, f) -> dict[str, Any]:
+    """A `check`-style signal record plus the file and, when the row has one, its time."""
+    file, line, when = f.meta if f.meta else (None, -1, None)
+    rec = signal_record(name, f.chart, f.rule, f.index, int(line), f.value)
+    rec["file"] = file
+    if when:
+        rec["time"] = when
+    return rec
+
+
+def _actor() -> str:
+    from linewatch.store.actor import current_actor
+
+    return current_actor()
+
+
+class MonitorFace:
+    """What the faces use: a `SnapshotSource` and `LineActions` over one Monitor.
+
+    Snapshots are built from the store on the caller's thread with a connection of its own, so
+    the face never waits for the collector's transaction and never touches its engines."""
+
+    def __init__(self, monitor: Monitor) -> None:
+        from linewatch.alarms import AlarmBook
+        from linewatch.statedir import open_store
+
+        self.monitor = monitor
+        self.store = open_store(monitor.state_dir, create=True,
+                                shared_group=monitor.config.monitor.shared_group)
+        self.alarms = AlarmBook(self.store, monitor.config)
+        self._lock = threading.Lock()
+
+    def _characteristics(self) -> list[CharacteristicConfig]:
+        known = dict(self.monitor.char_configs)
+        if not self.monitor.plan.characteristics:
+            for name in self.store.history.characteristics_with_points():
+                if name not in known:
+                    known[name] = self.monitor.plan.overrides(
+                        CharacteristicConfig(name=name, column=name))
+        return list(known.values())
+
+    # -- SnapshotSource ---------------------------------------------------------------------------
+    def snapshot(self):
+        from linewatch.snapshot import build_snapshot
+
+        with self._lock:
+            return build_snapshot(
+                self.store, self.alarms, self._characteristics(), role=self.monitor.role,
+                title=self.monitor.title, version=self.monitor._version,
+                stale_after=self.monitor.config.monitor.stale_after,
+            )
+
+    def detail(self, characteristic: str):
+        from linewatch.snapshot import DETAIL_POINTS, characteristic_view
+
+        with self._lock:
+            for c in self._characteristics():
+                if c.name == characteristic:
+                    return characteristic_view(
+                        self.store, self.alarms, c, time.time(), points=DETAIL_POINTS,
+                        detail=True, stale_after=self.monitor.config.monitor.stale_after)
+        return None
+
+    def subscribe(self, callback: Callable[[int], None]) -> None:
+        self.monitor.subscribe(callback)
+
+    # -- LineActions ------------------------------------------------------------------------------
+    def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None:
+        with self._lock:
+            self.alarms.acknowledge(alarm_ids, reason, note)
+        self.monitor.poke()
+
+    def acknowledge_characteristic(self, characteristic: str, reason: str, note: str = "") -> int:
+        with self._lock:
+            n = self.alarms.acknowledge_characteristic(characteristic, reason, note)
+        self.monitor.poke()
+        return n
+
+    def shelve(self, alarm_id: int, seconds: float, reason: str) -> None:
+        with self._lock:
+            self.alarms.shelve(alarm_id, seconds, reason)
+        self.monitor.poke()
+
+    def unshelve(self, alarm_id: int) -> None:
+        with self._lock:
+            self.alarms.unshelve(alarm_id)
+        self.monitor.poke()
+
+    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
+        self.monitor.new_baseline(characteristic, start_index, reason)
+
+    def close(self) -> None:
+        self.store.close()

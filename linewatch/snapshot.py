@@ -1,0 +1,195 @@
+"""Build the faces' picture (`view.LineSnapshot`) from the store.
+
+Collector and viewers both read the store, so every instance on a state directory shows the
+same line. Plotted points are recomputed from the stored raw readings (a reading's index k is
+the k-th value of its characteristic, so subgroup j holds indices j·n .. j·n + n − 1).
+"""
+
+from __future__ import annotations
+
+import time
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from linewatch.engine.charts import chart_names, plotted_series
+from linewatch.view import (
+    ACKNOWLEDGED,
+    SHELVED,
+    STATE_ALARM,
+    STATE_LEARNING,
+    STATE_OK,
+    STATE_STALE,
+    STATE_WATCH,
+    UNACKNOWLEDGED,
+    AlarmView,
+    CharacteristicView,
+    ChartView,
+    FeedView,
+    LineSnapshot,
+    PhaseStats,
+)
+
+if TYPE_CHECKING:
+    from linewatch.alarms import AlarmBook
+    from linewatch.config import CharacteristicConfig
+    from linewatch.store.db import Store
+
+OVERVIEW_POINTS = 120  # raw readings per characteristic on the overview
+DETAIL_POINTS = 1500  # raw readings per characteristic in the detail view
+RATE_WINDOW = 60.0  # seconds over which rows per second are measured
+
+
+def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray, limits_hist,
+                marks: dict[int, list[str]]) -> ChartView:
+    cv = ChartView(chart, values.tolist(), indices.tolist(),
+                   [",".join(marks.get(int(i), [])) for i in indices])
+    mine = [r.limits for r in limits_hist if r.limits.chart == chart]
+    if mine:
+        cur = mine[-1]
+        cv.center, cv.ucl, cv.lcl, cv.sigma = cur.center, cur.ucl, cur.lcl, cur.sigma
+        cv.phase_starts = sorted({lim.start_index for lim in mine if lim.phase > 0})
+    return cv
+
+
+def _plotted(values: np.ndarray, first_index: int, n: int, dispersion: str):
+    """Plotted location and dispersion points of raw readings starting at `first_index`."""
+    if n == 1:
+        loc, disp = plotted_series(values, 1, dispersion)
+        return (loc.values, loc.indices + first_index, disp.values, disp.indices + first_index)
+    skip = (-first_index) % n  # align to subgroup boundaries
+    vals = values[skip:]
+    loc, disp = plotted_series(vals, n, dispersion)
+    base = (first_index + skip) // n
+    return loc.values, loc.indices + base, disp.values, disp.indices + base
+
+
+def _phase_stats(values, first_index, limits_hist, c, n) -> list[PhaseStats]:
+    from linewatch.engine.summary import capability, describe
+
+    loc_chart = chart_names(n, c.effective_dispersion)[0]
+    phases = sorted({(r.limits.phase, r.limits.start_index, r.limits.sigma)
+                     for r in limits_hist if r.limits.chart == loc_chart})
+    out = []
+    for k, (phase, start, sigma_loc) in enumerate(phases):
+        end = phases[k + 1][1] if k + 1 < len(phases) else None
+        lo = max(0, start * n - first_index)
+        hi = None if end is None else max(0, end * n - first_index)
+        seg = values[lo:hi]
+        d = describe(seg)
+        cap = capability(seg, sigma_loc * np.sqrt(n), c.lsl, c.usl)
+        out.append(PhaseStats(phase, start, d.points, d.mean, d.stdev, d.ci95, cap.cp, cap.cpk,
+                              cap.cpk_ci95, cap.ppm_out))
+    return out
+
+
+def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
+                        points: int = OVERVIEW_POINTS, detail: bool = False,
+                        stale_after: float = 600.0) -> CharacteristicView:
+    """One characteristic as the overview (or, with detail, the detail screen) shows it."""
+    from linewatch.engine.summary import capability
+
+    n = c.subgroup_size
+    recs = store.history.last_points(c.name, points * (n if n > 1 else 1))
+    v = CharacteristicView(name=c.name, unit=c.unit, lsl=c.lsl, usl=c.usl, subgroup_size=n)
+    limits_hist = store.history.limits_history(c.name)
+    open_alarms = [a for a in alarms.alarms() if a.characteristic == c.name]
+    v.open_alarms = len(open_alarms)
+    if recs:
+        values = np.array([r.value for r in recs])
+        first = recs[0].idx
+        v.points = recs[-1].idx + 1
+        v.last_value = float(values[-1])
+        v.last_row_age = max(0.0, now - recs[-1].received_at)
+        lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
+        marks: dict[str, dict[int, list[str]]] = {}
+        for a in alarms.alarms(include_closed=detail):
+            if a.characteristic != c.name or a.first_index is None:
+                continue
+            for i in range(a.first_index, (a.last_index or a.first_index) + 1):
+                marks.setdefault(a.chart, {}).setdefault(i, []).append(a.rule)
+        loc_name, disp_name = chart_names(n, c.effective_dispersion)
+        v.location = _chart_view(loc_name, lv, li, limits_hist, marks.get(loc_name, {}))
+        v.dispersion = _chart_view(disp_name, dv, di, limits_hist, marks.get(disp_name, {}))
+        sigma = None
+        if v.location.sigma:
+            sigma = v.location.sigma * np.sqrt(n)
+        v.recent_sigma = sigma
+        v.recent_mean = float(values.mean())
+        if sigma:
+            cap = capability(values, sigma, c.lsl, c.usl)
+            v.cpk, v.cpk_lower95 = cap.cpk, cap.cpk_lower95
+            margins = [abs(lim - v.recent_mean) / sigma for lim in (c.lsl, c.usl)
+                       if lim is not None]
+            if margins:
+                v.margin_sigma = min(margins)
+        if detail:
+            v.phases = _phase_stats(values, first, limits_hist, c, n)
+        v.stale = v.last_row_age is not None and v.last_row_age > stale_after
+    if not limits_hist:
+        v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
+    v.stuck = any(a.rule == "stuck" for a in open_alarms)
+    v.state = _state(v, open_alarms, bool(limits_hist), now)
+    return v
+
+
+def _state(v: CharacteristicView, open_alarms, has_limits: bool, now: float) -> str:
+    states = [a.state(now) for a in open_alarms]
+    if UNACKNOWLEDGED in states or any(s == "returned-unacknowledged" for s in states):
+        return STATE_ALARM
+    if v.stale or v.stuck:
+        return STATE_STALE
+    if ACKNOWLEDGED in states or (v.cpk is not None and v.cpk < 1.0):
+        return STATE_WATCH
+    if not has_limits:
+        return STATE_LEARNING
+    return STATE_OK
+
+
+def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
+    """Health of every followed file, from the ingest state, points and feed events."""
+    out = []
+    files = store.ingest.files()
+    events = store.history.feed_events(since=now - 86400)
+    rows = store.query(
+        "SELECT file, COUNT(*) AS n, MAX(received_at) AS last FROM points "
+        "WHERE received_at >= ? GROUP BY file", (now - RATE_WINDOW,))
+    rate = {r["file"]: r["n"] / RATE_WINDOW for r in rows}
+    last = {r["file"]: r["last"] for r in store.query(
+        "SELECT file, MAX(received_at) AS last FROM points GROUP BY file")}
+    names = list(files) + [e.event.file for e in events if e.event.file not in files
+                           and e.event.kind not in ("stuck", "unstuck")]
+    for path in dict.fromkeys(names):
+        mine = [e.event for e in events if e.event.file == path]
+        fv = FeedView(file=path)
+        fv.rows_per_second = rate.get(path, 0.0)
+        fv.last_row_age = None if path not in last else max(0.0, now - last[path])
+        fv.rotations = sum(1 for e in mine if e.kind in ("rotated", "replaced"))
+        fv.truncations = sum(1 for e in mine if e.kind == "truncated")
+        rejects = [e for e in mine if e.kind == "rejected"]
+        fv.rejected = len(rejects)
+        fv.last_rejects = [e.detail for e in rejects[-5:]]
+        state_events = [e.kind for e in mine if e.kind in
+                        ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
+                         "waiting")]
+        latest = state_events[-1] if state_events else "following"
+        fv.stale = latest == "stale"
+        fv.status = {"stale": "stale", "vanished": "missing", "unreadable": "unreadable",
+                     "waiting": "waiting"}.get(latest, "following")
+        out.append(fv)
+    return out
+
+
+def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicConfig],
+                   *, role: str, title: str, version: int, stale_after: float,
+                   now: float | None = None) -> LineSnapshot:
+    """The whole line at this moment."""
+    now = time.time() if now is None else now
+    views = [characteristic_view(store, alarms, c, now, stale_after=stale_after) for c in chars]
+    alarm_views: list[AlarmView] = alarms.views(now=now)
+    alarm_views.sort(key=lambda a: (a.state == SHELVED, a.priority, -a.raised_at))
+    return LineSnapshot(version=version, title=title, role=role, characteristics=views,
+                        alarms=alarm_views, feeds=feed_views(store, now, stale_after))
+
+
+__all__ = ["STATE_LEARNING", "build_snapshot", "characteristic_view", "feed_views"]
