@@ -1,0 +1,124 @@
+"""`linewatch watch`: follow growing logs; the screen, or plain records with --no-ui."""
+
+from __future__ import annotations
+
+import argparse
+import signal
+import sys
+import threading
+from pathlib import Path
+
+from linewatch.config import Config, FeedConfig
+from linewatch.errors import LinewatchError
+from linewatch.selection import (
+    apply_overrides,
+    load_optional_config,
+    select_characteristics,
+    validate_chart_options,
+)
+
+
+def build_plan(args: argparse.Namespace, config: Config):
+    """Feeds and characteristics from the config and the command line."""
+    from linewatch.monitor import WatchPlan
+
+    feeds: list[FeedConfig] = [f for f in config.feeds]
+    if args.patterns:
+        base = feeds[0] if feeds else FeedConfig(paths=[])
+        extra = FeedConfig(
+            paths=[str(Path(p).expanduser()) for p in args.patterns], layout=base.layout,
+            delimiter=base.delimiter, decimal=args.decimal or base.decimal,
+            encoding=base.encoding, time_column=base.time_column, name_column=base.name_column,
+            value_column=base.value_column,
+        )
+        feeds = [extra] if not config.feeds else [*feeds, extra]
+    if not feeds:
+        raise LinewatchError(
+            "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
+        )
+    chars = select_characteristics(config, args, None) if (
+        args.column or config.characteristics) else []
+    columns = [c.column for c in chars] if chars else None
+    baseline = args.baseline or config.monitor.baseline
+    return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
+                     baseline=baseline, overrides=lambda c: apply_overrides(c, args))
+
+
+def run(args: argparse.Namespace) -> int:
+    validate_chart_options(args)
+    config = load_optional_config(args.config)
+    plan = build_plan(args, config)
+    from linewatch.statedir import resolve_state_dir
+
+    state_dir = resolve_state_dir(args.state_dir, config)
+    if args.no_ui:
+        return run_headless(plan, state_dir, args.format, args.poll)
+    return run_screen(plan, state_dir, args.poll, bell=config.monitor.bell and not args.no_bell)
+
+
+def run_headless(plan, state_dir: Path, fmt: str, poll: float | None) -> int:
+    """Collect (or view) until SIGTERM/SIGINT, then print one summary per characteristic."""
+    from linewatch.headless import Printer
+    from linewatch.monitor import Monitor
+
+    printer = Printer(fmt)
+    monitor = Monitor(plan, state_dir, emit=printer, poll_seconds=poll)
+    stop = threading.Event()
+
+    def _stop(signum, frame) -> None:
+        stop.set()
+
+    signal.signal(signal.SIGTERM, _stop)
+    signal.signal(signal.SIGINT, _stop)
+    monitor.run(stop)
+    for record in summaries(monitor):
+        printer(record)
+    return 0
+
+
+def summaries(monitor) -> list[dict]:
+    """`summary` records per characteristic over the points this instance has seen."""
+    from linewatch.engine.summary import summarize
+    from linewatch.statedir import open_store
+
+    out = []
+    store = open_store(monitor.state_dir, create=True)
+    try:
+        for name, c in monitor.char_configs.items():
+            recs = store.history.last_points(name, 100_000)
+            values = [r.value for r in recs]
+            limits = store.history.current_limits(name)
+            loc = next((lim for lim in limits.values()
+                        if lim.chart in ("individuals", "xbar")), None)
+            sigma = loc.sigma * (c.subgroup_size ** 0.5) if loc else None
+            s = summarize(values, sigma_within=sigma, lsl=c.lsl, usl=c.usl).to_dict()
+            rec = {"type": "summary", "characteristic": name,
+                   "points": monitor.counts.get(name, 0), "rejected": monitor.rejected}
+            rec.update({k: v for k, v in s.items() if k != "points"})
+            out.append(rec)
+    finally:
+        store.close()
+    return out
+
+
+def run_screen(plan, state_dir: Path, poll: float | None, bell: bool) -> int:
+    """The Textual screen over a monitor running on a background thread."""
+    from linewatch.monitor import Monitor, MonitorFace
+
+    messages: list[dict] = []
+    monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
+    face = MonitorFace(monitor)
+    stop = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
+    worker.start()
+    try:
+        from linewatch.ui.app import run_app
+
+        return run_app(face, face, bell=bell, title=monitor.title)
+    finally:
+        stop.set()
+        worker.join(timeout=5)
+        face.close()
+        for m in messages:
+            if m.get("type") == "hook":
+                print(f"linewatch: alarm hook: {m['problem']}", file=sys.stderr)
