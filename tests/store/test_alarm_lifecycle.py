@@ -1,0 +1,308 @@
+"""Alarm lifecycle: maximal stretches, ISA-18.2 states, acknowledgement, shelving, audit entries.
+
+State names and transitions: ISA-18.2 / IEC 62682 alarm state model (common practice):
+unacknowledged -> acknowledged -> normal, or unacknowledged -> returned-unacknowledged -> normal;
+shelved suppresses the display for a time. "One alarm per maximal stretch of consecutive points at
+which the same rule fires" is the project's stated convention; the reference below computes the
+stretches independently with itertools.groupby over the whole series.
+"""
+
+from __future__ import annotations
+
+import itertools
+import tempfile
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from linewatch.alarms import AlarmBook
+from linewatch.config import parse_config
+from linewatch.engine.rulebook import RULES
+from linewatch.errors import LinewatchError
+from linewatch.model import FeedEvent
+from linewatch.store.actor import Actor
+from linewatch.store.db import Store
+from linewatch.view import (
+    ACKNOWLEDGED,
+    NORMAL,
+    RETURNED_UNACKNOWLEDGED,
+    SHELVED,
+    UNACKNOWLEDGED,
+)
+
+
+def actions(store: Store) -> list[tuple[str, str]]:
+    return [(e.action, e.subject) for e in store.audit.entries()]
+
+
+def reference_stretches(flags: list[bool]) -> list[tuple[int, int]]:
+    """Maximal runs of True, computed independently of the code under test."""
+    out = []
+    pos = 0
+    for value, group in itertools.groupby(flags):
+        n = len(list(group))
+        if value:
+            out.append((pos, pos + n - 1))
+        pos += n
+    return out
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    flags=st.dictionaries(
+        st.sampled_from(["we1", "we2", "we4"]),
+        st.lists(st.booleans(), min_size=1, max_size=40),
+        min_size=1,
+        max_size=2,
+    ).filter(lambda d: len({len(v) for v in d.values()}) == 1),
+    cuts=st.lists(st.integers(1, 39), max_size=6),
+)
+def test_alarms_are_maximal_stretches_whatever_the_chunking(
+    flags: dict[str, list[bool]], cuts: list[int]
+) -> None:
+    n = len(next(iter(flags.values())))
+    bounds = sorted({0, n, *(c for c in cuts if c < n)})
+    with tempfile.TemporaryDirectory() as tmp, Store(Path(tmp) / "s") as store:
+        book = AlarmBook(store)
+        for lo, hi in itertools.pairwise(bounds):
+            fired = {r: [i for i in range(lo, hi) if f[i]] for r, f in flags.items()}
+            book.observe_chart("od", "individuals", lo, hi - 1, fired, now=float(lo))
+        got = sorted(
+            (a.rule, a.first_index, a.last_index, a.active)
+            for a in book.alarms(include_closed=True)
+        )
+        want = sorted(
+            (rule, a, b, b == n - 1)
+            for rule, f in flags.items()
+            for a, b in reference_stretches(f)
+        )
+        assert got == want
+        assert store.audit.verify().ok
+
+
+def test_stretch_extends_across_batches_and_returns_to_normal(book: AlarmBook) -> None:
+    book.observe_chart("od", "xbar", 0, 4, {"we2": [3, 4]}, now=10)
+    book.observe_chart("od", "xbar", 5, 6, {"we2": [5]}, now=11)
+    [alarm] = book.alarms(include_closed=True)
+    assert (alarm.first_index, alarm.last_index) == (3, 5)
+    assert alarm.state(12) == RETURNED_UNACKNOWLEDGED
+    assert alarm.returned_at == 11
+    actions_seen = [e.action for e in book.store.audit.entries()]
+    assert actions_seen == ["raised", "returned-to-normal"]
+
+
+def test_kind_priority_and_plain_words(book: AlarmBook) -> None:
+    book.observe_chart("od", "xbar", 0, 0, {"we1": [0], "we4": [0]}, now=1)
+    book.observe_chart("od", "range", 0, 0, {"we1": [0]}, now=1)
+    by_key = {(a.chart, a.rule): a for a in book.alarms()}
+    assert by_key["xbar", "we1"].kind == "beyond-limits"
+    assert by_key["range", "we1"].kind == "beyond-limits"
+    assert by_key["xbar", "we4"].kind == "run-rule"
+    # Default priorities: out-of-spec 1 > beyond-limits 2 > run-rule 3 > feed-health 4
+    # (lower number = more urgent).
+    assert by_key["xbar", "we1"].priority == 2
+    assert by_key["xbar", "we4"].priority == 3
+    views = book.views(now=2)
+    assert [v.priority for v in views] == sorted(v.priority for v in views)
+    we4 = next(v for v in views if v.rule == "we4")
+    assert RULES["we4"].describe() in we4.description
+    assert we4.state == UNACKNOWLEDGED
+    assert we4.reasons[0] == "tool wear"
+
+
+def test_acknowledge_then_return_closes(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
+    events = book.acknowledge([1], "tool wear", "changed insert", now=5, actor=operator)
+    assert [e.action for e in events] == ["acknowledged"]
+    alarm = book.store.alarms.get(1)
+    assert alarm is not None
+    assert alarm.state(6) == ACKNOWLEDGED
+    assert (alarm.acknowledged_by, alarm.acknowledged_from) == ("operator1", "10.1.2.3")
+    assert (alarm.reason, alarm.note, alarm.acknowledged_at) == ("tool wear", "changed insert", 5)
+    events = book.observe_chart("od", "individuals", 1, 1, {}, now=7)
+    assert [e.action for e in events] == ["returned-to-normal", "closed"]
+    alarm = book.store.alarms.get(1)
+    assert alarm is not None and alarm.state(8) == NORMAL and alarm.closed_at == 7
+    assert book.alarms() == []
+    entries = book.store.audit.entries()
+    assert [e.action for e in entries] == ["raised", "acknowledged", "returned-to-normal", "closed"]
+    assert entries[1].actor == "operator1@10.1.2.3"
+
+
+def test_return_then_acknowledge_closes(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 1, {"we1": [0]}, now=1)
+    assert book.alarms()[0].state(2) == RETURNED_UNACKNOWLEDGED
+    events = book.acknowledge([1], "no cause found", now=3, actor=operator)
+    assert [e.action for e in events] == ["acknowledged", "closed"]
+    assert book.alarms() == []
+
+
+def test_reason_by_number_and_any_case(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
+    book.observe_chart("wall", "individuals", 0, 0, {"we1": [0]}, now=1)
+    book.acknowledge([1], "3", now=2, actor=operator)
+    book.acknowledge([2], "ADJUSTMENT MADE", now=2, actor=operator)
+    reasons = [a.reason for a in book.alarms()]
+    assert reasons == ["gauge or measurement error", "adjustment made"]
+
+
+@pytest.mark.parametrize(
+    ("reason", "message"),
+    [("", "a reason is required"), ("   ", "a reason is required"), ("9", "no reason number 9"),
+     ("0", "no reason number 0"), ("coffee break", "unknown reason")],
+)
+def test_bad_reason_changes_nothing(
+    book: AlarmBook, operator: Actor, reason: str, message: str
+) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
+    before = len(book.store.audit.entries())
+    with pytest.raises(LinewatchError, match=message):
+        book.acknowledge([1], reason, now=2, actor=operator)
+    assert book.alarms()[0].acknowledged is False
+    assert len(book.store.audit.entries()) == before
+
+
+def test_one_unknown_id_means_no_acknowledgement_at_all(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
+    with pytest.raises(LinewatchError, match="no alarm with id 99"):
+        book.acknowledge([1, 99], "tool wear", now=2, actor=operator)
+    assert not book.alarms()[0].acknowledged
+    book.acknowledge([1], "tool wear", now=2, actor=operator)
+    with pytest.raises(LinewatchError, match=r"already acknowledged \(by operator1"):
+        book.acknowledge([1], "tool wear", now=3, actor=operator)
+
+
+def test_reasons_from_the_characteristic_config(store: Store, operator: Actor) -> None:
+    config = parse_config(
+        '[alarms]\nreasons = ["line stop", "other"]\n'
+        '[[characteristic]]\nname = "od"\nreasons = ["die wear", "melt temperature"]\n'
+        'reaction_plan = "stop the puller and call the setter"\n'
+        '[characteristic.reaction_plans]\nwe4 = "check the die heater zones"\n',
+        "line.toml",
+    )
+    book = AlarmBook(store)
+    book.load_config(config, now=0)
+    assert store.audit.entries()[-1].action == "config-loaded"
+    assert config.digest in store.audit.entries()[-1].payload
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0], "we4": [0]}, now=1)
+    book.observe_feed(FeedEvent("stale", "/logs/scale.csv"), now=1)
+    views = {v.rule: v for v in book.views(now=2)}
+    assert views["we1"].reaction_plan == "stop the puller and call the setter"
+    assert views["we4"].reaction_plan == "check the die heater zones"
+    assert views["stale"].reasons == ["line stop", "other"]
+    with pytest.raises(LinewatchError, match="unknown reason"):
+        book.acknowledge([1], "tool wear", now=2, actor=operator)
+    # A book without the config (a shell command) remembers the reasons from the store.
+    shell_book = AlarmBook(store)
+    shell_book.acknowledge([1], "2", now=3, actor=operator)
+    assert store.alarms.get(1).reason == "melt temperature"  # type: ignore[union-attr]
+
+
+def test_acknowledge_every_open_alarm_of_one_characteristic(
+    book: AlarmBook, operator: Actor
+) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0], "we4": [0]}, now=1)
+    book.observe_chart("wall", "individuals", 0, 0, {"we1": [0]}, now=1)
+    book.acknowledge([1], "tool wear", now=2, actor=operator)
+    assert book.acknowledge_characteristic("od", "1", now=3, actor=operator) == 1
+    assert book.acknowledge_characteristic("od", "1", now=3, actor=operator) == 0
+    states = {(a.characteristic, a.rule): a.acknowledged for a in book.alarms()}
+    assert states == {("od", "we1"): True, ("od", "we4"): True, ("wall", "we1"): False}
+    with pytest.raises(LinewatchError, match="a reason is required"):
+        book.acknowledge_characteristic("wall", "", now=4, actor=operator)
+
+
+def test_shelving_expires_by_itself_and_keeps_recording(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we4": [0]}, now=100)
+    book.shelve(1, 60, "die change in progress", now=110, actor=operator)
+    alarm = book.store.alarms.get(1)
+    assert alarm is not None and alarm.state(120) == SHELVED
+    assert book.view(alarm, now=120).shelved_until == 170
+    # Still recorded and still updated while shelved.
+    book.observe_chart("od", "individuals", 1, 2, {"we4": [1, 2]}, now=130)
+    alarm = book.store.alarms.get(1)
+    assert alarm is not None and alarm.last_index == 2 and alarm.state(130) == SHELVED
+    # The time passes: the state is back without anybody doing anything ...
+    assert alarm.state(171) == UNACKNOWLEDGED
+    # ... and the collector's housekeeping records the end of shelving.
+    events = book.tick(now=171)
+    assert [e.action for e in events] == ["unshelved"]
+    assert book.tick(now=172) == []
+    last = book.store.audit.entries()[-1]
+    assert (last.action, last.actor) == ("unshelved", "linewatch")
+    assert '"expired":true' in last.payload
+
+
+def test_unshelve_and_its_errors(book: AlarmBook, operator: Actor) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we4": [0]}, now=100)
+    with pytest.raises(LinewatchError, match="not shelved"):
+        book.unshelve(1, now=101, actor=operator)
+    with pytest.raises(LinewatchError, match="reason is required"):
+        book.shelve(1, 60, " ", now=101, actor=operator)
+    with pytest.raises(LinewatchError, match="more than 0"):
+        book.shelve(1, 0, "x", now=101, actor=operator)
+    with pytest.raises(LinewatchError, match="no alarm with id 7"):
+        book.shelve(7, 60, "x", now=101, actor=operator)
+    book.shelve(1, 600, "die change", now=101, actor=operator)
+    book.unshelve(1, now=102, actor=operator)
+    alarm = book.store.alarms.get(1)
+    assert alarm is not None and alarm.state(103) == UNACKNOWLEDGED
+    assert [e.action for e in book.store.audit.entries()] == ["raised", "shelved", "unshelved"]
+
+
+def test_out_of_spec_stretches(book: AlarmBook) -> None:
+    # USL 10.5: a value equal to the limit conforms (common practice: beyond means outside).
+    book.observe_spec("od", 0, [10.0, 10.6, 10.7], lsl=9.5, usl=10.5, now=1)
+    book.observe_spec("od", 3, [10.8, 10.5, 9.4, 9.0, 10.0], lsl=9.5, usl=10.5, now=2)
+    got = [(a.rule, a.first_index, a.last_index, a.active, a.kind, a.priority)
+           for a in book.alarms(include_closed=True)]
+    assert got == [
+        ("usl", 1, 3, False, "out-of-spec", 1),
+        ("lsl", 5, 6, False, "out-of-spec", 1),
+    ]
+    # A rule alarm on the individuals chart is a different alarm from out-of-spec.
+    book.observe_spec("od", 8, [11.0], lsl=9.5, usl=10.5, now=3)
+    book.observe_chart("od", "individuals", 8, 8, {}, now=3)
+    assert book.store.alarms.active("od", "individuals", "usl") is not None
+
+
+def test_feed_health_raises_once_and_clears(book: AlarmBook) -> None:
+    stale = FeedEvent("stale", "/logs/od.csv", "no row for 10m")
+    assert [e.action for e in book.observe_feed(stale, now=1)] == ["raised"]
+    assert book.observe_feed(stale, now=2) == []  # already raised
+    assert book.observe_feed(FeedEvent("rotated", "/logs/od.csv"), now=3) == []
+    events = book.observe_feed(FeedEvent("resumed", "/logs/od.csv"), now=4)
+    assert [e.action for e in events] == ["returned-to-normal"]
+    book.observe_feed(FeedEvent("stuck", "/logs/od.csv"), now=5, characteristic="od")
+    [stale_alarm, stuck] = book.alarms()
+    assert (stale_alarm.kind, stale_alarm.priority, stale_alarm.active) == ("feed-health", 4, False)
+    assert (stuck.characteristic, stuck.rule, stuck.active) == ("od", "stuck", True)
+
+
+def test_priorities_come_from_the_config(store: Store) -> None:
+    config = parse_config('[alarms.priorities]\nfeed-health = 1\nrun-rule = 5\n', "p.toml")
+    book = AlarmBook(store, config)
+    book.observe_feed(FeedEvent("unreadable", "/logs/x.csv"), now=1)
+    book.observe_chart("od", "individuals", 0, 0, {"we4": [0]}, now=2)
+    assert [(v.kind, v.priority) for v in book.views(now=3)] == [
+        ("feed-health", 1), ("run-rule", 5)
+    ]
+
+
+def test_list_record_has_exactly_the_documented_keys(book: AlarmBook) -> None:
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1_700_000_000)
+    record = book.list_record(book.alarms()[0], now=1_700_000_001)
+    assert list(record) == [
+        "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index",
+        "raised_at", "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note",
+        "shelved_until",
+    ]
+    assert record["state"] == UNACKNOWLEDGED
+
+
+def test_range_outside_the_batch_is_a_programming_error(book: AlarmBook) -> None:
+    with pytest.raises(ValueError, match="outside"):
+        book.observe_chart("od", "individuals", 5, 9, {"we1": [4]}, now=1)
+    assert book.alarms(include_closed=True) == []

@@ -1,0 +1,139 @@
+"""The audit chain: each entry holds SHA-256(previous hash + its canonical content); an edit, a
+deletion (inside or at the end) or a reordering made directly in the SQLite file is detected and
+the first broken entry named. Hashes are recomputed here with hashlib from that definition."""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import json
+import sqlite3
+from pathlib import Path
+
+import pytest
+
+from linewatch.store.audit import GENESIS, canonical_json
+from linewatch.store.db import DB_NAME, Store
+
+
+def fill(store: Store, n: int = 5) -> None:
+    for k in range(n):
+        store.audit.append("limits-set", f"od/xbar#{k}", {"ucl": 10.0 + k, "k": k}, at=100.0 + k,
+                           actor="engineer")
+
+
+def tamper(store: Store, *statements: str) -> None:
+    """Edit the database file directly, as someone with file access could (triggers dropped)."""
+    raw = sqlite3.connect(store.path)
+    raw.execute("DROP TRIGGER IF EXISTS audit_no_update")
+    raw.execute("DROP TRIGGER IF EXISTS audit_no_delete")
+    for sql in statements:
+        raw.execute(sql)
+    raw.commit()
+    raw.close()
+
+
+def test_hash_is_sha256_of_previous_hash_and_canonical_content(store: Store) -> None:
+    fill(store, 2)
+    first, second = store.audit.entries()
+    content = json.dumps(
+        [1, 100.0, "engineer", "limits-set", "od/xbar#0", '{"k":0,"ucl":10.0}'],
+        sort_keys=True, separators=(",", ":"), ensure_ascii=False,
+    )
+    assert first.payload == canonical_json({"ucl": 10.0, "k": 0})
+    assert first.prev_hash == GENESIS
+    assert first.hash == hashlib.sha256((GENESIS + content).encode()).hexdigest()
+    assert second.prev_hash == first.hash
+
+
+def test_intact_chain_verifies(store: Store) -> None:
+    assert store.audit.verify().ok  # empty
+    fill(store)
+    ok, first_broken, message = store.audit.verify()
+    assert (ok, first_broken) == (True, None)
+    assert "5 entries" in message
+
+
+def test_the_table_refuses_updates_and_deletes(store: Store) -> None:
+    fill(store, 2)
+    raw = sqlite3.connect(store.path)
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        raw.execute("UPDATE audit SET actor = 'someone else' WHERE seq = 1")
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        raw.execute("DELETE FROM audit WHERE seq = 1")
+    raw.close()
+
+
+def test_edited_entry_is_named(store: Store) -> None:
+    fill(store)
+    tamper(store, "UPDATE audit SET payload = '{\"k\":2,\"ucl\":99.0}' WHERE seq = 3")
+    ok, first_broken, message = store.audit.verify()
+    assert (ok, first_broken) == (False, 3)
+    assert "altered" in message
+
+
+def test_edited_entry_with_recomputed_own_hash_breaks_the_next_link(store: Store) -> None:
+    fill(store)
+    e = store.audit.entries()[1]
+    content = canonical_json([e.seq, e.at, "intruder", e.action, e.subject, e.payload])
+    forged = hashlib.sha256((e.prev_hash + content).encode()).hexdigest()
+    tamper(store, f"UPDATE audit SET actor = 'intruder', hash = '{forged}' WHERE seq = 2")
+    ok, first_broken, _ = store.audit.verify()
+    assert (ok, first_broken) == (False, 3)
+
+
+def test_deleted_entry_is_named(store: Store) -> None:
+    fill(store)
+    tamper(store, "DELETE FROM audit WHERE seq = 2")
+    ok, first_broken, message = store.audit.verify()
+    assert (ok, first_broken) == (False, 2)
+    assert "missing" in message
+
+
+def test_deleted_last_entry_is_detected(store: Store) -> None:
+    fill(store)
+    tamper(store, "DELETE FROM audit WHERE seq = 5")
+    ok, first_broken, message = store.audit.verify()
+    assert (ok, first_broken) == (False, 5)
+    assert "removed" in message
+
+
+def test_reordered_entries_are_detected(store: Store) -> None:
+    fill(store)
+    tamper(
+        store,
+        "UPDATE audit SET seq = -1 WHERE seq = 2",
+        "UPDATE audit SET seq = 2 WHERE seq = 3",
+        "UPDATE audit SET seq = 3 WHERE seq = -1",
+    )
+    ok, first_broken, _ = store.audit.verify()
+    assert (ok, first_broken) == (False, 2)
+
+
+def test_chain_survives_reopening(tmp_path: Path) -> None:
+    with Store(tmp_path / "s") as s:
+        fill(s, 3)
+    with Store(tmp_path / "s") as s:
+        fill(s, 2)
+        assert s.audit.verify().ok
+        assert [e.seq for e in s.audit.entries()] == [1, 2, 3, 4, 5]
+    assert (tmp_path / "s" / DB_NAME).exists()
+
+
+def test_export_jsonl_and_csv(store: Store) -> None:
+    fill(store, 3)
+    lines = store.audit.export(since=101.0, fmt="jsonl").splitlines()
+    records = [json.loads(line) for line in lines]
+    assert [r["seq"] for r in records] == [2, 3]
+    assert records[0]["payload"] == {"k": 1, "ucl": 11.0}
+    assert records[0]["actor"] == "engineer" and len(records[0]["hash"]) == 64
+    rows = list(csv.DictReader(io.StringIO(store.audit.export(fmt="csv"))))
+    assert [int(r["seq"]) for r in rows] == [1, 2, 3]
+    assert json.loads(rows[2]["payload"]) == {"k": 2, "ucl": 12.0}
+    assert float(rows[0]["at"]) == 100.0
+
+
+def test_unknown_action_is_refused(store: Store) -> None:
+    with pytest.raises(ValueError, match="unknown audit action"):
+        store.audit.append("deleted-everything", "x")
