@@ -1,0 +1,785 @@
+"""Log rows -> columnar `Batch`: wide CSV, long CSV and JSON lines.
+
+Two readers give the same result for the same bytes (a property test proves it):
+`RowParser` takes complete lines as a tail delivers them; `read_log` takes a whole file at once
+and converts the common case (plain ASCII rows, plain decimal numbers) with numpy over the whole
+buffer, sending only the unusual rows through the same per-line code as `RowParser`.
+
+The row conventions, for every layout:
+
+- A trailing ``\\n`` and any ``\\r`` before it are dropped; a UTF-8 byte-order mark at the start of
+  a line is dropped. Blank lines and lines starting with ``#`` are skipped (neither points nor
+  rejected).
+- A line longer than `MAX_LINE_BYTES`, a line holding control bytes (binary noise; tab allowed)
+  or bytes that are not valid in the feed's encoding is rejected with its reason.
+- Numbers: surrounding blanks ignored; a decimal comma is read when the feed says
+  ``decimal = ","`` or the delimiter is ``;``. Empty, non-numeric, ``nan`` and infinite values are
+  rejected, and so is ``_`` inside a number.
+- Wide CSV: the first row is the header (delimiter detected from it among ``,`` ``;`` tab unless
+  configured); the same header repeated later (a writer restarted) is skipped. A row with the
+  wrong number of fields, or with a bad value in any wanted column, is rejected as a whole:
+  it is a point for no characteristic. Characteristics are named by their column.
+- Long CSV: a name column and a value column; the names are the characteristics. Rows naming a
+  characteristic that was not asked for are skipped silently.
+- JSON lines: one object per line. An object holding the feed's name key (``name_column``) is a
+  long row (name and ``value_column``); any other object is a wide row whose numeric fields are
+  characteristics. Numbers may be JSON numbers or numeric strings.
+- Without explicit columns, the characteristics of a wide feed are decided at its first data row
+  that holds a number: every column (or key) with a number there, except the time column.
+- The time column is ``time_column`` from the feed, or else the first column named like a time
+  (`TIME_NAMES`, any case). Its text is kept as is (trimmed), empty -> None.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import json
+import math
+import sys
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, overload
+
+import numpy as np
+
+from linewatch.config import FeedConfig
+from linewatch.errors import LinewatchError
+from linewatch.model import Reading, Rejected
+
+MAX_LINE_BYTES = 1 << 20
+TIME_NAMES = frozenset(
+    {"time", "timestamp", "datetime", "date_time", "date", "ts", "time_utc", "timestamp_utc",
+     "zeit", "measured_at", "recorded_at"}
+)
+BOM = b"\xef\xbb\xbf"
+_CONTROL = bytes(b for b in range(32) if b != 9) + b"\x7f"
+_AUTO_DELIMITERS = (",", ";", "\t")
+_SHOWN = 40
+
+
+class TimeColumn(Sequence[str | None]):
+    """Time strings of one characteristic, kept as byte spans and decoded only when read.
+
+    A million rows cost two integer arrays instead of a million Python strings; rows that came
+    through the per-line path carry their decoded text in `extra`.
+    """
+
+    __slots__ = ("_buf", "_ends", "_extra", "_items", "_starts")
+
+    def __init__(
+        self,
+        items: list[str | None] | None = None,
+        *,
+        buf: bytes = b"",
+        starts: np.ndarray | None = None,
+        ends: np.ndarray | None = None,
+        extra: dict[int, str | None] | None = None,
+    ) -> None:
+        self._items = items
+        self._buf = buf
+        self._starts = starts if starts is not None else np.zeros(0, np.int64)
+        self._ends = ends if ends is not None else np.zeros(0, np.int64)
+        self._extra = extra or {}
+
+    def __len__(self) -> int:
+        return len(self._items) if self._items is not None else len(self._starts)
+
+    @overload
+    def __getitem__(self, i: int) -> str | None: ...
+    @overload
+    def __getitem__(self, i: slice) -> list[str | None]: ...
+    def __getitem__(self, i: int | slice) -> str | list[str | None] | None:
+        if isinstance(i, slice):
+            return [self[j] for j in range(*i.indices(len(self)))]
+        if self._items is not None:
+            return self._items[i]
+        n = len(self._starts)
+        if i < 0:
+            i += n
+        if not 0 <= i < n:
+            raise IndexError(i)
+        if i in self._extra:
+            return self._extra[i]
+        text = self._buf[int(self._starts[i]) : int(self._ends[i])].decode("ascii").strip()
+        return text or None
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, Sequence):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __repr__(self) -> str:
+        head = ", ".join(repr(t) for t in self[:3])
+        return f"TimeColumn([{head}{', ...' if len(self) > 3 else ''}] n={len(self)})"
+
+
+@dataclass(slots=True)
+class Batch:
+    """Readings of one file, column by column, plus the rows that could not become points.
+
+    `values[c]` (float64) and `lines[c]` (1-based, int64) are numpy arrays in file order;
+    `times[c]` is a sequence of time strings (or None). `rows` counts data rows that gave at
+    least one value.
+    """
+
+    file: str
+    values: dict[str, np.ndarray] = field(default_factory=dict)
+    lines: dict[str, np.ndarray] = field(default_factory=dict)
+    times: dict[str, TimeColumn] = field(default_factory=dict)
+    rejected: list[Rejected] = field(default_factory=list)
+    rows: int = 0
+
+    @property
+    def characteristics(self) -> list[str]:
+        """Names with at least one value, in order of first appearance."""
+        return list(self.values)
+
+    @property
+    def points(self) -> int:
+        """Values over all characteristics."""
+        return sum(len(v) for v in self.values.values())
+
+    def readings(self) -> Iterator[Reading]:
+        """Every value as a `Reading`, characteristic by characteristic (for small batches)."""
+        for name, vals in self.values.items():
+            lines, times = self.lines[name], self.times[name]
+            for i, v in enumerate(vals.tolist()):
+                yield Reading(name, v, self.file, int(lines[i]), times[i])
+
+
+# --------------------------------------------------------------------------- per-line path
+
+
+def parse_number(text: str, decimal_comma: bool) -> float | None:
+    """The one definition of a readable number: None when `text` is not a finite number."""
+    t = text.strip()
+    if not t or "_" in t:
+        return None
+    if decimal_comma:
+        t = t.replace(",", ".")
+    try:
+        v = float(t)
+    except ValueError:
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _shown(text: str) -> str:
+    return repr(text if len(text) <= _SHOWN else text[:_SHOWN] + "…")
+
+
+def _value_problem(text: str, column: str) -> str:
+    if not text.strip():
+        return f"empty value in column '{column}'"
+    return f"{_shown(text.strip())} in column '{column}' is not a number"
+
+
+def _detect_delimiter(text: str) -> str:
+    counts = {d: 0 for d in _AUTO_DELIMITERS}
+    quoted = False
+    for ch in text:
+        if ch == '"':
+            quoted = not quoted
+        elif not quoted and ch in counts:
+            counts[ch] += 1
+    best = max(_AUTO_DELIMITERS, key=lambda d: counts[d])
+    return best if counts[best] else ","
+
+
+def _time_index(names: list[str], configured: str | None) -> int | None:
+    if configured:
+        return names.index(configured) if configured in names else None
+    for j, n in enumerate(names):
+        if n.strip().lower() in TIME_NAMES:
+            return j
+    return None
+
+
+class _Rows:
+    """Per-characteristic lists that become a Batch."""
+
+    def __init__(self, file: str) -> None:
+        self.file = file
+        self.values: dict[str, list[float]] = {}
+        self.lines: dict[str, list[int]] = {}
+        self.times: dict[str, list[str | None]] = {}
+        self.rejected: list[Rejected] = []
+        self.rows = 0
+
+    def add(self, name: str, value: float, line: int, time: str | None) -> None:
+        vals = self.values.get(name)
+        if vals is None:
+            vals = self.values[name] = []
+            self.lines[name] = []
+            self.times[name] = []
+        vals.append(value)
+        self.lines[name].append(line)
+        self.times[name].append(time)
+
+    def reject(self, line: int, reason: str) -> None:
+        self.rejected.append(Rejected(self.file, line, reason))
+
+    def batch(self) -> Batch:
+        return Batch(
+            file=self.file,
+            values={k: np.asarray(v, dtype=np.float64) for k, v in self.values.items()},
+            lines={k: np.asarray(v, dtype=np.int64) for k, v in self.lines.items()},
+            times={k: TimeColumn(v) for k, v in self.times.items()},
+            rejected=self.rejected,
+            rows=self.rows,
+        )
+
+
+class RowParser:
+    """Turns complete lines of one file into a Batch, remembering the header between calls.
+
+    `columns` lists the wanted columns (wide) or characteristic names (long); None takes every
+    numeric column. With `require_columns` a header lacking a wanted column raises
+    LinewatchError (the batch command); otherwise the header line is rejected with the reason
+    and the columns that are there are used (a live feed must keep going).
+    """
+
+    def __init__(
+        self,
+        feed: FeedConfig,
+        file: str,
+        columns: list[str] | None = None,
+        *,
+        require_columns: bool = False,
+    ) -> None:
+        self.feed = feed
+        self.file = file
+        self.columns = list(columns) if columns is not None else None
+        self.require_columns = require_columns
+        self.decimal_comma = feed.decimal == ","
+        self.reset()
+
+    def reset(self) -> None:
+        """Forget the header: the file starts again (truncated, replaced, new file)."""
+        self.header: tuple[str, ...] | None = None
+        self.delimiter = "," if self.feed.delimiter == "auto" else self.feed.delimiter
+        self.time_idx: int | None = None
+        self.time_key: str | None = None
+        # wide CSV / JSON: (characteristic, field index or key); None until decided
+        self.wanted: list[tuple[str, int]] | None = None
+        self.wanted_keys: list[str] | None = None
+        self.name_idx = -1
+        self.value_idx = -1
+        self.usable = True
+
+    @property
+    def ready(self) -> bool:
+        """True once later rows no longer change what the parser extracts."""
+        if self.feed.layout == "jsonl":
+            return self.wanted_keys is not None or self.columns is not None
+        if self.header is None:
+            return False
+        return self.feed.layout == "long" or self.wanted is not None or not self.usable
+
+    def prime(self, lines: list[bytes]) -> None:
+        """Read the start of a file for its header (and column choice) without keeping rows."""
+        self.parse(lines, 1)
+
+    def prime_header(self, first_line: bytes) -> None:
+        """Learn the header from the file's first line when resuming in the middle."""
+        self.prime([first_line])
+
+    def parse(self, lines: list[bytes], first_line_no: int) -> Batch:
+        """Parse `lines` (complete, with or without their newline) numbered from first_line_no."""
+        out = _Rows(self.file)
+        for k, raw in enumerate(lines):
+            self.feed_line(raw, first_line_no + k, out)
+        return out.batch()
+
+    # one line ------------------------------------------------------------------------------
+
+    def feed_line(self, raw: bytes, line_no: int, out: _Rows) -> None:
+        """Parse one line into `out` (values, or a rejection, or nothing for skipped lines)."""
+        if raw.endswith(b"\n"):
+            raw = raw[:-1]
+        raw = raw.rstrip(b"\r")
+        if len(raw) > MAX_LINE_BYTES:
+            out.reject(line_no, f"line longer than {MAX_LINE_BYTES} bytes")
+            return
+        if raw.startswith(BOM):
+            raw = raw[3:]
+        if len(raw.translate(None, _CONTROL)) != len(raw):
+            out.reject(line_no, "binary data (control bytes) in line")
+            return
+        try:
+            text = raw.decode(self.feed.encoding)
+        except UnicodeDecodeError as exc:
+            out.reject(line_no, f"bytes not valid {self.feed.encoding} at column {exc.start + 1}")
+            return
+        stripped = text.strip()
+        if not stripped or stripped.startswith("#"):
+            return
+        if self.feed.layout == "jsonl":
+            self._json_line(stripped, line_no, out)
+            return
+        if self.header is None:
+            self._header_line(text, line_no, out)
+            return
+        fields = self._split(text)
+        if tuple(f.strip() for f in fields) == self.header:
+            return
+        if len(fields) != len(self.header):
+            out.reject(line_no, f"expected {len(self.header)} fields, found {len(fields)}")
+            return
+        if self.feed.layout == "long":
+            self._long_row(fields, line_no, out)
+        else:
+            self._wide_row(fields, line_no, out)
+
+    def _split(self, text: str) -> list[str]:
+        if '"' not in text:
+            return text.split(self.delimiter)
+        return next(csv.reader([text], delimiter=self.delimiter), [])
+
+    def _header_line(self, text: str, line_no: int, out: _Rows) -> None:
+        if self.feed.delimiter == "auto":
+            self.delimiter = _detect_delimiter(text)
+        self.decimal_comma = self.feed.decimal == "," or self.delimiter == ";"
+        names = [f.strip() for f in self._split(text)]
+        if all(parse_number(n, self.decimal_comma) is not None for n in names):
+            problem = "first line holds numbers, not a header of column names"
+            if self.require_columns:
+                raise LinewatchError(f"{self.file}: line {line_no}: {problem}")
+            out.reject(line_no, problem)
+            return
+        self.header = tuple(names)
+        self.time_idx = _time_index(names, self.feed.time_column)
+        problems: list[str] = []
+        if self.feed.time_column and self.time_idx is None:
+            problems.append(f"no time column '{self.feed.time_column}'")
+        if self.feed.layout == "long":
+            nc, vc = self.feed.name_column, self.feed.value_column
+            missing = [c for c in (nc, vc) if c not in names]
+            if missing:
+                problems.append("no column " + ", ".join(f"'{c}'" for c in missing))
+                self.usable = False
+            else:
+                self.name_idx, self.value_idx = names.index(nc), names.index(vc)
+        elif self.columns is not None:
+            missing = [c for c in self.columns if c not in names]
+            if missing:
+                problems.append("no column " + ", ".join(f"'{c}'" for c in missing))
+            self.wanted = [(c, names.index(c)) for c in self.columns if c in names]
+            if not self.wanted:
+                self.usable = False
+        if problems:
+            message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
+            if self.require_columns:
+                raise LinewatchError(f"{self.file}: {message}")
+            out.reject(line_no, f"header: {message}")
+
+    def _decide_columns(self, fields: list[str]) -> bool:
+        assert self.header is not None
+        seen: set[str] = set()
+        wanted: list[tuple[str, int]] = []
+        for j, name in enumerate(self.header):
+            if j == self.time_idx or name in seen:
+                continue
+            seen.add(name)
+            if parse_number(fields[j], self.decimal_comma) is not None:
+                wanted.append((name, j))
+        if wanted:
+            self.wanted = wanted
+        return bool(wanted)
+
+    def _time_of(self, fields: list[str]) -> str | None:
+        if self.time_idx is None:
+            return None
+        return fields[self.time_idx].strip() or None
+
+    def _wide_row(self, fields: list[str], line_no: int, out: _Rows) -> None:
+        if not self.usable:
+            return
+        if self.wanted is None and not self._decide_columns(fields):
+            out.reject(line_no, "no number in any column")
+            return
+        assert self.wanted is not None
+        got: list[float] = []
+        for name, j in self.wanted:
+            v = parse_number(fields[j], self.decimal_comma)
+            if v is None:
+                out.reject(line_no, _value_problem(fields[j], name))
+                return
+            got.append(v)
+        if not got:
+            return
+        time = self._time_of(fields)
+        for (name, _), v in zip(self.wanted, got, strict=True):
+            out.add(name, v, line_no, time)
+        out.rows += 1
+
+    def _long_row(self, fields: list[str], line_no: int, out: _Rows) -> None:
+        if not self.usable:
+            return
+        name = fields[self.name_idx].strip()
+        if not name:
+            out.reject(line_no, f"empty name in column '{self.feed.name_column}'")
+            return
+        if self.columns is not None and name not in self.columns:
+            return
+        v = parse_number(fields[self.value_idx], self.decimal_comma)
+        if v is None:
+            out.reject(line_no, _value_problem(fields[self.value_idx], self.feed.value_column))
+            return
+        out.add(name, v, line_no, self._time_of(fields))
+        out.rows += 1
+
+    def _json_number(self, v: Any) -> float | None:
+        if isinstance(v, bool):
+            return None
+        if isinstance(v, int | float):
+            f = float(v)
+            return f if math.isfinite(f) else None
+        if isinstance(v, str):
+            return parse_number(v, self.decimal_comma)
+        return None
+
+    def _json_line(self, text: str, line_no: int, out: _Rows) -> None:
+        try:
+            obj = json.loads(text)
+        except (json.JSONDecodeError, RecursionError) as exc:
+            out.reject(line_no, f"not valid JSON: {getattr(exc, 'msg', exc)}")
+            return
+        if not isinstance(obj, dict):
+            out.reject(line_no, "not a JSON object")
+            return
+        if self.time_key is None:
+            self.time_key = self.feed.time_column or next(
+                (k for k in obj if k.strip().lower() in TIME_NAMES), None
+            )
+        t = obj.get(self.time_key) if self.time_key is not None else None
+        time = None if t is None else (str(t).strip() or None)
+        nc = self.feed.name_column
+        if nc in obj:
+            name = str(obj[nc]).strip() if obj[nc] is not None else ""
+            if not name:
+                out.reject(line_no, f"empty name in key '{nc}'")
+                return
+            if self.columns is not None and name not in self.columns:
+                return
+            raw = obj.get(self.feed.value_column)
+            v = self._json_number(raw)
+            if v is None:
+                out.reject(line_no, _json_problem(raw, self.feed.value_column))
+                return
+            out.add(name, v, line_no, time)
+            out.rows += 1
+            return
+        keys = self.columns if self.columns is not None else self.wanted_keys
+        if keys is None:
+            keys = [
+                k for k, v in obj.items()
+                if k != self.time_key and not isinstance(v, bool) and isinstance(v, int | float)
+                and math.isfinite(v)
+            ]
+            if not keys:
+                out.reject(line_no, "no number in any key")
+                return
+            self.wanted_keys = keys
+        got: list[float] = []
+        for k in keys:
+            v = self._json_number(obj.get(k))
+            if v is None:
+                out.reject(line_no, _json_problem(obj.get(k, _MISSING), k))
+                return
+            got.append(v)
+        for k, v in zip(keys, got, strict=True):
+            out.add(k, v, line_no, time)
+        if got:
+            out.rows += 1
+
+
+_MISSING = object()
+
+
+def _json_problem(raw: Any, key: str) -> str:
+    if raw is _MISSING:
+        return f"no key '{key}'"
+    if raw is None or raw == "":
+        return f"empty value in key '{key}'"
+    return f"{_shown(json.dumps(raw) if not isinstance(raw, str) else raw)} in key '{key}' " \
+        "is not a number"
+
+
+# --------------------------------------------------------------------------- whole file, fast
+
+
+def read_bytes(source: str) -> tuple[str, bytes]:
+    """The name to report and the content of `source` ('-' is standard input)."""
+    if source == "-":
+        return "<stdin>", sys.stdin.buffer.read()
+    p = Path(source)
+    try:
+        return source, p.read_bytes()
+    except FileNotFoundError:
+        raise LinewatchError(f"{source}: no such file") from None
+    except IsADirectoryError:
+        raise LinewatchError(f"{source}: is a directory, not a log file") from None
+    except OSError as exc:
+        raise LinewatchError(f"{source}: cannot read ({exc.strerror or exc})") from None
+
+
+def read_log(source: str, feed: FeedConfig, columns: list[str] | None = None) -> Batch:
+    """Read a whole log (path or '-') into one Batch, fast; same result as RowParser.
+
+    A last line without a newline is a row here (a finished file); unknown columns and a
+    missing header raise LinewatchError naming what there is.
+    """
+    name, data = read_bytes(source)
+    return parse_log_bytes(data, name, feed, columns)
+
+
+def parse_log_bytes(
+    data: bytes, file: str, feed: FeedConfig, columns: list[str] | None = None
+) -> Batch:
+    """`read_log` on bytes already in memory."""
+    parser = RowParser(feed, file, columns, require_columns=True)
+    if feed.layout == "wide":
+        batch = _read_wide(data, parser)
+    else:
+        lines = data.split(b"\n")
+        if lines and lines[-1] == b"":
+            lines.pop()
+        batch = parser.parse(lines, 1)
+    if feed.layout != "jsonl" and parser.header is None:
+        raise LinewatchError(f"{file}: no header line")
+    if columns is not None and feed.layout != "wide":
+        missing = [c for c in columns if c not in batch.values]
+        if missing:
+            what = "characteristic" if feed.layout == "long" else "key"
+            found = ", ".join(batch.values) or "none"
+            raise LinewatchError(
+                f"{file}: no {what} {', '.join(repr(c) for c in missing)} (found: {found})"
+            )
+    return batch
+
+
+def _read_wide(data: bytes, parser: RowParser) -> Batch:
+    if data and not data.endswith(b"\n"):
+        data += b"\n"
+    # the header and, without explicit columns, the first data row go through the slow path
+    prefix = _Rows(parser.file)
+    lo = line_no = 0
+    while lo < len(data) and not parser.ready:
+        end = data.index(b"\n", lo)
+        line_no += 1
+        parser.feed_line(data[lo:end], line_no, prefix)
+        lo = end + 1
+    plain = codecs.lookup(parser.feed.encoding).name in _ASCII_COMPATIBLE
+    if (
+        lo >= len(data)
+        or not parser.usable
+        or not parser.wanted
+        or not plain
+        # a header repeat must never look like a row of numbers to the fast path
+        or any(parse_number(name, parser.decimal_comma) is not None for name, _ in parser.wanted)
+    ):
+        while lo < len(data):
+            end = data.index(b"\n", lo)
+            line_no += 1
+            parser.feed_line(data[lo:end], line_no, prefix)
+            lo = end + 1
+        return prefix.batch()
+    return _FastWide(data, lo, line_no, parser).run(prefix)
+
+
+_ASCII_COMPATIBLE = frozenset(
+    {"utf-8", "ascii", "latin-1", "iso8859-1", "cp1252", "iso8859-15", "cp1250", "cp1251",
+     "utf-8-sig"}
+)
+_NUM_LUT = np.zeros(256, dtype=bool)
+_NUM_LUT[list(b"0123456789.+-")] = True
+_NUM_LUT[0] = True
+_FAST_FIELD = 24
+_POW10 = 10.0 ** np.arange(23)
+
+
+class _FastWide:
+    """Whole-buffer conversion of the plain rows of a wide CSV; the rest go line by line.
+
+    A row takes the fast path when it is printable ASCII without quotes, does not start with a
+    blank or '#', has exactly the header's number of fields and its wanted values are plain
+    decimals; every other row goes through `RowParser.feed_line`, so both paths agree.
+    """
+
+    def __init__(self, data: bytes, lo: int, lines_before: int, parser: RowParser) -> None:
+        self.data = data
+        self.arr = np.frombuffer(data, dtype=np.uint8)
+        self.lo = lo
+        self.lines_before = lines_before
+        self.parser = parser
+
+    def run(self, prefix: _Rows) -> Batch:
+        p = self.parser
+        assert p.header is not None and p.wanted is not None
+        ncols = len(p.header)
+        arr, lo = self.arr, self.lo
+        seg = arr[lo:]
+        delim = ord(p.delimiter)
+        # newlines and delimiters, in order: each line's fields lie between them
+        pos = np.flatnonzero((seg == 10) | (seg == delim))
+        pos += lo
+        nlk = np.flatnonzero(arr[pos] == 10)
+        nl = pos[nlk]
+        n = len(nl)
+        starts = np.empty(n, dtype=np.int64)
+        starts[0] = lo
+        starts[1:] = nl[:-1] + 1
+        base = np.empty(n, dtype=np.int64)  # index in pos of each line's first delimiter
+        base[0] = 0
+        base[1:] = nlk[:-1] + 1
+        counts = nlk - base
+        ends = nl.copy()
+        cr_end = (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
+        ends -= cr_end
+        slow = counts != ncols - 1
+        first = arr[np.minimum(starts, len(arr) - 1)]
+        slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
+        slow |= (ends - starts) > MAX_LINE_BYTES
+        # bytes that need the per-line path: controls, non-ASCII, quotes
+        odd = (seg - np.uint8(32)) > 94
+        odd |= seg == 34
+        expected = n + int(np.count_nonzero(cr_end)) + (len(pos) - n if delim == 9 else 0)
+        if int(np.count_nonzero(odd)) != expected:
+            odd_pos = np.flatnonzero(odd) + lo
+            b = arr[odd_pos]
+            fine = b == 10
+            if delim == 9:
+                fine |= b == 9
+            fine |= (b == 13) & (arr[np.minimum(odd_pos + 1, len(arr) - 1)] == 10)
+            odd_pos = odd_pos[~fine]
+            slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
+        del odd
+        fast = np.flatnonzero(~slow)
+        fbase = base[fast]
+        last = len(pos) - 1
+
+        def field_span(j: int) -> tuple[np.ndarray, np.ndarray]:
+            s = starts[fast] if j == 0 else pos[np.minimum(fbase + j - 1, last)] + 1
+            e = ends[fast] if j == ncols - 1 else pos[np.minimum(fbase + j, last)]
+            return s, e
+
+        ok = np.ones(len(fast), dtype=bool)
+        converted: list[np.ndarray] = []
+        for _, j in p.wanted:
+            s, e = field_span(j)
+            vals, good = _convert(arr, s, e, p.decimal_comma)
+            ok &= good
+            converted.append(vals)
+        if p.time_idx is not None:
+            ts, te = field_span(p.time_idx)
+        else:
+            ts = te = np.zeros(len(fast), dtype=np.int64)
+        if not ok.all():
+            slow[fast[~ok]] = True
+            fast = fast[ok]
+            ts, te = ts[ok], te[ok]
+            converted = [c[ok] for c in converted]
+        first_no = self.lines_before + 1
+        fast_lines = fast + first_no
+        # the unusual rows, line by line through the same code as RowParser
+        rest = _Rows(p.file)
+        data = self.data
+        for i in np.flatnonzero(slow).tolist():
+            p.feed_line(data[starts[i] : nl[i]], i + first_no, rest)
+        return _merge(prefix, rest, p, fast_lines, converted, data, ts, te)
+
+
+def _convert(
+    arr: np.ndarray, s: np.ndarray, e: np.ndarray, decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray]:
+    """Plain decimal numbers between byte spans -> (float64 values, convertible mask).
+
+    Values are exact: an integer mantissa of at most 15 digits divided by a power of ten is
+    correctly rounded, as Python's float() is. Anything else (exponents, long numbers, text) is
+    left to the per-line path by a False in the mask. Works column by column (Horner's scheme)
+    so memory stays a few arrays of the row count.
+    """
+    n = len(s)
+    lens = e - s
+    width = int(min(lens.max(initial=0), _FAST_FIELD))
+    good = (lens > 0) & (lens <= width)
+    mant = np.zeros(n, dtype=np.int64)
+    frac = np.zeros(n, dtype=np.int64)
+    ndig = np.zeros(n, dtype=np.int64)
+    seen_dot = np.zeros(n, dtype=bool)
+    neg = np.zeros(n, dtype=bool)
+    for j in range(width):
+        c = np.take(arr, s + j, mode="clip")
+        c[lens <= j] = 0
+        if decimal_comma:
+            c[c == 44] = 46
+        good &= _NUM_LUT[c]
+        d = c - np.uint8(48)
+        isd = d < 10
+        if j == 0:
+            neg = c == 45
+        else:
+            good &= (c != 45) & (c != 43)
+        dot = c == 46
+        good &= ~(dot & seen_dot)
+        seen_dot |= dot
+        mant *= np.where(isd, 10, 1)
+        mant += np.where(isd, d, 0)
+        frac += isd & seen_dot
+        ndig += isd
+    good &= (ndig >= 1) & (ndig <= 15)
+    vals = mant.astype(np.float64)
+    vals /= _POW10[np.minimum(frac, 22)]
+    np.negative(vals, out=vals, where=neg)
+    return vals, good
+
+
+def _merge(
+    prefix: _Rows,
+    rest: _Rows,
+    p: RowParser,
+    fast_lines: np.ndarray,
+    converted: list[np.ndarray],
+    data: bytes,
+    ts: np.ndarray,
+    te: np.ndarray,
+) -> Batch:
+    """Prefix rows, then fast rows with the line-by-line rows put back in file order."""
+    assert p.wanted is not None
+    batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+    batch.rows = prefix.rows + rest.rows + len(fast_lines)
+    for (name, _), vals in zip(p.wanted, converted, strict=True):
+        pre_v = prefix.values.get(name, [])
+        pre_l = prefix.lines.get(name, [])
+        pre_t = prefix.times.get(name, [])
+        slow_l = np.asarray(rest.lines.get(name, []), dtype=np.int64)
+        slow_v = np.asarray(rest.values.get(name, []), dtype=np.float64)
+        slow_t = rest.times.get(name, [])
+        at = np.searchsorted(fast_lines, slow_l)
+        v = np.insert(vals, at, slow_v)
+        ln = np.insert(fast_lines, at, slow_l)
+        s = np.insert(ts, at, 0)
+        e = np.insert(te, at, 0)
+        extra: dict[int, str | None] = {}
+        npre = len(pre_v)
+        for k, t in enumerate(pre_t):
+            extra[k] = t
+        for k, (pos, t) in enumerate(zip(at.tolist(), slow_t, strict=True)):
+            extra[npre + pos + k] = t
+        if npre:
+            v = np.concatenate([np.asarray(pre_v, dtype=np.float64), v])
+            ln = np.concatenate([np.asarray(pre_l, dtype=np.int64), ln])
+            s = np.concatenate([np.zeros(npre, dtype=np.int64), s])
+            e = np.concatenate([np.zeros(npre, dtype=np.int64), e])
+        if len(v) == 0:
+            continue
+        batch.values[name] = v
+        batch.lines[name] = ln
+        batch.times[name] = TimeColumn(buf=data, starts=s, ends=e, extra=extra)
+    batch.rejected.sort(key=lambda r: r.line)
+    return batch
