@@ -1,0 +1,169 @@
+"""The Textual face of linewatch: `LinewatchApp` and `run_app`, used by `watch` and by the tests.
+
+Data flows one way. The monitor's `subscribe` callback (any thread) only raises a flag; a timer
+on the UI thread (about 10 Hz) takes one snapshot when the flag is up and hands it to the screen
+on top. With nothing arriving the timer finds the flag down and nothing redraws.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from typing import ClassVar
+
+from textual.app import App
+from textual.binding import Binding, BindingType
+from textual.screen import Screen
+
+from linewatch import view
+from linewatch.ui.glyphs import Glyphs, pick_glyphs
+from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.screens.board import BoardScreen
+from linewatch.ui.screens.feeds import FeedScreen
+from linewatch.ui.screens.queue import AlarmQueueScreen
+
+REFRESH_HZ = 10.0
+BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell
+
+
+class LinewatchApp(App[int]):
+    """Line board, alarm queue, feed pulse and close-ups over one SnapshotSource."""
+
+    CSS_PATH = "linewatch.tcss"
+    ENABLE_COMMAND_PALETTE = False
+    MODES: ClassVar[dict[str, type[Screen[None]]]] = {
+        "board": BoardScreen,
+        "alarms": AlarmQueueScreen,
+        "feeds": FeedScreen,
+    }
+    DEFAULT_MODE = "board"
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("b", "show('board')", "Board", tooltip="the line board: every characteristic"),
+        Binding("a", "show('alarms')", "Alarms", tooltip="the alarm queue"),
+        Binding("f", "show('feeds')", "Feeds", tooltip="feed pulse: files followed"),
+        Binding("question_mark", "keys_help", "Keys", key_display="?",
+                tooltip="every key, glyph and colour explained"),
+        Binding("q", "leave", "Quit", tooltip="quit (asks only if an acknowledgement is open)"),
+        Binding("ctrl+q", "leave", "Quit", show=False, priority=True),
+    ]
+
+    def __init__(
+        self,
+        source: view.SnapshotSource,
+        actions: view.LineActions,
+        *,
+        bell: bool = True,
+        title: str = "linewatch",
+        clock: Callable[[], float] = time.time,
+        ascii_only: bool | None = None,
+    ) -> None:
+        super().__init__()
+        self.source = source
+        self.actions = actions
+        self.bell_enabled = bell
+        self.clock = clock
+        self.glyphs: Glyphs = pick_glyphs(ascii_only)
+        self.title = title
+        self.line = view.LineSnapshot(title=title)
+        self.line_taken_at = clock()
+        self.bells_rung = 0
+        self._changed = True
+        self._alarms_seen: set[int] | None = None
+
+    def on_mount(self) -> None:
+        self.source.subscribe(self._source_changed)
+        self._pull_line()
+        self.set_interval(1.0 / REFRESH_HZ, self._refresh_if_changed)
+        self.set_interval(1.0, self._tick_clock)
+
+    def _source_changed(self, version: int) -> None:
+        """Called from any thread: only raise the flag; the timer does the rest."""
+        self._changed = True
+
+    def _refresh_if_changed(self) -> None:
+        if self._changed:
+            self._pull_line()
+
+    def _pull_line(self) -> None:
+        self._changed = False
+        line = self.source.snapshot()
+        self.line_taken_at = self.clock()
+        if line is self.line or (line.version == self.line.version and line.version != 0):
+            return
+        self.line = line
+        self._ring_for_new_alarms(line)
+        top = self.top_line_screen()
+        if top is not None:
+            top.show_line()
+
+    def _ring_for_new_alarms(self, line: view.LineSnapshot) -> None:
+        ids = {a.id for a in line.alarms}
+        if self._alarms_seen is not None and self.bell_enabled:
+            new_loud = [
+                a for a in line.alarms
+                if a.id not in self._alarms_seen
+                and a.priority in BELL_PRIORITIES
+                and a.state == view.UNACKNOWLEDGED
+            ]
+            if new_loud:
+                self.bells_rung += 1
+                self.bell()
+        self._alarms_seen = (self._alarms_seen or set()) | ids
+
+    def _tick_clock(self) -> None:
+        top = self.top_line_screen()
+        if top is not None:
+            top.tick_clock()
+
+    def top_line_screen(self) -> LineScreen | None:
+        """The screen that shows the line now (a dialog may sit above it)."""
+        for screen in reversed(self.screen_stack):
+            if isinstance(screen, LineScreen):
+                return screen
+        return None
+
+    def age_now(self, age: float | None) -> float | None:
+        """A snapshot's age moved on to now, so a silent feed keeps getting older on screen."""
+        if age is None:
+            return None
+        return age + max(0.0, self.clock() - self.line_taken_at)
+
+    def action_show(self, mode: str) -> None:
+        """Go to one of the three main views, leaving close-ups and dialogs of the others."""
+        if self.current_mode != mode:
+            self.switch_mode(mode)
+
+    def action_keys_help(self) -> None:
+        from linewatch.ui.screens.keys_help import KeysHelp
+
+        if not isinstance(self.screen, KeysHelp):
+            self.push_screen(KeysHelp())
+
+    def action_leave(self) -> None:
+        """Quit at once, unless an acknowledgement is half typed: then ask first."""
+        from linewatch.ui.screens.ack_panel import AckPanel
+        from linewatch.ui.screens.confirm_leave import ConfirmLeave
+
+        if isinstance(self.screen, ConfirmLeave):
+            return
+        if any(isinstance(s, AckPanel) and s.half_typed for s in self.screen_stack):
+            self.push_screen(ConfirmLeave(), self._leave_if_confirmed)
+            return
+        self.exit(0)
+
+    def _leave_if_confirmed(self, leave: bool | None) -> None:
+        if leave:
+            self.exit(0)
+
+
+def run_app(
+    source: view.SnapshotSource,
+    actions: view.LineActions,
+    *,
+    bell: bool = True,
+    title: str = "linewatch",
+) -> int:
+    """Open the screen until the user quits; returns the exit code (0)."""
+    app = LinewatchApp(source, actions, bell=bell, title=title)
+    code = app.run()
+    return int(code or 0)

@@ -1,0 +1,87 @@
+"""Display-only text helpers: numbers, ages, clock times, states and priorities as short words."""
+
+from __future__ import annotations
+
+import math
+import time
+
+from linewatch import view
+
+STATE_WORDS = {
+    view.STATE_ALARM: "ALARM",
+    view.STATE_WATCH: "watch",
+    view.STATE_STALE: "stale",
+    view.STATE_LEARNING: "learn",
+    view.STATE_OK: "ok",
+}
+
+# Worst first, for sorting and for the "needs attention" filter.
+STATE_ORDER = {
+    view.STATE_ALARM: 0,
+    view.STATE_WATCH: 1,
+    view.STATE_STALE: 2,
+    view.STATE_LEARNING: 3,
+    view.STATE_OK: 4,
+}
+
+ALARM_STATE_WORDS = {
+    view.UNACKNOWLEDGED: "UNACK",
+    view.ACKNOWLEDGED: "acked",
+    view.RETURNED_UNACKNOWLEDGED: "rtn-unack",
+    view.NORMAL: "normal",
+    view.SHELVED: "shelved",
+}
+
+
+def needs_attention(state: str) -> bool:
+    """Alarm, watch and stale characteristics are the ones an operator must look at."""
+    return STATE_ORDER.get(state, 4) <= STATE_ORDER[view.STATE_STALE]
+
+
+def fmt_value(value: float | None, digits: int = 4) -> str:
+    """A measurement with `digits` significant figures; '-' when missing."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    if value == 0:
+        return "0"
+    magnitude = math.floor(math.log10(abs(value)))
+    decimals = max(0, digits - 1 - magnitude)
+    return f"{value:.{decimals}f}"
+
+
+def fmt_fixed(value: float | None, decimals: int = 2) -> str:
+    """A ratio such as Cpk with fixed decimals; '-' when missing."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    return f"{value:.{decimals}f}"
+
+
+def fmt_age(seconds: float | None) -> str:
+    """Compact age of the newest row: 4s, 12m, 3h, 2d; '-' when nothing arrived yet."""
+    if seconds is None:
+        return "-"
+    s = max(0, int(seconds))
+    if s < 60:
+        return f"{s}s"
+    if s < 3600:
+        return f"{s // 60}m"
+    if s < 86400:
+        return f"{s // 3600}h"
+    return f"{s // 86400}d"
+
+
+def fmt_clock(epoch: float) -> str:
+    """Local wall-clock time of day, HH:MM:SS."""
+    return time.strftime("%H:%M:%S", time.localtime(epoch))
+
+
+def fmt_day_clock(epoch: float) -> str:
+    """Local date and time with the offset, for details where the day matters."""
+    return time.strftime("%Y-%m-%d %H:%M:%S %z", time.localtime(epoch))
+
+
+def rule_digit(rules: str) -> str:
+    """The number that marks a signalling point: 'we2' -> '2', 'n5,n6' -> '5', '' -> ''."""
+    first = rules.split(",")[0].strip()
+    digits = "".join(ch for ch in first if ch.isdigit())
+    return digits[-1:] if digits else ("?" if first else "")

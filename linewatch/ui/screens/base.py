@@ -1,0 +1,32 @@
+"""What every line-showing screen shares: a typed handle on the app and redraw on resume."""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, cast
+
+from textual.screen import Screen
+
+if TYPE_CHECKING:
+    from linewatch.ui.app import LinewatchApp
+
+
+class LineScreen(Screen[None]):
+    """A screen that draws from `app.line`; redraws only when the snapshot version moved."""
+
+    drawn_version: int = -1
+
+    @property
+    def lw(self) -> LinewatchApp:
+        """The app, typed."""
+        return cast("LinewatchApp", self.app)
+
+    def on_screen_resume(self) -> None:
+        if self.drawn_version != self.lw.line.version:
+            self.show_line()
+
+    def show_line(self) -> None:
+        """Draw `app.line`. Subclasses draw, then call this to record the version."""
+        self.drawn_version = self.lw.line.version
+
+    def tick_clock(self) -> None:
+        """Once a second: refresh what only time changes (ages). Default: nothing."""

@@ -1,0 +1,216 @@
+"""The close-up of one characteristic: both control charts, box plot, phases, trend, baseline."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.console import Group
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.events import Resize
+from textual.widgets import Footer, Static
+
+from linewatch import view
+from linewatch.engine.rulebook import RULES
+from linewatch.errors import LinewatchError
+from linewatch.ui import palette
+from linewatch.ui.figures import project_to_spec, trend
+from linewatch.ui.formatting import STATE_WORDS, fmt_value, rule_digit
+from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.box_plot import draw_box_plot
+from linewatch.ui.widgets.chart_pane import ChartPane
+from linewatch.ui.widgets.phase_table import phase_table
+from linewatch.ui.widgets.top_bar import TopBar
+
+TREND_WINDOW = 30  # points in the trend fit
+WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the charts
+
+
+class CloseUpBody(VerticalScroll):
+    """Scrolls with up/down/PgUp/PgDn; left and right stay with the point cursor."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("left", "screen.move(-1)", "Point", key_display="<-"),
+        Binding("right", "screen.move(1)", "Point", key_display="->", show=False),
+    ]
+
+
+class CloseUpScreen(LineScreen):
+    """Move the cursor over the location chart's points; `n` starts a new phase there."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape", "back", "Back", tooltip="back to where you came from"),
+        Binding("left", "move(-1)", "Point", key_display="<-", show=False,
+                tooltip="cursor one point left"),
+        Binding("right", "move(1)", "Point", key_display="->", show=False,
+                tooltip="cursor one point right"),
+        Binding("shift+left", "move(-10)", "10 left", show=False,
+                tooltip="cursor ten points left"),
+        Binding("shift+right", "move(10)", "10 right", show=False,
+                tooltip="cursor ten points right"),
+        Binding("home", "move_to(0)", "First", show=False, tooltip="cursor to the first point"),
+        Binding("end", "move_to(-1)", "Newest", show=False, tooltip="cursor to the newest point"),
+        Binding("n", "new_baseline", "New baseline",
+                tooltip="start a new phase of limits at the cursor's point"),
+    ]
+
+    def __init__(self, name: str, focus_index: int | None = None) -> None:
+        super().__init__()
+        self.characteristic = name
+        self.focus_index = focus_index
+        self.cursor: int | None = None  # position in location.values
+        self.detail: view.CharacteristicView | None = None
+
+    def compose(self) -> ComposeResult:
+        g = self.lw.glyphs
+        yield TopBar(id="topbar")
+        with CloseUpBody(id="closeup-body"), Horizontal(id="closeup-grid"):
+            with Vertical(id="closeup-charts"):
+                yield ChartPane(g, id="closeup-location")
+                yield ChartPane(g, id="closeup-dispersion")
+                yield Static(id="closeup-cursor")
+            with Vertical(id="closeup-figures"):
+                yield Static(id="closeup-box")
+                yield Static(id="closeup-phases")
+                yield Static(id="closeup-trend")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one(CloseUpBody).focus()
+        self.show_line()
+
+    def on_resize(self, event: Resize) -> None:
+        wide = event.size.width >= WIDE_AT[0] and event.size.height >= WIDE_AT[1]
+        self.set_class(wide, "-wide")
+        self.call_after_refresh(self._draw_figures)
+
+    def show_line(self) -> None:
+        self.detail = self.lw.source.detail(self.characteristic)
+        cv = self.detail
+        loc = cv.location if cv else None
+        if loc and loc.values:
+            if self.cursor is None:
+                self.cursor = len(loc.values) - 1
+                if self.focus_index is not None and self.focus_index in loc.indices:
+                    self.cursor = loc.indices.index(self.focus_index)
+            self.cursor = min(self.cursor, len(loc.values) - 1)
+        self._draw()
+        super().show_line()
+
+    def _draw(self) -> None:
+        cv = self.detail
+        bar = self.query_one(TopBar)
+        if cv is None:
+            bar.show(self.lw.line, f"close-up {self.characteristic}", "gone from the line")
+            return
+        unit = f" [{cv.unit}]" if cv.unit else ""
+        bar.show(self.lw.line, f"close-up {cv.name}{unit}",
+                 f"{STATE_WORDS.get(cv.state, cv.state)}, {cv.points} points")
+        self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
+                                                            self.cursor)
+        self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
+        self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
+        self._draw_figures()
+
+    def _draw_figures(self) -> None:
+        cv = self.detail
+        if cv is None:
+            return
+        loc = cv.location
+        values = loc.values if loc else []
+        width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
+        self.query_one("#closeup-box", Static).update(Group(
+            Text(f"last {min(len(values), 100)} points against the spec limits", "bold"),
+            draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs),
+        ))
+        self.query_one("#closeup-phases", Static).update(Group(
+            Text("phases of limits", "bold"),
+            phase_table(cv.phases) if cv.phases else Text("no limits yet", palette.LABEL),
+        ))
+        self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
+
+    def _cursor_text(self, cv: view.CharacteristicView) -> Text:
+        loc = cv.location
+        text = Text(end="")
+        if cv.baseline_needed:
+            text.append(f"learning: {cv.baseline_needed} more points before limits exist\n",
+                        palette.STATE_STYLE[view.STATE_LEARNING])
+        if loc and self.cursor is not None and loc.values:
+            i = self.cursor
+            idx = loc.indices[i] if i < len(loc.indices) else i
+            text.append(f"cursor: point {idx} = {fmt_value(loc.values[i])}", "bold")
+            rules = loc.rules[i] if i < len(loc.rules) else ""
+            if rules:
+                text.append(f"  signals {rules}", palette.SIGNAL)
+            text.append("\n")
+        fired = sorted({r.strip() for rs in ((loc.rules if loc else []) +
+                                             (cv.dispersion.rules if cv.dispersion else []))
+                        for r in rs.split(",") if r.strip()})
+        if fired:
+            text.append("marks: ", palette.LABEL)
+            parts = []
+            for rule in fired:
+                spec = RULES.get(rule)
+                parts.append(f"{rule_digit(rule)}={rule} {spec.describe() if spec else ''}".strip())
+            text.append("; ".join(parts))
+        return text
+
+    def _trend_text(self, cv: view.CharacteristicView) -> Text:
+        values = cv.location.values[-TREND_WINDOW:] if cv.location else []
+        text = Text(f"trend over the last {len(values)} points\n", "bold", end="")
+        fit = trend(values)
+        if fit is None:
+            text.append("too few points", palette.LABEL)
+            return text
+        text.append(f"slope {fit.slope:+.4g} {cv.unit}/point   R² {fit.r2:.2f}   "
+                    f"adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
+        proj = project_to_spec(fit, cv.lsl, cv.usl)
+        if proj is None:
+            text.append("no significant trend towards a spec limit (p < 0.05 needed)",
+                        palette.LABEL)
+        else:
+            text.append(f"reaches {proj.limit_name} {fmt_value(proj.limit)} in about "
+                        f"{proj.points:.0f} points if it goes on", palette.SIGNAL)
+        return text
+
+    def action_move(self, step: int) -> None:
+        loc = self.detail.location if self.detail else None
+        if not loc or not loc.values or self.cursor is None:
+            return
+        self.cursor = max(0, min(len(loc.values) - 1, self.cursor + step))
+        self._draw()
+
+    def action_move_to(self, where: int) -> None:
+        loc = self.detail.location if self.detail else None
+        if not loc or not loc.values:
+            return
+        self.cursor = where if where >= 0 else len(loc.values) - 1
+        self._draw()
+
+    def action_back(self) -> None:
+        self.dismiss()
+
+    def action_new_baseline(self) -> None:
+        from linewatch.ui.screens.restart_panel import RestartChoice, RestartPanel
+
+        cv = self.detail
+        loc = cv.location if cv else None
+        if cv is None or not loc or not loc.values or self.cursor is None:
+            self.notify("no points to start a new phase at")
+            return
+        start = loc.indices[self.cursor] if self.cursor < len(loc.indices) else self.cursor
+        last = loc.indices[-1] if loc.indices else len(loc.values) - 1
+
+        def done(choice: RestartChoice | None) -> None:
+            if not choice:
+                return
+            try:
+                self.lw.actions.new_baseline(cv.name, choice.start_index, choice.reason)
+            except LinewatchError as exc:
+                self.notify(str(exc), title="not done", severity="error")
+                return
+            self.notify(f"new baseline for {cv.name} from point {choice.start_index}")
+
+        self.app.push_screen(RestartPanel(cv.name, start, last), done)

@@ -1,0 +1,116 @@
+"""Feed pulse: every followed file, its pace, rejected rows with the last reasons, rotations,
+staleness."""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult
+from textual.events import Resize
+from textual.widgets import DataTable, Footer, Static
+
+from linewatch import view
+from linewatch.ui import palette
+from linewatch.ui.formatting import fmt_age
+from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.top_bar import TopBar
+
+
+def short_path(path: str, width: int) -> str:
+    """Keep the end of a long path, where the file name is."""
+    return path if len(path) <= width else "..." + path[-(width - 3):]
+
+
+class FeedScreen(LineScreen):
+    """A row per file; the highlighted file's last rejected rows below."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self._columns_for = 0
+        self._file_width = 16
+
+    def compose(self) -> ComposeResult:
+        yield TopBar(id="topbar")
+        yield DataTable(id="feed-table", cursor_type="row")
+        yield Static(id="feed-rejects")
+        yield Footer()
+
+    @property
+    def table(self) -> DataTable[object]:
+        return self.query_one("#feed-table", DataTable)
+
+    def on_mount(self) -> None:
+        self._add_columns(self.app.size.width)
+        self.show_line()
+
+    def on_resize(self, event: Resize) -> None:
+        if event.size.width != self._columns_for:
+            self._add_columns(event.size.width)
+            self.show_line()
+
+    def _add_columns(self, width: int) -> None:
+        self._columns_for = width
+        self._file_width = max(16, width - 56)
+        t = self.table
+        t.clear(columns=True)
+        t.add_column("status", key="status", width=11)
+        t.add_column("file", key="file", width=self._file_width)
+        t.add_column("rows", key="rows", width=7)
+        t.add_column("rows/s", key="rate", width=6)
+        t.add_column("rej.", key="rejected", width=5)
+        t.add_column("rot/tr", key="rot", width=6)
+        t.add_column("age", key="age", width=4)
+
+    def show_line(self) -> None:
+        line = self.lw.line
+        keep = self.table.cursor_row
+        self.table.clear()
+        for f in line.feeds:
+            self.table.add_row(*self._cells(f, self._file_width), key=f.file)
+        if 0 <= keep < len(line.feeds):
+            self.table.move_cursor(row=keep)
+        stale = sum(1 for f in line.feeds if f.stale)
+        rejected = sum(f.rejected for f in line.feeds)
+        self.query_one(TopBar).show(line, "feed pulse",
+                                    f"{len(line.feeds)} files, {stale} stale, {rejected} rejected")
+        self._show_rejects()
+        super().show_line()
+
+    def tick_clock(self) -> None:
+        for f in self.lw.line.feeds:
+            self.table.update_cell(f.file, "age", fmt_age(self.lw.age_now(f.last_row_age)))
+
+    def _cells(self, f: view.FeedView, file_width: int) -> list[object]:
+        g = self.lw.glyphs
+        bad = f.stale or f.status in ("missing", "unreadable", "stale")
+        mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
+        return [
+            Text(f"{mark} {f.status}", "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
+            short_path(f.file, file_width),
+            f"{f.rows:,}",
+            f"{f.rows_per_second:.1f}",
+            Text(f"{f.rejected:,}", palette.SIGNAL if f.rejected else ""),
+            f"{f.rotations}/{f.truncations}",
+            fmt_age(self.lw.age_now(f.last_row_age)),
+        ]
+
+    @on(DataTable.RowHighlighted, "#feed-table")
+    def _moved(self) -> None:
+        self._show_rejects()
+
+    def _show_rejects(self) -> None:
+        feeds = self.lw.line.feeds
+        row = self.table.cursor_row
+        text = Text(end="")
+        if not feeds:
+            text.append("no file followed yet", palette.LABEL)
+        elif 0 <= row < len(feeds):
+            f = feeds[row]
+            text.append(f"{f.file}\n", "bold")
+            if f.last_rejects:
+                text.append(f"last rejected rows ({f.rejected} in all):\n")
+                for reason in f.last_rejects[-5:]:
+                    text.append(f"  {reason}\n", palette.SIGNAL)
+            else:
+                text.append("no rejected row", palette.LABEL)
+        self.query_one("#feed-rejects", Static).update(text)

@@ -1,0 +1,269 @@
+"""The alarm queue: open alarms, highest priority and newest first, acted on by keypress."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.events import Resize
+from textual.widgets import DataTable, Footer, Static
+
+from linewatch import view
+from linewatch.errors import LinewatchError
+from linewatch.ui import palette
+from linewatch.ui.formatting import ALARM_STATE_WORDS, fmt_clock, fmt_day_clock
+from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.top_bar import TopBar
+
+DEFAULT_REASONS = [
+    "tool wear",
+    "material lot change",
+    "gauge or measurement error",
+    "adjustment made",
+    "no cause found",
+]
+
+KIND_WORDS = {
+    "out-of-spec": "OUT OF SPEC",
+    "beyond-limits": "beyond limits",
+    "run-rule": "run rule",
+    "feed-health": "feed",
+}
+
+
+def sorted_alarms(alarms: list[view.AlarmView]) -> list[view.AlarmView]:
+    """Open before shelved before closed, then priority 1 first, then newest first."""
+    return sorted(alarms, key=lambda a: (a.state == view.NORMAL, a.state == view.SHELVED,
+                                         a.priority, -a.raised_at, -a.id))
+
+
+def reasons_for(alarm: view.AlarmView) -> list[str]:
+    """The characteristic's reason codes, or the defaults when the config gives none."""
+    return list(alarm.reasons) or list(DEFAULT_REASONS)
+
+
+class QueueTable(DataTable[object]):
+    """The queue's table: Enter acknowledges, and the footer says so."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("enter", "select_cursor", "Acknowledge")]
+
+
+class AlarmQueueScreen(LineScreen):
+    """Acknowledge, shelve and read the reaction plan of the highlighted alarm."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("enter", "acknowledge", "Acknowledge", show=False, tooltip="acknowledge the "
+                "highlighted alarm: a digit picks the reason, a note is optional, Enter confirms"),
+        Binding("k", "acknowledge", "Acknowledge", show=False,
+                tooltip="same as Enter: acknowledge the highlighted alarm"),
+        Binding("K", "acknowledge_all", "Ack all of char.",
+                tooltip="acknowledge every open alarm of the highlighted alarm's characteristic"),
+        Binding("s", "shelve", "Shelve", tooltip="shelve the highlighted alarm for a while"),
+        Binding("u", "unshelve", "Unshelve", tooltip="bring a shelved alarm back"),
+        Binding("c", "close_up", "Close-up", tooltip="close-up of the alarm's characteristic"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self._ids: list[int] = []
+        self._columns_for = 0
+
+    def compose(self) -> ComposeResult:
+        yield TopBar(id="topbar")
+        yield QueueTable(id="queue-table", cursor_type="row")
+        yield Static(id="queue-plan")
+        yield Footer()
+
+    @property
+    def table(self) -> DataTable[object]:
+        return self.query_one("#queue-table", DataTable)
+
+    def on_mount(self) -> None:
+        self._add_columns(self.app.size.width)
+        self.show_line()
+
+    def on_resize(self, event: Resize) -> None:
+        if event.size.width != self._columns_for:
+            self._add_columns(event.size.width)
+            self.show_line()
+
+    def _add_columns(self, width: int) -> None:
+        """Fixed columns, and what happened gets the rest, so state is never cut off."""
+        self._columns_for = width
+        char_width = 14 if width < 100 else 22
+        table = self.table
+        table.clear(columns=True)
+        table.add_column("P", key="prio", width=1)
+        table.add_column("raised", key="time", width=8)
+        table.add_column("characteristic", key="char", width=char_width)
+        fixed = 1 + 8 + char_width + 9 + 2 * 5 + 2  # the other columns, padding, scrollbar
+        table.add_column("what happened", key="what", width=max(12, width - fixed))
+        table.add_column("state", key="state", width=9)
+
+    def show_line(self) -> None:
+        line = self.lw.line
+        alarms = sorted_alarms(line.alarms)
+        keep = self.highlighted()
+        table = self.table
+        table.clear()
+        for a in alarms:
+            table.add_row(*self._cells(a), key=str(a.id))
+        self._ids = [a.id for a in alarms]
+        if keep is not None and keep.id in self._ids:
+            table.move_cursor(row=self._ids.index(keep.id))
+        self.query_one(TopBar).show(line, "alarm queue", f"{len(alarms)} alarms")
+        self._show_plan()
+        super().show_line()
+
+    def _cells(self, a: view.AlarmView) -> list[object]:
+        loud = "bold" if a.priority <= 2 else ""
+        what = Text(f"{KIND_WORDS.get(a.kind, a.kind)}: ", loud, no_wrap=True,
+                    overflow="ellipsis", end="")
+        what.append(a.description or a.rule)
+        if a.rule and a.kind in ("run-rule", "beyond-limits"):
+            what.append(f" ({a.rule})", palette.LABEL)
+        state_style = "bold reverse" if a.state == view.UNACKNOWLEDGED else ""
+        return [
+            Text(str(a.priority), loud),
+            fmt_clock(a.raised_at),
+            Text(a.characteristic, no_wrap=True, overflow="ellipsis"),
+            what,
+            Text(ALARM_STATE_WORDS.get(a.state, a.state), state_style),
+        ]
+
+    def highlighted(self) -> view.AlarmView | None:
+        """The alarm under the cursor, looked up by id in the current snapshot."""
+        if not self._ids or self.table.row_count == 0:
+            return None
+        row = self.table.cursor_row
+        if not 0 <= row < len(self._ids):
+            return None
+        wanted = self._ids[row]
+        return next((a for a in self.lw.line.alarms if a.id == wanted), None)
+
+    @on(DataTable.RowHighlighted, "#queue-table")
+    def _moved(self) -> None:
+        self._show_plan()
+
+    @on(DataTable.RowSelected, "#queue-table")
+    def _chosen(self, event: DataTable.RowSelected) -> None:
+        event.stop()
+        self.action_acknowledge()
+
+    def _show_plan(self) -> None:
+        a = self.highlighted()
+        text = Text(end="")
+        if a is None:
+            text.append("No alarm. Nothing to do.", palette.LABEL)
+        else:
+            text.append(f"#{a.id} {a.characteristic}", "bold")
+            where = f" {a.chart}" if a.chart else ""
+            if a.first_index is not None:
+                span = (f"point {a.first_index}" if a.first_index == a.last_index
+                        else f"points {a.first_index}-{a.last_index}")
+                where += f" {span}"
+            text.append(f"{where} | raised {fmt_day_clock(a.raised_at)}\n")
+            if a.acknowledged_by:
+                when = fmt_clock(a.acknowledged_at) if a.acknowledged_at else ""
+                text.append(f"acknowledged by {a.acknowledged_by} {when}: {a.reason or ''}")
+                if a.note:
+                    text.append(f" - {a.note}")
+                text.append("\n")
+            if a.state == view.SHELVED and a.shelved_until:
+                text.append(f"shelved until {fmt_clock(a.shelved_until)}: {a.reason or ''}\n")
+            text.append("reaction plan: ", "bold")
+            text.append(a.reaction_plan or "none given in the config", "" if a.reaction_plan
+                        else palette.LABEL)
+        self.query_one("#queue-plan", Static).update(text)
+
+    def _act(self, call: str, *args: object) -> bool:
+        """Call an action of the monitor; a refusal becomes a message, never a crash."""
+        try:
+            getattr(self.lw.actions, call)(*args)
+        except LinewatchError as exc:
+            self.notify(str(exc), title="not done", severity="error")
+            return False
+        return True
+
+    def action_acknowledge(self) -> None:
+        from linewatch.ui.screens.ack_panel import AckChoice, AckPanel
+
+        a = self.highlighted()
+        if a is None:
+            return
+        if a.state in (view.ACKNOWLEDGED, view.NORMAL):
+            self.notify(f"alarm #{a.id} is already {ALARM_STATE_WORDS.get(a.state, a.state)}")
+            return
+
+        def done(choice: AckChoice | None) -> None:
+            if choice and self._act("acknowledge", [a.id], choice.reason, choice.note):
+                self.notify(f"alarm #{a.id} acknowledged: {choice.reason}")
+
+        self.app.push_screen(
+            AckPanel(f"alarm #{a.id} {a.characteristic}: {a.description}", reasons_for(a)), done
+        )
+
+    def action_acknowledge_all(self) -> None:
+        from linewatch.ui.screens.ack_panel import AckChoice, AckPanel
+
+        a = self.highlighted()
+        if a is None:
+            return
+        name = a.characteristic
+        count = sum(
+            1 for x in self.lw.line.alarms
+            if x.characteristic == name and x.state in (view.UNACKNOWLEDGED,
+                                                        view.RETURNED_UNACKNOWLEDGED)
+        )
+
+        def done(choice: AckChoice | None) -> None:
+            if not choice:
+                return
+            try:
+                n = self.lw.actions.acknowledge_characteristic(name, choice.reason, choice.note)
+            except LinewatchError as exc:
+                self.notify(str(exc), title="not done", severity="error")
+                return
+            self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
+
+        self.app.push_screen(
+            AckPanel(f"all {count} unacknowledged alarms of {name}", reasons_for(a)), done
+        )
+
+    def action_shelve(self) -> None:
+        from linewatch.ui.screens.shelve_panel import ShelveChoice, ShelvePanel
+
+        a = self.highlighted()
+        if a is None:
+            return
+
+        def done(choice: ShelveChoice | None) -> None:
+            if choice and self._act("shelve", a.id, choice.seconds, choice.reason):
+                self.notify(f"alarm #{a.id} shelved for {choice.text}")
+
+        self.app.push_screen(ShelvePanel(f"alarm #{a.id} {a.characteristic}: {a.description}"),
+                             done)
+
+    def action_unshelve(self) -> None:
+        a = self.highlighted()
+        if a is None:
+            return
+        if a.state != view.SHELVED:
+            self.notify(f"alarm #{a.id} is not shelved")
+            return
+        if self._act("unshelve", a.id):
+            self.notify(f"alarm #{a.id} unshelved")
+
+    def action_close_up(self) -> None:
+        a = self.highlighted()
+        if a is None:
+            return
+        if not any(cv.name == a.characteristic for cv in self.lw.line.characteristics):
+            self.notify(f"no characteristic named {a.characteristic}")
+            return
+        from linewatch.ui.screens.close_up import CloseUpScreen
+
+        self.app.push_screen(CloseUpScreen(a.characteristic, focus_index=a.last_index))

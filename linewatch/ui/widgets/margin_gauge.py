@@ -1,0 +1,82 @@
+"""The spec-margin gauge of one characteristic: where mean ± 3σ sits between LSL and USL."""
+
+from __future__ import annotations
+
+from rich.text import Text
+
+from linewatch.ui import palette
+from linewatch.ui.formatting import fmt_fixed
+from linewatch.ui.glyphs import Glyphs
+from linewatch.view import CharacteristicView
+
+
+def gauge_bar(
+    mean: float | None,
+    sigma: float | None,
+    lsl: float | None,
+    usl: float | None,
+    width: int,
+    glyphs: Glyphs,
+    style: str = "",
+) -> Text:
+    """One line: `[` at LSL, `]` at USL, the ±3σ band as `=` and the mean marked.
+
+    The scale spans the spec limits and the band, whichever is wider, so a process spreading
+    past a limit shows its band crossing the bracket.
+    """
+    width = max(5, width)
+    if mean is None or sigma is None or (lsl is None and usl is None):
+        word = "no spec" if mean is not None else "-"
+        return Text(word.center(width), palette.LABEL)
+    lo_band, hi_band = mean - 3 * sigma, mean + 3 * sigma
+    ends = [v for v in (lsl, usl, lo_band, hi_band) if v is not None]
+    lo, hi = min(ends), max(ends)
+    pad = (hi - lo) * 0.04 or 1.0
+    lo, hi = lo - pad, hi + pad
+
+    def col(v: float) -> int:
+        return min(width - 1, max(0, round((v - lo) / (hi - lo) * (width - 1))))
+
+    cells = [(" ", "")] * width
+    left = col(lsl) if lsl is not None else 0
+    right = col(usl) if usl is not None else width - 1
+    for c in range(left, right + 1):
+        cells[c] = (glyphs.track, palette.LABEL)
+    for c in range(col(lo_band), col(hi_band) + 1):
+        cells[c] = (glyphs.band, style)
+    cells[col(mean)] = (glyphs.mean, style or "bold")
+    if lsl is not None:
+        cells[left] = ("[", palette.SPEC)
+    if usl is not None:
+        cells[right] = ("]", palette.SPEC)
+    text = Text(end="")
+    for ch, st in cells:
+        text.append(ch, st)
+    return text
+
+
+def gauge_figures(cv: CharacteristicView, glyphs: Glyphs, wide: bool) -> Text:
+    """Margin to the nearer spec limit in σ, Cpk and its 95% lower bound, judged by colour
+    (and by a word when wide)."""
+    style = palette.cpk_style(cv.cpk)
+    text = Text(end="")
+    margin = "-" if cv.margin_sigma is None else f"{cv.margin_sigma:.1f}{glyphs.sigma}"
+    text.append(f"{margin:>5} ", palette.LABEL)
+    text.append(f"Cpk {fmt_fixed(cv.cpk)}", style)
+    if cv.cpk_lower95 is not None:
+        text.append(f" >{fmt_fixed(cv.cpk_lower95)}", palette.cpk_style(cv.cpk_lower95))
+    word = palette.cpk_word(cv.cpk)
+    if wide and word:
+        text.append(f" {word}", style)
+    return text
+
+
+def margin_gauge(cv: CharacteristicView, width: int, glyphs: Glyphs, wide: bool = False) -> Text:
+    """Two lines for the overview: the bar, then the figures."""
+    style = palette.cpk_style(cv.cpk)
+    bar = gauge_bar(cv.recent_mean, cv.recent_sigma, cv.lsl, cv.usl, width, glyphs, style)
+    out = Text(end="")
+    out.append_text(bar)
+    out.append("\n")
+    out.append_text(gauge_figures(cv, glyphs, wide))
+    return out

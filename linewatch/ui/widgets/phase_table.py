@@ -1,0 +1,26 @@
+"""The per-phase figures of one characteristic as a Rich table."""
+
+from __future__ import annotations
+
+from rich.table import Table
+
+from linewatch.ui import palette
+from linewatch.ui.formatting import fmt_fixed, fmt_value
+from linewatch.view import PhaseStats
+
+
+def phase_table(phases: list[PhaseStats]) -> Table:
+    """N, mean, SD, 95% CI of the mean, Cp, Cpk with its 95% interval and ppm out of spec."""
+    table = Table(box=None, pad_edge=False, header_style="bold", expand=False, padding=(0, 1, 0, 0))
+    for name in ("ph", "from", "N", "mean", "SD", "mean 95% CI", "Cp", "Cpk", "Cpk 95% CI",
+                 "ppm"):
+        table.add_column(name, justify="right", no_wrap=True)
+    for p in phases:
+        ci = f"{fmt_value(p.ci95[0])}..{fmt_value(p.ci95[1])}" if p.ci95 else "-"
+        cpk_ci = f"{fmt_fixed(p.cpk_ci95[0])}..{fmt_fixed(p.cpk_ci95[1])}" if p.cpk_ci95 else "-"
+        ppm = "-" if p.ppm_out is None else f"{p.ppm_out:,.0f}"
+        table.add_row(
+            str(p.phase), str(p.start_index), str(p.n), fmt_value(p.mean), fmt_value(p.stdev, 3),
+            ci, fmt_fixed(p.cp), f"[{palette.cpk_style(p.cpk)}]{fmt_fixed(p.cpk)}[/]", cpk_ci, ppm,
+        )
+    return table

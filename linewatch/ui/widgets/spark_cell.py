@@ -1,0 +1,72 @@
+"""A two-line overview cell: Textual's sparkline of recent points over a row of signal markers."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from rich.console import Console, ConsoleOptions, RenderResult
+from rich.measure import Measurement
+from rich.segment import Segment
+from rich.style import Style
+from rich.text import Text
+from textual.renderables.sparkline import Sparkline
+
+from linewatch.ui import palette
+from linewatch.ui.formatting import rule_digit
+from linewatch.ui.glyphs import Glyphs
+
+
+class _AsciiSparkline(Sparkline[float]):
+    """Textual's sparkline drawn with ASCII bars for the Linux console."""
+
+    BARS = "_.-~=+*#"
+
+
+class SparkCell:
+    """The last `width` points, one bar each, with the rule number under every signalling point.
+
+    One bar per point (never bucketed) so a marker sits exactly under its point; fewer points than
+    the width are right-aligned so the newest point is always at the right edge.
+    """
+
+    def __init__(
+        self, values: Sequence[float], rules: Sequence[str], width: int, glyphs: Glyphs
+    ) -> None:
+        self.width = max(1, width)
+        self.values = [float(v) for v in values[-self.width :]]
+        tail = list(rules[-len(self.values) :]) if self.values else []
+        self.rules = tail + [""] * (len(self.values) - len(tail))
+        self.glyphs = glyphs
+
+    def _bars(self, console: Console, options: ConsoleOptions) -> list[Segment]:
+        n = len(self.values)
+        if n == 0:
+            return [Segment(" " * self.width)]
+        pad = [Segment(" " * (self.width - n))] if n < self.width else []
+        if n == 1:
+            return [*pad, Segment(self.glyphs.spark_bars[3], Style.parse(palette.SPARK_HIGH))]
+        cls = _AsciiSparkline if self.glyphs.ascii else Sparkline
+        spark = cls(
+            self.values,
+            width=n,
+            height=1,
+            min_color=Style.parse(palette.SPARK_LOW).color,
+            max_color=Style.parse(palette.SPARK_HIGH).color,
+        )
+        return [*pad, *console.render(spark, options.update(width=n, height=1))]
+
+    def markers(self) -> Text:
+        """The marker row on its own (also what the tests read)."""
+        text = Text(" " * (self.width - len(self.values)), end="")
+        for rules in self.rules:
+            mark = rule_digit(rules)
+            text.append(mark or " ", palette.SIGNAL if mark else "")
+        return text
+
+    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
+        yield from (s for s in self._bars(console, options) if s.text != "\n")
+        yield Segment.line()
+        yield from console.render(self.markers(), options.update(width=self.width))
+
+    def __rich_measure__(self, console: Console, options: ConsoleOptions) -> Measurement:
+        return Measurement(self.width, self.width)
