@@ -1,0 +1,376 @@
+"""The recorded sample feeds in `sample_feeds/`: invented logs from the extrusion line with
+special causes placed at known rows, and the table of what `linewatch check` should find.
+
+Regenerate (the files are committed; this is only needed after changing a sample):
+
+    python -m linewatch.simulation.samples sample_feeds
+
+Each sample is built from seeded normal noise plus causes added at fixed row numbers. While
+building, every value's plotted-point index and file line are tracked, so the documented windows
+(index and line ranges where a rule must fire) follow from the construction, not from the engine.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from datetime import datetime, timedelta, timezone
+from pathlib import Path
+
+import numpy as np
+
+START = datetime(2026, 3, 2, 6, 0, 0, tzinfo=timezone(timedelta(hours=1)))
+
+
+@dataclass(frozen=True, slots=True)
+class Expect:
+    """A rule that must fire on `chart` of `characteristic` at a plotted index in [first, last]."""
+
+    characteristic: str
+    chart: str
+    rule: str
+    first: int
+    last: int
+    why: str
+
+
+@dataclass(slots=True)
+class Built:
+    """One sample: its bytes, what must be found in it, and where the junk rows are."""
+
+    file: str
+    title: str
+    layout: str
+    story: str
+    data: bytes
+    expects: list[Expect]
+    quiet: dict[str, int]  # characteristic -> no signal on any of its charts before this index
+    rejected_lines: list[int]
+    line_of: dict[str, list[int]] = field(default_factory=dict)  # per characteristic, per value
+    subgroup: dict[str, int] = field(default_factory=dict)
+
+    def lines_for(self, e: Expect) -> tuple[int, int]:
+        """File lines of the plotted points first..last (a subgroup's line is its last row's)."""
+        n = self.subgroup.get(e.characteristic, 1)
+        lines = self.line_of[e.characteristic]
+        return lines[(e.first + 1) * n - 1], lines[min((e.last + 1) * n, len(lines)) - 1]
+
+
+class _Lines:
+    """Collects a file's lines and, per characteristic, the line of each good value."""
+
+    def __init__(self) -> None:
+        self.out: list[bytes] = []
+        self.line_of: dict[str, list[int]] = {}
+        self.rejected: list[int] = []
+
+    def add(self, text: str | bytes, values: tuple[str, ...] = (), junk: bool = False) -> None:
+        self.out.append(text if isinstance(text, bytes) else text.encode("utf-8"))
+        line = len(self.out)
+        for name in values:
+            self.line_of.setdefault(name, []).append(line)
+        if junk:
+            self.rejected.append(line)
+
+    def data(self) -> bytes:
+        return b"".join(x if x.endswith(b"\n") else x + b"\n" for x in self.out)
+
+
+def _stamp(seconds: float) -> str:
+    return (START + timedelta(seconds=seconds)).isoformat(timespec="seconds")
+
+
+def _comma(x: float, decimals: int) -> str:
+    return f"{x:.{decimals}f}".replace(".", ",")
+
+
+def extrusion_wide(seed: int) -> Built:
+    """Wide comma CSV: diameter (subgroups of 5), wall and melt temperature in one row."""
+    rng = np.random.default_rng(seed)
+    n = 300
+    od = 12.000 + 0.012 * rng.standard_normal(n)
+    od[150:] += 2.0 * 0.012  # material lot change
+    wall = 1.500 + 0.010 * rng.standard_normal(n)
+    wall[60:180] += np.linspace(0.0, 4.0, 120) * 0.010  # die wear, then a die change
+    melt = 215.0 + 0.8 * rng.standard_normal(n)
+    melt[100:130] = 215.0 + 3.5 * 0.8 * rng.standard_normal(30)  # heater band cycling
+    names = ("od_mm", "wall_mm", "melt_temp_c")
+    out = _Lines()
+    out.add("time,coil,od_mm,wall_mm,melt_temp_c")
+    junk_after = {40: "12.004,n/a,214.9", 120: ",1.497,215.3", 250: "12.031,1.502"}
+    for i in range(n):
+        coil = f"C{3200 + i // 100:05d}"
+        if i == 220:
+            out.add("# winder restarted the gauge PC")
+            out.add("time,coil,od_mm,wall_mm,melt_temp_c")
+        out.add(f"{_stamp(2 * i)},{coil},{od[i]:.3f},{wall[i]:.3f},{melt[i]:.1f}", names)
+        if i in junk_after:
+            out.add(f"{_stamp(2 * i + 1)},{coil},{junk_after[i]}", junk=True)
+    return Built(
+        file="extrusion_wide.csv",
+        title="Wide CSV: one row per tube section, three gauges",
+        layout="wide, comma",
+        story="Diameter readings form subgroups of 5 consecutive rows. A new material lot "
+        "arrives at data row 151 (diameter +2σ). The die wears from data row 61 to 180 (wall "
+        "rises linearly by 4σ) and is changed after that. The melt-temperature heater band "
+        "cycles between data rows 101 and 130 (σ × 3.5). Three junk rows and a restarted "
+        "writer (a comment line plus the header repeated) sit in the file.",
+        data=out.data(),
+        expects=[
+            Expect("outer-diameter", "xbar", "we1", 30, 32, "material lot change: +2σ"),
+            Expect("outer-diameter", "xbar", "we4", 30, 37, "material lot change: +2σ"),
+            Expect("wall-thickness", "individuals", "we4", 60, 179, "die wear: drift up 4σ"),
+            Expect("wall-thickness", "individuals", "we2", 60, 179, "die wear: drift up 4σ"),
+            Expect("melt-temperature", "individuals", "we1", 100, 129, "heater band cycling"),
+            Expect("melt-temperature", "moving-range", "we1", 100, 130, "heater band cycling"),
+        ],
+        quiet={"outer-diameter": 30, "wall-thickness": 60, "melt-temperature": 100},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+        subgroup={"od_mm": 5},
+    )
+
+
+def wall_station(seed: int) -> Built:
+    """Semicolon CSV with decimal comma from the older wall station (Nelson rules)."""
+    rng = np.random.default_rng(seed)
+    n = 320
+    wall = 1.500 + 0.010 * rng.standard_normal(n)
+    wall[120:150] = 1.500 + 0.0015 * rng.standard_normal(30)  # station averaging readings
+    ramp = np.arange(8)
+    wall[200:208] = 1.500 + 0.010 * (0.6 * ramp - 2.0) + 0.0005 * rng.standard_normal(8)
+    sign = np.where(np.arange(20) % 2 == 0, 1.0, -1.0)
+    wall[250:270] = 1.500 + 0.010 * (1.4 * sign + 0.1 * rng.standard_normal(20))  # two heads
+    oval = 1.20 + 0.15 * rng.standard_normal(n)
+    oval[160:] += 1.5 * 0.15  # puller belt pressure changed
+    names = ("wall_mm", "ovality_pct")
+    out = _Lines()
+    out.add("time;coil;wall_mm;ovality_pct")
+    junk_after = {
+        40: "OVERRANGE;1,21",
+        90: ";1,18",
+        175: "1,503",
+    }
+    for i in range(n):
+        coil = f"C{3300 + i // 80:05d}"
+        out.add(f"{_stamp(5 * i)};{coil};{_comma(wall[i], 4)};{_comma(oval[i], 2)}", names)
+        if i in junk_after:
+            out.add(f"{_stamp(5 * i + 2)};{coil};{junk_after[i]}", junk=True)
+        if i == 230:
+            out.add(b"\xff\xfe\x81\x9c\xe2\x28\xa1 station buffer\n", junk=True)
+    return Built(
+        file="wall_station_semicolon.csv",
+        title="Semicolon CSV with decimal comma: the older wall station",
+        layout="wide, ';' delimiter, decimal comma",
+        story="Wall thickness is charted as individuals with all eight Nelson rules. Data rows "
+        "121–150: the station averages its readings (points hug the centre line). Rows "
+        "201–208: a steady rise of 0.6σ per point (a centring screw turned step by step). "
+        "Rows 251–270: readings alternate ±1.4σ (two measuring heads out of calibration "
+        "against each other). Ovality steps up 1.5σ from row 161 (puller belt pressure). "
+        "Four junk rows: a text value, an empty value, a missing field and binary noise.",
+        data=out.data(),
+        expects=[
+            Expect("wall-thickness", "individuals", "n7", 120, 149, "readings averaged"),
+            Expect("wall-thickness", "individuals", "n3", 203, 207, "steady rise"),
+            Expect("wall-thickness", "individuals", "n8", 257, 269, "two heads alternate"),
+            Expect("wall-thickness", "individuals", "n4", 262, 269, "two heads alternate"),
+            Expect("ovality", "individuals", "we4", 160, 200, "belt pressure step +1.5σ"),
+        ],
+        quiet={"wall-thickness": 120, "ovality": 160},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
+def lab_long(seed: int) -> Built:
+    """Long CSV: the quality lab's test results, one characteristic name and value per row."""
+    rng = np.random.default_rng(seed)
+    n = 120
+    tensile = 24.0 + 0.6 * rng.standard_normal(n)
+    tensile[45] = 24.0 + 7.0 * 0.6  # sample clamped crooked in the tester
+    burst = 62.0 + 1.5 * rng.standard_normal(n)
+    burst[80:] -= 3.5 * 1.5  # material lot with low molecular weight
+    out = _Lines()
+    out.add("time,sample,characteristic,value")
+    for i in range(n):
+        sample = f"L{7000 + i}"
+        out.add(f"{_stamp(600 * i)},{sample},tensile_mpa,{tensile[i]:.2f}", ("tensile_mpa",))
+        out.add(f"{_stamp(600 * i + 60)},{sample},burst_bar,{burst[i]:.1f}", ("burst_bar",))
+        if i == 30:
+            out.add(f"{_stamp(600 * i + 90)},{sample},burst_bar,leak at clamp", junk=True)
+        if i == 70:
+            out.add(f"{_stamp(600 * i + 90)},{sample},tensile_mpa,", junk=True)
+    return Built(
+        file="lab_long.csv",
+        title="Long CSV: lab results, one characteristic per row",
+        layout="long (characteristic, value)",
+        story="Every ten minutes the lab tests one tube sample for tensile strength and burst "
+        "pressure. Sample 46 of the tensile series was clamped crooked (+7σ). From sample 81 "
+        "on, burst pressure drops 3.5σ (a material lot with a lower melt strength). Two junk "
+        "rows: a note typed into the value field and an empty value.",
+        data=out.data(),
+        expects=[
+            Expect("tensile-strength", "individuals", "we1", 45, 45, "sample clamped crooked"),
+            Expect("tensile-strength", "moving-range", "we1", 45, 46, "sample clamped crooked"),
+            Expect("burst-pressure", "individuals", "we1", 80, 84, "weak material lot: -3.5σ"),
+            Expect("burst-pressure", "individuals", "we4", 80, 87, "weak material lot: -3.5σ"),
+        ],
+        quiet={"tensile-strength": 45, "burst-pressure": 80},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
+def fill_scale(seed: int) -> Built:
+    """JSON lines from the packing scale: fill weight (Nelson) and sealing-jaw temperature."""
+    rng = np.random.default_rng(seed)
+    n = 360
+    fill = 500.5 + 1.2 * rng.standard_normal(n)
+    fill[100:125] = 500.9  # display frozen
+    fill[220:] -= 2.0 * 1.2  # auger flights worn: under-fill
+    seal = 165.0 + 0.5 * rng.standard_normal(n)
+    seal[300:303] += 5.0 * 0.5  # heater controller overshoot
+    out = _Lines()
+    junk = {
+        50: '{"time": "%s", "bag": "B%06d", "fill_g": "ERR", "seal_c": 165.1}',
+        150: '{"time": "%s", "bag": "B%06d", "fill_g": null, "seal_c": 164.8}',
+        250: '{"time": "%s", "bag": "B%06d", "fill_g": 49',
+    }
+    for i in range(n):
+        record = {
+            "time": _stamp(4 * i),
+            "bag": f"B{i + 1:06d}",
+            "head": "H1" if i % 2 == 0 else "H2",
+            "fill_g": round(float(fill[i]), 1),
+            "seal_c": round(float(seal[i]), 1),
+        }
+        out.add(json.dumps(record), ("fill_g", "seal_c"))
+        if i in junk:
+            out.add(junk[i] % (_stamp(4 * i + 2), i + 1), junk=True)
+        if i == 330:
+            out.add(b"\x9f\x00\xff\xfe\x12scale reboot\n", junk=True)
+    return Built(
+        file="fill_scale.jsonl",
+        title="JSON lines: the packing scale",
+        layout="JSON lines (wide objects)",
+        story="One object per bag. Fill weight uses the Nelson rules. Bags 101–125: the "
+        "scale's display froze at 500.9 g (a stuck gauge looks like a perfectly steady "
+        "process). From bag 221 the auger's flights are worn and bags are 2σ light. The "
+        "sealing-jaw temperature overshoots +5σ for bags 301–303. Four junk rows: a text "
+        "value, a null, an object cut off mid-write and binary noise.",
+        data=out.data(),
+        expects=[
+            Expect("fill-weight", "individuals", "n2", 100, 108, "display frozen at 500.9 g"),
+            Expect("fill-weight", "individuals", "n7", 100, 114, "display frozen at 500.9 g"),
+            Expect("fill-weight", "individuals", "n5", 220, 240, "worn auger: -2σ"),
+            Expect("fill-weight", "individuals", "n2", 221, 240, "worn auger: -2σ"),
+            Expect("seal-temperature", "individuals", "we1", 300, 302, "heater overshoot"),
+        ],
+        quiet={"fill-weight": 100, "seal-temperature": 300},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
+# Which builder, with which seed, makes which file; the config for each is config/<stem>.toml.
+SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
+    "extrusion_wide": (extrusion_wide, 4),
+    "wall_station_semicolon": (wall_station, 43),
+    "lab_long": (lab_long, 14),
+    "fill_scale": (fill_scale, 90),
+}
+
+CHARACTERISTIC_COLUMNS = {
+    "outer-diameter": "od_mm",
+    "wall-thickness": "wall_mm",
+    "melt-temperature": "melt_temp_c",
+    "ovality": "ovality_pct",
+    "tensile-strength": "tensile_mpa",
+    "burst-pressure": "burst_bar",
+    "fill-weight": "fill_g",
+    "seal-temperature": "seal_c",
+}
+
+
+def build(stem: str, seed: int | None = None) -> Built:
+    """Build one sample (with its recorded seed unless another is given)."""
+    builder, recorded = SAMPLES[stem]
+    built = builder(recorded if seed is None else seed)
+    # Index windows are per characteristic name; line lookups go by column.
+    built.line_of = {
+        name: built.line_of[col] for name, col in CHARACTERISTIC_COLUMNS.items()
+        if col in built.line_of
+    }
+    built.subgroup = {
+        name: built.subgroup[col] for name, col in CHARACTERISTIC_COLUMNS.items()
+        if col in built.subgroup
+    }
+    return built
+
+
+def readme_section(stem: str, built: Built) -> str:
+    """The Markdown section documenting one sample (parsed back by the sample tests)."""
+    rows = [
+        f"## {built.file}",
+        "",
+        f"**{built.title}.** Layout: {built.layout}. Config: `config/{stem}.toml`.",
+        "",
+        built.story,
+        "",
+        "```",
+        f"linewatch check sample_feeds/{built.file} -c config/{stem}.toml --format jsonl",
+        "```",
+        "",
+        "| characteristic | chart | rule | points (0-based index) | file lines | cause |",
+        "|---|---|---|---|---|---|",
+    ]
+    for e in built.expects:
+        lo, hi = built.lines_for(e)
+        rows.append(
+            f"| {e.characteristic} | {e.chart} | {e.rule} | {e.first}–{e.last} | {lo}–{hi} "
+            f"| {e.why} |"
+        )
+    rows.append("")
+    quiet = ", ".join(f"{name} before point {idx}" for name, idx in built.quiet.items())
+    rows.append(f"Quiet (no signal on any chart): {quiet}.")
+    rows.append("")
+    rows.append(f"Rejected lines: {', '.join(str(x) for x in built.rejected_lines)}.")
+    rows.append("")
+    return "\n".join(rows)
+
+
+README_HEAD = """# Sample feeds
+
+Recorded logs from an invented tube-extrusion line (demo data, not from any real plant), each
+with special causes placed at known rows. `tests/test_samples.py` runs `linewatch check` on every
+sample with its config and asserts that each rule in the tables below fires on the named
+characteristic and chart inside the stated window of plotted points (and file lines), that the
+stretch before the first cause is quiet, and that exactly the listed junk lines are rejected.
+
+A rule is listed with a window, not a single point, when the exact first point depends on the
+noise around the change (a run that started before the change counts too). The windows follow
+from how each file was built (`linewatch/simulation/samples.py`, fixed seeds); regenerate with
+`python -m linewatch.simulation.samples sample_feeds`.
+
+Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; a
+moving range takes the index of the later of its two points); lines count file lines from 1,
+header included. Limits come from each config's `baseline` (the quiet first part).
+
+"""
+
+
+def write_samples(folder: Path) -> None:
+    """Write every sample file and the README that documents them into `folder`."""
+    folder.mkdir(parents=True, exist_ok=True)
+    sections = [README_HEAD]
+    for stem in SAMPLES:
+        built = build(stem)
+        (folder / built.file).write_bytes(built.data)
+        sections.append(readme_section(stem, built))
+    (folder / "README.md").write_text("\n".join(sections), encoding="utf-8")
+
+
+if __name__ == "__main__":
+    write_samples(Path(sys.argv[1] if len(sys.argv) > 1 else "sample_feeds"))
