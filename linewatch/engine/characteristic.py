@@ -21,7 +21,7 @@ from linewatch.engine.limits import (
     given_limits,
 )
 from linewatch.engine.rulebook import BEYOND, RuleSpec
-from linewatch.engine.rules import evaluate
+from linewatch.engine.rules import classify, evaluate_classified
 from linewatch.engine.stream import ChartLimitsState, ChartRules
 from linewatch.errors import NotEnoughData
 
@@ -111,7 +111,9 @@ def _limit_state(lim: ChartLimits) -> ChartLimitsState:
 
 def _evaluate_series(values, lim: ChartLimits, specs) -> dict[str, np.ndarray]:
     st = _limit_state(lim)
-    return {s.id: evaluate(s, values, st.center, st.sigma, st.ucl, st.lcl) for s in specs}
+    x = np.asarray(values, dtype=float)
+    side, level = classify(x, st.center, st.sigma, st.ucl, st.lcl)  # once for every rule
+    return {s.id: evaluate_classified(s, x, side, level) for s in specs}
 
 
 def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
