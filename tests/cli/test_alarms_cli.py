@@ -1,0 +1,158 @@
+"""`linewatch alarms` from the shell, as real processes, against a real store."""
+
+from __future__ import annotations
+
+import getpass
+import json
+import time
+from pathlib import Path
+
+import pytest
+from store_fixtures import line_with_alarms, linewatch
+
+from linewatch.store.db import Store
+from linewatch.view import SHELVED, UNACKNOWLEDGED
+
+KEYS = [
+    "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index", "raised_at",
+    "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note", "shelved_until",
+]
+
+
+@pytest.fixture
+def state(tmp_path: Path) -> Path:
+    line_with_alarms(tmp_path / "state")
+    return tmp_path / "state"
+
+
+def test_list_jsonl_open_alarms_with_exact_keys(state: Path) -> None:
+    result = linewatch("alarms", "list", "--format", "jsonl", "--state-dir", str(state))
+    assert result.returncode == 0, result.stderr
+    records = [json.loads(line) for line in result.stdout.splitlines()]
+    assert all(list(r) == KEYS for r in records)
+    # Most urgent first: out-of-spec (priority 1) before a run rule (priority 3).
+    assert [(r["id"], r["kind"], r["priority"]) for r in records] == [
+        (3, "out-of-spec", 1), (2, "run-rule", 3)
+    ]
+    assert records[0]["rule"] == "usl" and records[0]["first_index"] == 1
+    assert records[0]["state"] == UNACKNOWLEDGED
+
+
+def test_list_all_includes_closed(state: Path) -> None:
+    result = linewatch("alarms", "list", "--all", "--format", "jsonl", "--state-dir", str(state))
+    records = {json.loads(line)["id"]: json.loads(line) for line in result.stdout.splitlines()}
+    assert sorted(records) == [1, 2, 3]
+    assert records[1]["state"] == "normal"
+    assert (records[1]["acknowledged_by"], records[1]["reason"]) == ("setter", "tool wear")
+
+
+def test_list_text_is_a_table(state: Path, tmp_path: Path) -> None:
+    result = linewatch("alarms", "list", "--state-dir", str(state))
+    lines = result.stdout.splitlines()
+    assert lines[0].split()[:3] == ["ID", "PRI", "STATE"]
+    assert [line.split()[0] for line in lines[1:]] == ["3", "2"]
+    Store(tmp_path / "empty").close()
+    assert linewatch("alarms", "list", "--state-dir", str(tmp_path / "empty")).stdout == (
+        "no open alarms\n"
+    )
+
+
+def test_ack_from_the_shell_shows_in_an_open_store_within_a_second(state: Path) -> None:
+    with Store(state, create=False) as watcher:  # as an attached screen holds it
+        version = watcher.data_version()
+        result = linewatch(
+            "alarms", "ack", "2", "3", "--reason", "2", "--note", "new lot 4711",
+            "--state-dir", str(state), env={"SSH_CLIENT": "192.0.2.7 51234 22"},
+        )
+        assert result.returncode == 0, result.stderr
+        seen = time.monotonic()
+        deadline = seen + 1.0
+        while watcher.data_version() == version and time.monotonic() < deadline:
+            time.sleep(0.05)
+        assert watcher.data_version() != version
+        alarm = watcher.alarms.get(3)
+        assert alarm is not None and alarm.acknowledged
+        assert (alarm.acknowledged_by, alarm.acknowledged_from) == (getpass.getuser(), "192.0.2.7")
+        assert (alarm.reason, alarm.note) == ("material lot change", "new lot 4711")
+        assert watcher.audit.entries()[-1].actor == f"{getpass.getuser()}@192.0.2.7"
+        assert watcher.audit.verify().ok
+
+
+def test_ack_a_whole_characteristic(state: Path) -> None:
+    result = linewatch(
+        "alarms", "ack", "--characteristic", "wall", "--reason", "Adjustment made",
+        "--state-dir", str(state),
+    )
+    assert result.returncode == 0, result.stderr
+    assert "acknowledged 1 alarm of wall" in result.stdout
+    with Store(state, create=False) as store:
+        assert [a.id for a in store.alarms.open() if a.acknowledged] == [3]
+
+
+def audit_size(state: Path) -> int:
+    with Store(state, create=False) as store:
+        return len(store.audit.entries())
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["alarms", "ack", "2", "42", "--reason", "tool wear"], "no alarm with id 42"),
+        (["alarms", "ack", "2", "--reason", ""], "a reason is required"),
+        (["alarms", "ack", "2", "--reason", "sunspots"], "unknown reason 'sunspots'"),
+        (["alarms", "ack", "--reason", "tool wear"], "give the ids"),
+        (["alarms", "ack", "2", "--characteristic", "od", "--reason", "1"], "not both"),
+        (["alarms", "shelve", "2", "--for", "soon", "--reason", "trial"], "--for: not a duration"),
+        (["alarms", "shelve", "2", "--for", "30m", "--reason", ""], "reason is required"),
+        (["alarms", "shelve", "1", "--for", "30m", "--reason", "x"], "alarm 1 is closed"),
+        (["alarms", "unshelve", "2"], "alarm 2 is not shelved"),
+    ],
+)
+def test_bad_input_is_one_line_exit_2_and_changes_nothing(
+    state: Path, args: list[str], message: str
+) -> None:
+    before = audit_size(state)
+    result = linewatch(*args, "--state-dir", str(state))
+    assert result.returncode == 2
+    assert result.stderr.count("\n") == 1 and message in result.stderr
+    assert "Traceback" not in result.stderr
+    assert audit_size(state) == before
+    with Store(state, create=False) as store:
+        assert not store.alarms.get(2).acknowledged  # type: ignore[union-attr]
+
+
+def test_not_a_state_directory(tmp_path: Path) -> None:
+    for args in (["alarms", "list"], ["alarms", "ack", "1", "--reason", "1"], ["audit", "verify"]):
+        result = linewatch(*args, "--state-dir", str(tmp_path))
+        assert result.returncode == 2
+        assert "is not a linewatch state directory" in result.stderr
+    assert list(tmp_path.iterdir()) == []  # nothing was created
+
+
+def test_shelve_and_unshelve(state: Path) -> None:
+    result = linewatch(
+        "alarms", "shelve", "2", "--for", "1h30m", "--reason", "die change",
+        "--state-dir", str(state),
+    )
+    assert result.returncode == 0, result.stderr
+    with Store(state, create=False) as store:
+        alarm = store.alarms.get(2)
+        assert alarm is not None and alarm.state(time.time()) == SHELVED
+        assert abs(alarm.shelved_until - time.time() - 5400) < 60  # type: ignore[operator]
+    listed = linewatch("alarms", "list", "--format", "jsonl", "--state-dir", str(state))
+    by_id = {json.loads(x)["id"]: json.loads(x) for x in listed.stdout.splitlines()}
+    assert by_id[2]["state"] == SHELVED and by_id[2]["shelved_until"]
+    assert linewatch("alarms", "unshelve", "2", "--state-dir", str(state)).returncode == 0
+    with Store(state, create=False) as store:
+        assert [e.action for e in store.audit.entries()[-2:]] == ["shelved", "unshelved"]
+
+
+def test_state_dir_from_the_config(tmp_path: Path) -> None:
+    line_with_alarms(tmp_path / "line-state")
+    (tmp_path / "line.toml").write_text(
+        '[monitor]\nstate_dir = "line-state"\n'
+        '[[characteristic]]\nname = "od"\nreasons = ["die wear", "melt temperature"]\n'
+    )
+    result = linewatch("alarms", "ack", "2", "--reason", "die wear", "-c",
+                       str(tmp_path / "line.toml"))
+    assert result.returncode == 0, result.stderr
