@@ -155,3 +155,31 @@ def test_samples_match_their_recorded_construction() -> None:
         built = build(stem)
         assert (ROOT / "sample_feeds" / built.file).read_bytes() == built.data
         assert readme_section(stem, built) in readme
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "config").glob("*.toml")), ids=lambda p: p.name)
+def test_every_config_file_loads(path: Path) -> None:
+    from linewatch.config import load_config
+
+    config = load_config(path)
+    assert config.feeds and config.characteristics
+
+
+def test_example_config_shows_every_key() -> None:
+    # Every key the config model reads appears (set or commented out) in the example.
+    from dataclasses import fields
+
+    from linewatch.config import (
+        ALARM_KINDS,
+        AlarmConfig,
+        CharacteristicConfig,
+        FeedConfig,
+        MonitorConfig,
+    )
+
+    text = (ROOT / "config" / "linewatch.example.toml").read_text(encoding="utf-8")
+    shown = set(re.findall(r"^(?:# )?([\w-]+) = ", text, flags=re.M))
+    for model in (MonitorConfig, AlarmConfig, FeedConfig, CharacteristicConfig):
+        missing = {f.name for f in fields(model)} - shown
+        assert not missing, f"{model.__name__}: {missing}"
+    assert set(ALARM_KINDS) <= shown

@@ -121,15 +121,17 @@ class TimeColumn(Sequence[str | None]):
 class Batch:
     """Readings of one file, column by column, plus the rows that could not become points.
 
-    `values[c]` (float64) and `lines[c]` (1-based, int64) are numpy arrays in file order;
-    `times[c]` is a sequence of time strings (or None). `rows` counts data rows that gave at
-    least one value.
+    `values[c]`, `lines[c]` (1-based) and `times[c]` (text or None) run in file order. A
+    RowParser gives plain lists; `read_log` gives numpy arrays (float64, int64) and a lazy
+    `TimeColumn`, so a million rows never become a million Python objects. Both index, iterate
+    and take `len()` alike; use `np.asarray` or `len(v) == 0` rather than truth tests.
+    `rows` counts data rows that gave at least one value.
     """
 
     file: str
-    values: dict[str, np.ndarray] = field(default_factory=dict)
-    lines: dict[str, np.ndarray] = field(default_factory=dict)
-    times: dict[str, TimeColumn] = field(default_factory=dict)
+    values: dict[str, Any] = field(default_factory=dict)  # list[float] | float64 array
+    lines: dict[str, Any] = field(default_factory=dict)  # list[int] | int64 array
+    times: dict[str, Any] = field(default_factory=dict)  # list[str | None] | TimeColumn
     rejected: list[Rejected] = field(default_factory=list)
     rows: int = 0
 
@@ -147,7 +149,7 @@ class Batch:
         """Every value as a `Reading`, characteristic by characteristic (for small batches)."""
         for name, vals in self.values.items():
             lines, times = self.lines[name], self.times[name]
-            for i, v in enumerate(vals.tolist()):
+            for i, v in enumerate(np.asarray(vals, dtype=np.float64).tolist()):
                 yield Reading(name, v, self.file, int(lines[i]), times[i])
 
 
@@ -224,14 +226,7 @@ class _Rows:
         self.rejected.append(Rejected(self.file, line, reason))
 
     def batch(self) -> Batch:
-        return Batch(
-            file=self.file,
-            values={k: np.asarray(v, dtype=np.float64) for k, v in self.values.items()},
-            lines={k: np.asarray(v, dtype=np.int64) for k, v in self.lines.items()},
-            times={k: TimeColumn(v) for k, v in self.times.items()},
-            rejected=self.rejected,
-            rows=self.rows,
-        )
+        return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows)
 
 
 class RowParser:
@@ -549,7 +544,7 @@ def parse_log_bytes(
         lines = data.split(b"\n")
         if lines and lines[-1] == b"":
             lines.pop()
-        batch = parser.parse(lines, 1)
+        batch = _as_arrays(parser.parse(lines, 1))
     if feed.layout != "jsonl" and parser.header is None:
         raise LinewatchError(f"{file}: no header line")
     if columns is not None and feed.layout != "wide":
@@ -588,8 +583,16 @@ def _read_wide(data: bytes, parser: RowParser) -> Batch:
             line_no += 1
             parser.feed_line(data[lo:end], line_no, prefix)
             lo = end + 1
-        return prefix.batch()
+        return _as_arrays(prefix.batch())
     return _FastWide(data, lo, line_no, parser).run(prefix)
+
+
+def _as_arrays(batch: Batch) -> Batch:
+    """The list-based batch of the per-line path in read_log's numpy form."""
+    batch.values = {k: np.asarray(v, dtype=np.float64) for k, v in batch.values.items()}
+    batch.lines = {k: np.asarray(v, dtype=np.int64) for k, v in batch.lines.items()}
+    batch.times = {k: TimeColumn(v) for k, v in batch.times.items()}
+    return batch
 
 
 _ASCII_COMPATIBLE = frozenset(

@@ -1,0 +1,476 @@
+"""Follow log files by byte offset through appends, partial lines, rotation and truncation.
+
+Each followed path keeps an open handle, the byte offset just after the last complete line it
+handed out, and the number of the next line. Only complete lines (ending in a newline) are
+parsed; a partial last line waits for its newline (and is never a point if it never gets one).
+Files are identified by device, inode and a fingerprint of their first bytes, so a replaced,
+rotated or truncated file is recognised whatever its name:
+
+- rename-and-create: the old file is read to its end through the still-open handle, then the
+  new file from its start (`rotated`);
+- copy-and-truncate: the file got shorter, or its first bytes changed: read again from 0
+  (`truncated`);
+- a file copied over with the same beginning (a sync tool writing a temporary file and renaming
+  it): reading goes on at the same offset (`replaced`);
+- deleted (`vanished`), created again (`appeared`), not readable (`unreadable` / `readable`),
+  a pattern whose folder or file does not exist yet (`waiting`).
+
+The caller commits each chunk's `FileState` with whatever it derived from the chunk and passes
+the saved states back on restart, so reading resumes exactly where it stopped.
+"""
+
+from __future__ import annotations
+
+import glob
+import hashlib
+import os
+import stat
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Protocol
+
+from linewatch.config import FeedConfig
+from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
+from linewatch.model import FeedEvent
+
+FINGERPRINT_BYTES = 1024
+READ_SIZE = 1 << 20
+DEFAULT_MAX_BYTES = 4 << 20
+PRIME_BYTES = 64 << 10
+
+
+@dataclass(frozen=True, slots=True)
+class FileState:
+    """Where reading of one file stopped: identity and the offset after the last whole line.
+
+    `fingerprint` is ``"<n>:<sha256 of the first n bytes>"`` (n grows up to FINGERPRINT_BYTES
+    as the file does).
+    """
+
+    path: str
+    dev: int
+    inode: int
+    fingerprint: str
+    offset: int
+    next_line: int = 1
+
+
+class SavedState(Protocol):
+    """Anything with FileState's fields (the store keeps its own record type)."""
+
+    path: str
+    dev: int
+    inode: int
+    fingerprint: str
+    offset: int
+    next_line: int
+
+
+@dataclass(slots=True)
+class TailChunk:
+    """What one poll found for one path: events first, then the rows, then the new state."""
+
+    path: str
+    batch: Batch | None
+    state: FileState | None
+    events: list[FeedEvent] = field(default_factory=list)
+    more: bool = False  # bytes are still waiting beyond this poll's budget
+
+
+def _fingerprint(head: bytes) -> str:
+    return f"{len(head)}:{hashlib.sha256(head).hexdigest()}"
+
+
+def _fingerprint_size(fp: str) -> int:
+    try:
+        return int(fp.split(":", 1)[0])
+    except ValueError:
+        return 0
+
+
+def _static_dir(pattern: str) -> str:
+    """The deepest folder of `pattern` that has no wildcard in it."""
+    parts = os.path.abspath(pattern).split(os.sep)
+    keep: list[str] = []
+    for part in parts[:-1]:
+        if glob.has_magic(part):
+            break
+        keep.append(part)
+    return os.sep.join(keep) or os.sep
+
+
+def _find_inode(folder: str, dev: int, inode: int) -> str | None:
+    """The name a file with this identity has now in `folder`, if any."""
+    try:
+        with os.scandir(folder) as it:
+            for entry in it:
+                try:
+                    st = entry.stat(follow_symlinks=False)
+                except OSError:
+                    continue
+                if st.st_ino == inode and st.st_dev == dev:
+                    return entry.path
+    except OSError:
+        return None
+    return None
+
+
+class _Followed:
+    """One path: its open handle, position, partial line and parser."""
+
+    def __init__(self, path: str, feed: FeedConfig, columns: list[str] | None) -> None:
+        self.path = path
+        self.parser = RowParser(feed, path, columns)
+        self.fd: int | None = None
+        self.dev = self.inode = 0
+        self.head = b""  # first bytes of the open file (fingerprint)
+        self.offset = 0  # after the last complete line handed out
+        self.pos = 0  # next byte to read
+        self.next_line = 1
+        self.pending = bytearray()  # start of the current incomplete line (at most cap + 1)
+        self.overflow = False  # the current line is longer than the cap: skipping to its end
+        self.unreadable = False
+        self.gone = False
+        self.saved: SavedState | None = None
+
+    # -- identity ---------------------------------------------------------------------------
+
+    def state(self) -> FileState:
+        return FileState(
+            self.path, self.dev, self.inode, _fingerprint(self.head), self.offset, self.next_line
+        )
+
+    def _read_head(self, fd: int, size: int) -> bytes:
+        return os.pread(fd, min(size, FINGERPRINT_BYTES), 0)
+
+    def _restart(self) -> None:
+        self.offset = self.pos = 0
+        self.next_line = 1
+        self.pending.clear()
+        self.overflow = False
+        self.parser.reset()
+
+    def close(self) -> None:
+        if self.fd is not None:
+            os.close(self.fd)
+            self.fd = None
+
+    def open(self, events: list[FeedEvent], adopt: SavedState | None) -> bool:
+        """Open the path; resume from `adopt` when it describes this same file."""
+        try:
+            fd = os.open(self.path, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
+        except FileNotFoundError:
+            return False
+        except OSError as exc:
+            if not self.unreadable:
+                self.unreadable = True
+                events.append(FeedEvent("unreadable", self.path, exc.strerror or str(exc)))
+            return False
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            os.close(fd)
+            return False
+        if self.unreadable:
+            self.unreadable = False
+            events.append(FeedEvent("readable", self.path, "the file can be read again"))
+        self.fd, self.dev, self.inode = fd, st.st_dev, st.st_ino
+        self.head = self._read_head(fd, st.st_size)
+        self._restart()
+        if adopt is not None:
+            self._resume(adopt, st.st_size, events)
+        return True
+
+    def _resume(self, saved: SavedState, size: int, events: list[FeedEvent]) -> None:
+        n = _fingerprint_size(saved.fingerprint)
+        same_start = _fingerprint(self.head[:n]) == saved.fingerprint and len(self.head) >= n
+        same_inode = (saved.dev, saved.inode) == (self.dev, self.inode)
+        if not same_start:
+            if saved.offset:
+                what = "another file" if not same_inode else "new content"
+                events.append(FeedEvent("replaced", self.path, f"{what}: reading from the start"))
+            return
+        if size < saved.offset:
+            events.append(
+                FeedEvent("truncated", self.path, f"shorter than where reading stopped "
+                          f"({size} < {saved.offset} bytes): reading from the start")
+            )
+            return
+        if not same_inode:
+            # the same beginning under a new inode is a copy only when it is long enough to
+            # tell files apart; otherwise it is a new file that starts alike
+            if n < FINGERPRINT_BYTES:
+                events.append(
+                    FeedEvent("replaced", self.path, "another file: reading from the start")
+                )
+                return
+            events.append(
+                FeedEvent("replaced", self.path, f"copied over with the same beginning: "
+                          f"going on at line {saved.next_line}")
+            )
+        self.offset = self.pos = saved.offset
+        self.next_line = saved.next_line
+        if saved.offset:
+            head = os.pread(self.fd or 0, min(saved.offset, PRIME_BYTES), 0)
+            cut = head.rfind(b"\n")
+            if cut >= 0:
+                self.parser.prime(head[: cut + 1].split(b"\n")[:-1])
+
+    # -- reading ----------------------------------------------------------------------------
+
+    def read(self, budget: int) -> tuple[Batch | None, bool]:
+        """Read up to `budget` bytes from the position; parse the lines that completed."""
+        assert self.fd is not None
+        lines: list[bytes] = []
+        first = self.next_line
+        remaining = budget
+        more = False
+        while True:
+            if remaining <= 0:
+                more = os.fstat(self.fd).st_size > self.pos
+                break
+            chunk = os.pread(self.fd, min(READ_SIZE, remaining), self.pos)
+            if not chunk:
+                break
+            remaining -= len(chunk)
+            self._take(chunk, lines)
+            self.pos += len(chunk)
+        if not lines:
+            return None, more
+        return self.parser.parse(lines, first), more
+
+    def _take(self, chunk: bytes, lines: list[bytes]) -> None:
+        start = 0
+        if self.overflow:
+            k = chunk.find(b"\n")
+            if k < 0:
+                return
+            lines.append(bytes(self.pending))  # longer than the cap: the parser rejects it
+            self.pending.clear()
+            self.overflow = False
+            self.offset = self.pos + k + 1
+            self.next_line += 1
+            start = k + 1
+        last = chunk.rfind(b"\n", start)
+        if last >= 0:
+            if self.pending:
+                k = chunk.find(b"\n", start)
+                lines.append(bytes(self.pending) + chunk[start:k])
+                self.pending.clear()
+                self.next_line += 1
+                start = k + 1
+            if start <= last:
+                whole = chunk[start:last].split(b"\n")
+                lines.extend(whole)
+                self.next_line += len(whole)
+            self.offset = self.pos + last + 1
+            start = last + 1
+        tail = chunk[start:]
+        room = MAX_LINE_BYTES + 1 - len(self.pending)
+        if len(tail) > room:
+            self.pending += tail[:room]
+            self.overflow = True
+        else:
+            self.pending += tail
+
+    def changed_in_place(self, size: int) -> str | None:
+        """Why the open file must be read again from 0, if it must."""
+        if size < self.pos:
+            return f"shorter than before ({size} < {self.pos} bytes): reading from the start"
+        assert self.fd is not None
+        if len(self.head) < FINGERPRINT_BYTES and size > len(self.head):
+            head = self._read_head(self.fd, size)
+            if head[: len(self.head)] != self.head:
+                return "its first bytes changed: reading from the start"
+            self.head = head
+            return None
+        if self.head and size != self.pos and self._read_head(self.fd, size) != self.head:
+            return "its first bytes changed: reading from the start"
+        return None
+
+
+class Tailer:
+    """Follow every file matched by the feeds' patterns (expanded again at each poll).
+
+    `saved` maps paths to the states a previous run committed; `patterns` are extra patterns
+    read with `default_feed` (wide CSV, detected delimiter, unless given).
+    """
+
+    def __init__(
+        self,
+        feeds: Sequence[FeedConfig] = (),
+        columns: list[str] | None = None,
+        saved: Mapping[str, SavedState] | None = None,
+        patterns: Sequence[str] = (),
+        default_feed: FeedConfig | None = None,
+    ) -> None:
+        self.columns = list(columns) if columns is not None else None
+        self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
+        extra_feed = default_feed or FeedConfig(paths=list(patterns))
+        self._patterns += [(p, extra_feed) for p in patterns]
+        self._saved: dict[str, SavedState] = dict(saved or {})
+        self._followed: dict[str, _Followed] = {}
+        self._waiting: dict[str, bool] = {}
+        self._retired: dict[tuple[int, int], tuple[int, int, bytes]] = {}
+
+    @property
+    def patterns(self) -> list[str]:
+        """Every pattern followed (for the waker)."""
+        return [p for p, _ in self._patterns]
+
+    @property
+    def files(self) -> list[str]:
+        """Paths followed now (open or waiting to be readable again)."""
+        return [p for p, f in self._followed.items() if not f.gone]
+
+    def states(self) -> dict[str, FileState]:
+        """The current state of every open file."""
+        return {p: f.state() for p, f in self._followed.items() if f.fd is not None}
+
+    def close(self) -> None:
+        """Close every handle (the unread partial lines are not points)."""
+        for f in self._followed.values():
+            f.close()
+
+    def poll(self, max_bytes: int = DEFAULT_MAX_BYTES) -> list[TailChunk]:
+        """Discover files, then read at most `max_bytes` from each; one chunk per path with news."""
+        chunks: list[TailChunk] = []
+        self._discover(chunks)
+        for f in list(self._followed.values()):
+            chunks.extend(self._step(f, max_bytes))
+        return chunks
+
+    # -- discovery --------------------------------------------------------------------------
+
+    def _discover(self, chunks: list[TailChunk]) -> None:
+        for pattern, feed in self._patterns:
+            matches = sorted(glob.glob(os.path.expanduser(pattern), recursive=True))
+            found = False
+            for m in matches:
+                path = os.path.abspath(m)
+                if not os.path.isfile(path):
+                    continue
+                found = True
+                f = self._followed.get(path)
+                if f is None:
+                    f = self._followed[path] = _Followed(path, feed, self.columns)
+                    f.gone = True
+                    f.saved = self._saved.pop(path, None)
+            if found:
+                self._waiting[pattern] = False
+            elif not self._waiting.get(pattern):
+                self._waiting[pattern] = True
+                folder = _static_dir(pattern)
+                detail = (
+                    f"folder {folder} does not exist yet" if not os.path.isdir(folder)
+                    else "no file matches yet"
+                )
+                event = FeedEvent("waiting", pattern, detail)
+                chunks.append(TailChunk(pattern, None, None, [event]))
+
+    # -- one path ---------------------------------------------------------------------------
+
+    def _step(self, f: _Followed, max_bytes: int) -> list[TailChunk]:
+        events: list[FeedEvent] = []
+        out: list[TailChunk] = []
+        try:
+            st: os.stat_result | None = os.stat(f.path)
+            if not stat.S_ISREG(st.st_mode):
+                st = None
+        except FileNotFoundError:
+            st = None
+        except OSError:
+            st = None
+        if f.fd is not None:
+            fst = os.fstat(f.fd)
+            if st is None or (st.st_dev, st.st_ino) != (fst.st_dev, fst.st_ino):
+                # the name now points elsewhere or nowhere: finish the old file first
+                if fst.st_size > f.pos:
+                    batch, more = f.read(max_bytes)
+                    if batch is not None or more:
+                        out.append(TailChunk(f.path, batch, f.state(), [], more))
+                    if more:
+                        return out
+                if st is not None and self._same_copy(f, fst, st):
+                    return out + self._continue_in_copy(f, st, max_bytes)
+                self._retire(f, fst)
+                renamed = _find_inode(os.path.dirname(f.path), fst.st_dev, fst.st_ino)
+                f.close()
+                if st is None:
+                    f.gone = True
+                    detail = f"renamed to {renamed}" if renamed else "deleted"
+                    kind = "rotated" if renamed else "vanished"
+                    out.append(TailChunk(f.path, None, None, [FeedEvent(kind, f.path, detail)]))
+                    return out
+                detail = f"old file now {renamed}" if renamed else "the old file was removed"
+                events.append(FeedEvent("rotated", f.path, f"{detail}; reading the new one"))
+                if not f.open(events, self._adoptable(f.path, st)):
+                    out.append(TailChunk(f.path, None, None, events))
+                    return out
+            else:
+                why = f.changed_in_place(fst.st_size)
+                if why:
+                    events.append(FeedEvent("truncated", f.path, why))
+                    f.head = f._read_head(f.fd, fst.st_size)
+                    f._restart()
+        else:
+            if st is None:
+                return out
+            was_gone = f.gone
+            if not f.open(events, f.saved or self._adoptable(f.path, st)):
+                if events:
+                    out.append(TailChunk(f.path, None, None, events))
+                return out
+            f.saved = None
+            if was_gone:
+                f.gone = False
+                detail = f"going on at line {f.next_line}" if f.offset else "reading"
+                events.insert(0, FeedEvent("appeared", f.path, detail))
+        batch, more = f.read(max_bytes)
+        if batch is not None or events or more:
+            out.append(TailChunk(f.path, batch, f.state(), events, more))
+        return out
+
+    def _retire(self, f: _Followed, fst: os.stat_result) -> None:
+        """Remember where an old file's reading ended, in case it shows up under a new name."""
+        if f.offset:
+            self._retired[(fst.st_dev, fst.st_ino)] = (f.offset, f.next_line, f.head)
+
+    def _adoptable(self, path: str, st: os.stat_result) -> SavedState | None:
+        """A state for a file we already read under another name (a rotated log matched again)."""
+        hit = self._retired.pop((st.st_dev, st.st_ino), None)
+        if hit is not None:
+            offset, next_line, head = hit
+            return FileState(path, st.st_dev, st.st_ino, _fingerprint(head), offset, next_line)
+        for key, saved in list(self._saved.items()):
+            if (saved.dev, saved.inode) == (st.st_dev, st.st_ino):
+                return self._saved.pop(key)
+        return None
+
+    def _same_copy(self, f: _Followed, fst: os.stat_result, st: os.stat_result) -> bool:
+        """The name now holds a copy of our file that goes on (the old one was unlinked)."""
+        if fst.st_nlink > 0 or len(f.head) < FINGERPRINT_BYTES or st.st_size < f.offset:
+            return False
+        try:
+            fd = os.open(f.path, os.O_RDONLY)
+        except OSError:
+            return False
+        try:
+            return os.pread(fd, FINGERPRINT_BYTES, 0) == f.head
+        finally:
+            os.close(fd)
+
+    def _continue_in_copy(
+        self, f: _Followed, st: os.stat_result, max_bytes: int
+    ) -> list[TailChunk]:
+        before = f.state()
+        f.close()
+        events = [
+            FeedEvent("replaced", f.path, f"copied over with the same beginning: going on at "
+                      f"line {before.next_line}")
+        ]
+        same = FileState(f.path, st.st_dev, st.st_ino, before.fingerprint, before.offset,
+                         before.next_line)
+        if not f.open(events, same):
+            return [TailChunk(f.path, None, None, events)]
+        batch, more = f.read(max_bytes)
+        return [TailChunk(f.path, batch, f.state(), events, more)]
