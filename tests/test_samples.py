@@ -179,6 +179,7 @@ def test_example_config_shows_every_key() -> None:
 
     text = (ROOT / "config" / "linewatch.example.toml").read_text(encoding="utf-8")
     shown = set(re.findall(r"^(?:# )?([\w-]+) = ", text, flags=re.M))
+    shown |= set(re.findall(r"^\[[\w]+\.([\w-]+)\]$", text, flags=re.M))  # sub-tables
     for model in (MonitorConfig, AlarmConfig, FeedConfig, CharacteristicConfig):
         missing = {f.name for f in fields(model)} - shown
         assert not missing, f"{model.__name__}: {missing}"
