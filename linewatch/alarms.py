@@ -473,6 +473,16 @@ class AlarmBook:
         }
         return record
 
+    def hook_payload(self, alarm: AlarmRecord, now: float | None = None) -> dict[str, Any]:
+        """What the alarm hook receives on stdin: the list record plus words and the plan."""
+        return {
+            **self.list_record(alarm, now),
+            "description": self.describe(alarm),
+            "reaction_plan": self.reaction_plan(alarm),
+            "file": alarm.file,
+            "detail": alarm.detail,
+        }
+
     # -- internals --------------------------------------------------------------------------
 
     def _get(self, alarm_id: int) -> AlarmRecord:

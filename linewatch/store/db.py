@@ -74,6 +74,7 @@ class Store:
         self.path = db
         self._lock = threading.RLock()
         self._depth = 0
+        self._commits = 0
         try:
             self._conn = sqlite3.connect(
                 db, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False
@@ -119,6 +120,7 @@ class Store:
             self._depth -= 1
             if self._depth == 0:
                 self._conn.execute("COMMIT")
+                self._commits += 1
 
     @property
     def in_transaction(self) -> bool:
@@ -140,6 +142,11 @@ class Store:
         about once a second, to notice acknowledgements made elsewhere."""
         with self._lock:
             return int(self._conn.execute("PRAGMA data_version").fetchone()[0])
+
+    def change_token(self) -> tuple[int, int]:
+        """Differs from the previous call's value after any commit, ours or another process's;
+        a snapshot source compares it about once a second to know when to rebuild."""
+        return (self.data_version(), self._commits)
 
     # -- metadata ---------------------------------------------------------------------------
 

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Protocol
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store
@@ -24,13 +24,30 @@ class FileState:
     next_line: int = 1
 
 
+class FilePosition(Protocol):
+    """Anything shaped like a file state (the tailer's own record qualifies)."""
+
+    @property
+    def path(self) -> str: ...
+    @property
+    def dev(self) -> int: ...
+    @property
+    def inode(self) -> int: ...
+    @property
+    def fingerprint(self) -> str: ...
+    @property
+    def offset(self) -> int: ...
+    @property
+    def next_line(self) -> int: ...
+
+
 class IngestState:
     """Read and write file positions and engine state."""
 
     def __init__(self, store: Store) -> None:
         self.store = store
 
-    def save_file(self, state: FileState, now: float | None = None) -> None:
+    def save_file(self, state: FilePosition, now: float | None = None) -> None:
         """Insert or replace the position of one file."""
         with self.store.transaction() as conn:
             conn.execute(

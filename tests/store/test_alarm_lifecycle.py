@@ -49,19 +49,23 @@ def reference_stretches(flags: list[bool]) -> list[tuple[int, int]]:
     return out
 
 
+@st.composite
+def fired_series(draw: st.DrawFn) -> tuple[dict[str, list[bool]], list[int]]:
+    """Per rule, whether it fired at each of n points; plus where the batches are cut."""
+    n = draw(st.integers(1, 40))
+    rules = draw(st.lists(st.sampled_from(["we1", "we2", "we4"]), min_size=1, max_size=2,
+                          unique=True))
+    flags = {r: draw(st.lists(st.booleans(), min_size=n, max_size=n)) for r in rules}
+    cuts = draw(st.lists(st.integers(1, max(1, n - 1)), max_size=6))
+    return flags, cuts
+
+
 @settings(max_examples=40, deadline=None)
-@given(
-    flags=st.dictionaries(
-        st.sampled_from(["we1", "we2", "we4"]),
-        st.lists(st.booleans(), min_size=1, max_size=40),
-        min_size=1,
-        max_size=2,
-    ).filter(lambda d: len({len(v) for v in d.values()}) == 1),
-    cuts=st.lists(st.integers(1, 39), max_size=6),
-)
+@given(case=fired_series())
 def test_alarms_are_maximal_stretches_whatever_the_chunking(
-    flags: dict[str, list[bool]], cuts: list[int]
+    case: tuple[dict[str, list[bool]], list[int]],
 ) -> None:
+    flags, cuts = case
     n = len(next(iter(flags.values())))
     bounds = sorted({0, n, *(c for c in cuts if c < n)})
     with tempfile.TemporaryDirectory() as tmp, Store(Path(tmp) / "s") as store:

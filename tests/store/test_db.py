@@ -110,6 +110,11 @@ def test_another_process_commit_changes_data_version(tmp_path: Path) -> None:
             "from linewatch.model import FeedEvent; "
             "s = Store(sys.argv[1], create=False); s.history.add_feed_event(FeedEvent('x', 'f'))"
         )
+        token = store.change_token()
         subprocess.run([sys.executable, "-c", code, str(tmp_path / "s")], check=True)
         assert store.data_version() != before
-        assert [e.event.kind for e in store.history.feed_events()] == ["x"]
+        assert store.change_token() != token
+        token = store.change_token()
+        store.history.add_feed_event(FeedEvent("y", "f"))  # our own commit changes it too
+        assert store.change_token() != token
+        assert [e.event.kind for e in store.history.feed_events()] == ["x", "y"]

@@ -104,6 +104,25 @@ def test_too_many_at_once_are_skipped_not_queued() -> None:
     runner.wait(10)
 
 
+def test_hook_gets_the_alarm_record_from_the_book(tmp_path: Path) -> None:
+    from linewatch.alarms import AlarmBook
+    from linewatch.store.db import Store
+
+    out = tmp_path / "got.json"
+    code = "import sys, pathlib; pathlib.Path(sys.argv[1]).write_text(sys.stdin.read())"
+    with Store(tmp_path / "s") as store:
+        book = AlarmBook(store)
+        [event] = book.observe_chart("od", "xbar", 0, 0, {"we1": [0]}, now=1.0)
+        runner = HookRunner([sys.executable, "-c", code, str(out)], 10)
+        runner.fire(book.hook_payload(event.alarm, now=2.0))
+        runner.wait(10)
+    got = json.loads(out.read_text())
+    assert (got["id"], got["kind"], got["rule"], got["state"]) == (
+        1, "beyond-limits", "we1", "unacknowledged"
+    )
+    assert got["description"].startswith("a point outside the control limits")
+
+
 def test_no_hook_configured_does_nothing() -> None:
     runner = HookRunner([])
     assert not runner.enabled and runner.fire(ALARM) is None
