@@ -56,17 +56,24 @@ class HookRunner:
         """True when a hook command is configured."""
         return bool(self.argv)
 
-    def fire(self, alarm: dict[str, Any]) -> threading.Thread | None:
-        """Start the hook for `alarm` (a JSON-able dict) in the background; returns at once."""
+    def fire(
+        self,
+        alarm: dict[str, Any],
+        on_outcome: Callable[[HookOutcome], None] | None = None,
+    ) -> threading.Thread | None:
+        """Start the hook for `alarm` (a JSON-able dict) in the background; returns at once.
+        `on_outcome` overrides the runner's callback for this run."""
         if not self.argv:
             return None
+        report = on_outcome or self.on_outcome
         alarm_id = alarm.get("id")
         if not self._slots.acquire(blocking=False):
-            self._report(HookOutcome(alarm_id, False, "hook skipped: too many still running", 0.0))
+            message = "hook skipped: too many still running"
+            self._report(HookOutcome(alarm_id, False, message, 0.0), report)
             return None
         payload = json.dumps(alarm, default=str).encode("utf-8")
         thread = threading.Thread(
-            target=self._run, args=(alarm_id, payload), name="linewatch-hook", daemon=True
+            target=self._run, args=(alarm_id, payload, report), name="linewatch-hook", daemon=True
         )
         with self._lock:
             self._threads = [t for t in self._threads if t.is_alive()]
@@ -82,19 +89,22 @@ class HookRunner:
         for t in threads:
             t.join(None if deadline is None else max(0.0, deadline - time.monotonic()))
 
-    def _report(self, outcome: HookOutcome) -> None:
-        if self.on_outcome is not None:
+    @staticmethod
+    def _report(outcome: HookOutcome, report: Callable[[HookOutcome], None] | None) -> None:
+        if report is not None:
             # a faulty callback must not kill the hook thread
             with contextlib.suppress(Exception):
-                self.on_outcome(outcome)
+                report(outcome)
 
-    def _run(self, alarm_id: int | None, payload: bytes) -> None:
+    def _run(
+        self, alarm_id: int | None, payload: bytes, report: Callable[[HookOutcome], None] | None
+    ) -> None:
         start = time.monotonic()
         try:
             outcome = self._execute(alarm_id, payload, start)
         finally:
             self._slots.release()
-        self._report(outcome)
+        self._report(outcome, report)
 
     def _execute(self, alarm_id: int | None, payload: bytes, start: float) -> HookOutcome:
         name = self.argv[0]
@@ -139,3 +149,31 @@ def _kill_group(proc: subprocess.Popen[bytes]) -> None:
     except (ProcessLookupError, PermissionError):
         proc.kill()
     proc.wait()
+
+
+_RUNNERS: dict[tuple[tuple[str, ...], float], HookRunner] = {}
+_RUNNERS_LOCK = threading.Lock()
+
+
+def run_hook(
+    argv: Sequence[str],
+    alarm: dict[str, Any],
+    timeout: float,
+    on_problem: Callable[[str], None] | None = None,
+) -> threading.Thread | None:
+    """Fire the hook `argv` for one alarm in the background (one shared runner per command, so
+    the limit on hooks running at once holds); a failure or hang is passed to `on_problem` as a
+    one-line message, from the hook's thread."""
+    if isinstance(argv, str):
+        raise TypeError("the hook is an argument list, not a shell string")
+    key = (tuple(argv), float(timeout))
+    with _RUNNERS_LOCK:
+        runner = _RUNNERS.get(key)
+        if runner is None:
+            runner = _RUNNERS[key] = HookRunner(argv, timeout)
+
+    def report(outcome: HookOutcome) -> None:
+        if not outcome.ok and on_problem is not None:
+            on_problem(outcome.message)
+
+    return runner.fire(alarm, report)

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.hooks import HookOutcome, HookRunner
+from linewatch.hooks import HookOutcome, HookRunner, run_hook
 
 ALARM = {"id": 7, "kind": "beyond-limits", "characteristic": "od", "rule": "we1"}
 
@@ -121,6 +121,25 @@ def test_hook_gets_the_alarm_record_from_the_book(tmp_path: Path) -> None:
         1, "beyond-limits", "we1", "unacknowledged"
     )
     assert got["description"].startswith("a point outside the control limits")
+
+
+def test_run_hook_reports_problems_as_messages() -> None:
+    problems: list[str] = []
+    done = threading.Event()
+
+    def on_problem(message: str) -> None:
+        problems.append(message)
+        done.set()
+
+    code = "import sys; sys.stdin.read(); sys.exit(2)"
+    thread = run_hook([sys.executable, "-c", code], ALARM, 10, on_problem)
+    assert thread is not None
+    assert done.wait(10)
+    assert problems == [f"hook {sys.executable} exited with 2"]
+    ok = run_hook([sys.executable, "-c", "import sys; sys.stdin.read()"], ALARM, 10, on_problem)
+    assert ok is not None
+    ok.join(10)
+    assert len(problems) == 1  # success is not a problem
 
 
 def test_no_hook_configured_does_nothing() -> None:
