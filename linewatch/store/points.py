@@ -139,13 +139,15 @@ class History:
         """Drop points older than `keep_seconds` or beyond the newest `keep_points` of their
         characteristic; returns how many went."""
         now = time.time() if now is None else now
+        gone = 0
         with self.store.transaction() as conn:
-            gone = conn.execute(
-                "DELETE FROM points WHERE received_at < ?", (now - self.keep_seconds,)
-            ).rowcount
             for name, newest in conn.execute(
                 "SELECT characteristic, MAX(idx) FROM points GROUP BY characteristic"
             ).fetchall():
+                gone += conn.execute(
+                    "DELETE FROM points WHERE characteristic = ? AND received_at < ?",
+                    (name, now - self.keep_seconds),
+                ).rowcount
                 gone += conn.execute(
                     "DELETE FROM points WHERE characteristic = ? AND idx <= ?",
                     (name, newest - self.keep_points),

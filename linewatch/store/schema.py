@@ -121,4 +121,9 @@ MIGRATIONS: tuple[str, ...] = (
         expires_at  REAL NOT NULL
     );
     """,
+    # 2: period queries per characteristic (report, detail) use one index instead of a scan.
+    """
+    DROP INDEX points_by_time;
+    CREATE INDEX points_by_characteristic_time ON points (characteristic, received_at);
+    """,
 )

@@ -55,6 +55,25 @@ def test_migrations_build_the_schema_from_an_empty_directory(tmp_path: Path) -> 
         assert again.schema_version == len(MIGRATIONS)
 
 
+def test_an_older_store_is_migrated_forward_keeping_its_data(tmp_path: Path) -> None:
+    from linewatch.store.db import _split_sql
+
+    directory = tmp_path / "old"
+    directory.mkdir()
+    raw = sqlite3.connect(directory / DB_NAME)
+    for statement in _split_sql(MIGRATIONS[0]):  # a store as version 1 wrote it
+        raw.execute(statement)
+    raw.execute("PRAGMA user_version = 1")
+    raw.execute("INSERT INTO feed_events (at, kind, file) VALUES (1.0, 'appeared', 'a.csv')")
+    raw.commit()
+    raw.close()
+    with Store(directory, create=False) as store:
+        assert store.schema_version == len(MIGRATIONS)
+        indexes = {r[0] for r in store.query("SELECT name FROM sqlite_master WHERE type='index'")}
+        assert "points_by_characteristic_time" in indexes and "points_by_time" not in indexes
+        assert [e.event.kind for e in store.history.feed_events()] == ["appeared"]
+
+
 def test_a_store_from_a_newer_linewatch_is_refused(tmp_path: Path) -> None:
     with Store(tmp_path / "s"):
         pass
