@@ -117,6 +117,7 @@ class History:
         """Points of one characteristic received in [since, until), oldest first."""
         rows = self.store.query(
             "SELECT characteristic, idx, value, line, file, time, received_at FROM points "
+            "INDEXED BY points_by_characteristic_time "
             "WHERE characteristic = ? AND received_at >= ? AND received_at < ? ORDER BY idx",
             (characteristic, -1e300 if since is None else since, 1e300 if until is None else until),
         )
