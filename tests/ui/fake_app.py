@@ -8,7 +8,8 @@ from __future__ import annotations
 import sys
 
 from linewatch.ui.app import LinewatchApp
-from tests.ui.fake_line import FakeActions, FakeSource, fixed_clock
+
+from .fake_line import FakeActions, FakeSource, fixed_clock
 
 
 def build_app(ascii_only: bool = False) -> LinewatchApp:

@@ -1,0 +1,105 @@
+"""Redraws are batched and driven by the source's notifications; the bell rings for new urgent
+alarms only. Notifications come from a real background thread, as the monitor sends them."""
+
+from __future__ import annotations
+
+import asyncio
+import copy
+import threading
+
+from textual.widgets import DataTable
+
+from linewatch import view
+from linewatch.ui.app import LinewatchApp
+
+from .fake_line import NOW, FakeActions, FakeSource, build_snapshot, fixed_clock
+
+
+def changed(version: int, value: float | None = None,
+            alarm: view.AlarmView | None = None) -> view.LineSnapshot:
+    line = build_snapshot()
+    line.version = version
+    if value is not None:
+        line.characteristics[0] = copy.copy(line.characteristics[0])
+        line.characteristics[0].last_value = value
+    if alarm is not None:
+        line.alarms.append(alarm)
+    return line
+
+
+def new_alarm(id_: int, priority: int) -> view.AlarmView:
+    return view.AlarmView(id=id_, kind="beyond-limits", characteristic="ovality",
+                          chart="individuals", rule="we1", description="a point outside",
+                          state=view.UNACKNOWLEDGED, priority=priority, raised_at=NOW)
+
+
+def publish_from_thread(source: FakeSource, pictures: list[view.LineSnapshot]) -> None:
+    worker = threading.Thread(target=lambda: [source.publish(p) for p in pictures])
+    worker.start()
+    worker.join()
+
+
+async def test_a_burst_of_notifications_is_drawn_in_few_redraws(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        before = source.snapshot_calls
+        publish_from_thread(source, [changed(v, value=30.0 + v) for v in range(2, 202)])
+        await asyncio.sleep(0.35)
+        await pilot.pause()
+        taken = source.snapshot_calls - before
+        assert 1 <= taken <= 5  # at ~10 Hz, a 0.35 s window allows only a handful
+        assert app.line.version == 201
+        cell = app.screen.query_one("#board-table", DataTable).get_cell("outer-diameter", "name")
+        assert "231.0" in str(cell)
+
+
+async def test_an_idle_screen_takes_no_snapshot(app: LinewatchApp, source: FakeSource) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        before = source.snapshot_calls
+        await asyncio.sleep(0.5)
+        assert source.snapshot_calls == before
+
+
+async def test_bell_rings_once_for_a_new_urgent_alarm(source: FakeSource) -> None:
+    app = LinewatchApp(source, FakeActions(), bell=True, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert app.bells_rung == 0  # alarms already open at start are on screen, not rung
+        publish_from_thread(source, [changed(2, alarm=new_alarm(99, 4))])
+        await asyncio.sleep(0.25)
+        assert app.bells_rung == 0  # priority 4 is not urgent
+        publish_from_thread(source, [changed(3, alarm=new_alarm(100, 1))])
+        await asyncio.sleep(0.25)
+        assert app.bells_rung == 1
+        publish_from_thread(source, [changed(4, alarm=new_alarm(100, 1))])
+        await asyncio.sleep(0.25)
+        assert app.bells_rung == 1  # the same alarm again rings nothing
+
+
+async def test_bell_can_be_turned_off(source: FakeSource) -> None:
+    app = LinewatchApp(source, FakeActions(), bell=False, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        publish_from_thread(source, [changed(2, alarm=new_alarm(100, 1))])
+        await asyncio.sleep(0.25)
+        assert app.line.version == 2
+        assert app.bells_rung == 0
+
+
+async def test_ages_move_on_with_the_clock_without_a_new_snapshot(source: FakeSource) -> None:
+    now = [NOW]
+    app = LinewatchApp(source, FakeActions(), bell=False, clock=lambda: now[0],
+                       ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        table = app.screen.query_one("#board-table", DataTable)
+        assert str(table.get_cell("line-speed", "age")).startswith("1s")
+        before = source.snapshot_calls
+        now[0] = NOW + 120
+        await asyncio.sleep(1.2)
+        await pilot.pause()
+        assert str(table.get_cell("line-speed", "age")).startswith("2m")
+        assert source.snapshot_calls == before
