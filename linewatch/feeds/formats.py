@@ -265,6 +265,7 @@ class RowParser:
         self.name_idx = -1
         self.value_idx = -1
         self.usable = True
+        self.names_seen: dict[str, None] = {}  # long rows and JSON keys, in order of appearance
 
     @property
     def ready(self) -> bool:
@@ -419,6 +420,7 @@ class RowParser:
         if not name:
             out.reject(line_no, f"empty name in column '{self.feed.name_column}'")
             return
+        self.names_seen[name] = None
         if self.columns is not None and name not in self.columns:
             return
         v = parse_number(fields[self.value_idx], self.decimal_comma)
@@ -459,6 +461,7 @@ class RowParser:
             if not name:
                 out.reject(line_no, f"empty name in key '{nc}'")
                 return
+            self.names_seen[name] = None
             if self.columns is not None and name not in self.columns:
                 return
             raw = obj.get(self.feed.value_column)
@@ -469,6 +472,7 @@ class RowParser:
             out.add(name, v, line_no, time)
             out.rows += 1
             return
+        self.names_seen.update((k, None) for k in obj if k != self.time_key)
         keys = self.columns if self.columns is not None else self.wanted_keys
         if keys is None:
             keys = [
@@ -551,7 +555,7 @@ def parse_log_bytes(
         missing = [c for c in columns if c not in batch.values]
         if missing:
             what = "characteristic" if feed.layout == "long" else "key"
-            found = ", ".join(batch.values) or "none"
+            found = ", ".join(parser.names_seen) or "none"
             raise LinewatchError(
                 f"{file}: no {what} {', '.join(repr(c) for c in missing)} (found: {found})"
             )
