@@ -14,7 +14,9 @@ writing loop lives in `linewatch.simulation.writer`.
 
 Timeline: each gauge first gets `history_points` plotted points of in-control history stamped
 before the start (written at once, so limits can be estimated immediately), then the live part
-repeats a schedule of special causes every `cycle` simulated seconds.
+repeats a schedule of special causes every `cycle` simulated seconds. The history's noise is
+calibrated (centred, and scaled so its range-based σ estimate is the gauge's σ), so limits
+estimated from it match the scenario whatever the seed and the causes stand out as planned.
 """
 
 from __future__ import annotations
@@ -81,7 +83,7 @@ class Scenario:
     gauges: tuple[Gauge, ...]
     causes: tuple[Cause, ...]
     cycle: float = 240.0
-    history_points: int = 40
+    history_points: int = 60
     coil_seconds: float = 60.0
 
     def gauge(self, key: str) -> Gauge:
@@ -144,7 +146,7 @@ EXTRUSION_LINE = Scenario(
     ),
     causes=(
         Cause("od", SHIFT, 15, 75, 1.5, "material lot change: diameter steps up 1.5σ"),
-        Cause("wall", DRIFT, 20, 80, 3.0, "die wear: wall creeps up 3σ over a minute"),
+        Cause("wall", DRIFT, 20, 80, 2.5, "die wear: wall creeps up 2.5σ over a minute"),
         Cause("fill", SPREAD, 30, 50, 3.0, "loose auger: fill weight scatters 3x"),
         Cause("fill", STUCK, 70, 100, 0.0, "scale display frozen: one value repeats"),
         Cause("wall", HUG, 100, 150, 0.2, "station averaging readings: points hug the centre"),
@@ -198,6 +200,21 @@ def _junk_row(g: Gauge, stamp: str, ident: str, kind: int, rng: np.random.Genera
     return f"{stamp}{sep}{ident}\n".encode()  # a field missing
 
 
+def calibrated_noise(rng: np.random.Generator, points: int, subgroup: int) -> np.ndarray:
+    """Standard normal noise for `points` plotted points, centred and scaled so that the usual
+    σ estimate (mean moving range / d2(2), or mean subgroup range / d2(n)) is exactly 1."""
+    from linewatch.engine.constants import d2
+
+    z = rng.standard_normal(points * subgroup)
+    z -= z.mean()
+    if subgroup > 1:
+        ranges = np.ptp(z.reshape(points, subgroup), axis=1)
+        sigma = float(ranges.mean()) / d2(subgroup)
+    else:
+        sigma = float(np.abs(np.diff(z)).mean()) / d2(2)
+    return z / sigma
+
+
 def _in_window(c: Cause, tc: float) -> bool:
     return c.start <= tc < c.end
 
@@ -236,6 +253,7 @@ def gauge_actions(
         return (t, order, seq, action)
 
     first = -n_history
+    history = calibrated_noise(rng, scenario.history_points, g.subgroup)
     yield key(first * interval - 1e-6, Header(first * interval - 1e-6, g.file, header_bytes(g)))
     stuck_value: float | None = None
     junk_kind = 0
@@ -258,7 +276,7 @@ def gauge_actions(
                 if c.kind == SILENT:
                     yield key(t, Header(t, g.file, header_bytes(g)))
         active = [c for c in causes if tc >= 0 and _in_window(c, tc)]
-        z = float(rng.standard_normal())
+        z = float(history[k - 1 - first]) if k - 1 < 0 else float(rng.standard_normal())
         mean, sigma = g.mean, g.sigma
         for c in active:
             if c.kind == SHIFT:
