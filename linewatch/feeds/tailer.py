@@ -131,7 +131,6 @@ class _Followed:
         self.overflow = False  # the current line is longer than the cap: skipping to its end
         self.unreadable = False
         self.gone = False
-        self.saved: SavedState | None = None
 
     # -- identity ---------------------------------------------------------------------------
 
@@ -309,6 +308,7 @@ class Tailer:
         self._patterns += [(p, extra_feed) for p in patterns]
         self._saved: dict[str, SavedState] = dict(saved or {})
         self._followed: dict[str, _Followed] = {}
+        self._feed_of: dict[str, FeedConfig] = {}
         self._waiting: dict[str, bool] = {}
         self._retired: dict[tuple[int, int], tuple[int, int, bytes]] = {}
 
@@ -353,8 +353,8 @@ class Tailer:
                 f = self._followed.get(path)
                 if f is None:
                     f = self._followed[path] = _Followed(path, feed, self.columns)
+                    self._feed_of[path] = feed
                     f.gone = True
-                    f.saved = self._saved.pop(path, None)
             if found:
                 self._waiting[pattern] = False
             elif not self._waiting.get(pattern):
@@ -416,11 +416,13 @@ class Tailer:
             if st is None:
                 return out
             was_gone = f.gone
-            if not f.open(events, f.saved or self._adoptable(f.path, st)):
+            adopt = self._adoptable(f.path, st)
+            if adopt is None:
+                adopt = self._own_saved(f.path, st, out, max_bytes)
+            if not f.open(events, adopt):
                 if events:
                     out.append(TailChunk(f.path, None, None, events))
                 return out
-            f.saved = None
             if was_gone:
                 f.gone = False
                 detail = f"going on at line {f.next_line}" if f.offset else "reading"
@@ -444,6 +446,38 @@ class Tailer:
         for key, saved in list(self._saved.items()):
             if (saved.dev, saved.inode) == (st.st_dev, st.st_ino):
                 return self._saved.pop(key)
+        return None
+
+    def _own_saved(
+        self, path: str, st: os.stat_result, out: list[TailChunk], max_bytes: int
+    ) -> SavedState | None:
+        """The state saved under this name when it names another file now.
+
+        If that other file still exists under a new name (rotated while we were stopped), the
+        rows it got after reading stopped are read from it first (unless a pattern follows that
+        name, which then resumes it itself), and this name's file is read from its start.
+        """
+        saved = self._saved.get(path)
+        if saved is None:
+            return None
+        renamed = _find_inode(os.path.dirname(path), saved.dev, saved.inode)
+        if renamed is None:
+            return self._saved.pop(path)
+        if os.path.abspath(renamed) in self._followed:
+            return None
+        self._saved.pop(path)
+        old = _Followed(renamed, self._feed_of[path], self.columns)
+        events: list[FeedEvent] = []
+        if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
+                                      saved.offset, saved.next_line)):
+            head = [FeedEvent("rotated", path, f"renamed to {renamed} while stopped: reading "
+                              f"its last rows")]
+            more = True
+            while more:
+                batch, more = old.read(max_bytes)
+                out.append(TailChunk(renamed, batch, old.state(), [*head, *events]))
+                head, events = [], []
+            old.close()
         return None
 
     def _same_copy(self, f: _Followed, fst: os.stat_result, st: os.stat_result) -> bool:
