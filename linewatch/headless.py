@@ -36,6 +36,16 @@ def _text(record: dict[str, Any]) -> str:
     if kind == "progress":
         return (f"READING {record['done'] * 100:.0f}% of history, "
                 f"{record['rows_per_second']:.0f} rows/s")
+    if kind == "alarm":
+        span = record["first_index"]
+        if record.get("last_index") not in (None, span):
+            span = f"{span}-{record['last_index']}"
+        where = f" points {span}" if span is not None else ""
+        ack = ""
+        if record.get("acknowledged_by"):
+            ack = f" by {record['acknowledged_by']} ({record.get('reason')})"
+        return (f"ALARM   #{record['id']} p{record['priority']} {record['characteristic']} "
+                f"{record['chart']} {record['rule']}{where}: {record['state']}{ack}")
     if kind == "role":
         return f"ROLE    this instance is the {record['role']}"
     rest = " ".join(f"{k}={v}" for k, v in record.items() if k != "type")

@@ -12,6 +12,7 @@ through the `emit` callback, and `LineSnapshot`s through `snapshot()` (see `snap
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import threading
@@ -30,7 +31,7 @@ from linewatch.records import limits_record, rejected_record, signal_record
 from linewatch.selection import chart_setup
 
 Emit = Callable[[dict[str, Any]], None]
-TICK_SECONDS = 1.0  # lease renewal, stale checks, shelf expiry
+TICK_SECONDS = 0.5  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
 
 
@@ -84,7 +85,10 @@ class Monitor:
         self._listeners: list[Callable[[int], None]] = []
         self._version = 0
         self._last_tick = 0.0
-        self._lock = threading.RLock()
+        self._hooks = None
+        self._alarm_states: dict[int, tuple] = {}
+        self._seen_data_version: int | None = None
+        self._announced = False
         self._wake = threading.Event()
         self.started = self.clock()
         self.alarms.load_config(plan.config)
@@ -98,7 +102,7 @@ class Monitor:
         """Something changed outside the loop (an acknowledgement): tell the faces now."""
         self._changed()
 
-    # -- listeners (faces) ---------------------------------------------------------------------
+    # -- listeners (faces) --
     def subscribe(self, callback: Callable[[int], None]) -> None:
         """`callback(version)` is called from the monitor thread after every change."""
         self._listeners.append(callback)
@@ -108,7 +112,7 @@ class Monitor:
         for cb in list(self._listeners):
             cb(self._version)
 
-    # -- roles -----------------------------------------------------------------------------------
+    # -- roles --
     def _become_collector(self) -> None:
         from linewatch.feeds.health import FeedHealth
         from linewatch.feeds.tailer import Tailer
@@ -149,7 +153,7 @@ class Monitor:
             self.engines[name] = eng
         return eng
 
-    # -- the loop --------------------------------------------------------------------------------
+    # -- the loop --
     def run(self, stop: threading.Event) -> None:
         """Collect (or watch as a viewer) until `stop` is set; then finish what was read."""
         try:
@@ -160,6 +164,9 @@ class Monitor:
                         self._become_collector()
                         self._changed()
                         continue
+                    if not self._announced:
+                        self._announced = True
+                        self.emit({"type": "role", "role": "viewer", "instance": self.instance})
                     self._viewer_step()
                     stop.wait(0.5)
                     continue
@@ -182,16 +189,15 @@ class Monitor:
         if self.tailer is not None and hasattr(self.tailer, "close"):
             self.tailer.close()
         if self.role == "collector":
-            try:
+            with contextlib.suppress(Exception):  # best effort on the way out
                 self.lease.release()
-            except Exception:  # noqa: BLE001 - best effort on the way out
-                pass
         self.store.close()
 
     def _viewer_step(self) -> None:
         version = self.store.data_version()
-        if version != getattr(self, "_seen_data_version", None):
+        if version != self._seen_data_version:
             self._seen_data_version = version
+            self._emit_alarm_changes()
             self._changed()
 
     def _tick(self, now: float) -> None:
@@ -204,12 +210,20 @@ class Monitor:
         assert self.health is not None
         for ev in self.health.tick(now):
             events.append(ev)
+        records = []
+        raised: list = []
         with self.store.transaction():
             for ev in events:
-                self._record_feed_event(ev, now)
-            self.alarms.tick(now)
+                records.append(self._record_feed_event(ev, now, raised))
+            raised += self.alarms.tick(now)
             self._serve_baseline_requests(now)
-        if events:
+        for rec in records:
+            self.emit(rec)
+        self._run_hooks(raised)
+        version = self.store.data_version()
+        if events or raised or version != self._seen_data_version:
+            self._seen_data_version = version
+            self._emit_alarm_changes()
             self._changed()
 
     def step(self) -> bool:
@@ -220,10 +234,11 @@ class Monitor:
             return False
         for chunk in chunks:
             self._process_chunk(chunk)
+        self._emit_alarm_changes()
         self._changed()
         return True
 
-    # -- processing --------------------------------------------------------------------------------
+    # -- processing --
     def _process_chunk(self, chunk) -> None:
         now = self.clock()
         records: list[dict[str, Any]] = []
@@ -323,17 +338,38 @@ class Monitor:
     def _run_hooks(self, events) -> None:
         if not self.config.alarms.hook:
             return
-        from linewatch.hooks import run_hook
+        if self._hooks is None:
+            from linewatch.hooks import HookRunner
 
+            self._hooks = HookRunner(self.config.alarms.hook, self.config.alarms.hook_timeout,
+                                     on_outcome=self._hook_outcome)
         for ev in events:
             if ev.action == "raised":
-                run_hook(self.config.alarms.hook, self.alarms.list_record(ev.alarm),
-                         self.config.alarms.hook_timeout, on_problem=self._hook_problem)
+                self._hooks.fire(self.alarms.hook_payload(ev.alarm))
 
-    def _hook_problem(self, message: str) -> None:
-        self.emit({"type": "hook", "problem": message})
+    def _hook_outcome(self, outcome) -> None:
+        if not outcome.ok:
+            self.emit({"type": "hook", "alarm": outcome.alarm_id, "problem": outcome.message})
 
-    # -- baselines -----------------------------------------------------------------------------------
+    def _emit_alarm_changes(self) -> None:
+        """Print an `alarm` record for every alarm whose state changed since the last look
+        (raised, acknowledged, shelved, returned, closed) — by any instance or the shell."""
+        now = self.clock()
+        current = {a.id: a for a in self.alarms.alarms()}
+        seen = self._alarm_states
+        changed = [a for a in current.values()
+                   if seen.get(a.id) != (a.state(now), a.acknowledged_by, a.last_index)]
+        gone = [i for i in seen if i not in current]
+        for alarm_id in gone:
+            record = self.store.alarms.get(alarm_id)
+            if record is not None:
+                changed.append(record)
+        self._alarm_states = {a.id: (a.state(now), a.acknowledged_by, a.last_index)
+                              for a in current.values()}
+        for a in sorted(changed, key=lambda a: a.id):
+            self.emit({"type": "alarm", **self.alarms.list_record(a, now)})
+
+    # -- baselines --
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
         """Start a new phase of limits (any instance may ask; the collector carries it out)."""
         if not reason.strip():
@@ -419,7 +455,7 @@ class MonitorFace:
                         CharacteristicConfig(name=name, column=name))
         return list(known.values())
 
-    # -- SnapshotSource ---------------------------------------------------------------------------
+    # -- SnapshotSource --
     def snapshot(self):
         from linewatch.snapshot import build_snapshot
 
@@ -444,7 +480,7 @@ class MonitorFace:
     def subscribe(self, callback: Callable[[int], None]) -> None:
         self.monitor.subscribe(callback)
 
-    # -- LineActions ------------------------------------------------------------------------------
+    # -- LineActions --
     def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None:
         with self._lock:
             self.alarms.acknowledge(alarm_ids, reason, note)

@@ -56,6 +56,6 @@ def test_an_unterminated_last_line_is_not_a_point(tmp_path):
         time.sleep(0.05)
     time.sleep(0.3)  # the partial line stays unread however long we wait
     assert offset_of(tmp_path / "state", log) == complete
-    out, err = stop(proc)
+    out, _ = stop(proc)
     summary = next(r for r in records(out) if r["type"] == "summary")
     assert summary["points"] == 30
