@@ -44,6 +44,7 @@ class WatchPlan:
     characteristics: list[CharacteristicConfig]  # empty: discover every numeric column
     columns: list[str] | None  # columns to keep (None: every numeric column)
     baseline: int
+    title: str = ""
     overrides: Callable[[CharacteristicConfig], CharacteristicConfig] = field(
         default=lambda c: c
     )
@@ -95,8 +96,13 @@ class Monitor:
 
     @property
     def title(self) -> str:
-        src = self.config.source
-        return f"linewatch · {Path(src).stem}" if src else "linewatch"
+        if self.plan.title:
+            return f"linewatch · {self.plan.title}"
+        src = Path(self.config.source) if self.config.source else None
+        if src is None:
+            return "linewatch"
+        name = src.stem if src.stem != "linewatch" else src.resolve().parent.name
+        return f"linewatch · {name}"
 
     def poke(self) -> None:
         """Something changed outside the loop (an acknowledgement): tell the faces now."""
@@ -120,7 +126,10 @@ class Monitor:
 
         self.role = "collector"
         saved = self.store.ingest.files()
-        self.tailer = Tailer(self.plan.feeds, self.plan.columns, saved)
+        # One column list serves every feed; with several feeds each file holds only some of
+        # the characteristics, so every numeric column is read and the unknown ones dropped here.
+        columns = self.plan.columns if len(self.plan.feeds) == 1 else None
+        self.tailer = Tailer(self.plan.feeds, columns, saved)
         patterns = [p for f in self.plan.feeds for p in f.paths]
         self.waker = Waker(patterns, poll_seconds=self.poll_seconds or 0.0)
         mon = self.config.monitor

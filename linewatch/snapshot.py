@@ -97,8 +97,8 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.open_alarms = len(open_alarms)
     if recs:
         values = np.array([r.value for r in recs])
-        first = recs[0].idx
-        v.points = recs[-1].idx + 1
+        first = recs[0].index
+        v.points = recs[-1].index + 1
         v.last_value = float(values[-1])
         v.last_row_age = max(0.0, now - recs[-1].received_at)
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)

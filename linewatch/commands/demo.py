@@ -55,7 +55,7 @@ def run(args: argparse.Namespace) -> int:
         watch_args = build_parser().parse_args(
             ["watch", "-c", str(config_path), "--state-dir", str(folder / "state")]
         )
-        return watch.run(watch_args)
+        return watch.run(watch_args, title="demo extrusion line")
     finally:
         stop.set()
         if sim is not None:

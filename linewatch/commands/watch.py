@@ -44,10 +44,11 @@ def build_plan(args: argparse.Namespace, config: Config):
                      baseline=baseline, overrides=lambda c: apply_overrides(c, args))
 
 
-def run(args: argparse.Namespace) -> int:
+def run(args: argparse.Namespace, title: str = "") -> int:
     validate_chart_options(args)
     config = load_optional_config(args.config)
     plan = build_plan(args, config)
+    plan.title = title
     from linewatch.statedir import resolve_state_dir
 
     state_dir = resolve_state_dir(args.state_dir, config)
