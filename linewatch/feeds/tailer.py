@@ -357,7 +357,8 @@ class Tailer:
                     f.gone = True
             if found:
                 self._waiting[pattern] = False
-            elif not self._waiting.get(pattern):
+            elif pattern not in self._waiting:
+                # said once, before the pattern ever matched (a rotation gap is not waiting)
                 self._waiting[pattern] = True
                 folder = _static_dir(pattern)
                 detail = (

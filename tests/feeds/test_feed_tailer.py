@@ -132,6 +132,7 @@ def test_delete_and_later_recreate(tmp_path, follow):
     assert seen.values["od"] == [value(1), value(2)]
     assert seen.lines["od"] == [(str(log), 2), (str(log), 2)]
     assert seen.kinds().count("appeared") == 2
+    assert "waiting" not in seen.kinds()  # only a pattern that never matched is waiting
 
 
 def test_a_folder_that_does_not_exist_yet_is_waited_for(tmp_path, follow):
