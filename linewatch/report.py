@@ -1,0 +1,347 @@
+"""The shift handover report: what happened on the line in a period, gathered from the store.
+
+`build_report` reads the store once and returns a plain `ShiftReport`; the renderers
+(`report_markdown`, `report_html`, `report_csv`) only format it. Points are selected by the time
+they were received, alarms when they were open at some moment of the period.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from datetime import datetime
+from typing import TYPE_CHECKING
+
+from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, Limits
+
+if TYPE_CHECKING:
+    from linewatch.config import Config
+    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.db import Store
+
+
+def local_time(epoch: float | None) -> str:
+    """Local time with its UTC offset, to the second: 2026-03-02 06:15:00 +01:00 ('' for None)."""
+    if epoch is None:
+        return ""
+    stamp = datetime.fromtimestamp(epoch).astimezone()
+    offset = stamp.strftime("%z")
+    return f"{stamp:%Y-%m-%d %H:%M:%S} {offset[:3]}:{offset[3:]}"
+
+
+def clock_time(epoch: float | None, since: float, until: float) -> str:
+    """Local time with offset, without the date when the whole period lies in one local day."""
+    if epoch is None:
+        return ""
+    one_day = datetime.fromtimestamp(since).date() == datetime.fromtimestamp(until).date()
+    full = local_time(epoch)
+    return full[11:] if one_day else full
+
+
+def span(seconds: float | None) -> str:
+    """A length of time for people: 45s, 12m30s, 3h05m."""
+    if seconds is None:
+        return ""
+    s = round(max(0.0, seconds))
+    if s < 60:
+        return f"{s}s"
+    if s < 3600:
+        return f"{s // 60}m{s % 60:02d}s"
+    return f"{s // 3600}h{(s % 3600) // 60:02d}m"
+
+
+def num(x: float | None, digits: int = 6) -> str:
+    """A figure for people: `digits` significant digits, '' when missing."""
+    if x is None or not math.isfinite(x):
+        return ""
+    return f"{x:.{digits}g}"
+
+
+def interval(pair: tuple[float, float] | None, digits: int = 4) -> str:
+    """'lo – hi', or '' when there is no interval."""
+    if pair is None:
+        return ""
+    return f"{num(pair[0], digits)} – {num(pair[1], digits)}"
+
+
+def rules_text(by_rule: dict[str, int]) -> str:
+    """'we1 ×3, n7 ×1' (most frequent first)."""
+    ordered = sorted(by_rule.items(), key=lambda kv: (-kv[1], kv[0]))
+    return ", ".join(f"{rule} ×{count}" for rule, count in ordered)
+
+
+@dataclass(slots=True)
+class ChartTrace:
+    """The plotted points of one location chart in the period, with limits per point."""
+
+    chart: str
+    indices: list[int] = field(default_factory=list)
+    values: list[float] = field(default_factory=list)
+    center: list[float | None] = field(default_factory=list)
+    ucl: list[float | None] = field(default_factory=list)
+    lcl: list[float | None] = field(default_factory=list)
+    flagged: set[int] = field(default_factory=set)  # plotted indices inside an alarm
+
+
+@dataclass(slots=True)
+class CharacteristicPart:
+    """Figures of one characteristic over the period."""
+
+    name: str
+    unit: str
+    lsl: float | None
+    usl: float | None
+    subgroup_size: int
+    n: int
+    mean: float | None
+    stdev: float | None
+    ci95: tuple[float, float] | None
+    cp: float | None
+    cp_ci95: tuple[float, float] | None
+    cpk: float | None
+    cpk_ci95: tuple[float, float] | None
+    ppm_out: float | None
+    alarms_by_rule: dict[str, int]
+    trace: ChartTrace
+
+
+@dataclass(slots=True)
+class AlarmLine:
+    """One alarm as the report shows it."""
+
+    id: int
+    kind: str
+    characteristic: str
+    chart: str
+    rule: str
+    what: str
+    priority: int
+    raised_at: float
+    state: str
+    acknowledged_by: str
+    acknowledged_at: float | None
+    unacknowledged_for: float  # seconds from raised to acknowledged (or to the period's end)
+    still_unacknowledged: bool
+    reason: str
+    note: str
+    returned_at: float | None
+    closed_at: float | None
+
+
+@dataclass(slots=True)
+class LimitsChange:
+    """Limits set in the period (a first baseline, a recalculation or a new baseline)."""
+
+    at: float
+    characteristic: str
+    chart: str
+    phase: int
+    start_index: int
+    center: float
+    ucl: float
+    lcl: float
+    reason: str
+    new_baseline: bool
+    actor: str
+
+
+@dataclass(slots=True)
+class FeedLine:
+    """A feed event in the period."""
+
+    at: float
+    kind: str
+    file: str
+    detail: str
+
+
+@dataclass(slots=True)
+class ShiftReport:
+    """Everything one handover report says."""
+
+    since: float
+    until: float
+    made_at: float
+    state_dir: str
+    characteristics: list[CharacteristicPart]
+    alarms: list[AlarmLine]
+    limits: list[LimitsChange]
+    feed_events: list[FeedLine]
+    audit_ok: bool
+    audit_message: str
+    audit_entries: int  # entries written in the period
+
+    @property
+    def empty(self) -> bool:
+        """Nothing was recorded in the period."""
+        return not (
+            any(c.n for c in self.characteristics) or self.alarms or self.limits
+            or self.feed_events
+        )
+
+
+def _subgroup_size(store: Store, config: Config | None, name: str, limits: dict) -> int:
+    """Subgroup size from the config, else inferred from the stored limits.
+
+    For X̄ charts the stored dispersion limits give it back: R̄ / σ(X̄) = d2(n)·√n and
+    s̄ / σ(X̄) = c4(n)·√n, both increasing in n (common practice constants).
+    """
+    if config is not None:
+        c = config.characteristic(name)
+        if c is not None:
+            return c.subgroup_size
+    if CHART_INDIVIDUALS in limits or CHART_MOVING_RANGE in limits or "xbar" not in limits:
+        return 1
+    from linewatch.engine.constants import MAX_N, MIN_N, c4, d2
+
+    xbar = limits["xbar"]
+    if "range" in limits:
+        ratio, factor = limits["range"].center / xbar.sigma, d2
+    elif "stdev" in limits:
+        ratio, factor = limits["stdev"].center / xbar.sigma, c4
+    else:
+        return 1
+    return min(range(MIN_N, MAX_N + 1), key=lambda n: abs(factor(n) * math.sqrt(n) - ratio))
+
+
+def _limits_at(history: list[Limits], index: int) -> Limits | None:
+    """The limits in effect at plotted point `index` (newest phase that starts at or before it)."""
+    best: Limits | None = None
+    for lim in history:
+        if lim.start_index <= index and (best is None or lim.phase >= best.phase):
+            best = lim
+    return best
+
+
+def _trace(
+    chart: str, values: list[float], first_index: int, n: int, history: list[Limits],
+    alarms: list[AlarmRecord],
+) -> ChartTrace:
+    """Plotted location statistic (individuals, or means of complete subgroups) with limits."""
+    trace = ChartTrace(chart)
+    if n > 1:
+        # Subgroups are consecutive readings from index 0; keep only complete ones.
+        start = (-first_index) % n
+        for k in range(start, len(values) - n + 1, n):
+            trace.indices.append((first_index + k) // n)
+            trace.values.append(sum(values[k : k + n]) / n)
+    else:
+        trace.indices = [first_index + k for k in range(len(values))]
+        trace.values = list(values)
+    for i in trace.indices:
+        lim = _limits_at(history, i)
+        trace.center.append(lim.center if lim else None)
+        trace.ucl.append(lim.ucl if lim else None)
+        trace.lcl.append(lim.lcl if lim else None)
+    for a in alarms:
+        if a.chart == chart and a.first_index is not None:
+            last = a.last_index if a.last_index is not None else a.first_index
+            trace.flagged.update(range(a.first_index, last + 1))
+    return trace
+
+
+def build_report(
+    store: Store, since: float, until: float, config: Config | None = None,
+    now: float | None = None,
+) -> ShiftReport:
+    """Gather the report of [since, until) from `store` (nothing is written)."""
+    from linewatch.alarms import AlarmBook
+    from linewatch.engine.summary import summarize
+
+    now = time.time() if now is None else now
+    book = AlarmBook(store, config)
+    alarm_rows = store.alarms.between(since, until)
+    end = min(until, now)
+
+    alarms: list[AlarmLine] = []
+    for a in alarm_rows:
+        acked = a.acknowledged_at is not None and a.acknowledged_at < until
+        waited = (a.acknowledged_at if acked else end) - a.raised_at
+        alarms.append(
+            AlarmLine(
+                id=a.id, kind=a.kind, characteristic=a.characteristic, chart=a.chart,
+                rule=a.rule, what=book.describe(a), priority=a.priority, raised_at=a.raised_at,
+                state=a.state(end), acknowledged_by=(a.acknowledged_by or "") if acked else "",
+                acknowledged_at=a.acknowledged_at if acked else None,
+                unacknowledged_for=max(0.0, waited), still_unacknowledged=not acked,
+                reason=(a.reason or "") if acked else "", note=(a.note or "") if acked else "",
+                returned_at=a.returned_at, closed_at=a.closed_at,
+            )
+        )
+
+    names = list(dict.fromkeys(
+        [c.name for c in config.characteristics] if config is not None else []
+    ))
+    for name in store.history.characteristics_with_points():
+        if name not in names:
+            names.append(name)
+    parts: list[CharacteristicPart] = []
+    for name in names:
+        settings = store.history.settings(name)
+        cfg = config.characteristic(name) if config is not None else None
+        unit = cfg.unit if cfg else (settings.unit if settings else "")
+        lsl = cfg.lsl if cfg else (settings.lsl if settings else None)
+        usl = cfg.usl if cfg else (settings.usl if settings else None)
+        history = [r.limits for r in store.history.limits_history(name, until=until)]
+        current: dict[str, Limits] = {}
+        for lim in history:
+            current[lim.chart] = lim
+        n = _subgroup_size(store, config, name, current)
+        location = "xbar" if n > 1 else CHART_INDIVIDUALS
+        loc = current.get(location)
+        sigma_within = None
+        if loc is not None:
+            sigma_within = loc.sigma * math.sqrt(n) if n > 1 else loc.sigma
+        points = store.history.points(name, since, until)
+        values = [p.value for p in points]
+        s = summarize(values, sigma_within=sigma_within, lsl=lsl, usl=usl)
+        d, c = s.description, s.capability
+        mine = [a for a in alarm_rows if a.characteristic == name]
+        by_rule: dict[str, int] = {}
+        for a in mine:
+            by_rule[a.rule] = by_rule.get(a.rule, 0) + 1
+        trace = _trace(
+            location, values, points[0].index if points else 0, n,
+            [lim for lim in history if lim.chart == location], mine,
+        )
+        parts.append(
+            CharacteristicPart(
+                name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
+                mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
+                cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,
+            )
+        )
+
+    baselines = {
+        (e.subject, round(e.at, 6)): e.actor
+        for e in store.audit.entries(since)
+        if e.action == "new-baseline" and e.at < until
+    }
+    actors = {
+        (e.subject, round(e.at, 6)): e.actor
+        for e in store.audit.entries(since)
+        if e.action in ("limits-set", "new-baseline") and e.at < until
+    }
+    limits: list[LimitsChange] = []
+    for r in store.history.limits_history(since=since, until=until):
+        lim = r.limits
+        key = (f"{lim.characteristic}/{lim.chart}", round(r.set_at, 6))
+        limits.append(
+            LimitsChange(
+                at=r.set_at, characteristic=lim.characteristic, chart=lim.chart, phase=lim.phase,
+                start_index=lim.start_index, center=lim.center, ucl=lim.ucl, lcl=lim.lcl,
+                reason=r.reason, new_baseline=key in baselines, actor=actors.get(key, ""),
+            )
+        )
+    feed = [
+        FeedLine(r.at, r.event.kind, r.event.file, r.event.detail)
+        for r in store.history.feed_events(since, until)
+    ]
+    verdict = store.audit.verify()
+    in_period = sum(1 for e in store.audit.entries(since) if e.at < until)
+    return ShiftReport(
+        since=since, until=until, made_at=now, state_dir=str(store.directory),
+        characteristics=parts, alarms=alarms, limits=limits, feed_events=feed,
+        audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=in_period,
+    )

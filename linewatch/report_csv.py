@@ -1,0 +1,56 @@
+"""The shift handover report as CSV for spreadsheets: one block per section, each with its own
+header row, separated by a blank line; the first column names the section."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+from linewatch.report import ShiftReport, local_time
+
+
+def _f(x: float | None) -> str:
+    return "" if x is None else repr(float(x))
+
+
+def render_csv(report: ShiftReport) -> str:
+    """The whole report as CSV text (full precision numbers, local times with offset)."""
+    r = report
+    out = io.StringIO()
+    w = csv.writer(out, lineterminator="\n")
+    w.writerow(["section", "from", "to", "made", "audit", "audit_message", "audit_entries"])
+    w.writerow(["period", local_time(r.since), local_time(r.until), local_time(r.made_at),
+                "ok" if r.audit_ok else "broken", r.audit_message, r.audit_entries])
+    w.writerow([])
+    w.writerow(["section", "characteristic", "unit", "lsl", "usl", "n", "mean", "sd",
+                "ci95_low", "ci95_high", "cp", "cp_ci95_low", "cp_ci95_high", "cpk",
+                "cpk_ci95_low", "cpk_ci95_high", "ppm_out", "alarms_by_rule"])
+    for c in r.characteristics:
+        ci = c.ci95 or (None, None)
+        cpi = c.cp_ci95 or (None, None)
+        cki = c.cpk_ci95 or (None, None)
+        rules = ";".join(f"{k}={v}" for k, v in sorted(c.alarms_by_rule.items()))
+        w.writerow(["characteristic", c.name, c.unit, _f(c.lsl), _f(c.usl), c.n, _f(c.mean),
+                    _f(c.stdev), _f(ci[0]), _f(ci[1]), _f(c.cp), _f(cpi[0]), _f(cpi[1]),
+                    _f(c.cpk), _f(cki[0]), _f(cki[1]), _f(c.ppm_out), rules])
+    w.writerow([])
+    w.writerow(["section", "id", "raised", "characteristic", "chart", "rule", "what", "priority",
+                "state", "acknowledged_by", "acknowledged_at", "unacknowledged_seconds",
+                "still_unacknowledged", "reason", "note"])
+    for a in r.alarms:
+        w.writerow(["alarm", a.id, local_time(a.raised_at), a.characteristic, a.chart, a.rule,
+                    a.what, a.priority, a.state, a.acknowledged_by,
+                    local_time(a.acknowledged_at), round(a.unacknowledged_for, 3),
+                    "yes" if a.still_unacknowledged else "no", a.reason, a.note])
+    w.writerow([])
+    w.writerow(["section", "set_at", "characteristic", "chart", "phase", "start_index", "center",
+                "ucl", "lcl", "kind", "reason", "by"])
+    for x in r.limits:
+        w.writerow(["limits", local_time(x.at), x.characteristic, x.chart, x.phase,
+                    x.start_index, _f(x.center), _f(x.ucl), _f(x.lcl),
+                    "new-baseline" if x.new_baseline else "limits-set", x.reason, x.actor])
+    w.writerow([])
+    w.writerow(["section", "time", "event", "file", "detail"])
+    for f in r.feed_events:
+        w.writerow(["feed", local_time(f.at), f.kind, f.file, f.detail])
+    return out.getvalue()

@@ -1,0 +1,97 @@
+"""A small control chart as inline SVG for the HTML report: the plotted points, CL and control
+limits per phase (step lines), spec limits on individuals charts, and the points inside an alarm
+drawn as larger hollow squares so they stand out in grey print too."""
+
+from __future__ import annotations
+
+from html import escape
+
+from linewatch.report import ChartTrace, num
+
+WIDTH, HEIGHT = 680, 180
+LEFT, RIGHT, TOP, BOTTOM = 8, 86, 10, 22
+
+
+def _steps(xs: list[float], ys: list[float | None], y_of) -> list[str]:
+    """Horizontal segments per run of equal values (a new phase starts a new segment)."""
+    paths: list[str] = []
+    start = 0
+    for k in range(1, len(xs) + 1):
+        if k == len(xs) or ys[k] != ys[start]:
+            if ys[start] is not None:
+                x0 = xs[start] - (0 if start == 0 else (xs[start] - xs[start - 1]) / 2)
+                x1 = xs[k - 1] + (0 if k == len(xs) else (xs[k] - xs[k - 1]) / 2)
+                y = y_of(ys[start])
+                paths.append(f"M{x0:.1f},{y:.1f}H{x1:.1f}")
+            start = k
+    return paths
+
+
+def control_chart_svg(
+    trace: ChartTrace, lsl: float | None = None, usl: float | None = None, title: str = ""
+) -> str:
+    """SVG markup of one location chart ('' when there are no points)."""
+    if not trace.values:
+        return ""
+    specs = [v for v in (lsl, usl) if v is not None] if trace.chart == "individuals" else []
+    lims = [v for v in (*trace.center, *trace.ucl, *trace.lcl) if v is not None]
+    everything = [*trace.values, *lims, *specs]
+    lo, hi = min(everything), max(everything)
+    if hi == lo:
+        hi, lo = hi + 1, lo - 1
+    pad = (hi - lo) * 0.06
+    lo, hi = lo - pad, hi + pad
+    plot_w, plot_h = WIDTH - LEFT - RIGHT, HEIGHT - TOP - BOTTOM
+    count = len(trace.values)
+
+    def x_of(k: int) -> float:
+        return LEFT + (plot_w * (k + 0.5) / count)
+
+    def y_of(v: float) -> float:
+        return TOP + plot_h * (hi - v) / (hi - lo)
+
+    xs = [x_of(k) for k in range(count)]
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {WIDTH} {HEIGHT}" '
+        f'class="chart" role="img" aria-label="{escape(title)}">',
+        f'<rect x="{LEFT}" y="{TOP}" width="{plot_w}" height="{plot_h}" class="frame"/>',
+    ]
+    for name, ys, cls in (
+        ("UCL", trace.ucl, "limit"), ("CL", trace.center, "center"), ("LCL", trace.lcl, "limit")
+    ):
+        paths = _steps(xs, ys, y_of)
+        if paths:
+            parts.append(f'<path d="{"".join(paths)}" class="{cls}"/>')
+            last = next((v for v in reversed(ys) if v is not None), None)
+            if last is not None:
+                parts.append(
+                    f'<text x="{LEFT + plot_w + 4}" y="{y_of(last) + 3.5:.1f}" class="label">'
+                    f"{name} {escape(num(last, 5))}</text>"
+                )
+    for name, v in (("USL", usl), ("LSL", lsl)):
+        if v is not None and specs:
+            y = y_of(v)
+            parts.append(f'<path d="M{LEFT},{y:.1f}H{LEFT + plot_w}" class="spec"/>')
+            parts.append(
+                f'<text x="{LEFT + plot_w + 4}" y="{y + 3.5:.1f}" class="label spec-label">'
+                f"{name} {escape(num(v, 5))}</text>"
+            )
+    line = " ".join(f"{x:.1f},{y_of(v):.1f}" for x, v in zip(xs, trace.values, strict=True))
+    parts.append(f'<polyline points="{line}" class="trace"/>')
+    radius = 2.2 if count <= 150 else 1.4
+    for x, v, i in zip(xs, trace.values, trace.indices, strict=True):
+        y = y_of(v)
+        if i in trace.flagged:
+            parts.append(
+                f'<rect x="{x - 3.5:.1f}" y="{y - 3.5:.1f}" width="7" height="7" class="flag">'
+                f"<title>point {i}: {escape(num(v))} (in an alarm)</title></rect>"
+            )
+        else:
+            parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="{radius}" class="dot"/>')
+    parts.append(
+        f'<text x="{LEFT}" y="{HEIGHT - 6}" class="label">point {trace.indices[0]}</text>'
+        f'<text x="{LEFT + plot_w}" y="{HEIGHT - 6}" class="label" text-anchor="end">'
+        f"point {trace.indices[-1]}</text>"
+    )
+    parts.append("</svg>")
+    return "".join(parts)
