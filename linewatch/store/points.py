@@ -21,6 +21,7 @@ if TYPE_CHECKING:
 
 KEEP_SECONDS = 7 * 86400.0
 KEEP_POINTS = 500_000  # per characteristic
+PRUNE_EVERY = 3600.0  # seconds between automatic prunes while points are being added
 
 
 @dataclass(frozen=True, slots=True)
@@ -76,11 +77,17 @@ class History:
     """Points, limits, feed events and characteristic settings."""
 
     def __init__(
-        self, store: Store, keep_seconds: float = KEEP_SECONDS, keep_points: int = KEEP_POINTS
+        self,
+        store: Store,
+        keep_seconds: float = KEEP_SECONDS,
+        keep_points: int = KEEP_POINTS,
+        prune_every: float = PRUNE_EVERY,
     ) -> None:
         self.store = store
         self.keep_seconds = keep_seconds
         self.keep_points = keep_points
+        self.prune_every = prune_every
+        self._last_prune = float("-inf")
 
     # -- points -----------------------------------------------------------------------------
 
@@ -95,7 +102,8 @@ class History:
         received_at: float | None = None,
     ) -> None:
         """Append consecutive readings (columnar, as a parsed batch holds them). An index stored
-        twice is an error, never a silent duplicate."""
+        twice is an error, never a silent duplicate. About once an hour this also prunes old
+        points (in the same transaction), so the table stays bounded without a separate job."""
         if len(values) != len(lines) or (times is not None and len(times) != len(values)):
             raise ValueError("values, lines and times must have the same length")
         at = time.time() if received_at is None else received_at
@@ -110,6 +118,8 @@ class History:
                 "VALUES (?, ?, ?, ?, ?, ?, ?)",
                 rows,
             )
+            if at - self._last_prune >= self.prune_every:
+                self.prune(at)
 
     def points(
         self, characteristic: str, since: float | None = None, until: float | None = None
@@ -133,18 +143,28 @@ class History:
         return [PointRecord(*tuple(r)) for r in reversed(rows)]
 
     def characteristics_with_points(self) -> list[str]:
-        """Names of characteristics that have stored points."""
-        return [r[0] for r in self.store.query("SELECT DISTINCT characteristic FROM points")]
+        """Names of characteristics that have stored points, sorted. Each step is one index
+        seek (a skip scan), so the cost does not grow with the number of points."""
+        names: list[str] = []
+        row = self.store.query("SELECT MIN(characteristic) FROM points")
+        while row and row[0][0] is not None:
+            names.append(row[0][0])
+            row = self.store.query(
+                "SELECT MIN(characteristic) FROM points WHERE characteristic > ?", (names[-1],)
+            )
+        return names
 
     def prune(self, now: float | None = None) -> int:
         """Drop points older than `keep_seconds` or beyond the newest `keep_points` of their
         characteristic; returns how many went."""
         now = time.time() if now is None else now
+        self._last_prune = now
         gone = 0
         with self.store.transaction() as conn:
-            for name, newest in conn.execute(
-                "SELECT characteristic, MAX(idx) FROM points GROUP BY characteristic"
-            ).fetchall():
+            for name in self.characteristics_with_points():
+                newest = conn.execute(
+                    "SELECT MAX(idx) FROM points WHERE characteristic = ?", (name,)
+                ).fetchone()[0]
                 gone += conn.execute(
                     "DELETE FROM points WHERE characteristic = ? AND received_at < ?",
                     (name, now - self.keep_seconds),

@@ -54,13 +54,24 @@ def test_points_append_query_and_refuse_doubles(store: Store) -> None:
 
 def test_prune_by_age_and_by_count(tmp_path: Path) -> None:
     with Store(tmp_path / "s") as store:
-        h = History(store, keep_seconds=1000.0, keep_points=5)
+        h = History(store, keep_seconds=1000.0, keep_points=5, prune_every=float("inf"))
         h.add_points("od", 0, [1.0] * 3, [1, 2, 3], "f", received_at=0.0)
         h.add_points("od", 3, [2.0] * 6, list(range(4, 10)), "f", received_at=5000.0)
         h.add_points("wall", 0, [3.0] * 2, [1, 2], "f", received_at=5000.0)
         assert h.prune(now=5500.0) == 3 + 1
         assert [p.index for p in h.points("od")] == [4, 5, 6, 7, 8]
         assert len(h.points("wall")) == 2
+        assert h.characteristics_with_points() == ["od", "wall"]
+
+
+def test_adding_points_prunes_by_itself_about_hourly(tmp_path: Path) -> None:
+    with Store(tmp_path / "s") as store:
+        h = History(store, keep_seconds=100.0, keep_points=1000, prune_every=3600.0)
+        h.add_points("od", 0, [1.0] * 3, [1, 2, 3], "f", received_at=0.0)  # first add prunes
+        h.add_points("od", 3, [1.0], [4], "f", received_at=500.0)  # within the hour: kept
+        assert len(h.points("od")) == 4
+        h.add_points("od", 4, [1.0], [5], "f", received_at=3700.0)  # an hour on: pruned
+        assert [p.index for p in h.points("od")] == [4]
 
 
 def test_limits_history_and_its_audit_entries(store: Store) -> None:
