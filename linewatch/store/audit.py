@@ -14,6 +14,7 @@ import hashlib
 import io
 import json
 import time
+from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
@@ -61,7 +62,7 @@ class Verdict:
     first_broken: int | None
     message: str
 
-    def __iter__(self):  # allows `ok, seq, message = trail.verify()`
+    def __iter__(self) -> Iterator[Any]:  # allows `ok, seq, message = trail.verify()`
         return iter((self.ok, self.first_broken, self.message))
 
 
