@@ -22,6 +22,10 @@ RENEW_EVERY = 1.0  # seconds between renewals by the collector (and attempts by 
 EXPIRES_AFTER = 3.0  # seconds after the last renewal that the lease lapses
 
 
+class LeaseLost(RuntimeError):
+    """This instance no longer holds the lease: another one collects now."""
+
+
 @dataclass(frozen=True, slots=True)
 class LeaseHolder:
     """The current collector as the lease row records it."""
@@ -79,6 +83,16 @@ class Lease:
             ).rowcount
         self.held = changed == 1
         return self.held
+
+    def ensure(self) -> None:
+        """Raise LeaseLost unless we still hold the lease. Call it first inside each batch's
+        transaction: transactions are serialised, so a collector that stalled past expiry and
+        was replaced rolls its batch back instead of writing it twice."""
+        with self.store.transaction() as conn:
+            row = conn.execute("SELECT holder FROM lease WHERE id = 1").fetchone()
+        if row is None or row[0] != self.instance_id:
+            self.held = False
+            raise LeaseLost(f"instance {self.instance_id} no longer collects")
 
     def release(self) -> None:
         """Give the lease up at once (on a clean exit) so a viewer takes over without waiting."""

@@ -31,6 +31,23 @@ def test_one_holder_at_a_time_and_expiry(store: Store) -> None:
     assert holder is not None and holder.holder == "b" and holder.pid == os.getpid()
 
 
+def test_a_replaced_collector_cannot_write_its_batch(store: Store) -> None:
+    from linewatch.model import FeedEvent
+    from linewatch.store.lease import LeaseLost
+
+    a, b = Lease(store, "a"), Lease(store, "b")
+    assert a.try_acquire(now=100.0)
+    with store.transaction():
+        a.ensure()  # still ours (even past expiry, while nobody took it)
+        store.history.add_feed_event(FeedEvent("appeared", "od.csv"), at=100.0)
+    assert b.try_acquire(now=100.0 + EXPIRES_AFTER + 1)  # a stalled; b took over
+    with pytest.raises(LeaseLost), store.transaction():
+        a.ensure()
+        store.history.add_feed_event(FeedEvent("rotated", "od.csv"), at=105.0)
+    assert [e.event.kind for e in store.history.feed_events()] == ["appeared"]
+    assert not a.held
+
+
 def test_release_frees_the_lease_at_once(store: Store) -> None:
     a, b = Lease(store, "a"), Lease(store, "b")
     assert a.try_acquire(now=100.0)
