@@ -137,3 +137,42 @@ def test_export_jsonl_and_csv(store: Store) -> None:
 def test_unknown_action_is_refused(store: Store) -> None:
     with pytest.raises(ValueError, match="unknown audit action"):
         store.audit.append("deleted-everything", "x")
+
+
+def test_threads_appending_at_once_keep_one_chain(store: Store) -> None:
+    import threading
+
+    def work(k: int) -> None:
+        for i in range(50):
+            with store.transaction():
+                store.audit.append("limits-set", f"t{k}", {"i": i}, actor="t")
+
+    threads = [threading.Thread(target=work, args=(k,)) for k in range(4)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert len(store.audit.entries()) == 200
+    assert store.audit.verify().ok
+
+
+def test_processes_appending_at_once_keep_one_chain(tmp_path: Path) -> None:
+    import subprocess
+    import sys
+
+    Store(tmp_path / "s").close()
+    code = (
+        "import sys\nfrom linewatch.store.db import Store\n"
+        "s = Store(sys.argv[1], create=False)\n"
+        "for i in range(100):\n"
+        "    s.audit.append('limits-set', sys.argv[2], {'i': i}, actor='p')\n"
+    )
+    procs = [
+        subprocess.Popen([sys.executable, "-c", code, str(tmp_path / "s"), name])
+        for name in ("a", "b")
+    ]
+    assert [p.wait(60) for p in procs] == [0, 0]
+    with Store(tmp_path / "s", create=False) as s:
+        entries = s.audit.entries()
+        assert len(entries) == 200 and s.audit.verify().ok
+        assert {e.subject for e in entries} == {"a", "b"}
