@@ -70,7 +70,15 @@ class LinewatchApp(App[int]):
         self._changed = True
         self._alarms_seen: set[int] | None = None
 
+    def get_key_display(self, binding: Binding) -> str:
+        """Plain key names on the Linux console, which lacks Textual's key symbols."""
+        shown = super().get_key_display(binding)
+        if self.glyphs.ascii and not shown.isascii():
+            return binding.key.replace("_", " ").title()
+        return shown
+
     def on_mount(self) -> None:
+        self.set_class(self.glyphs.ascii, "-ascii")
         self.source.subscribe(self._source_changed)
         self._pull_line()
         self.set_interval(1.0 / REFRESH_HZ, self._refresh_if_changed)

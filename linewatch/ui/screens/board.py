@@ -43,7 +43,7 @@ def column_widths(total: int) -> dict[str, int]:
     usable = max(40, total - 2 * len(COLUMNS) - 2)
     fixed = {"state": 8, "name": 16 if usable < 90 else 22, "age": 5}
     rest = usable - sum(fixed.values())
-    margin = max(17, min(30, rest * 2 // 5))
+    margin = max(20, min(32, rest * 2 // 5))
     return {**fixed, "margin": margin, "recent": max(8, rest - margin)}
 
 
@@ -61,7 +61,7 @@ class BoardScreen(LineScreen):
                 tooltip="chart and figures of the highlighted row"),
         Binding("slash", "filter", "Filter", key_display="/",
                 tooltip="show only characteristics whose name contains the text"),
-        Binding("exclamation_mark", "attention", "Attention only", key_display="!",
+        Binding("exclamation_mark", "attention", "Attention", key_display="!",
                 tooltip="show only alarm, watch and stale rows (again: show all)"),
         Binding("escape", "clear_filter", "Clear filter", show=False,
                 tooltip="clear the name filter and the attention switch"),
@@ -195,7 +195,7 @@ class BoardScreen(LineScreen):
             gauge: Text = Text(f"learning limits\n{cv.baseline_needed} more points",
                                palette.STATE_STYLE[view.STATE_LEARNING], end="")
         else:
-            gauge = margin_gauge(cv, self._widths["margin"], g, wide=self._widths["margin"] > 22)
+            gauge = margin_gauge(cv, self._widths["margin"], g, wide=self._widths["margin"] >= 26)
         return [state, name, spark, gauge, self._age_cell(cv)]
 
     def _age_cell(self, cv: view.CharacteristicView) -> Text:
@@ -210,7 +210,8 @@ class BoardScreen(LineScreen):
         from linewatch.ui.screens.queue import sorted_alarms
 
         g = self.lw.glyphs
-        alarms = Text("open alarms\n", "bold underline", end="")
+        alarms = Text(end="")
+        alarms.append("open alarms\n", "bold underline")
         open_ = [a for a in sorted_alarms(line.alarms) if a.state != view.NORMAL]
         for a in open_[:12]:
             alarms.append(f"P{a.priority} ", "bold" if a.priority <= 2 else "")
@@ -222,7 +223,8 @@ class BoardScreen(LineScreen):
         elif len(open_) > 12:
             alarms.append(f"... {len(open_) - 12} more (a)\n", palette.LABEL)
         self.query_one("#side-alarms", Static).update(alarms)
-        feeds = Text("feeds\n", "bold underline", end="")
+        feeds = Text(end="")
+        feeds.append("feeds\n", "bold underline")
         for f in line.feeds:
             mark = g.state[view.STATE_STALE] if f.stale else g.state[view.STATE_OK]
             feeds.append(f"{mark} {f.status:<9} ", "reverse" if f.stale else "")

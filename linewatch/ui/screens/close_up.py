@@ -121,9 +121,10 @@ class CloseUpScreen(LineScreen):
         loc = cv.location
         values = loc.values if loc else []
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
+        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs)
+        box.end = "\n"  # Textual counts newlines to size a Group
         self.query_one("#closeup-box", Static).update(Group(
-            Text(f"last {min(len(values), 100)} points against the spec limits", "bold"),
-            draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs),
+            Text(f"last {min(len(values), 100)} points against the spec limits", "bold"), box,
         ))
         self.query_one("#closeup-phases", Static).update(Group(
             Text("phases of limits", "bold"),
@@ -159,7 +160,8 @@ class CloseUpScreen(LineScreen):
 
     def _trend_text(self, cv: view.CharacteristicView) -> Text:
         values = cv.location.values[-TREND_WINDOW:] if cv.location else []
-        text = Text(f"trend over the last {len(values)} points\n", "bold", end="")
+        text = Text(end="")
+        text.append(f"trend over the last {len(values)} points\n", "bold")
         fit = trend(values)
         if fit is None:
             text.append("too few points", palette.LABEL)

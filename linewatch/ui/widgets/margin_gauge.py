@@ -55,13 +55,16 @@ def gauge_bar(
     return text
 
 
-def gauge_figures(cv: CharacteristicView, glyphs: Glyphs, wide: bool) -> Text:
-    """Margin to the nearer spec limit in σ, Cpk and its 95% lower bound, judged by colour
-    (and by a word when wide)."""
+def margin_text(cv: CharacteristicView, glyphs: Glyphs) -> str:
+    """Distance of the recent mean to the nearer spec limit, in σ, five cells wide."""
+    return "    -" if cv.margin_sigma is None else f"{cv.margin_sigma:>4.1f}{glyphs.sigma}"
+
+
+def cpk_figures(cv: CharacteristicView, wide: bool) -> Text:
+    """Cpk and, after `>`, its 95% lower bound, each coloured against 1.00 / 1.33; a word too
+    when there is room, so the judgement survives a monochrome screen."""
     style = palette.cpk_style(cv.cpk)
     text = Text(end="")
-    margin = "-" if cv.margin_sigma is None else f"{cv.margin_sigma:.1f}{glyphs.sigma}"
-    text.append(f"{margin:>5} ", palette.LABEL)
     text.append(f"Cpk {fmt_fixed(cv.cpk)}", style)
     if cv.cpk_lower95 is not None:
         text.append(f" >{fmt_fixed(cv.cpk_lower95)}", palette.cpk_style(cv.cpk_lower95))
@@ -72,11 +75,12 @@ def gauge_figures(cv: CharacteristicView, glyphs: Glyphs, wide: bool) -> Text:
 
 
 def margin_gauge(cv: CharacteristicView, width: int, glyphs: Glyphs, wide: bool = False) -> Text:
-    """Two lines for the overview: the bar, then the figures."""
+    """Two lines for the board: the bar with the margin in σ, then Cpk with its lower bound."""
     style = palette.cpk_style(cv.cpk)
-    bar = gauge_bar(cv.recent_mean, cv.recent_sigma, cv.lsl, cv.usl, width, glyphs, style)
+    bar = gauge_bar(cv.recent_mean, cv.recent_sigma, cv.lsl, cv.usl, width - 6, glyphs, style)
     out = Text(end="")
     out.append_text(bar)
+    out.append(" " + margin_text(cv, glyphs), palette.LABEL)
     out.append("\n")
-    out.append_text(gauge_figures(cv, glyphs, wide))
+    out.append_text(cpk_figures(cv, wide))
     return out
