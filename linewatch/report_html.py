@@ -34,6 +34,7 @@ th, td { text-align: left; padding: 3px 6px; border-bottom: 1px solid var(--rule
          vertical-align: top; }
 th { background: var(--band); font-weight: 600; }
 td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+table.alarms td:nth-child(4) { min-width: 16em; }
 tr.open td:first-child { border-left: 4px solid var(--warn); }
 .empty { padding: 12px; background: var(--band); border-left: 4px solid var(--muted); }
 .figures { color: var(--muted); font-size: 12px; margin: 0 0 4px; }
@@ -59,7 +60,10 @@ svg .spec-label { fill: var(--warn); }
 """
 
 
-def _table(header: list[str], rows: list[list[tuple[str, bool]]], row_classes=None) -> str:
+def _table(
+    header: list[str], rows: list[list[tuple[str, bool]]], row_classes: list[str] | None = None,
+    cls: str = "",
+) -> str:
     """Rows of (text, numeric) cells; text is escaped here."""
     head = "".join(f"<th>{escape(h)}</th>" for h in header)
     body = []
@@ -70,7 +74,8 @@ def _table(header: list[str], rows: list[list[tuple[str, bool]]], row_classes=No
             for t, numeric in row
         )
         body.append(f"<tr{cls}>{cells}</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
+    table = f'<table class="{cls}">' if cls else "<table>"
+    return f"{table}<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
 
 
 def render_html(report: ShiftReport) -> str:
@@ -152,6 +157,7 @@ def render_html(report: ShiftReport) -> str:
                 for a in r.alarms
             ],
             ["open" if a.still_unacknowledged else "" for a in r.alarms],
+            cls="alarms",
         ))
     else:
         out.append('<p class="empty">No alarm was open in this period.</p>')

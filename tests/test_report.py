@@ -1,0 +1,409 @@
+"""The shift handover report: figures checked against numpy/scipy, every alarm with who and why,
+limits and feed events of the period, the audit verdict, local times with their offset, and the
+three formats; end to end through real `watch`, `alarms ack` and `report` processes."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import re
+import shutil
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from linewatch.alarms import AlarmBook
+from linewatch.config import parse_config
+from linewatch.model import FeedEvent, Limits
+from linewatch.report import _subgroup_size, build_report, local_time
+from linewatch.report_csv import render_csv
+from linewatch.report_html import render_html
+from linewatch.report_markdown import render_markdown
+from linewatch.store.actor import Actor
+from linewatch.store.db import Store
+
+ROOT = Path(__file__).resolve().parents[1]
+T0 = 1_780_000_000.0  # a fixed moment; the period is [T0, T0 + 8 h)
+SHIFT = 8 * 3600.0
+LSL, USL = 11.95, 12.05
+SIGMA = 0.012
+
+CONFIG = parse_config(
+    """
+[[characteristic]]
+name = "outer-diameter"
+column = "od_mm"
+unit = "mm"
+lsl = 11.95
+usl = 12.05
+reasons = ["die wear", "material lot change", "no cause found"]
+"""
+)
+
+
+@pytest.fixture()
+def shift_store(tmp_path: Path):
+    """A store holding one shift: points (and some from before it), limits, a new baseline,
+    alarms (one acknowledged, one left open), feed events and an audit trail."""
+    rng = np.random.default_rng(2024)
+    values = 12.0 + SIGMA * rng.standard_normal(200)
+    store = Store(tmp_path / "state")
+    book = AlarmBook(store, CONFIG)
+    book.load_config(CONFIG, now=T0 - 100)
+    history = store.history
+    # 20 points the evening before (outside the period), then 200 in the shift.
+    history.add_points("outer-diameter", 0, [12.5] * 20, list(range(2, 22)), "od.csv",
+                       received_at=T0 - 3600)
+    history.add_points("outer-diameter", 20, values.tolist(), list(range(22, 222)), "od.csv",
+                       received_at=T0 + 600)
+    history.record_limits(
+        Limits("outer-diameter", "individuals", 12.0, 12.0 + 3 * SIGMA, 12.0 - 3 * SIGMA, SIGMA),
+        reason="baseline", now=T0 + 60,
+    )
+    history.record_limits(
+        Limits("outer-diameter", "moving-range", 1.128 * SIGMA, 3.267 * 1.128 * SIGMA, 0.0,
+               0.853 * SIGMA),
+        reason="baseline", now=T0 + 60,
+    )
+    history.record_limits(
+        Limits("outer-diameter", "individuals", 12.001, 12.0 + 3 * SIGMA, 12.0 - 3 * SIGMA,
+               SIGMA, phase=1, start_index=150),
+        reason="new die fitted", now=T0 + 7200, actor="maria", new_baseline=True,
+    )
+    book.observe_chart("outer-diameter", "individuals", 60, 62, {"we1": [61]}, now=T0 + 1800)
+    book.observe_chart("outer-diameter", "individuals", 63, 70, {"we4": [70]}, now=T0 + 3600)
+    first = store.alarms.all()[0]
+    book.acknowledge([first.id], "material lot change", "lot 24-117 on the hopper",
+                     now=T0 + 1800 + 135, actor=Actor("maria", "10.0.0.7"))
+    history.add_feed_event(FeedEvent("rotated", "od.csv", "old file now od.csv.1"), at=T0 + 900)
+    history.add_feed_event(FeedEvent("stale", "wall.csv", "no row for 10m"), at=T0 + 5000)
+    yield store, values
+    store.close()
+
+
+def _report(store: Store):
+    return build_report(store, T0, T0 + SHIFT, CONFIG, now=T0 + SHIFT + 60)
+
+
+def test_figures_match_numpy_and_scipy(shift_store) -> None:
+    store, values = shift_store
+    part = _report(store).characteristics[0]
+    n = len(values)
+    assert part.n == n  # the 20 points from before the period are left out
+    assert part.mean == pytest.approx(values.mean(), rel=1e-12)
+    assert part.stdev == pytest.approx(values.std(ddof=1), rel=1e-12)
+    # 95% t-interval of the mean (scipy.stats.t.interval).
+    lo, hi = stats.t.interval(0.95, n - 1, loc=values.mean(), scale=stats.sem(values))
+    assert part.ci95 == pytest.approx((lo, hi), rel=1e-9)
+    # Cp with the chart's σ within (the newest individuals limits), chi-square interval.
+    cp = (USL - LSL) / (6 * SIGMA)
+    assert part.cp == pytest.approx(cp, rel=1e-9)
+    chi_lo, chi_hi = stats.chi2.ppf([0.025, 0.975], n - 1)
+    assert part.cp_ci95 == pytest.approx(
+        (cp * math.sqrt(chi_lo / (n - 1)), cp * math.sqrt(chi_hi / (n - 1))), rel=1e-6
+    )
+    # Cpk and Bissell's (1990) interval: Ĉpk ± z·√(1/(9n) + Ĉpk²/(2(n−1))).
+    cpk = min(USL - values.mean(), values.mean() - LSL) / (3 * SIGMA)
+    half = stats.norm.ppf(0.975) * math.sqrt(1 / (9 * n) + cpk**2 / (2 * (n - 1)))
+    assert part.cpk == pytest.approx(cpk, rel=1e-9)
+    assert part.cpk_ci95 == pytest.approx((cpk - half, cpk + half), rel=1e-6)
+    # Expected ppm outside spec under normality with the overall SD (scipy.stats.norm).
+    sd = values.std(ddof=1)
+    ppm = 1e6 * (stats.norm.cdf(LSL, values.mean(), sd) + stats.norm.sf(USL, values.mean(), sd))
+    assert part.ppm_out == pytest.approx(ppm, rel=1e-6)
+    assert part.alarms_by_rule == {"we1": 1, "we4": 1}
+
+
+def test_every_alarm_says_who_when_how_long_and_why(shift_store) -> None:
+    store, _ = shift_store
+    report = _report(store)
+    by_rule = {a.rule: a for a in report.alarms}
+    acked, still = by_rule["we1"], by_rule["we4"]
+    assert acked.acknowledged_by == "maria"
+    assert acked.acknowledged_at == pytest.approx(T0 + 1800 + 135)
+    assert acked.unacknowledged_for == pytest.approx(135)
+    assert (acked.reason, acked.note) == ("material lot change", "lot 24-117 on the hopper")
+    assert not acked.still_unacknowledged
+    # Never acknowledged: unacknowledged from raising to the end of the period.
+    assert still.still_unacknowledged and still.acknowledged_by == ""
+    assert still.unacknowledged_for == pytest.approx(SHIFT - 3600)
+    assert still.state == "unacknowledged"
+
+
+def test_limits_baselines_feed_events_and_audit(shift_store) -> None:
+    store, _ = shift_store
+    report = _report(store)
+    kinds = [(x.chart, x.phase, x.new_baseline, x.reason) for x in report.limits]
+    assert ("individuals", 1, True, "new die fitted") in kinds
+    assert ("individuals", 0, False, "baseline") in kinds
+    baseline = next(x for x in report.limits if x.new_baseline)
+    assert baseline.actor == "maria" and baseline.start_index == 150
+    assert [(f.kind, f.file) for f in report.feed_events] == [
+        ("rotated", "od.csv"), ("stale", "wall.csv")
+    ]
+    assert report.audit_ok
+    # Entries in the period: limits-set ×2, new-baseline, raised ×2, the we1 alarm's
+    # returned-to-normal, acknowledged and closed; the config load came before the period.
+    actions = sorted(e.action for e in store.audit.entries(T0))
+    assert actions == sorted(
+        ["limits-set", "limits-set", "new-baseline", "raised", "raised", "returned-to-normal",
+         "acknowledged", "closed"]
+    )
+    assert report.audit_entries == len(actions)
+
+
+def test_a_tampered_audit_trail_is_reported(shift_store) -> None:
+    store, _ = shift_store
+    path = store.path
+    store.close()
+    conn = sqlite3.connect(path)
+    conn.execute("DROP TRIGGER audit_no_update")
+    conn.execute("UPDATE audit SET actor = 'someone else' WHERE action = 'acknowledged'")
+    conn.commit()
+    conn.close()
+    reopened = Store(path.parent, create=False)
+    try:
+        report = _report(reopened)
+        assert not report.audit_ok
+        assert "altered" in report.audit_message
+        assert "BROKEN" in render_markdown(report)
+        assert "BROKEN" in render_html(report)
+    finally:
+        reopened.close()
+
+
+def test_times_are_local_with_their_offset(monkeypatch) -> None:
+    # 2026-06-01 12:00 UTC is 17:30 in India (UTC+05:30, no daylight saving) — a fact of the
+    # time zone database, not of linewatch.
+    monkeypatch.setenv("TZ", "Asia/Kolkata")
+    time.tzset()
+    try:
+        assert local_time(1_780_315_200.0) == "2026-06-01 17:30:00 +05:30"
+    finally:
+        monkeypatch.delenv("TZ")
+        time.tzset()
+
+
+def test_subgroup_size_comes_back_from_xbar_and_range_limits(tmp_path: Path) -> None:
+    # d2(5) = 2.326 (Montgomery, Introduction to SQC, Appendix VI): R̄ = d2·σ, σ(X̄) = σ/√5.
+    store = Store(tmp_path / "s")
+    try:
+        limits = {
+            "xbar": Limits("od", "xbar", 12.0, 12.016, 11.984, SIGMA / math.sqrt(5)),
+            "range": Limits("od", "range", 2.326 * SIGMA, 4.918 * SIGMA, 0.0, 0.864 * SIGMA),
+        }
+        assert _subgroup_size(store, None, "od", limits) == 5
+        limits["range"] = Limits("od", "range", 1.693 * SIGMA, 4.358 * SIGMA, 0.0, SIGMA)
+        limits["xbar"] = Limits("od", "xbar", 12.0, 12.02, 11.98, SIGMA / math.sqrt(3))
+        assert _subgroup_size(store, None, "od", limits) == 3  # d2(3) = 1.693, same table
+    finally:
+        store.close()
+
+
+def test_markdown_tables_are_well_formed(shift_store) -> None:
+    store, _ = shift_store
+    text = render_markdown(_report(store))
+    tables: list[list[str]] = []
+    current: list[str] = []
+    for line in [*text.splitlines(), ""]:
+        if line.startswith("|"):
+            current.append(line)
+        elif current:
+            tables.append(current)
+            current = []
+    assert len(tables) == 4  # characteristics, alarms, limits, feed health
+    for table in tables:
+        widths = {len(re.findall(r"(?<!\\)\|", row)) for row in table}
+        assert len(widths) == 1, table[:3]
+        assert re.fullmatch(r"\|(---\|)+", table[1])
+    assert "lot 24-117 on the hopper" in text
+    assert re.search(r"\d\d:\d\d:\d\d [+-]\d\d:\d\d", text)
+
+
+class _Collect(HTMLParser):
+    def __init__(self) -> None:
+        super().__init__()
+        self.tags: list[str] = []
+        self.attrs: list[tuple[str, str | None]] = []
+
+    def handle_starttag(self, tag, attrs) -> None:
+        self.tags.append(tag)
+        self.attrs.extend(attrs)
+
+
+def test_html_is_one_self_contained_file_with_a_chart(shift_store) -> None:
+    store, values = shift_store
+    text = render_html(_report(store))
+    parser = _Collect()
+    parser.feed(text)
+    assert parser.tags.count("svg") == 1
+    assert "script" not in parser.tags and "link" not in parser.tags
+    assert not [v for k, v in parser.attrs if k in ("src", "href")]
+    assert "@media print" in text
+    # Every plotted point is drawn: a dot, or a square when it lies inside an alarm.
+    drawn = parser.tags.count("circle") + text.count('class="flag"')
+    assert drawn == len(values)
+    assert text.count('class="flag"') == 2  # points 61 and 70
+
+
+def test_csv_reads_back_into_a_spreadsheet(shift_store) -> None:
+    store, values = shift_store
+    rows = list(csv.reader(io.StringIO(render_csv(_report(store)))))
+    chars = [r for r in rows if r and r[0] == "characteristic" and r[1] != "characteristic"]
+    header = next(r for r in rows if r and r[0] == "section" and "mean" in r)
+    record = dict(zip(header, chars[0], strict=True))
+    assert float(record["mean"]) == pytest.approx(values.mean(), rel=1e-12)
+    assert int(record["n"]) == len(values)
+    alarms = [r for r in rows if r and r[0] == "alarm"]
+    assert len(alarms) == 2
+
+
+def test_an_empty_period_says_so(tmp_path: Path) -> None:
+    Store(tmp_path / "state").close()
+    done = subprocess.run(
+        [sys.executable, "-m", "linewatch", "report", "--state-dir", str(tmp_path / "state"),
+         "--from", "2026-03-02T06:00", "--to", "2026-03-02T14:00"],
+        capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 0, done.stderr
+    assert "Nothing was recorded between 2026-03-02 06:00:00" in done.stdout
+    for fmt in ("html", "csv"):
+        other = subprocess.run(
+            [sys.executable, "-m", "linewatch", "report", "--state-dir",
+             str(tmp_path / "state"), "--since", "1h", "--format", fmt],
+            capture_output=True, text=True, timeout=60,
+        )
+        assert other.returncode == 0, other.stderr
+        assert other.stdout
+
+
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [
+        (["--from", "yesterday"], "--from"),
+        (["--since", "soon"], "--since"),
+        (["--from", "2026-03-02T14:00", "--to", "2026-03-02T06:00"], "period"),
+    ],
+)
+def test_bad_periods_get_one_line(tmp_path: Path, argv: list[str], message: str) -> None:
+    Store(tmp_path / "state").close()
+    done = subprocess.run(
+        [sys.executable, "-m", "linewatch", "report", "--state-dir", str(tmp_path / "state"),
+         *argv],
+        capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 2
+    assert message in done.stderr and len(done.stderr.strip().splitlines()) == 1
+
+
+def test_a_folder_without_a_store_is_refused(tmp_path: Path) -> None:
+    done = subprocess.run(
+        [sys.executable, "-m", "linewatch", "report", "--state-dir", str(tmp_path)],
+        capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 2
+    assert "not a linewatch state directory" in done.stderr
+
+
+def _wait_for(predicate, seconds: float) -> bool:
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        if predicate():
+            return True
+        time.sleep(0.1)
+    return False
+
+
+def test_report_of_a_real_watch_run(tmp_path: Path) -> None:
+    # The recorded lab sample, watched by a real collector, one alarm acknowledged from the
+    # shell, then the report: N and mean agree with the file read by the csv module.
+    log = tmp_path / "lab_long.csv"
+    shutil.copy(ROOT / "sample_feeds" / "lab_long.csv", log)
+    config = tmp_path / "line.toml"
+    config.write_text(
+        (ROOT / "config" / "lab_long.toml").read_text(encoding="utf-8")
+        .replace("../sample_feeds/lab_long.csv", "lab_long.csv"),
+        encoding="utf-8",
+    )
+    state = tmp_path / "state"
+    env = {**os.environ, "TZ": "Europe/Berlin"}
+    watcher = subprocess.Popen(
+        [sys.executable, "-m", "linewatch", "watch", "-c", str(config), "--state-dir",
+         str(state), "--no-ui", "--format", "jsonl", "--no-bell"],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
+    )
+    expected: dict[str, list[float]] = {}
+    with log.open(newline="") as fh:
+        for row in csv.DictReader(fh):
+            try:
+                expected.setdefault(row["characteristic"], []).append(float(row["value"]))
+            except ValueError:
+                continue  # the two junk rows
+
+    def all_in() -> bool:
+        if not (state / "linewatch.db").exists():
+            return False
+        conn = sqlite3.connect(state / "linewatch.db")
+        try:
+            (count,) = conn.execute("SELECT COUNT(*) FROM points").fetchone()
+        except sqlite3.OperationalError:
+            return False
+        finally:
+            conn.close()
+        return count == sum(len(v) for v in expected.values())
+
+    try:
+        assert _wait_for(all_in, 30), "the watcher did not store every point"
+    finally:
+        watcher.send_signal(signal.SIGTERM)
+        watcher.communicate(timeout=20)
+
+    listed = subprocess.run(
+        [sys.executable, "-m", "linewatch", "alarms", "list", "--all", "--format", "jsonl",
+         "--state-dir", str(state)], capture_output=True, text=True, timeout=60, check=True,
+    )
+    alarms = [json.loads(line) for line in listed.stdout.splitlines()]
+    tensile = next(a for a in alarms if a["characteristic"] == "tensile-strength"
+                   and a["rule"] == "we1" and a["first_index"] == 45)
+    subprocess.run(
+        [sys.executable, "-m", "linewatch", "alarms", "ack", str(tensile["id"]), "--reason",
+         "no cause found", "--note", "sample re-clamped and retested", "--state-dir",
+         str(state)], capture_output=True, text=True, timeout=60, check=True,
+    )
+    out = tmp_path / "handover.csv"
+    done = subprocess.run(
+        [sys.executable, "-m", "linewatch", "report", "--state-dir", str(state), "--since",
+         "1h", "--format", "csv", "-o", str(out)],
+        capture_output=True, text=True, timeout=60, env=env,
+    )
+    assert done.returncode == 0, done.stderr
+    rows = list(csv.reader(out.open(newline="", encoding="utf-8")))
+    header = next(r for r in rows if r and r[0] == "section" and "mean" in r)
+    figures = {
+        r[1]: dict(zip(header, r, strict=True))
+        for r in rows if r and r[0] == "characteristic" and r[1] != "characteristic"
+    }
+    columns = {"tensile-strength": "tensile_mpa", "burst-pressure": "burst_bar"}
+    for name, column in columns.items():
+        assert int(figures[name]["n"]) == len(expected[column])
+        assert float(figures[name]["mean"]) == pytest.approx(np.mean(expected[column]))
+    acked = [r for r in rows if r and r[0] == "alarm" and r[1] == str(tensile["id"])]
+    assert acked and "sample re-clamped and retested" in acked[0]
+    # Berlin is UTC+01:00 in winter and +02:00 in summer; either way the offset is shown.
+    assert re.search(r" \+0[12]:00$", acked[0][2])
+    html = subprocess.run(
+        [sys.executable, "-m", "linewatch", "report", "--state-dir", str(state), "--since",
+         "1h", "--format", "html"], capture_output=True, text=True, timeout=60, env=env,
+    )
+    assert html.returncode == 0 and html.stdout.count("<svg") == 2
