@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import contextlib
 import time
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
@@ -509,7 +509,7 @@ class AlarmBook:
         fired: dict[str, list[int]],
         now: float | None,
         kinds: tuple[str, ...],
-        kind_of: Any,
+        kind_of: Callable[[str], str],
     ) -> list[AlarmEvent]:
         if last_index < first_index:
             raise ValueError(f"empty range {first_index}..{last_index}")
