@@ -562,12 +562,12 @@ def parse_log_bytes(
     return batch
 
 
-def _read_wide(data: bytes, parser: RowParser) -> Batch:
+def _read_wide(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
     if data and not data.endswith(b"\n"):
         data += b"\n"
     # the header and, without explicit columns, the first data row go through the slow path
     prefix = _Rows(parser.file)
-    lo = line_no = 0
+    lo, line_no = 0, lines_before
     while lo < len(data) and not parser.ready:
         end = data.index(b"\n", lo)
         line_no += 1
@@ -630,11 +630,9 @@ class _FastWide:
         assert p.header is not None and p.wanted is not None
         ncols = len(p.header)
         arr, lo = self.arr, self.lo
-        seg = arr[lo:]
         delim = ord(p.delimiter)
         # newlines and delimiters, in order: each line's fields lie between them
-        pos = np.flatnonzero((seg == 10) | (seg == delim))
-        pos += lo
+        pos, odd_pos = _scan(arr, lo, delim)
         nlk = np.flatnonzero(arr[pos] == 10)
         nl = pos[nlk]
         n = len(nl)
@@ -644,48 +642,42 @@ class _FastWide:
         base = np.empty(n, dtype=np.int64)  # index in pos of each line's first delimiter
         base[0] = 0
         base[1:] = nlk[:-1] + 1
-        counts = nlk - base
+        slow = (nlk - base) != ncols - 1
+        del nlk
         ends = nl.copy()
         cr_end = (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
         ends -= cr_end
-        slow = counts != ncols - 1
+        del cr_end
         first = arr[np.minimum(starts, len(arr) - 1)]
         slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
         slow |= (ends - starts) > MAX_LINE_BYTES
-        # bytes that need the per-line path: controls, non-ASCII, quotes
-        odd = (seg - np.uint8(32)) > 94
-        odd |= seg == 34
-        expected = n + int(np.count_nonzero(cr_end)) + (len(pos) - n if delim == 9 else 0)
-        if int(np.count_nonzero(odd)) != expected:
-            odd_pos = np.flatnonzero(odd) + lo
-            b = arr[odd_pos]
-            fine = b == 10
-            if delim == 9:
-                fine |= b == 9
-            fine |= (b == 13) & (arr[np.minimum(odd_pos + 1, len(arr) - 1)] == 10)
-            odd_pos = odd_pos[~fine]
+        if len(odd_pos):
             slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
-        del odd
         fast = np.flatnonzero(~slow)
         fbase = base[fast]
+        del base, first
         last = len(pos) - 1
-
-        def field_span(j: int) -> tuple[np.ndarray, np.ndarray]:
-            s = starts[fast] if j == 0 else pos[np.minimum(fbase + j - 1, last)] + 1
-            e = ends[fast] if j == ncols - 1 else pos[np.minimum(fbase + j, last)]
-            return s, e
-
-        ok = np.ones(len(fast), dtype=bool)
-        converted: list[np.ndarray] = []
-        for _, j in p.wanted:
-            s, e = field_span(j)
-            vals, good = _convert(arr, s, e, p.decimal_comma)
-            ok &= good
-            converted.append(vals)
+        fstarts, fends = starts[fast], ends[fast]
+        spans: list[tuple[np.ndarray, np.ndarray]] = []
+        for j in [j for _, j in p.wanted] + ([p.time_idx] if p.time_idx is not None else []):
+            s = fstarts if j == 0 else pos[np.minimum(fbase + j - 1, last)] + 1
+            e = fends if j == ncols - 1 else pos[np.minimum(fbase + j, last)]
+            spans.append((s, e))
         if p.time_idx is not None:
-            ts, te = field_span(p.time_idx)
+            ts, te = spans.pop()
         else:
             ts = te = np.zeros(len(fast), dtype=np.int64)
+        del fstarts, fends
+        del pos, fbase, ends
+        ok = np.ones(len(fast), dtype=bool)
+        converted: list[np.ndarray] = []
+        for k in range(len(spans)):
+            s, e = spans[k]
+            spans[k] = (ts[:0], ts[:0])  # let each span go once converted
+            vals, good = _convert(arr, s, e, p.decimal_comma)
+            del s, e
+            ok &= good
+            converted.append(vals)
         if not ok.all():
             slow[fast[~ok]] = True
             fast = fast[ok]
@@ -699,6 +691,33 @@ class _FastWide:
         for i in np.flatnonzero(slow).tolist():
             p.feed_line(data[starts[i] : nl[i]], i + first_no, rest)
         return _merge(prefix, rest, p, fast_lines, converted, data, ts, te)
+
+
+_SCAN_BLOCK = 1 << 22
+
+
+def _scan(arr: np.ndarray, lo: int, delim: int) -> tuple[np.ndarray, np.ndarray]:
+    """Positions of newlines and delimiters from `lo` on, and of bytes that need the per-line
+    path (controls, non-ASCII, quotes; a \r just before a newline is fine). Works block by
+    block so no temporary is as large as the file."""
+    pos_parts: list[np.ndarray] = []
+    odd_parts: list[np.ndarray] = []
+    last = len(arr) - 1
+    for b0 in range(lo, len(arr), _SCAN_BLOCK):
+        blk = arr[b0 : b0 + _SCAN_BLOCK]
+        sep = blk == 10
+        sep |= blk == delim
+        pos_parts.append(np.flatnonzero(sep) + b0)
+        odd = (blk - np.uint8(32)) > 94
+        odd |= blk == 34
+        odd &= ~sep
+        if odd.any():
+            op = np.flatnonzero(odd) + b0
+            op = op[~((arr[op] == 13) & (arr[np.minimum(op + 1, last)] == 10))]
+            odd_parts.append(op)
+    empty = np.zeros(0, dtype=np.int64)
+    pos = np.concatenate(pos_parts) if pos_parts else empty
+    return pos, (np.concatenate(odd_parts) if odd_parts else empty)
 
 
 def _convert(
@@ -716,8 +735,8 @@ def _convert(
     width = int(min(lens.max(initial=0), _FAST_FIELD))
     good = (lens > 0) & (lens <= width)
     mant = np.zeros(n, dtype=np.int64)
-    frac = np.zeros(n, dtype=np.int64)
-    ndig = np.zeros(n, dtype=np.int64)
+    frac = np.zeros(n, dtype=np.int8)
+    ndig = np.zeros(n, dtype=np.int8)
     seen_dot = np.zeros(n, dtype=bool)
     neg = np.zeros(n, dtype=bool)
     for j in range(width):
@@ -735,13 +754,13 @@ def _convert(
         dot = c == 46
         good &= ~(dot & seen_dot)
         seen_dot |= dot
-        mant *= np.where(isd, 10, 1)
-        mant += np.where(isd, d, 0)
+        np.multiply(mant, 10, out=mant, where=isd)
+        np.add(mant, d, out=mant, where=isd, casting="unsafe")
         frac += isd & seen_dot
         ndig += isd
     good &= (ndig >= 1) & (ndig <= 15)
     vals = mant.astype(np.float64)
-    vals /= _POW10[np.minimum(frac, 22)]
+    vals /= _POW10[frac]
     np.negative(vals, out=vals, where=neg)
     return vals, good
 
@@ -756,37 +775,39 @@ def _merge(
     ts: np.ndarray,
     te: np.ndarray,
 ) -> Batch:
-    """Prefix rows, then fast rows with the line-by-line rows put back in file order."""
+    """Prefix rows, then fast rows with the line-by-line rows put back in file order.
+
+    In the wide layout a row gives every wanted column or none, so all characteristics share
+    one set of lines and one TimeColumn.
+    """
     assert p.wanted is not None
     batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
     batch.rows = prefix.rows + rest.rows + len(fast_lines)
+    key = p.wanted[0][0]
+    pre_l = prefix.lines.get(key, [])
+    pre_t = prefix.times.get(key, [])
+    slow_l = np.asarray(rest.lines.get(key, []), dtype=np.int64)
+    slow_t = rest.times.get(key, [])
+    npre = len(pre_l)
+    at = np.searchsorted(fast_lines, slow_l)
+    lines = np.insert(fast_lines, at, slow_l)
+    s, e = np.insert(ts, at, 0), np.insert(te, at, 0)
+    extra: dict[int, str | None] = dict(enumerate(pre_t))
+    for k, (pos, t) in enumerate(zip(at.tolist(), slow_t, strict=True)):
+        extra[npre + pos + k] = t
+    if npre:
+        lines = np.concatenate([np.asarray(pre_l, dtype=np.int64), lines])
+        pad = np.zeros(npre, dtype=np.int64)
+        s, e = np.concatenate([pad, s]), np.concatenate([pad, e])
+    if len(lines) == 0:
+        return batch
+    times = TimeColumn(buf=data, starts=s, ends=e, extra=extra)
     for (name, _), vals in zip(p.wanted, converted, strict=True):
-        pre_v = prefix.values.get(name, [])
-        pre_l = prefix.lines.get(name, [])
-        pre_t = prefix.times.get(name, [])
-        slow_l = np.asarray(rest.lines.get(name, []), dtype=np.int64)
-        slow_v = np.asarray(rest.values.get(name, []), dtype=np.float64)
-        slow_t = rest.times.get(name, [])
-        at = np.searchsorted(fast_lines, slow_l)
-        v = np.insert(vals, at, slow_v)
-        ln = np.insert(fast_lines, at, slow_l)
-        s = np.insert(ts, at, 0)
-        e = np.insert(te, at, 0)
-        extra: dict[int, str | None] = {}
-        npre = len(pre_v)
-        for k, t in enumerate(pre_t):
-            extra[k] = t
-        for k, (pos, t) in enumerate(zip(at.tolist(), slow_t, strict=True)):
-            extra[npre + pos + k] = t
+        v = np.insert(vals, at, np.asarray(rest.values.get(name, []), dtype=np.float64))
         if npre:
-            v = np.concatenate([np.asarray(pre_v, dtype=np.float64), v])
-            ln = np.concatenate([np.asarray(pre_l, dtype=np.int64), ln])
-            s = np.concatenate([np.zeros(npre, dtype=np.int64), s])
-            e = np.concatenate([np.zeros(npre, dtype=np.int64), e])
-        if len(v) == 0:
-            continue
+            v = np.concatenate([np.asarray(prefix.values.get(name, []), dtype=np.float64), v])
         batch.values[name] = v
-        batch.lines[name] = ln
-        batch.times[name] = TimeColumn(buf=data, starts=s, ends=e, extra=extra)
+        batch.lines[name] = lines
+        batch.times[name] = times
     batch.rejected.sort(key=lambda r: r.line)
     return batch
