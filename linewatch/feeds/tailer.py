@@ -219,7 +219,7 @@ class _Followed:
     def read(self, budget: int) -> tuple[Batch | None, bool]:
         """Read up to `budget` bytes from the position; parse the lines that completed."""
         assert self.fd is not None
-        lines: list[bytes] = []
+        pieces: list[bytes] = []
         first = self.next_line
         remaining = budget
         more = False
@@ -231,19 +231,20 @@ class _Followed:
             if not chunk:
                 break
             remaining -= len(chunk)
-            self._take(chunk, lines)
+            self._take(chunk, pieces)
             self.pos += len(chunk)
-        if not lines:
+        if not pieces:
             return None, more
-        return self.parser.parse(lines, first), more
+        return self.parser.parse_block(b"".join(pieces), first), more
 
-    def _take(self, chunk: bytes, lines: list[bytes]) -> None:
+    def _take(self, chunk: bytes, pieces: list[bytes]) -> None:
+        """Collect the complete lines of `chunk` (each ending in a newline) into `pieces`."""
         start = 0
         if self.overflow:
             k = chunk.find(b"\n")
             if k < 0:
                 return
-            lines.append(bytes(self.pending))  # longer than the cap: the parser rejects it
+            pieces.append(bytes(self.pending) + b"\n")  # longer than the cap: rejected
             self.pending.clear()
             self.overflow = False
             self.offset = self.pos + k + 1
@@ -253,14 +254,14 @@ class _Followed:
         if last >= 0:
             if self.pending:
                 k = chunk.find(b"\n", start)
-                lines.append(bytes(self.pending) + chunk[start:k])
+                pieces.append(bytes(self.pending) + chunk[start : k + 1])
                 self.pending.clear()
                 self.next_line += 1
                 start = k + 1
             if start <= last:
-                whole = chunk[start:last].split(b"\n")
-                lines.extend(whole)
-                self.next_line += len(whole)
+                block = chunk[start : last + 1]
+                pieces.append(block)
+                self.next_line += block.count(b"\n")
             self.offset = self.pos + last + 1
             start = last + 1
         tail = chunk[start:]

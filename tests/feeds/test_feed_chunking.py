@@ -15,7 +15,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from linewatch.config import FeedConfig
-from linewatch.feeds.formats import RowParser
+from linewatch.feeds import formats
+from linewatch.feeds.formats import FAST_BLOCK_BYTES, RowParser
 from linewatch.feeds.tailer import Tailer
 
 ROWS = st.one_of(
@@ -46,9 +47,13 @@ def reference(data: bytes) -> tuple[list[float], list[int], list[tuple[int, str]
 
 @settings(max_examples=120, deadline=None,
           suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
-@given(streams())
-def test_any_write_chunking_yields_every_row_once_in_order(tmp_path: Path, case) -> None:
+@given(streams(), st.booleans())
+def test_any_write_chunking_yields_every_row_once_in_order(
+    tmp_path: Path, case, whole_buffer: bool
+) -> None:
     data, cuts, budget = case
+    # whole_buffer: every block goes through the numpy path instead of line by line
+    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
     folder = Path(tempfile.mkdtemp(dir=tmp_path))
     log = folder / "log.csv"
     log.write_bytes(b"")
@@ -71,11 +76,14 @@ def test_any_write_chunking_yields_every_row_once_in_order(tmp_path: Path, case)
                 return
 
     prev = 0
-    for cut in [*cuts, len(data)]:
-        with open(log, "ab") as fh:
-            fh.write(data[prev:cut])
-        prev = cut
+    try:
+        for cut in [*cuts, len(data)]:
+            with open(log, "ab") as fh:
+                fh.write(data[prev:cut])
+            prev = cut
+            drain()
         drain()
-    drain()
-    tailer.close()
+    finally:
+        tailer.close()
+        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
     assert (vals, lines, rejected) == reference(data)
