@@ -74,7 +74,8 @@ class KeysHelp(ModalScreen[None]):
                 table.add_row(f"  {key_display(b)}", b.tooltip or b.description)
             parts.append(table)
         g = self.app.glyphs  # type: ignore[attr-defined]
-        marks = Text("\nstates: ", "bold")
+        marks = Text()
+        marks.append("\nstates: ", "bold")
         marks.append(", ".join(f"{glyph} {state}" for state, glyph in g.state.items()))
         marks.append(
             "\nsparklines and charts: a digit marks a signalling point with its rule's number "

@@ -1,0 +1,130 @@
+"""The character drawings: control chart, spec-margin gauge, sparkline cell and box plot put each
+mark where its value says (geometry checked against the values, not against earlier output)."""
+
+from __future__ import annotations
+
+from rich.console import Console
+
+from linewatch import view
+from linewatch.ui.formatting import fmt_age, rule_digit
+from linewatch.ui.glyphs import ASCII, UNICODE
+from linewatch.ui.widgets.box_plot import draw_box_plot
+from linewatch.ui.widgets.control_chart import LABEL_WIDTH, draw_control_chart
+from linewatch.ui.widgets.margin_gauge import gauge_bar, margin_gauge
+from linewatch.ui.widgets.spark_cell import SparkCell
+
+
+def lines_of(text: object, width: int = 200) -> list[str]:
+    console = Console(width=width, color_system=None, file=None)
+    with console.capture() as cap:
+        console.print(text, crop=False, soft_wrap=True)
+    return cap.get().rstrip("\n").split("\n")
+
+
+def chart(values: list[float], rules: list[str] | None = None,
+          phase_starts: list[int] | None = None) -> view.ChartView:
+    return view.ChartView("individuals", values, list(range(len(values))),
+                          rules or [""] * len(values), center=0.0, ucl=3.0, lcl=-3.0, sigma=1.0,
+                          phase_starts=phase_starts or [0])
+
+
+def row_with(lines: list[str], label: str) -> int:
+    return next(i for i, line in enumerate(lines) if label in line)
+
+
+def test_points_sit_on_the_right_side_of_the_limits_and_carry_their_rule_number() -> None:
+    values = [0.0] * 9 + [4.0] + [-1.5]
+    rules = [""] * 9 + ["we1", ""]
+    lines = lines_of(draw_control_chart(chart(values, rules), 40 + LABEL_WIDTH, 15, UNICODE))
+    ucl, cl, lcl = row_with(lines, "UCL 3"), row_with(lines, "CL 0"), row_with(lines, "LCL -3")
+    assert ucl < cl < lcl
+    signal_row = next(i for i, line in enumerate(lines) if line[:40].count("1") == 1)
+    assert signal_row < ucl  # 4.0 is above the UCL, marked with its rule's number
+    low_row = next(i for i, line in enumerate(lines) if "•" in line[:40] and i > cl
+                   and i != cl)
+    assert cl < low_row < lcl  # −1.5 lies between the centre line and the LCL
+
+
+def test_zones_at_one_and_two_sigma_are_drawn_between_the_limits() -> None:
+    lines = lines_of(draw_control_chart(chart([0.0, 0.5, -0.5]), 30 + LABEL_WIDTH, 25, UNICODE))
+    ucl, cl, lcl = row_with(lines, "UCL"), row_with(lines, " CL "), row_with(lines, "LCL")
+    zone_rows = [i for i, line in enumerate(lines) if line.count("·") >= 5]
+    assert len(zone_rows) == 4
+    assert all(ucl < r < lcl and r != cl for r in zone_rows)
+
+
+def test_a_phase_start_draws_a_vertical_separator() -> None:
+    values = [0.0] * 20
+    lines = lines_of(draw_control_chart(chart(values, phase_starts=[0, 12]), 20 + LABEL_WIDTH,
+                                        9, ASCII))
+    columns = {line.index("|") for line in lines if "|" in line[:20]}
+    assert columns == {12}
+    assert all(line[12] in "|o" for line in lines)
+
+
+def test_far_spec_limits_are_named_instead_of_squashing_the_chart() -> None:
+    lines = lines_of(draw_control_chart(chart([0.0, 1.0]), 30 + LABEL_WIDTH, 9, UNICODE,
+                                        lsl=-40.0, usl=2.5))
+    assert any("USL 2.5" in line for line in lines)  # near: drawn as a line
+    assert any("LSLv -40" in line for line in lines)  # far: named at the edge
+    assert row_with(lines, "UCL") < row_with(lines, "USL 2.5") < row_with(lines, " CL ")
+
+
+def test_the_cursor_marks_its_column() -> None:
+    lines = lines_of(draw_control_chart(chart([0.0] * 10), 10 + LABEL_WIDTH, 7, ASCII, cursor=4))
+    assert lines[0][4] == "v"
+
+
+def test_gauge_puts_the_mean_and_band_between_the_brackets() -> None:
+    bar = gauge_bar(10.0, 1.0, 0.0, 20.0, 41, UNICODE).plain
+    assert bar.index("[") < bar.index("=") < bar.index("■") < bar.rindex("=") < bar.index("]")
+    middle = (bar.index("[") + bar.index("]")) / 2
+    assert abs(bar.index("■") - middle) <= 1
+
+
+def test_gauge_band_crosses_the_bracket_when_the_process_spreads_past_a_limit() -> None:
+    # mean 18, σ 1: the band reaches 21, beyond USL 20, so band cells lie right of the bracket.
+    bar = gauge_bar(18.0, 1.0, 0.0, 20.0, 41, ASCII).plain
+    assert bar.rindex("=") > bar.index("]") or bar.index("]") == len(bar.rstrip()) - 1
+    assert bar.index("#") > bar.index("[")
+
+
+def test_margin_gauge_shows_margin_cpk_and_lower_bound() -> None:
+    cv = view.CharacteristicView("od", lsl=0.0, usl=20.0, recent_mean=10.0, recent_sigma=1.0,
+                                 margin_sigma=10.0, cpk=3.33, cpk_lower95=2.9)
+    text = margin_gauge(cv, 30, UNICODE, wide=True).plain
+    assert "10.0σ" in text and "Cpk 3.33" in text and ">2.90" in text and "good" in text
+
+
+def test_spark_cell_marks_sit_under_their_points_and_the_newest_is_rightmost() -> None:
+    values = [1.0, 2.0, 3.0, 9.0, 2.0]
+    rules = ["", "", "", "n5", ""]
+    cell = SparkCell(values, rules, 8, ASCII)
+    marks = cell.markers().plain
+    assert len(marks) == 8
+    assert marks.index("5") == 8 - 5 + 3  # right-aligned: three pads, then the 4th point
+    bars = lines_of(cell)[0]
+    assert len(bars) == 8
+    assert bars[:3] == "   " and bars[6] == ASCII.spark_bars[-1]  # 9.0 is the tallest bar
+    assert bars.isascii()
+
+
+def test_spark_cell_keeps_only_the_newest_points_that_fit() -> None:
+    cell = SparkCell([float(i) for i in range(50)], [""] * 49 + ["we2"], 10, UNICODE)
+    assert cell.values == [float(i) for i in range(40, 50)]
+    assert cell.markers().plain == " " * 9 + "2"
+
+
+def test_box_plot_marks_outliers_and_spec_brackets() -> None:
+    values = [10.0, 10.2, 9.9, 10.1, 10.0, 9.8, 10.3, 14.0]
+    first = draw_box_plot(values, 9.0, 15.0, 60, ASCII).plain.split("\n")[0]
+    # the box around 10 sits left of the outlier at 14; 9 and 15 are the brackets
+    assert first.index("[") < first.index("M") < first.index("o") < first.index("]")
+    assert first.rindex("|") < first.index("o")
+    left, right = first.index("["), first.index("]")
+    assert abs((first.index("o") - left) / (right - left) - (14 - 9) / (15 - 9)) < 0.05
+
+
+def test_small_text_helpers() -> None:
+    assert [fmt_age(s) for s in (None, 4.9, 61, 7300, 90000)] == ["-", "4s", "1m", "2h", "1d"]
+    assert [rule_digit(r) for r in ("", "we2", "n5,n6", "spec")] == ["", "2", "5", "?"]
