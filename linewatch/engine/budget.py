@@ -1,0 +1,365 @@
+"""False-alarm budget: the in-control average run length (ARL0) of a set of run rules.
+
+The chart is a location chart with known limits (CL ± 3σ) and independent normal in-control
+points; the run starts with no history, so the start-up conventions of `rulebook.py` apply (a
+k-of-m window holds all points so far while fewer than m exist). The run length is the number of
+points up to and including the first one at which any rule fires.
+
+- Rules that look only at zones (beyond, side-run, k-of-m, within, mixture) get an exact Markov
+  chain: each rule is a small automaton over the point's zone (side × level), the chain runs on
+  the reachable product of those automata, and ARL solves (I − Q)·t = 1.
+- Trend and alternation depend on the values' order, not only their zones; any set containing
+  them gets a seeded Monte-Carlo estimate using the vectorised evaluator of `rules.py`.
+
+Expected false alarms per 1,000 points are reported as 1000/ARL: the rate of a chart restarted
+after each alarm (a renewal approximation; clustered signals after an alarm are not counted).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+from typing import Any
+
+import numpy as np
+
+from linewatch.engine.rulebook import (
+    ALTERNATE,
+    BEYOND,
+    K_OF_M,
+    MIXTURE,
+    SIDE_RUN,
+    TREND,
+    WITHIN,
+    RuleSpec,
+)
+
+MARKOV = "markov"
+SIMULATION = "simulation"
+SIMULATION_LOWER_BOUND = "simulation (lower bound)"
+NO_RULES = "none"
+
+# Chain limits: beyond these the set is simulated instead (e.g. k-of-m with very long windows).
+# Up to _DIRECT_STATES the linear system is factorised; above, a Krylov solver avoids the fill-in
+# that shift-register chains cause, and its residual is checked.
+MAX_CHAIN_STATES = 25_000
+_DIRECT_STATES = 3_000
+_KRYLOV_ITERATIONS = 4_000
+_MAX_CODE = 2**62
+
+# Simulation defaults: relative standard error ≈ 1/√replicates (run lengths are near-geometric).
+DEFAULT_REPLICATES = 4000
+DEFAULT_SEED = 20_240_601
+# Work limit of one simulation (points evaluated). Runs still without a signal then count with
+# their length so far, and the result is marked as a lower bound.
+MAX_SIMULATED_POINTS = 20_000_000
+
+# Zone alphabet of one point: side (+, −) × level (1 within 1σ, 2 in (1σ, 2σ], 3 in (2σ, 3σ],
+# 4 beyond 3σ), the same levels as rules.classify. Symbol = 4·(side is −) + (level − 1).
+_LEVELS = 4
+_SYMBOLS = 2 * _LEVELS
+_SYMBOL_SIDE = np.array([+1] * _LEVELS + [-1] * _LEVELS)
+_SYMBOL_LEVEL = np.array(list(range(1, _LEVELS + 1)) * 2)
+
+_ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})
+_ORDER_KINDS = frozenset({TREND, ALTERNATE})
+
+
+@dataclass(frozen=True, slots=True)
+class BudgetResult:
+    """ARL0 of a rule set, the implied false alarms per 1,000 points, and how it was obtained.
+
+    `std_error` is the Monte-Carlo standard error of `arl` (None for the exact chain).
+    """
+
+    arl: float
+    false_alarms_per_1000: float
+    method: str
+    std_error: float | None = None
+
+
+def average_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> BudgetResult:
+    """ARL0 of `specs` together: exact chain when possible, else a seeded simulation (cached)."""
+    return _cached(tuple(specs))
+
+
+@lru_cache(maxsize=64)
+def _cached(specs: tuple[RuleSpec, ...]) -> BudgetResult:
+    if not specs:
+        return BudgetResult(math.inf, 0.0, NO_RULES)
+    if all(s.kind in _ZONE_KINDS for s in specs):
+        arl = markov_run_length(specs)
+        if arl is not None:
+            return _result(arl, MARKOV)
+    return simulate_run_length(specs)
+
+
+def _result(arl: float, method: str, std_error: float | None = None) -> BudgetResult:
+    rate = 1000.0 / arl if arl > 0 and math.isfinite(arl) else 0.0
+    return BudgetResult(arl, rate, method, std_error)
+
+
+# --- exact Markov chain ---------------------------------------------------------------------
+
+
+def zone_probabilities() -> np.ndarray:
+    """Probability of each zone symbol for one standard normal point (sums to 1)."""
+    from scipy.special import ndtr  # lazy: keeps the import of this module cheap
+
+    cuts = ndtr(np.array([0.0, 1.0, 2.0, 3.0]))
+    one_side = np.append(np.diff(cuts), ndtr(-3.0))  # (0,1], (1,2], (2,3], (3,∞)
+    return np.concatenate([one_side, one_side])
+
+
+@dataclass(frozen=True, slots=True)
+class _Automaton:
+    """One rule as a finite automaton over zone symbols: next state and whether it fires."""
+
+    next: np.ndarray  # [states, symbols] int64
+    fires: np.ndarray  # [states, symbols] bool
+
+    @property
+    def size(self) -> int:
+        return int(self.next.shape[0])
+
+
+def _automaton(spec: RuleSpec) -> _Automaton:
+    """The automaton of one zone rule; state 0 is the empty history."""
+    side, level = _SYMBOL_SIDE, _SYMBOL_LEVEL
+    match spec.kind:
+        case "beyond":
+            return _Automaton(np.zeros((1, _SYMBOLS), np.int64), (level == _LEVELS)[None, :])
+        case "side-run":
+            return _side_run(spec.length, side)
+        case "within":
+            return _plain_run(spec.length, level == 1)
+        case "mixture":
+            return _mixture(spec.length, side, level >= 2)
+        case "k-of-m":
+            return _k_of_m(spec.k, spec.length, side, level > spec.zone)
+    raise ValueError(f"rule kind {spec.kind!r} has no zone automaton")
+
+
+def _plain_run(length: int, hit: np.ndarray) -> _Automaton:
+    """`length` symbols in a row with `hit`; state = current run length, capped at length − 1."""
+    cap = max(length - 1, 1)
+    states = np.arange(cap + 1)[:, None]
+    run = np.where(hit[None, :], states + 1, 0)
+    return _Automaton(np.minimum(run, cap).astype(np.int64), run >= length)
+
+
+def _side_run(length: int, side: np.ndarray) -> _Automaton:
+    """`length` in a row on one side. State 0: no run; r: run of r above; cap + r: r below."""
+    cap = max(length - 1, 1)
+    size = 1 + 2 * cap
+    nxt = np.zeros((size, _SYMBOLS), np.int64)
+    fires = np.zeros((size, _SYMBOLS), bool)
+    for state in range(size):
+        cur_side = 0 if state == 0 else (+1 if state <= cap else -1)
+        cur_run = 0 if state == 0 else (state if state <= cap else state - cap)
+        for sym in range(_SYMBOLS):
+            s = int(side[sym])
+            run = cur_run + 1 if s == cur_side else 1
+            fires[state, sym] = run >= length
+            kept = min(run, cap)
+            nxt[state, sym] = kept if s > 0 else cap + kept
+    return _Automaton(nxt, fires)
+
+
+def _mixture(length: int, side: np.ndarray, beyond: np.ndarray) -> _Automaton:
+    """`length` in a row beyond 1σ with both sides among them.
+
+    State (run r ≤ cap, sides seen in the last min(r, cap) points: 1 above, 2 below, 3 both).
+    Once the run reaches `length` without firing, its last `length` points are all on one side, so
+    capping r at length − 1 with that side keeps exactly what the next decision needs.
+    """
+    cap = max(length - 1, 1)
+
+    def index(run: int, seen: int) -> int:
+        return 0 if run == 0 else 1 + 3 * (run - 1) + (seen - 1)
+
+    size = 1 + 3 * cap
+    nxt = np.zeros((size, _SYMBOLS), np.int64)
+    fires = np.zeros((size, _SYMBOLS), bool)
+    for run in range(cap + 1):
+        for seen in (1, 2, 3) if run else (0,):
+            state = index(run, seen)
+            for sym in range(_SYMBOLS):
+                if not beyond[sym]:
+                    continue  # next state 0, no fire
+                new_seen = seen | (1 if side[sym] > 0 else 2)
+                new_run = run + 1
+                fires[state, sym] = new_run >= length and new_seen == 3
+                nxt[state, sym] = index(min(new_run, cap), new_seen)
+    return _Automaton(nxt, fires)
+
+
+def _k_of_m(k: int, m: int, side: np.ndarray, beyond: np.ndarray) -> _Automaton:
+    """`k` of the last `m` beyond on one side, the new point among them.
+
+    State: the last m − 1 points as base-3 digits (0 neither, 1 beyond above, 2 beyond below),
+    oldest first. Starting from all zeros is exactly the convention that the window holds all
+    points so far while fewer than m exist.
+    """
+    width = max(m - 1, 0)
+    size = 3**width
+    digits = np.zeros((size, width), np.int64)
+    for pos in range(width):
+        digits[:, pos] = (np.arange(size) // 3 ** (width - 1 - pos)) % 3
+    mark = np.where(beyond, np.where(side > 0, 1, 2), 0)  # digit of each symbol
+    nxt = np.zeros((size, _SYMBOLS), np.int64)
+    fires = np.zeros((size, _SYMBOLS), bool)
+    for sym in range(_SYMBOLS):
+        d = int(mark[sym])
+        if width:
+            nxt[:, sym] = (np.arange(size) % 3 ** (width - 1)) * 3 + d
+        if d:
+            fires[:, sym] = (digits == d).sum(axis=1) + 1 >= k
+    return _Automaton(nxt, fires)
+
+
+def markov_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> float | None:
+    """Exact ARL0 of zone-only rules together; None when the chain would be too large."""
+    from scipy.sparse import csr_matrix  # lazy: keeps the import cheap
+
+    autos = _unique_automata(specs)
+    if autos is None:
+        return None
+    if not autos:
+        return math.inf
+    sizes = [a.size for a in autos]
+    if math.prod(sizes) >= _MAX_CODE:
+        return None
+    radix = np.cumprod([1, *sizes[:-1]]).astype(np.int64)  # code = Σ state_r · radix_r
+
+    def step(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Next codes [n, symbols] and whether any rule fires [n, symbols]."""
+        nxt = np.zeros((codes.size, _SYMBOLS), np.int64)
+        fire = np.zeros((codes.size, _SYMBOLS), bool)
+        for auto, size, base in zip(autos, sizes, radix, strict=True):
+            state = (codes // base) % size
+            nxt += auto.next[state] * base
+            fire |= auto.fires[state]
+        return nxt, fire
+
+    # reachable states without a signal, breadth first from the empty history (code 0)
+    known = np.zeros(1, np.int64)
+    frontier = known
+    while frontier.size:
+        nxt, fire = step(frontier)
+        fresh = np.unique(nxt[~fire])
+        frontier = np.setdiff1d(fresh, known, assume_unique=True)
+        known = np.union1d(known, frontier)
+        if known.size > MAX_CHAIN_STATES:
+            return None
+
+    nxt, fire = step(known)
+    prob = np.broadcast_to(zone_probabilities(), nxt.shape)
+    keep = ~fire
+    rows = np.broadcast_to(np.arange(known.size)[:, None], nxt.shape)[keep]
+    cols = np.searchsorted(known, nxt[keep])
+    q = csr_matrix((prob[keep], (rows, cols)), shape=(known.size, known.size))
+    t = _expected_steps(q)
+    return None if t is None else float(t[0])  # code 0 (the empty history) sorts first
+
+
+def _expected_steps(q: Any) -> np.ndarray | None:
+    """Solve (I − Q)·t = 1: expected points to the first signal from every state."""
+    from scipy.sparse import identity
+    from scipy.sparse.linalg import bicgstab, spsolve
+
+    size = q.shape[0]
+    a = (identity(size, format="csr") - q).tocsc()
+    ones = np.ones(size)
+    if size <= _DIRECT_STATES:
+        return np.atleast_1d(spsolve(a, ones))
+    t, info = bicgstab(a, ones, rtol=1e-13, atol=0.0, maxiter=_KRYLOV_ITERATIONS)
+    if info != 0 or np.linalg.norm(a @ t - ones) > 1e-9 * math.sqrt(size):
+        return None
+    return t
+
+
+def _unique_automata(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> list[_Automaton] | None:
+    """Automata of the distinct zone rules (two rules with equal parameters fire together).
+
+    None when one of them alone would exceed the chain's size limit.
+    """
+    seen: dict[tuple[str, int, int, int], _Automaton] = {}
+    for s in specs:
+        key = (s.kind, s.length, s.k, s.zone)
+        if key in seen:
+            continue
+        if s.kind == K_OF_M and s.length - 1 > math.log(MAX_CHAIN_STATES, 3):
+            return None
+        seen[key] = _automaton(s)
+    return list(seen.values())
+
+
+# --- seeded simulation ----------------------------------------------------------------------
+
+
+def simulate_run_length(
+    specs: list[RuleSpec] | tuple[RuleSpec, ...],
+    replicates: int = DEFAULT_REPLICATES,
+    seed: int = DEFAULT_SEED,
+) -> BudgetResult:
+    """Monte-Carlo ARL0: independent standard normal runs, each until the first signal.
+
+    Runs are laid end to end in one array and evaluated with `rules.evaluate_classified`, with a
+    separator block before each run that, by the rulebook's conventions, carries nothing over
+    from the run before: values equal to the run's first value (an equal neighbour breaks trends
+    and alternation) and zone marks that break every zone rule (on the centre line, within 1σ —
+    and, for the within-1σ rule, outside 1σ). A run with no signal yet is extended and
+    re-evaluated.
+    """
+    specs = tuple(specs)
+    if not specs:
+        return BudgetResult(math.inf, 0.0, NO_RULES)
+    rng = np.random.default_rng(seed)
+    series = rng.standard_normal((replicates, 256))
+    lengths = np.zeros(replicates, np.int64)
+    pending = np.arange(replicates)
+    spent = 0
+    method = SIMULATION
+    while pending.size:
+        first = _first_signals(specs, series)
+        spent += series.size
+        done = first >= 0
+        lengths[pending[done]] = first[done] + 1
+        pending, series = pending[~done], series[~done]
+        if pending.size and spent + 2 * series.size > MAX_SIMULATED_POINTS:
+            lengths[pending] = series.shape[1]  # censored: counts with its length so far
+            method = SIMULATION_LOWER_BOUND
+            break
+        if pending.size:  # no signal yet: extend these runs to twice their length
+            series = np.concatenate([series, rng.standard_normal(series.shape)], axis=1)
+    arl = float(np.mean(lengths))
+    se = float(np.std(lengths, ddof=1) / math.sqrt(replicates)) if replicates > 1 else None
+    return _result(arl, method, se)
+
+
+def _first_signals(specs: tuple[RuleSpec, ...], series: np.ndarray) -> np.ndarray:
+    """Index of the first point of each row at which any rule fires (−1 if none)."""
+    from linewatch.engine.rules import classify, evaluate_classified  # lazy: only for simulation
+
+    rows, width = series.shape
+    gap = max(s.lookback for s in specs)
+    total = gap + width
+    x = np.empty((rows, total))
+    x[:, :gap] = series[:, :1]
+    x[:, gap:] = series
+    side, level = classify(series.ravel(), 0.0, 1.0)
+    sides = np.zeros((rows, total), np.int8)
+    sides[:, gap:] = side.reshape(rows, width)
+    levels = np.ones((rows, total), np.int8)
+    levels[:, gap:] = level.reshape(rows, width)
+    flat_x, flat_side, flat_level = x.ravel(), sides.ravel(), levels.ravel()
+    outside = levels.copy()
+    outside[:, :gap] = 2  # beyond 1σ: breaks a within-1σ run
+    fires = np.zeros(rows * total, bool)
+    for spec in specs:
+        lv = outside.ravel() if spec.kind == WITHIN else flat_level
+        fires |= evaluate_classified(spec, flat_x, flat_side, lv)
+    hits = fires.reshape(rows, total)[:, gap:]
+    return np.where(hits.any(axis=1), hits.argmax(axis=1), -1)
