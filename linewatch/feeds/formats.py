@@ -675,10 +675,10 @@ class _FastWide:
         nlk = np.flatnonzero(arr[pos] == 10)
         nl = pos[nlk]
         n = len(nl)
-        starts = np.empty(n, dtype=np.int64)
+        starts = np.empty(n, dtype=pos.dtype)
         starts[0] = lo
         starts[1:] = nl[:-1] + 1
-        base = np.empty(n, dtype=np.int64)  # index in pos of each line's first delimiter
+        base = np.empty(n, dtype=pos.dtype)  # index in pos of each line's first delimiter
         base[0] = 0
         base[1:] = nlk[:-1] + 1
         slow = (nlk - base) != ncols - 1
@@ -742,11 +742,12 @@ def _scan(arr: np.ndarray, lo: int, delim: int) -> tuple[np.ndarray, np.ndarray]
     pos_parts: list[np.ndarray] = []
     odd_parts: list[np.ndarray] = []
     last = len(arr) - 1
+    kind = np.int32 if len(arr) < 2**31 - 1 else np.int64  # halves the memory of big logs
     for b0 in range(lo, len(arr), _SCAN_BLOCK):
         blk = arr[b0 : b0 + _SCAN_BLOCK]
         sep = blk == 10
         sep |= blk == delim
-        pos_parts.append(np.flatnonzero(sep) + b0)
+        pos_parts.append((np.flatnonzero(sep) + b0).astype(kind))
         odd = (blk - np.uint8(32)) > 94
         odd |= blk == 34
         odd &= ~sep
@@ -754,7 +755,7 @@ def _scan(arr: np.ndarray, lo: int, delim: int) -> tuple[np.ndarray, np.ndarray]
             op = np.flatnonzero(odd) + b0
             op = op[~((arr[op] == 13) & (arr[np.minimum(op + 1, last)] == 10))]
             odd_parts.append(op)
-    empty = np.zeros(0, dtype=np.int64)
+    empty = np.zeros(0, dtype=kind)
     pos = np.concatenate(pos_parts) if pos_parts else empty
     return pos, (np.concatenate(odd_parts) if odd_parts else empty)
 
