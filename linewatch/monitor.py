@@ -179,12 +179,17 @@ class Monitor:
                     self._viewer_step()
                     stop.wait(0.5)
                     continue
-                if now - self._last_tick >= TICK_SECONDS:
-                    self._tick(now)
-                worked = self.step()
-                if not worked:
-                    assert self.waker is not None
-                    self.waker.wait(min(TICK_SECONDS, 0.5))
+                try:
+                    if now - self._last_tick >= TICK_SECONDS:
+                        self._tick(now)
+                    worked = self.step()
+                except Exception as exc:  # keep monitoring; resume from what the store holds
+                    self._step_down()
+                    self.emit({"type": "error", "problem": f"{type(exc).__name__}: {exc}"})
+                    stop.wait(1.0)
+                    continue
+                if not worked and self.waker is not None:
+                    self.waker.wait(TICK_SECONDS)
             if self.role == "collector":
                 self.step()
         finally:
@@ -212,8 +217,7 @@ class Monitor:
     def _tick(self, now: float) -> None:
         self._last_tick = now
         if not self.lease.renew(now):
-            self.role = "viewer"
-            self.emit({"type": "role", "role": "viewer", "instance": self.instance})
+            self._step_down()
             return
         events = []
         assert self.health is not None
@@ -237,11 +241,14 @@ class Monitor:
 
     def step(self) -> bool:
         """Read and process whatever is new; True when anything was read."""
-        assert self.tailer is not None
+        if self.tailer is None:
+            return False
         chunks = self.tailer.poll()
         if not chunks:
             return False
         for chunk in chunks:
+            if self.role != "collector":
+                return False
             self._process_chunk(chunk)
         self._emit_alarm_changes()
         self._changed()
@@ -253,8 +260,12 @@ class Monitor:
         records: list[dict[str, Any]] = []
         raised = []
         batch = chunk.batch
+        from linewatch.store.lease import LeaseLost
+
         try:
             with self.store.transaction():
+                # a collector that stalled past its lease and was replaced must not write twice
+                self.lease.ensure()
                 for ev in chunk.events:
                     records.append(self._record_feed_event(ev, now, raised))
                 if batch is not None:
@@ -274,9 +285,11 @@ class Monitor:
                         self.health.rows_arrived(batch.file, batch.rows, now)
                 if chunk.state is not None:
                     self._save_file_state(chunk.state, now)
+        except LeaseLost:
+            self._step_down()
+            return
         except Exception:
-            # the transaction rolled back: forget in-memory progress and resume from the store
-            self._reload_from_store()
+            # the transaction rolled back: the caller steps down and resumes from the store
             raise
         for rec in records:
             if rec:
@@ -337,12 +350,20 @@ class Monitor:
             raised += events
         return {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
 
-    def _reload_from_store(self) -> None:
+    def _step_down(self) -> None:
+        """Drop everything held in memory and become a viewer; whoever collects next (maybe
+        this instance again) resumes from what the store committed."""
         self.engines.clear()
-        if self.tailer is not None and hasattr(self.tailer, "close"):
+        if self.tailer is not None:
             self.tailer.close()
+            self.tailer = None
+        if self.waker is not None:
+            self.waker.close()
+            self.waker = None
+        with contextlib.suppress(Exception):
+            self.lease.release()
         self.role = "viewer"
-        self.lease.release()
+        self._announced = False
 
     def _run_hooks(self, events) -> None:
         if not self.config.alarms.hook:
