@@ -58,6 +58,13 @@ def num(x: float | None, digits: int = 6) -> str:
     return f"{x:.{digits}g}"
 
 
+def ppm(x: float | None) -> str:
+    """Parts per million: whole numbers from 100 on, else 3 significant digits."""
+    if x is None or not math.isfinite(x):
+        return ""
+    return f"{x:,.0f}" if x >= 100 else num(x, 3)
+
+
 def interval(pair: tuple[float, float] | None, digits: int = 4) -> str:
     """'lo – hi', or '' when there is no interval."""
     if pair is None:
@@ -171,6 +178,23 @@ class ShiftReport:
     audit_ok: bool
     audit_message: str
     audit_entries: int  # entries written in the period
+
+    def alarm_tally(self) -> str:
+        """One sentence: how many alarms, how many acknowledged and how fast, how many not."""
+        if not self.alarms:
+            return "No alarm was open in this period."
+        acked = sorted(a.unacknowledged_for for a in self.alarms if not a.still_unacknowledged)
+        waiting = [a for a in self.alarms if a.still_unacknowledged]
+        text = f"{len(self.alarms)} alarms were open in this period: {len(acked)} acknowledged"
+        if acked:
+            median = acked[len(acked) // 2] if len(acked) % 2 else (
+                (acked[len(acked) // 2 - 1] + acked[len(acked) // 2]) / 2
+            )
+            text += f" (median wait {span(median)}, longest {span(acked[-1])})"
+        text += f", {len(waiting)} not acknowledged"
+        if waiting:
+            text += f" (the oldest waiting {span(max(a.unacknowledged_for for a in waiting))})"
+        return text + "."
 
     @property
     def empty(self) -> bool:
@@ -341,7 +365,7 @@ def build_report(
     verdict = store.audit.verify()
     in_period = sum(1 for e in store.audit.entries(since) if e.at < until)
     return ShiftReport(
-        since=since, until=until, made_at=now, state_dir=str(store.directory),
+        since=since, until=until, made_at=now, state_dir=str(store.directory.resolve()),
         characteristics=parts, alarms=alarms, limits=limits, feed_events=feed,
         audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=in_period,
     )

@@ -11,6 +11,7 @@ from linewatch.report import (
     interval,
     local_time,
     num,
+    ppm,
     rules_text,
     span,
 )
@@ -117,7 +118,7 @@ def render_html(report: ShiftReport) -> str:
             (c.name + unit, False), (str(c.n), True), (num(c.mean), True),
             (num(c.stdev, 4), True), (interval(c.ci95, 6), True), (num(c.cp, 3), True),
             (interval(c.cp_ci95, 3), True), (num(c.cpk, 3), True),
-            (interval(c.cpk_ci95, 3), True), (num(c.ppm_out, 3), True),
+            (interval(c.cpk_ci95, 3), True), (ppm(c.ppm_out), True),
             (rules_text(c.alarms_by_rule) or "none", False),
         ])
     out.append(_table(
@@ -142,7 +143,7 @@ def render_html(report: ShiftReport) -> str:
             f"chart · {len(c.trace.values)} points{escape(spec)}</p>{svg}</section>"
         )
 
-    out.append("<h2>Alarms</h2>")
+    out.append(f"<h2>Alarms</h2><p>{escape(r.alarm_tally())}</p>")
     if r.alarms:
         out.append(_table(
             ["#", "raised", "characteristic", "what", "prio", "state at end", "acknowledged by",
@@ -151,16 +152,13 @@ def render_html(report: ShiftReport) -> str:
                 [(str(a.id), True), (at(a.raised_at), False), (a.characteristic, False),
                  (f"{a.rule}: {a.what}", False), (str(a.priority), True), (a.state, False),
                  (a.acknowledged_by or "—", False), (at(a.acknowledged_at), False),
-                 (span(a.unacknowledged_for)
-                  + (" (still open)" if a.still_unacknowledged else ""), True),
+                 (span(a.unacknowledged_for), True),
                  (a.reason, False), (a.note, False)]
                 for a in r.alarms
             ],
             ["open" if a.still_unacknowledged else "" for a in r.alarms],
             cls="alarms",
         ))
-    else:
-        out.append('<p class="empty">No alarm was open in this period.</p>')
 
     out.append("<h2>Limits and baselines</h2>")
     if r.limits:

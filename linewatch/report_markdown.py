@@ -8,6 +8,7 @@ from linewatch.report import (
     interval,
     local_time,
     num,
+    ppm,
     rules_text,
     span,
 )
@@ -59,7 +60,7 @@ def render_markdown(report: ShiftReport) -> str:
         rows.append([
             f"{c.name}{unit}", c.n, num(c.mean), num(c.stdev, 4), interval(c.ci95, 6), spec,
             num(c.cp, 3), interval(c.cp_ci95, 3), num(c.cpk, 3), interval(c.cpk_ci95, 3),
-            num(c.ppm_out, 3), rules_text(c.alarms_by_rule) or "none",
+            ppm(c.ppm_out), rules_text(c.alarms_by_rule) or "none",
         ])
     lines += _table(
         ["characteristic", "N", "mean", "SD", "95% CI of mean", "spec (LSL … USL)", "Cp",
@@ -69,7 +70,7 @@ def render_markdown(report: ShiftReport) -> str:
     lines += ["", "N counts individual readings received in the period; Cp/Cpk use the chart's "
               "σ within, ppm the overall SD under a normal model.", ""]
 
-    lines += ["## Alarms", ""]
+    lines += ["## Alarms", "", r.alarm_tally(), ""]
     if r.alarms:
         lines += _table(
             ["#", "raised", "characteristic", "what", "priority", "state at end",
@@ -77,14 +78,12 @@ def render_markdown(report: ShiftReport) -> str:
             [
                 [a.id, at(a.raised_at), a.characteristic, f"{a.rule}: {a.what}",
                  a.priority, a.state, a.acknowledged_by or "—", at(a.acknowledged_at),
-                 span(a.unacknowledged_for) + (" (still open)" if a.still_unacknowledged else ""),
+                 span(a.unacknowledged_for),
                  a.reason, a.note]
                 for a in r.alarms
             ],
         )
-    else:
-        lines.append("No alarm was open in this period.")
-    lines.append("")
+        lines.append("")
 
     lines += ["## Limits and baselines", ""]
     if r.limits:

@@ -27,6 +27,25 @@ def _steps(xs: list[float], ys: list[float | None], y_of) -> list[str]:
     return paths
 
 
+LABEL_GAP = 11.0  # px between label baselines on the right edge
+
+
+def _place_labels(labels: list[tuple[float, str, str]], x: float) -> list[str]:
+    """Right-edge labels at their lines' heights, pushed apart so none overlap."""
+    placed: list[tuple[float, str, str]] = []
+    for y, text, cls in sorted(labels):
+        if placed and y - placed[-1][0] < LABEL_GAP:
+            y = placed[-1][0] + LABEL_GAP
+        placed.append((y, text, cls))
+    overflow = placed[-1][0] - (HEIGHT - BOTTOM + 4) if placed else 0.0
+    if overflow > 0:  # too low: shift the whole stack up
+        placed = [(y - overflow, t, c) for y, t, c in placed]
+    return [
+        f'<text x="{x}" y="{y + 3.5:.1f}" class="{cls}">{escape(text)}</text>'
+        for y, text, cls in placed
+    ]
+
+
 def control_chart_svg(
     trace: ChartTrace, lsl: float | None = None, usl: float | None = None, title: str = ""
 ) -> str:
@@ -51,6 +70,7 @@ def control_chart_svg(
         return TOP + plot_h * (hi - v) / (hi - lo)
 
     xs = [x_of(k) for k in range(count)]
+    labels: list[tuple[float, str, str]] = []  # (y, text, css class), placed apart at the end
     parts = [
         f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {WIDTH} {HEIGHT}" '
         f'class="chart" role="img" aria-label="{escape(title)}">',
@@ -64,18 +84,13 @@ def control_chart_svg(
             parts.append(f'<path d="{"".join(paths)}" class="{cls}"/>')
             last = next((v for v in reversed(ys) if v is not None), None)
             if last is not None:
-                parts.append(
-                    f'<text x="{LEFT + plot_w + 4}" y="{y_of(last) + 3.5:.1f}" class="label">'
-                    f"{name} {escape(num(last, 5))}</text>"
-                )
+                labels.append((y_of(last), f"{name} {num(last, 5)}", "label"))
     for name, v in (("USL", usl), ("LSL", lsl)):
         if v is not None and specs:
             y = y_of(v)
             parts.append(f'<path d="M{LEFT},{y:.1f}H{LEFT + plot_w}" class="spec"/>')
-            parts.append(
-                f'<text x="{LEFT + plot_w + 4}" y="{y + 3.5:.1f}" class="label spec-label">'
-                f"{name} {escape(num(v, 5))}</text>"
-            )
+            labels.append((y, f"{name} {num(v, 5)}", "label spec-label"))
+    parts.extend(_place_labels(labels, LEFT + plot_w + 4))
     line = " ".join(f"{x:.1f},{y_of(v):.1f}" for x, v in zip(xs, trace.values, strict=True))
     parts.append(f'<polyline points="{line}" class="trace"/>')
     radius = 2.2 if count <= 150 else 1.4

@@ -139,6 +139,10 @@ def test_every_alarm_says_who_when_how_long_and_why(shift_store) -> None:
     assert still.still_unacknowledged and still.acknowledged_by == ""
     assert still.unacknowledged_for == pytest.approx(SHIFT - 3600)
     assert still.state == "unacknowledged"
+    assert report.alarm_tally() == (
+        "2 alarms were open in this period: 1 acknowledged (median wait 2m15s, longest 2m15s), "
+        "1 not acknowledged (the oldest waiting 7h00m)."
+    )
 
 
 def test_limits_baselines_feed_events_and_audit(shift_store) -> None:
