@@ -20,7 +20,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import lru_cache
-from typing import Any
 
 import numpy as np
 
@@ -41,10 +40,11 @@ SIMULATION_LOWER_BOUND = "simulation (lower bound)"
 NO_RULES = "none"
 
 # Chain limits: beyond these the set is simulated instead (e.g. k-of-m with very long windows).
-# Up to _DIRECT_STATES the linear system is factorised; above, a Krylov solver avoids the fill-in
-# that shift-register chains cause, and its residual is checked.
+# Up to _DENSE_STATES (the default sets need under 1,000) numpy solves the system densely, with no
+# scipy import; above, a scipy Krylov solver avoids the fill-in that a sparse factorisation of
+# these shift-register chains suffers, and its residual is checked.
 MAX_CHAIN_STATES = 25_000
-_DIRECT_STATES = 3_000
+_DENSE_STATES = 2_000
 _KRYLOV_ITERATIONS = 4_000
 _MAX_CODE = 2**62
 
@@ -104,11 +104,12 @@ def _result(arl: float, method: str, std_error: float | None = None) -> BudgetRe
 
 
 def zone_probabilities() -> np.ndarray:
-    """Probability of each zone symbol for one standard normal point (sums to 1)."""
-    from scipy.special import ndtr  # lazy: keeps the import of this module cheap
+    """Probability of each zone symbol for one standard normal point (sums to 1).
 
-    cuts = ndtr(np.array([0.0, 1.0, 2.0, 3.0]))
-    one_side = np.append(np.diff(cuts), ndtr(-3.0))  # (0,1], (1,2], (2,3], (3,∞)
+    Φ comes from math.erfc (no scipy import on this path); the tests compare with scipy.stats.
+    """
+    upper = [0.5 * math.erfc(c / math.sqrt(2.0)) for c in (0.0, 1.0, 2.0, 3.0)]  # P(Z > c)
+    one_side = np.array([upper[0] - upper[1], upper[1] - upper[2], upper[2] - upper[3], upper[3]])
     return np.concatenate([one_side, one_side])
 
 
@@ -221,8 +222,6 @@ def _k_of_m(k: int, m: int, side: np.ndarray, beyond: np.ndarray) -> _Automaton:
 
 def markov_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> float | None:
     """Exact ARL0 of zone-only rules together; None when the chain would be too large."""
-    from scipy.sparse import csr_matrix  # lazy: keeps the import cheap
-
     autos = _unique_automata(specs)
     if autos is None:
         return None
@@ -255,25 +254,52 @@ def markov_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> float | N
             return None
 
     nxt, fire = step(known)
-    prob = np.broadcast_to(zone_probabilities(), nxt.shape)
-    keep = ~fire
-    rows = np.broadcast_to(np.arange(known.size)[:, None], nxt.shape)[keep]
-    cols = np.searchsorted(known, nxt[keep])
-    q = csr_matrix((prob[keep], (rows, cols)), shape=(known.size, known.size))
-    t = _expected_steps(q)
-    return None if t is None else float(t[0])  # code 0 (the empty history) sorts first
+    target = np.where(fire, -1, np.searchsorted(known, nxt))  # −1: the chain signals
+    group, reps = _merge_equivalent(target)
+    target = target[reps]
+    prob = np.broadcast_to(zone_probabilities(), target.shape)
+    keep = target >= 0
+    rows = np.broadcast_to(np.arange(reps.size)[:, None], target.shape)[keep]
+    cols = group[target[keep]]
+    t = _expected_steps(reps.size, rows, cols, prob[keep])
+    return None if t is None else float(t[group[0]])  # code 0 (the empty history) sorts first
 
 
-def _expected_steps(q: Any) -> np.ndarray | None:
-    """Solve (I − Q)·t = 1: expected points to the first signal from every state."""
-    from scipy.sparse import identity
-    from scipy.sparse.linalg import bicgstab, spsolve
+def _merge_equivalent(target: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Merge states that no symbol sequence can tell apart (Moore's partition refinement).
 
-    size = q.shape[0]
-    a = (identity(size, format="csr") - q).tocsc()
+    `target[s, symbol]` is the next state, or −1 where the chain signals. Returns each state's
+    group and one representative state per group; the merged chain has the same run lengths.
+    """
+    signals = target < 0
+    group = np.unique(signals, axis=0, return_inverse=True)[1].ravel()
+    count = int(group.max()) + 1
+    while True:
+        signature = np.column_stack([group, np.where(signals, -1, group[target])])
+        group = np.unique(signature, axis=0, return_inverse=True)[1].ravel()
+        new_count = int(group.max()) + 1
+        if new_count == count:
+            break
+        count = new_count
+    reps = np.zeros(count, np.int64)
+    reps[group] = np.arange(group.size)
+    return group, reps
+
+
+def _expected_steps(
+    size: int, rows: np.ndarray, cols: np.ndarray, probs: np.ndarray
+) -> np.ndarray | None:
+    """Solve (I − Q)·t = 1, Q[rows, cols] += probs: expected points to the first signal."""
     ones = np.ones(size)
-    if size <= _DIRECT_STATES:
-        return np.atleast_1d(spsolve(a, ones))
+    if size <= _DENSE_STATES:
+        a = np.eye(size)
+        np.subtract.at(a, (rows, cols), probs)
+        return np.linalg.solve(a, ones)
+    from scipy.sparse import csr_matrix, identity  # lazy: only for large chains
+    from scipy.sparse.linalg import bicgstab
+
+    q = csr_matrix((probs, (rows, cols)), shape=(size, size))
+    a = (identity(size, format="csr") - q).tocsr()
     t, info = bicgstab(a, ones, rtol=1e-13, atol=0.0, maxiter=_KRYLOV_ITERATIONS)
     if info != 0 or np.linalg.norm(a @ t - ones) > 1e-9 * math.sqrt(size):
         return None
