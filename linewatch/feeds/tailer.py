@@ -327,6 +327,20 @@ class Tailer:
         """The current state of every open file."""
         return {p: f.state() for p, f in self._followed.items() if f.fd is not None}
 
+    def backlog(self) -> tuple[int, int]:
+        """(bytes read, bytes in total) over the open files: catch-up progress for a display."""
+        done = total = 0
+        for f in self._followed.values():
+            if f.fd is None:
+                continue
+            try:
+                size = os.fstat(f.fd).st_size
+            except OSError:
+                continue
+            done += min(f.pos, size)
+            total += size
+        return done, total
+
     def close(self) -> None:
         """Close every handle (the unread partial lines are not points)."""
         for f in self._followed.values():
