@@ -1,0 +1,47 @@
+"""Benchmark (run on demand, not collected by pytest): the false-alarm budget.
+
+    python tests/benchmarks/bench_budget.py
+
+Times, in a fresh process each, the exact chain for `western-electric` and for `nelson` without
+the trend and alternation rules, and the seeded simulation for the full `nelson` set. The first
+figure of each includes the lazy scipy imports; the second is the warm computation.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+SNIPPET = """
+import time
+t0 = time.perf_counter()
+from linewatch.engine import budget
+from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+specs = [s for s in resolve_rules(parse_rule_list({rules!r})) if s.id not in {drop!r}]
+r = budget.average_run_length(specs)
+t1 = time.perf_counter()
+budget._cached.cache_clear()
+budget.average_run_length(specs)
+t2 = time.perf_counter()
+print(f"{{r.method:<26}} ARL {{r.arl:10.2f}}  cold {{t1 - t0:6.3f}} s  warm {{t2 - t1:6.3f}} s")
+"""
+
+CASES = [
+    ("western-electric", ()),
+    ("nelson", ("n3", "n4")),
+    ("nelson", ()),
+]
+
+
+def main() -> None:
+    for rules, drop in CASES:
+        code = SNIPPET.format(rules=rules, drop=set(drop))
+        out = subprocess.run(
+            [sys.executable, "-c", code], capture_output=True, text=True, check=True
+        )
+        label = rules + (f" without {', '.join(drop)}" if drop else "")
+        print(f"{label:<28} {out.stdout.strip()}")
+
+
+if __name__ == "__main__":
+    main()
