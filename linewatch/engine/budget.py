@@ -7,7 +7,8 @@ points up to and including the first one at which any rule fires.
 
 - Rules that look only at zones (beyond, side-run, k-of-m, within, mixture) get an exact Markov
   chain: each rule is a small automaton over the point's zone (side × level), the chain runs on
-  the reachable product of those automata, and ARL solves (I − Q)·t = 1.
+  the reachable product of those automata with indistinguishable states merged, and ARL solves
+  (I − Q)·t = 1 (western-electric: 215 states).
 - Trend and alternation depend on the values' order, not only their zones; any set containing
   them gets a seeded Monte-Carlo estimate using the vectorised evaluator of `rules.py`.
 
@@ -23,16 +24,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from linewatch.engine.rulebook import (
-    ALTERNATE,
-    BEYOND,
-    K_OF_M,
-    MIXTURE,
-    SIDE_RUN,
-    TREND,
-    WITHIN,
-    RuleSpec,
-)
+from linewatch.engine.rulebook import BEYOND, K_OF_M, MIXTURE, SIDE_RUN, WITHIN, RuleSpec
 
 MARKOV = "markov"
 SIMULATION = "simulation"
@@ -62,8 +54,7 @@ _SYMBOLS = 2 * _LEVELS
 _SYMBOL_SIDE = np.array([+1] * _LEVELS + [-1] * _LEVELS)
 _SYMBOL_LEVEL = np.array(list(range(1, _LEVELS + 1)) * 2)
 
-_ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})
-_ORDER_KINDS = frozenset({TREND, ALTERNATE})
+_ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})  # not TREND, ALTERNATE
 
 
 @dataclass(frozen=True, slots=True)
