@@ -304,10 +304,10 @@ def test_max_bytes_splits_a_backlog_into_chunks(tmp_path) -> None:
         for c in chunks:
             if c.batch is not None:
                 got.extend(int(n) for n in c.batch.lines.get("od", []))
-        if not any(c.more for c in chunks):
-            break
         done, total = t.backlog()
         assert 0 < done <= total == os.path.getsize(log)
+        if not any(c.more for c in chunks):
+            break
     t.close()
     assert got == list(range(2, 1002))
     assert polls >= os.path.getsize(log) // 4096
