@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import math
+import subprocess
+import sys
 from dataclasses import replace
 
 import numpy as np
@@ -234,3 +236,16 @@ def test_results_are_cached_by_rule_set():
 def test_no_rules_never_alarm():
     result = average_run_length([])
     assert result.arl == math.inf and result.false_alarms_per_1000 == 0.0
+
+
+def test_default_set_needs_no_scipy():
+    # Lazy imports keep `check` fast: the default set's chain is solved with numpy alone.
+    code = (
+        "import sys\n"
+        "from linewatch.engine.budget import average_run_length\n"
+        "from linewatch.engine.rulebook import parse_rule_list, resolve_rules\n"
+        "r = average_run_length(resolve_rules(parse_rule_list('western-electric')))\n"
+        "print(round(r.arl, 2), any(m.split('.')[0] == 'scipy' for m in sys.modules))\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.split() == ["91.75", "False"]

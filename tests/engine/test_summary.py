@@ -5,6 +5,8 @@ from __future__ import annotations
 import json
 import math
 import statistics
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -221,3 +223,14 @@ def _standardised(n: int) -> np.ndarray:
     """n seeded values rescaled to sample mean 0 and sample SD (n − 1) exactly 1."""
     z = np.random.default_rng(n).normal(size=n)
     return (z - z.mean()) / z.std(ddof=1)
+
+
+def test_importing_the_module_leaves_scipy_unloaded():
+    # scipy is imported inside the functions that need it, so `check` and `--help` start fast.
+    code = (
+        "import sys, linewatch.engine.summary as s\n"
+        "s.describe([1.0])\n"
+        "print(any(m.split('.')[0] == 'scipy' for m in sys.modules))\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
