@@ -14,9 +14,9 @@ from textual.widgets import Footer, Static
 
 from linewatch import view
 from linewatch.engine.rulebook import RULES
+from linewatch.engine.summary import trend
 from linewatch.errors import LinewatchError
 from linewatch.ui import palette
-from linewatch.ui.figures import project_to_spec, trend
 from linewatch.ui.formatting import STATE_WORDS, fmt_value, rule_digit
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.widgets.box_plot import draw_box_plot
@@ -162,19 +162,20 @@ class CloseUpScreen(LineScreen):
         values = cv.location.values[-TREND_WINDOW:] if cv.location else []
         text = Text(end="")
         text.append(f"trend over the last {len(values)} points\n", "bold")
-        fit = trend(values)
-        if fit is None:
-            text.append("too few points", palette.LABEL)
+        fit = trend(values, cv.lsl, cv.usl)
+        if fit.slope is None or fit.r2 is None or fit.adj_r2 is None or fit.p_value is None:
+            text.append("too few points, or no spread", palette.LABEL)
             return text
         text.append(f"slope {fit.slope:+.4g} {cv.unit}/point   R² {fit.r2:.2f}   "
                     f"adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
-        proj = project_to_spec(fit, cv.lsl, cv.usl)
-        if proj is None:
+        if fit.points_to_spec is None:
             text.append("no significant trend towards a spec limit (p < 0.05 needed)",
                         palette.LABEL)
         else:
-            text.append(f"reaches {proj.limit_name} {fmt_value(proj.limit)} in about "
-                        f"{proj.points:.0f} points if it goes on", palette.SIGNAL)
+            heading = "USL" if fit.slope > 0 else "LSL"
+            limit = cv.usl if fit.slope > 0 else cv.lsl
+            text.append(f"reaches {heading} {fmt_value(limit)} in about {fit.points_to_spec} "
+                        "points if it goes on", palette.SIGNAL)
         return text
 
     def action_move(self, step: int) -> None:

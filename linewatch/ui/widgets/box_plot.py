@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from rich.text import Text
 
+from linewatch.engine.summary import Description, describe
 from linewatch.ui import palette
-from linewatch.ui.figures import BoxFigures, box_figures
 from linewatch.ui.formatting import fmt_value
 from linewatch.ui.glyphs import Glyphs
 
@@ -14,12 +14,15 @@ def draw_box_plot(
     values: list[float], lsl: float | None, usl: float | None, width: int, glyphs: Glyphs
 ) -> Text:
     """Line 1: whiskers, box, median, outliers, `[` LSL and `]` USL. Line 2: the scale's ends and
-    the limits. Line 3: the figures in words."""
-    fig = box_figures(values)
-    if fig is None:
+    the limits. Line 3: the figures in words. Figures from the engine's `describe` (Tukey's
+    1.5·IQR whiskers)."""
+    fig = describe(values)
+    if fig.q1 is None or fig.q3 is None or fig.median is None or fig.whisker_low is None \
+            or fig.whisker_high is None:
         return Text("no points yet", palette.LABEL)
+    outliers = sorted(v for _, v in fig.outliers)
     width = max(20, width)
-    ends = [fig.low_whisker, fig.high_whisker, *fig.outliers]
+    ends = [fig.whisker_low, fig.whisker_high, *outliers]
     ends += [v for v in (lsl, usl) if v is not None]
     lo, hi = min(ends), max(ends)
     if hi == lo:
@@ -31,14 +34,14 @@ def draw_box_plot(
         return min(width - 1, max(0, round((v - lo) / (hi - lo) * (width - 1))))
 
     cells = [(" ", "")] * width
-    for c in range(col(fig.low_whisker), col(fig.high_whisker) + 1):
+    for c in range(col(fig.whisker_low), col(fig.whisker_high) + 1):
         cells[c] = (glyphs.whisker, palette.LABEL)
     for c in range(col(fig.q1), col(fig.q3) + 1):
         cells[c] = (glyphs.box_fill, "cyan")
     cells[col(fig.q1)] = (glyphs.box_edge, "bold cyan")
     cells[col(fig.q3)] = (glyphs.box_edge, "bold cyan")
     cells[col(fig.median)] = (glyphs.median, "bold white")
-    for v in fig.outliers:
+    for v in outliers:
         cells[col(v)] = (glyphs.outlier, palette.SIGNAL)
     if lsl is not None:
         cells[col(lsl)] = ("[", palette.SPEC)
@@ -50,7 +53,7 @@ def draw_box_plot(
     out.append("\n")
     out.append_text(_scale_line(lo, hi, lsl, usl, width))
     out.append("\n")
-    out.append_text(_figures_line(fig))
+    out.append_text(_figures_line(fig, outliers))
     return out
 
 
@@ -61,16 +64,16 @@ def _scale_line(lo: float, hi: float, lsl: float | None, usl: float | None, widt
     return Text(f"{left}{' ' * gap}{right}", palette.LABEL)
 
 
-def _figures_line(fig: BoxFigures) -> Text:
+def _figures_line(fig: Description, outliers: list[float]) -> Text:
     out = Text(
         f"Q1 {fmt_value(fig.q1)}  median {fmt_value(fig.median)}  Q3 {fmt_value(fig.q3)}  "
-        f"whiskers {fmt_value(fig.low_whisker)}..{fmt_value(fig.high_whisker)}  ",
+        f"whiskers {fmt_value(fig.whisker_low)}..{fmt_value(fig.whisker_high)}  ",
         palette.LABEL,
     )
-    if fig.outliers:
-        shown = ", ".join(fmt_value(v) for v in fig.outliers[:4])
-        more = f" +{len(fig.outliers) - 4}" if len(fig.outliers) > 4 else ""
-        out.append(f"outliers {len(fig.outliers)}: {shown}{more}", palette.SIGNAL)
+    if outliers:
+        shown = ", ".join(fmt_value(v) for v in outliers[:4])
+        more = f" +{len(outliers) - 4}" if len(outliers) > 4 else ""
+        out.append(f"outliers {len(outliers)}: {shown}{more}", palette.SIGNAL)
     else:
         out.append("no outliers")
     return out

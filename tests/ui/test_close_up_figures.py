@@ -1,0 +1,51 @@
+"""The close-up reports the trend and box figures of the points it draws; checked against
+general-purpose references (scipy.stats.linregress, statistics.quantiles)."""
+
+from __future__ import annotations
+
+import re
+import statistics
+
+import numpy as np
+import pytest
+from scipy import stats
+from textual.widgets import Static
+
+from linewatch.ui.app import LinewatchApp
+from linewatch.ui.glyphs import ASCII
+from linewatch.ui.screens.close_up import TREND_WINDOW
+from linewatch.ui.widgets.box_plot import draw_box_plot
+
+from .fake_line import build_snapshot
+
+
+async def test_trend_line_matches_scipy_linregress_over_the_window(app: LinewatchApp) -> None:
+    values = build_snapshot().characteristics[1].location.values[-TREND_WINDOW:]  # type: ignore
+    ref = stats.linregress(np.arange(len(values)), values)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("down", "enter")
+        await pilot.pause()
+        text = str(app.screen.query_one("#closeup-trend", Static).render())
+    line = next(s for s in text.split("\n") if s.startswith("slope"))
+    found = re.search(r"slope (\S+) .*  R² (\S+)  ", line)
+    assert found is not None
+    slope, r2_shown = float(found.group(1)), float(found.group(2))
+    assert slope == pytest.approx(ref.slope, rel=1e-3)  # shown to 4 significant figures
+    assert r2_shown == pytest.approx(ref.rvalue**2, abs=0.005)
+    if ref.pvalue < 0.05:
+        assert "reaches USL" in text or "reaches LSL" in text
+
+
+def test_box_plot_figures_match_the_standard_library_quartiles() -> None:
+    values = [2.11, 2.09, 2.14, 2.10, 2.12, 2.08, 2.13, 2.10, 2.30, 2.11]
+    q1, med, q3 = statistics.quantiles(values, n=4, method="inclusive")
+    words = draw_box_plot(values, 1.9, 2.4, 60, ASCII).plain.split("\n")[2]
+    found = re.search(r"Q1 (\S+)  median (\S+)  Q3 (\S+)", words)
+    assert found is not None
+    shown = [float(x) for x in found.groups()]
+    # shown to 4 significant figures, so within half a unit of the last digit
+    assert shown == [pytest.approx(q1, abs=5.1e-4), pytest.approx(med, abs=5.1e-4),
+                     pytest.approx(q3, abs=5.1e-4)]
+    # Tukey's fences (common practice): 2.30 is beyond Q3 + 1.5·IQR, so it is an outlier
+    assert q3 + 1.5 * (q3 - q1) < 2.30
+    assert "outliers 1: 2.300" in words
