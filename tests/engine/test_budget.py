@@ -214,6 +214,17 @@ def test_order_rules_are_simulated_and_reproducible():
     assert average_run_length(specs).arl < zone_only
 
 
+@pytest.mark.parametrize("text", ["nelson", "nelson,western-electric"])
+def test_stored_simulations_regenerate_exactly(text: str):
+    specs = resolve_rules(parse_rule_list(text))
+    stored = budget.SIMULATED[budget.rule_set_key(specs)]
+    fresh = simulate_run_length(specs)  # default replicates and seed
+    assert (fresh.arl, fresh.std_error) == pytest.approx(stored, rel=1e-12)
+    # the same figure whatever the order of the rules
+    assert simulate_run_length(specs[::-1]).arl == pytest.approx(stored[0], rel=1e-12)
+    assert average_run_length(specs).arl == stored[0]
+
+
 def test_unfinished_simulation_is_reported_as_a_lower_bound(monkeypatch: pytest.MonkeyPatch):
     monkeypatch.setattr(budget, "MAX_SIMULATED_POINTS", 200_000)
     result = simulate_run_length(resolve_rules(["n4"], {"n4": 40}), replicates=200, seed=1)
