@@ -200,19 +200,51 @@ def _junk_row(g: Gauge, stamp: str, ident: str, kind: int, rng: np.random.Genera
     return f"{stamp}{sep}{ident}\n".encode()  # a field missing
 
 
-def calibrated_noise(rng: np.random.Generator, points: int, subgroup: int) -> np.ndarray:
-    """Standard normal noise for `points` plotted points, centred and scaled so that the usual
-    σ estimate (mean moving range / d2(2), or mean subgroup range / d2(n)) is exactly 1."""
+def calibrated_noise(
+    rng: np.random.Generator, points: int, subgroup: int, tries: int = 2000
+) -> np.ndarray:
+    """Standard normal noise for `points` plotted points of in-control history: centred, scaled
+    so the usual σ estimate (mean moving range / d2(2), or mean subgroup range / d2(n)) is
+    exactly 1, and drawn again until no rule of the rulebook fires on it (a quiet start, so the
+    first alarms of a demo are the scheduled causes)."""
+    z = np.zeros(points * subgroup)
+    for _ in range(tries):
+        z = _calibrate(rng.standard_normal(points * subgroup), subgroup)
+        if _quiet(z, subgroup):
+            break
+    return z
+
+
+def _calibrate(z: np.ndarray, subgroup: int) -> np.ndarray:
     from linewatch.engine.constants import d2
 
-    z = rng.standard_normal(points * subgroup)
-    z -= z.mean()
+    z = z - z.mean()
     if subgroup > 1:
-        ranges = np.ptp(z.reshape(points, subgroup), axis=1)
-        sigma = float(ranges.mean()) / d2(subgroup)
+        sigma = float(np.ptp(z.reshape(-1, subgroup), axis=1).mean()) / d2(subgroup)
     else:
         sigma = float(np.abs(np.diff(z)).mean()) / d2(2)
     return z / sigma
+
+
+def _quiet(z: np.ndarray, subgroup: int) -> bool:
+    """No rule fires on the history's charts, even with σ estimated 10 % off either way."""
+    from linewatch.engine.constants import d2, d4_upper
+    from linewatch.engine.rulebook import RULES
+    from linewatch.engine.rules import evaluate
+
+    if subgroup > 1:
+        groups = z.reshape(-1, subgroup)
+        location, scale = groups.mean(axis=1), 1.0 / math.sqrt(subgroup)
+        spread, spread_limit = np.ptp(groups, axis=1), d4_upper(subgroup) * d2(subgroup)
+    else:
+        location, scale = z, 1.0
+        spread, spread_limit = np.abs(np.diff(z)), d4_upper(2) * d2(2)
+    for factor in (0.9, 1.1):
+        if np.any(spread > spread_limit * factor):
+            return False
+        if any(evaluate(spec, location, 0.0, scale * factor).any() for spec in RULES.values()):
+            return False
+    return True
 
 
 def _in_window(c: Cause, tc: float) -> bool:

@@ -356,3 +356,36 @@ def test_cli_rejects_an_out_path_that_is_a_file(tmp_path: Path) -> None:
     assert done.returncode == 2
     assert "not a folder" in done.stderr
 
+
+
+def test_history_is_quiet_so_the_first_alarms_are_the_scheduled_causes(tmp_path: Path) -> None:
+    # The history is drawn so that `linewatch check` finds no signal in it under every rule of
+    # both sets, with the demo config's baseline: a demo starts calm.
+    from linewatch.config import load_config
+
+    demo = load_config(Path(__file__).parents[1] / "linewatch" / "demo" / "line.toml")
+    for action in generate(5, RATE, START):
+        if action.t >= 0:
+            break
+        if isinstance(action, Row | Header):
+            with (tmp_path / action.file).open("ab") as fh:
+                fh.write(action.data)
+    for g in EXTRUSION_LINE.gauges:
+        config = tmp_path / f"{g.key}.toml"
+        layout = "jsonl" if g.fmt == "jsonl" else "wide"
+        decimal = "," if g.fmt == "csv-semicolon" else "."
+        config.write_text(
+            f'[[feed]]\npaths = ["{g.file}"]\nlayout = "{layout}"\ndecimal = "{decimal}"\n'
+            f'[[characteristic]]\nname = "{g.key}"\ncolumn = "{g.column}"\n'
+            f"subgroup_size = {g.subgroup}\nbaseline = {demo.monitor.baseline}\n"
+            'rules = "nelson,western-electric"\n'
+        )
+        done = subprocess.run(
+            [sys.executable, "-m", "linewatch", "check", str(tmp_path / g.file), "-c",
+             str(config), "--format", "jsonl"],
+            capture_output=True, text=True, timeout=60,
+        )
+        records = [json.loads(line) for line in done.stdout.splitlines()]
+        assert done.returncode == 0, (g.file, done.stderr, records[:5])
+        summary = next(r for r in records if r["type"] == "summary")
+        assert summary["points"] == EXTRUSION_LINE.history_points * g.subgroup
