@@ -10,6 +10,8 @@ import sys
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import stats
 
 from linewatch.engine.summary import capability, describe, summarize, trend
@@ -66,6 +68,24 @@ def test_point_on_a_fence_is_inside():
     assert q3 + 1.5 * (q3 - q1) == 7.0
     assert d.outliers == ()
     assert d.whisker_high == 7.0
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=1, max_size=60))
+def test_box_plot_figures_partition_the_points(values: list[float]):
+    # Invariants of Tukey's box plot (common practice): every point is either between the
+    # whiskers or listed as an outlier, and the whiskers are data points inside the fences.
+    d = describe(values)
+    assert d.q1 is not None and d.q3 is not None
+    low, high = d.q1 - 1.5 * (d.q3 - d.q1), d.q3 + 1.5 * (d.q3 - d.q1)
+    listed = dict(d.outliers)
+    for i, v in enumerate(values):
+        if i in listed:
+            assert listed[i] == v and (v < low or v > high)
+        else:
+            assert d.whisker_low <= v <= d.whisker_high
+    assert d.whisker_low in values and d.whisker_high in values
+    assert d.minimum <= d.q1 <= d.median <= d.q3 <= d.maximum
 
 
 def test_degenerate_descriptions_return_none_not_errors():
@@ -134,6 +154,25 @@ def test_pp_ppk_and_ppm_use_the_overall_sd():
     assert c.ppk == pytest.approx(min(usl - mean, mean - lsl) / (3 * s))
     expected_ppm = 1e6 * (stats.norm.cdf(lsl, mean, s) + stats.norm.sf(usl, mean, s))
     assert c.ppm_out == pytest.approx(expected_ppm, rel=1e-9)
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    st.floats(-5, 5),
+    st.floats(0.05, 3),
+    st.floats(0.05, 3),
+)
+def test_cpk_is_cp_less_the_off_centre_penalty(shift: float, within: float, width: float):
+    # Cpk = Cp − |mean − mid-spec|/(3σ) and Ppk likewise (common practice: Cpk = Cp(1 − k)).
+    x = SAMPLE + shift
+    lsl, usl = 10.0 - width, 10.0 + width
+    c = capability(x, sigma_within=within, lsl=lsl, usl=usl)
+    off = abs(x.mean() - 10.0)
+    assert c.cp is not None and c.cpk is not None and c.pp is not None and c.ppk is not None
+    assert c.cpk == pytest.approx(c.cp - off / (3 * within), rel=1e-9, abs=1e-9)
+    assert c.ppk == pytest.approx(c.pp - off / (3 * x.std(ddof=1)), rel=1e-9, abs=1e-9)
+    assert c.cp_ci95 is not None and c.cp_ci95[0] < c.cp < c.cp_ci95[1]
+    assert c.ppm_out is not None and 0.0 <= c.ppm_out <= 1e6
 
 
 def test_one_sided_lower_spec():
