@@ -297,7 +297,7 @@ def build_report(
     names = list(dict.fromkeys(
         [c.name for c in config.characteristics] if config is not None else []
     ))
-    for name in store.history.characteristics_with_points():
+    for name in sorted(store.history.characteristics_with_points()):
         if name not in names:
             names.append(name)
     parts: list[CharacteristicPart] = []
