@@ -389,3 +389,20 @@ def test_history_is_quiet_so_the_first_alarms_are_the_scheduled_causes(tmp_path:
         assert done.returncode == 0, (g.file, done.stderr, records[:5])
         summary = next(r for r in records if r["type"] == "summary")
         assert summary["points"] == EXTRUSION_LINE.history_points * g.subgroup
+
+
+def test_a_second_run_continues_the_logs_without_going_back_in_time(tmp_path: Path) -> None:
+    first = _run_cli("--out", str(tmp_path), "--duration", "1s", "--speed", "10")
+    assert first.returncode == 0, first.stderr
+    before = (tmp_path / "od_gauge.csv").read_bytes()
+    second = _run_cli("--out", str(tmp_path), "--duration", "1s", "--speed", "10", "--seed", "9")
+    assert second.returncode == 0, second.stderr
+    assert "continuing" in second.stdout
+    after = (tmp_path / "od_gauge.csv").read_bytes()
+    assert after.startswith(before) and len(after) > len(before)
+    stamps = [
+        datetime.fromisoformat(line.split(b",")[0].decode())
+        for line in after.splitlines()
+        if line[:1] == b"2"
+    ]
+    assert stamps == sorted(stamps)

@@ -1,4 +1,8 @@
-"""`linewatch simulate`: write the invented extrusion line's logs into a folder, live."""
+"""`linewatch simulate`: write the invented extrusion line's logs into a folder, live.
+
+A fresh folder first gets a stretch of in-control history (stamped before the start) so limits
+exist at once. When the folder already holds the line's logs, the run continues them with live
+rows only, so no file's time stamps ever go backwards."""
 
 from __future__ import annotations
 
@@ -6,7 +10,7 @@ import argparse
 import signal
 import sys
 import threading
-from datetime import datetime
+from datetime import datetime, timedelta
 from pathlib import Path
 from types import FrameType
 
@@ -47,9 +51,17 @@ def run(args: argparse.Namespace) -> int:
         signal.signal(signal.SIGTERM, request_stop)
 
     start = datetime.now().astimezone()
+    existing = [out / g.file for g in EXTRUSION_LINE.gauges if (out / g.file).exists()]
+    stamps = [t for t in (_last_stamp(p) for p in existing) if t is not None]
+    if stamps:  # earlier runs may have run ahead of the clock (--speed > 1)
+        start = max([start, *(t + timedelta(seconds=1) for t in stamps)])
     files = ", ".join(g.file for g in EXTRUSION_LINE.gauges)
     until = f" for {format_duration(duration)}" if duration is not None else " (Ctrl-C stops)"
     print(f"simulating the extrusion line into {out}: {files}{until}", flush=True)
+    actions = generate(args.seed, args.rate, start)
+    if existing:
+        print("continuing the logs already there (live rows only, no history)", flush=True)
+        actions = (a for a in actions if a.t >= 0)
 
     def show(note: Note) -> None:
         if note.t >= 0:
@@ -59,7 +71,7 @@ def run(args: argparse.Namespace) -> int:
     try:
         stats = write_feeds(
             out,
-            generate(args.seed, args.rate, start),
+            actions,
             speed=args.speed,
             duration=duration,
             stop=stop,
@@ -76,3 +88,21 @@ def run(args: argparse.Namespace) -> int:
         flush=True,
     )
     return 0
+
+
+def _last_stamp(path: Path) -> datetime | None:
+    """The newest time stamp among the last rows of a log written by the simulator."""
+    import re
+
+    with path.open("rb") as fh:
+        fh.seek(0, 2)
+        fh.seek(max(0, fh.tell() - 4096))
+        tail = fh.read().decode("utf-8", errors="replace")
+    found = re.findall(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(?:\.\d+)?[+-]\d\d:\d\d", tail)
+    stamps = []
+    for text in found:
+        try:
+            stamps.append(datetime.fromisoformat(text))
+        except ValueError:
+            continue
+    return max(stamps) if stamps else None
