@@ -12,8 +12,11 @@ points up to and including the first one at which any rule fires.
 - Trend and alternation depend on the values' order, not only their zones; any set containing
   them gets a seeded Monte-Carlo estimate using the vectorised evaluator of `rules.py`.
 
-Expected false alarms per 1,000 points are reported as 1000/ARL: the rate of a chart restarted
-after each alarm (a renewal approximation; clustered signals after an alarm are not counted).
+Expected false alarms per 1,000 points are the long-run rate of alarms on a chart that keeps
+running (no restart after a signal): an alarm is a maximal stretch of consecutive points at which
+one rule fires, so the rate is the sum over the selected rules of the probability that such a
+stretch starts at a point (`alarm_rate`), computed exactly. It is not 1000/ARL: a chart restarted
+after each signal would count fewer, since rules often fire together or close behind each other.
 """
 
 from __future__ import annotations
@@ -25,10 +28,12 @@ from functools import lru_cache
 import numpy as np
 
 from linewatch.engine.rulebook import (
+    ALTERNATE,
     BEYOND,
     K_OF_M,
     MIXTURE,
     SIDE_RUN,
+    TREND,
     WITHIN,
     RuleSpec,
     parse_rule_list,
@@ -63,14 +68,15 @@ _SYMBOLS = 2 * _LEVELS
 _SYMBOL_SIDE = np.array([+1] * _LEVELS + [-1] * _LEVELS)
 _SYMBOL_LEVEL = np.array(list(range(1, _LEVELS + 1)) * 2)
 
-_ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})  # not TREND, ALTERNATE
+_ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})
 
 
 @dataclass(frozen=True, slots=True)
 class BudgetResult:
-    """ARL0 of a rule set, the implied false alarms per 1,000 points, and how it was obtained.
+    """ARL0 of a rule set, its false alarms per 1,000 points, and how the ARL was obtained.
 
-    `std_error` is the Monte-Carlo standard error of `arl` (None for the exact chain).
+    `false_alarms_per_1000` is the exact long-run alarm rate (see the module notes); `method` and
+    `std_error` (the Monte-Carlo standard error, None for the exact chain) describe `arl`.
     """
 
     arl: float
@@ -91,10 +97,10 @@ def _cached(specs: tuple[RuleSpec, ...]) -> BudgetResult:
     if all(s.kind in _ZONE_KINDS for s in specs):
         arl = markov_run_length(specs)
         if arl is not None:
-            return _result(arl, MARKOV)
+            return _result(specs, arl, MARKOV)
     known = SIMULATED.get(rule_set_key(specs))
     if known is not None:
-        return _result(known[0], SIMULATION, known[1])
+        return _result(specs, known[0], SIMULATION, known[1])
     return simulate_run_length(specs)
 
 
@@ -118,12 +124,89 @@ SIMULATED: dict[frozenset[tuple[str, int, int, int]], tuple[float, float]] = {
 }
 
 
-def _result(arl: float, method: str, std_error: float | None = None) -> BudgetResult:
-    rate = 1000.0 / arl if arl > 0 and math.isfinite(arl) else 0.0
+def _result(
+    specs: tuple[RuleSpec, ...], arl: float, method: str, std_error: float | None = None
+) -> BudgetResult:
+    rate = 1000.0 * math.fsum(alarm_rate(spec) for spec in specs)
     return BudgetResult(arl, rate, method, std_error)
 
 
-# --- exact Markov chain ---------------------------------------------------------------------
+# --- alarms per point in the long run ---------------------------------------------------------
+
+
+@lru_cache(maxsize=128)
+def alarm_rate(spec: RuleSpec) -> float:
+    """Long-run probability that an alarm of `spec` starts at an in-control point.
+
+    An alarm is a maximal stretch of consecutive points at which the rule fires, so one starts
+    where the rule fires and did not fire at the point before. Exact for every kind:
+    - zone rules: the stationary distribution of the rule's automaton (its state depends only on
+      the last `lookback` points, so propagating any start that far reaches it exactly);
+    - a trend of L points: P(last L monotone) − P(last L + 1 monotone) = 2/L! − 2/(L + 1)!;
+    - alternation of L points: 2·A_L/L! − 2·A_{L+1}/(L + 1)!, with A_n the Euler zigzag numbers
+      (the count of alternating permutations of n values, starting upwards).
+    Rules too large for an automaton (k-of-m with very long windows) fall back to one long seeded
+    simulated series.
+    """
+    if spec.kind in (TREND, ALTERNATE) and spec.length >= 3:
+        return _order_rule_rate(spec.kind, spec.length)
+    if spec.kind in _ZONE_KINDS and not _too_large(spec):
+        return _stationary_start_rate(_automaton(spec), spec.lookback + 2)
+    return _streamed_rate(spec)
+
+
+def _order_rule_rate(kind: str, length: int) -> float:
+    from fractions import Fraction
+
+    def p_all(n: int) -> Fraction:
+        """P(n consecutive iid continuous values are monotone / alternate, either direction)."""
+        ways = 1 if kind == TREND else _zigzag(n)
+        return Fraction(2 * ways, math.factorial(n))
+
+    return float(p_all(length) - p_all(length + 1))
+
+
+def _zigzag(n: int) -> int:
+    """Euler zigzag number A_n (alternating permutations of n), by the boustrophedon triangle."""
+    row = [1]
+    for _ in range(n):
+        new = [0]
+        for value in reversed(row):
+            new.append(new[-1] + value)
+        row = new
+    return row[-1]
+
+
+def _stationary_start_rate(auto: _Automaton, steps: int) -> float:
+    """P(fires now but not at the point before), once the state has forgotten its start."""
+    probs = zone_probabilities()
+    size = auto.size
+    quiet = np.zeros(size)  # mass of states whose latest point did not fire
+    quiet[0] = 1.0
+    loud = np.zeros(size)
+    for _ in range(steps):
+        mass = quiet + loud
+        quiet, loud = np.zeros(size), np.zeros(size)
+        for sym in range(_SYMBOLS):
+            fired = auto.fires[:, sym]
+            weight = mass * probs[sym]
+            loud += np.bincount(auto.next[fired, sym], weights=weight[fired], minlength=size)
+            quiet += np.bincount(auto.next[~fired, sym], weights=weight[~fired], minlength=size)
+    return float(sum((quiet * auto.fires[:, sym]).sum() * probs[sym] for sym in range(_SYMBOLS)))
+
+
+def _streamed_rate(spec: RuleSpec, points: int = 2_000_000, seed: int = DEFAULT_SEED) -> float:
+    """Alarm starts per point on one long seeded in-control series (the fallback)."""
+    from linewatch.engine.rules import evaluate  # lazy: only for the fallback
+
+    fires = evaluate(spec, np.random.default_rng(seed).standard_normal(points), 0.0, 1.0)
+    starts = int(fires[0]) + int(np.count_nonzero(fires[1:] & ~fires[:-1]))
+    return starts / points
+
+
+def _too_large(spec: RuleSpec) -> bool:
+    """Whether the rule's own automaton exceeds the chain's size limit."""
+    return spec.kind == K_OF_M and spec.length - 1 > math.log(MAX_CHAIN_STATES, 3)
 
 
 def zone_probabilities() -> np.ndarray:
@@ -194,28 +277,28 @@ def _side_run(length: int, side: np.ndarray) -> _Automaton:
 def _mixture(length: int, side: np.ndarray, beyond: np.ndarray) -> _Automaton:
     """`length` in a row beyond 1σ with both sides among them.
 
-    State (run r ≤ cap, sides seen in the last min(r, cap) points: 1 above, 2 below, 3 both).
-    Once the run reaches `length` without firing, its last `length` points are all on one side, so
-    capping r at length − 1 with that side keeps exactly what the next decision needs.
+    State (r, s, c): the run of points beyond 1σ (r, capped at `length`), the side of the latest
+    point (s) and how many of the latest points in a row share that side (c, capped likewise).
+    The last `length` points are all beyond with both sides present exactly when the run reaches
+    `length` and the same-side streak is shorter than `length`.
     """
-    cap = max(length - 1, 1)
-
-    def index(run: int, seen: int) -> int:
-        return 0 if run == 0 else 1 + 3 * (run - 1) + (seen - 1)
-
-    size = 1 + 3 * cap
-    nxt = np.zeros((size, _SYMBOLS), np.int64)
-    fires = np.zeros((size, _SYMBOLS), bool)
-    for run in range(cap + 1):
-        for seen in (1, 2, 3) if run else (0,):
-            state = index(run, seen)
-            for sym in range(_SYMBOLS):
-                if not beyond[sym]:
-                    continue  # next state 0, no fire
-                new_seen = seen | (1 if side[sym] > 0 else 2)
-                new_run = run + 1
-                fires[state, sym] = new_run >= length and new_seen == 3
-                nxt[state, sym] = index(min(new_run, cap), new_seen)
+    cap = max(length, 1)
+    index: dict[tuple[int, int, int], int] = {(0, 0, 0): 0}
+    for run in range(1, cap + 1):
+        for s in (+1, -1):
+            for streak in range(1, run + 1):
+                index[(run, s, streak)] = len(index)
+    nxt = np.zeros((len(index), _SYMBOLS), np.int64)
+    fires = np.zeros((len(index), _SYMBOLS), bool)
+    for (run, s, streak), state in index.items():
+        for sym in range(_SYMBOLS):
+            if not beyond[sym]:
+                continue  # next state 0, no fire
+            new_side = int(side[sym])
+            new_run = run + 1
+            new_streak = streak + 1 if new_side == s else 1
+            fires[state, sym] = new_run >= length and new_streak < length
+            nxt[state, sym] = index[(min(new_run, cap), new_side, min(new_streak, cap))]
     return _Automaton(nxt, fires)
 
 
@@ -339,7 +422,7 @@ def _unique_automata(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> list[_Auto
         key = (s.kind, s.length, s.k, s.zone)
         if key in seen:
             continue
-        if s.kind == K_OF_M and s.length - 1 > math.log(MAX_CHAIN_STATES, 3):
+        if _too_large(s):
             return None
         seen[key] = _automaton(s)
     return list(seen.values())
@@ -385,7 +468,7 @@ def simulate_run_length(
             series = np.concatenate([series, rng.standard_normal(series.shape)], axis=1)
     arl = float(np.mean(lengths))
     se = float(np.std(lengths, ddof=1) / math.sqrt(replicates)) if replicates > 1 else None
-    return _result(arl, method, se)
+    return _result(specs, arl, method, se)
 
 
 def _first_signals(specs: tuple[RuleSpec, ...], series: np.ndarray) -> np.ndarray:
