@@ -19,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from scipy import stats
 
 from linewatch.simulate import (
     DRIFT,
@@ -83,11 +84,13 @@ def test_history_comes_first_and_is_in_control(first_cycle) -> None:
     for gauge in EXTRUSION_LINE.gauges:
         hist = _history(readings[gauge.key])
         assert len(hist) == EXTRUSION_LINE.history_points * gauge.subgroup
-        # Mean within 4 standard errors of the nominal, SD within 35 % (chi-square bounds for
-        # n >= 40 are narrower than that at 99.9 %; scipy.stats.chi2 would give ~0.74..1.29).
-        se = gauge.sigma / np.sqrt(len(hist))
+        # Mean within 4 standard errors of the nominal; sample SD inside the 99.9 % chi-square
+        # interval for normal data with the gauge's σ (scipy.stats.chi2).
+        n = len(hist)
+        se = gauge.sigma / np.sqrt(n)
         assert abs(hist.mean() - gauge.mean) < 4 * se
-        assert 0.65 < hist.std(ddof=1) / gauge.sigma < 1.35
+        lo, hi = np.sqrt(stats.chi2.ppf([0.0005, 0.9995], n - 1) / (n - 1))
+        assert lo < hist.std(ddof=1) / gauge.sigma < hi
 
 
 def test_material_lot_change_shifts_the_diameter(first_cycle) -> None:
