@@ -8,9 +8,11 @@ importing this module stays cheap on the `check` path.
 
 from __future__ import annotations
 
+import functools
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypeVar
 
 import numpy as np
 
@@ -19,6 +21,20 @@ import numpy as np
 QUARTILE_METHOD = "linear"
 WHISKER_FACTOR = 1.5  # Tukey's fences: 1.5·IQR beyond the quartiles (common practice)
 CONFIDENCE = 0.95
+
+
+_F = TypeVar("_F", bound=Callable[..., Any])
+
+
+def _quiet(func: _F) -> _F:
+    """Run `func` with numpy's floating-point warnings off: extreme data yields None, not noise."""
+
+    @functools.wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        with np.errstate(all="ignore"):
+            return func(*args, **kwargs)
+
+    return wrapper  # type: ignore[return-value]
 
 
 def _finite(value: float | None) -> float | None:
@@ -142,6 +158,7 @@ def _positions(values: Any) -> tuple[np.ndarray, np.ndarray]:
     return x[where], where
 
 
+@_quiet
 def describe(values: Any, confidence: float = CONFIDENCE) -> Description:
     """Mean, SD (n − 1), t-interval of the mean, five-number summary, Tukey whiskers, outliers.
 
@@ -163,6 +180,8 @@ def describe(values: Any, confidence: float = CONFIDENCE) -> Description:
     spread = q3 - q1
     low_fence, high_fence = q1 - WHISKER_FACTOR * spread, q3 + WHISKER_FACTOR * spread
     inside = (x >= low_fence) & (x <= high_fence)
+    if not inside.any():  # only when the figures overflow (|values| near 1e308)
+        inside[:] = True
     outside = np.flatnonzero(~inside)
     return Description(
         points=n,
@@ -174,7 +193,6 @@ def describe(values: Any, confidence: float = CONFIDENCE) -> Description:
         median=median,
         q3=q3,
         maximum=float(x.max()),
-        # the quartiles always lie inside the fences, so `inside` is never empty
         whisker_low=float(x[inside].min()),
         whisker_high=float(x[inside].max()),
         outliers=tuple((int(where[i]), float(x[i])) for i in outside),
@@ -186,6 +204,7 @@ def _positive(value: float | None) -> float | None:
     return value if value is not None and value > 0 else None
 
 
+@_quiet
 def capability(
     values: Any,
     sigma_within: float | None,
@@ -264,6 +283,7 @@ def capability(
     )
 
 
+@_quiet
 def trend(
     values: Any,
     lsl: float | None = None,
@@ -318,6 +338,7 @@ def trend(
     )
 
 
+@_quiet
 def summarize(
     values: Any,
     sigma_within: float | None = None,

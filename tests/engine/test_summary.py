@@ -7,6 +7,7 @@ import math
 import statistics
 import subprocess
 import sys
+import warnings
 
 import numpy as np
 import pytest
@@ -95,6 +96,15 @@ def test_degenerate_descriptions_return_none_not_errors():
     assert one.points == 1 and one.mean == 4.2 and one.stdev is None and one.ci95 is None
     flat = describe([3.0, 3.0, 3.0])
     assert flat.stdev == 0.0 and flat.ci95 == (3.0, 3.0) and flat.outliers == ()
+
+
+def test_extreme_values_give_none_not_errors_or_warnings():
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        record = summarize([1e308, -1e308, 1e308, 5.0], sigma_within=1.0, lsl=0.0, usl=1.0)
+    out = record.to_dict()
+    assert json.loads(json.dumps(out, allow_nan=False)) == out
+    assert out["points"] == 4 and out["stdev"] is None  # the SD overflows: no figure
 
 
 def test_non_finite_values_are_left_out_but_positions_kept():
