@@ -57,6 +57,7 @@ class Waker:
         self._lock = threading.Lock()
         self._refresh_due = True
         self._watches: dict[tuple[str, bool], Any] = {}
+        self._refreshed = False
         self._observer: Any = None
         self.mode = "poll"
         if poll_seconds > 0:
@@ -127,6 +128,7 @@ class Waker:
                     watch = self._watches.pop(key)
                     with contextlib.suppress(KeyError, OSError, ValueError):
                         self._observer.unschedule(watch)
+            first, self._refreshed = not self._refreshed, True
             for key in wanted - set(self._watches):
                 folder, below = key
                 try:
@@ -135,6 +137,10 @@ class Waker:
                     )
                 except OSError as exc:
                     log.warning("cannot watch %s (%s): relying on the re-check beat", folder, exc)
+                    continue
+                if not first:
+                    # files may have arrived in the new folder before its watch began
+                    self._event.set()
 
     @property
     def watched(self) -> list[str]:
