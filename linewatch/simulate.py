@@ -263,6 +263,19 @@ def _crossed(at: float, before: float, t: float, cycle: float) -> bool:
     return False
 
 
+def process_state(g: Gauge, active: list[Cause], tc: float) -> tuple[float, float]:
+    """The gauge's process mean and σ at cycle time `tc` under the active causes."""
+    mean, sigma = g.mean, g.sigma
+    for c in active:
+        if c.kind == SHIFT:
+            mean += c.size * g.sigma
+        elif c.kind == DRIFT:
+            mean += c.size * g.sigma * (tc - c.start) / (c.end - c.start)
+        elif c.kind in (SPREAD, HUG):
+            sigma *= c.size
+    return mean, sigma
+
+
 def _stamp(start: datetime, t: float) -> str:
     return (start + timedelta(seconds=t)).isoformat(timespec="milliseconds")
 
@@ -309,14 +322,7 @@ def gauge_actions(
                     yield key(t, Header(t, g.file, header_bytes(g)))
         active = [c for c in causes if tc >= 0 and _in_window(c, tc)]
         z = float(history[k - 1 - first]) if k - 1 < 0 else float(rng.standard_normal())
-        mean, sigma = g.mean, g.sigma
-        for c in active:
-            if c.kind == SHIFT:
-                mean += c.size * g.sigma
-            elif c.kind == DRIFT:
-                mean += c.size * g.sigma * (tc - c.start) / (c.end - c.start)
-            elif c.kind in (SPREAD, HUG):
-                sigma *= c.size
+        mean, sigma = process_state(g, active, tc)
         value = round(mean + sigma * z, g.decimals)
         if any(c.kind == STUCK for c in active):
             if stuck_value is None:
