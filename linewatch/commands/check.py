@@ -75,7 +75,10 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
               "rejected": rejected}
     record.update({k: v for k, v in s.to_dict().items() if k != "points"})
     budget = average_run_length(list(chart_setup(c, None).rules))
-    record["arl0"] = budget.arl
+    finite = math.isfinite(budget.arl)
+    record["arl0"] = budget.arl if finite else None  # no rule can fire: no run length
+    record["arl0_method"] = budget.method
+    record["arl0_std_error"] = budget.std_error
     record["false_alarms_per_1000"] = budget.false_alarms_per_1000
     if result.leftover:
         record["left_out_values"] = result.leftover

@@ -75,8 +75,11 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
             w(f"   trend: slope {_f(s.get('trend_slope'))} per point, R² "
               f"{_f(s.get('trend_r2'), 3)}, p {_f(s.get('trend_p'), 3)}")
         if s.get("arl0"):
-            w(f"   false-alarm budget: in-control ARL {s['arl0']:.1f} points, about "
-              f"{s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+            how = s.get("arl0_method") or ""
+            spread = f" ± {s['arl0_std_error']:.1f}" if s.get("arl0_std_error") else ""
+            approx = "≈ " if how.startswith("simulation") else ""
+            w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
+              f"({how}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
         w("")
     if rejected:
         w(f"rejected rows: {len(rejected)}")
