@@ -78,8 +78,10 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
             how = s.get("arl0_method") or ""
             spread = f" ± {s['arl0_std_error']:.1f}" if s.get("arl0_std_error") else ""
             approx = "≈ " if how.startswith("simulation") else ""
+            words = {"markov": "exact Markov chain"}.get(how, how.replace("simulation",
+                                                                         "seeded simulation"))
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
-              f"({how}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+              f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
         w("")
     if rejected:
         w(f"rejected rows: {len(rejected)}")
