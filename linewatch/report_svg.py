@@ -28,6 +28,21 @@ def _steps(xs: list[float], ys: list[float | None], y_of) -> list[str]:
 
 
 LABEL_GAP = 11.0  # px between label baselines on the right edge
+DOT_LIMIT = 1200  # beyond this many points: no dots, and the line becomes a per-pixel envelope
+
+
+def _envelope(xs: list[float], values: list[float], y_of) -> str:
+    """Polyline points visiting the lowest and highest value of every pixel column in turn."""
+    columns: dict[int, tuple[float, float]] = {}
+    for x, v in zip(xs, values, strict=True):
+        col = round(x)
+        lo, hi = columns.get(col, (v, v))
+        columns[col] = (min(lo, v), max(hi, v))
+    out = []
+    for col in sorted(columns):
+        lo, hi = columns[col]
+        out.append(f"{col},{y_of(lo):.1f} {col},{y_of(hi):.1f}")
+    return " ".join(out)
 
 
 def _place_labels(labels: list[tuple[float, str, str]], x: float) -> list[str]:
@@ -91,17 +106,25 @@ def control_chart_svg(
             parts.append(f'<path d="M{LEFT},{y:.1f}H{LEFT + plot_w}" class="spec"/>')
             labels.append((y, f"{name} {num(v, 5)}", "label spec-label"))
     parts.extend(_place_labels(labels, LEFT + plot_w + 4))
-    line = " ".join(f"{x:.1f},{y_of(v):.1f}" for x, v in zip(xs, trace.values, strict=True))
-    parts.append(f'<polyline points="{line}" class="trace"/>')
+    if count <= DOT_LIMIT:
+        line = " ".join(f"{x:.1f},{y_of(v):.1f}" for x, v in zip(xs, trace.values, strict=True))
+        parts.append(f'<polyline points="{line}" class="trace"/>')
+    else:  # a long shift: one low-high stroke per pixel column keeps the file small
+        parts.append(f'<polyline points="{_envelope(xs, trace.values, y_of)}" class="trace"/>')
     radius = 2.2 if count <= 150 else 1.4
+    marked: set[tuple[int, int]] = set()
     for x, v, i in zip(xs, trace.values, trace.indices, strict=True):
         y = y_of(v)
         if i in trace.flagged:
+            spot = (round(x), round(y))
+            if count > DOT_LIMIT and spot in marked:
+                continue
+            marked.add(spot)
             parts.append(
                 f'<rect x="{x - 3.5:.1f}" y="{y - 3.5:.1f}" width="7" height="7" class="flag">'
                 f"<title>point {i}: {escape(num(v))} (in an alarm)</title></rect>"
             )
-        else:
+        elif count <= DOT_LIMIT:
             parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="{radius}" class="dot"/>')
     parts.append(
         f'<text x="{LEFT}" y="{HEIGHT - 6}" class="label">point {trace.indices[0]}</text>'

@@ -411,3 +411,25 @@ def test_report_of_a_real_watch_run(tmp_path: Path) -> None:
          "1h", "--format", "html"], capture_output=True, text=True, timeout=60, env=env,
     )
     assert html.returncode == 0 and html.stdout.count("<svg") == 2
+
+
+def test_a_long_shift_keeps_the_chart_small_and_still_shows_its_extremes() -> None:
+    from linewatch.report import ChartTrace
+    from linewatch.report_svg import control_chart_svg
+
+    rng = np.random.default_rng(5)
+    values = (12.0 + SIGMA * rng.standard_normal(30_000)).tolist()
+    values[12_345] = 12.2  # one wild reading must still reach the top of the drawing
+    n = len(values)
+    trace = ChartTrace("individuals", list(range(n)), values, [12.0] * n, [12.036] * n,
+                       [11.964] * n, flagged={12_345})
+    svg = control_chart_svg(trace, LSL, USL)
+    assert len(svg) < 60_000
+    assert svg.count("<circle") == 0 and svg.count('class="flag"') == 1
+    points = re.search(r'<polyline points="([^"]+)"', svg).group(1).split()
+    ys = [float(p.split(",")[1]) for p in points]
+    flag_y = float(re.search(r'<rect x="[\d.]+" y="([\d.]+)"[^>]*class="flag"', svg).group(1))
+    # The envelope's highest point is the wild reading, where its marker is drawn (SVG y grows
+    # downwards; the marker is a 7-px square centred on the point).
+    assert min(ys) == pytest.approx(flag_y + 3.5, abs=0.06)
+    assert sorted(ys)[1] > min(ys) + 20  # and it stands well clear of the rest
