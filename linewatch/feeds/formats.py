@@ -1,9 +1,11 @@
 """Log rows -> columnar `Batch`: wide CSV, long CSV and JSON lines.
 
-Two readers give the same result for the same bytes (a property test proves it):
-`RowParser` takes complete lines as a tail delivers them; `read_log` takes a whole file at once
-and converts the common case (plain ASCII rows, plain decimal numbers) with numpy over the whole
-buffer, sending only the unusual rows through the same per-line code as `RowParser`.
+Two paths give the same result for the same bytes (a property test proves it): the per-line
+code of `RowParser`, which defines every convention below, and a whole-buffer path for wide
+CSV that converts the common case (plain ASCII rows, plain decimal numbers) with numpy and
+sends only the unusual rows through the per-line code. `read_log` reads a whole file that way
+(the `check` command); a live tail hands `RowParser.parse_block` each block of complete lines,
+and blocks of at least FAST_BLOCK_BYTES take the whole-buffer path too.
 
 The row conventions, for every layout:
 
