@@ -346,3 +346,18 @@ def test_restart_after_rotation_reads_the_last_rows_of_the_renamed_file(tmp_path
     assert seen.values["od"] == [value(3), value(4)]
     assert seen.lines["od"] == [(str(tmp_path / "log.csv.1"), 4), (str(log), 2)]
     assert "rotated" in seen.kinds()
+
+
+def test_polling_mode_follows_appends_and_rotation_without_events(tmp_path, follow):
+    # network shares deliver no file-system events: the waker wakes on its beat instead
+    log = tmp_path / "log.csv"
+    append(log, HEADER + row(1))
+    f = follow([log], poll_seconds=0.1)
+    assert f.waker is not None and f.waker.mode == "poll"
+    f.until(has(1))
+    append(log, row(2))
+    os.rename(log, tmp_path / "log.csv.1")
+    append(log, HEADER + row(3))
+    seen = f.until(has(3))
+    assert seen.values["od"] == [value(1), value(2), value(3)]
+    assert "rotated" in seen.kinds()

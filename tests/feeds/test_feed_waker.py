@@ -7,6 +7,7 @@ can only come from the event being tested (speed figures live in the benchmarks)
 
 from __future__ import annotations
 
+import os
 import threading
 from pathlib import Path
 
@@ -101,3 +102,31 @@ def test_wake_and_close_release_a_waiter(tmp_path: Path) -> None:
     w.close()
     after = {t.name for t in threading.enumerate()}
     assert len(after) < len(before)  # the observer thread is gone
+
+
+def test_the_recheck_beat_catches_a_change_no_event_reports(tmp_path: Path) -> None:
+    # inotify reports a write to the folder it was made through: a write through a hard link
+    # in another folder is a change our folder watch never hears about
+    watched, elsewhere = tmp_path / "line", tmp_path / "elsewhere"
+    watched.mkdir()
+    elsewhere.mkdir()
+    log = watched / "log.csv"
+    log.write_text("time,od\n06:00,25.0\n")
+    os.link(log, elsewhere / "alias.csv")
+    t = Tailer([], None, None, patterns=[str(watched / "*.csv")])
+    deaf = Waker(t.patterns, safety_seconds=LONG)
+    beat = Waker(t.patterns, safety_seconds=0.3)
+    try:
+        t.poll()
+        quiet(deaf)
+        quiet(beat)
+        with open(elsewhere / "alias.csv", "a") as fh:
+            fh.write("06:01,25.1\n")
+        assert deaf.wait(1.0) is False  # the event never came
+        assert beat.wait(30.0) is True  # the beat came instead
+        chunks = t.poll()
+        assert [list(c.batch.values["od"]) for c in chunks if c.batch] == [[25.1]]
+    finally:
+        deaf.close()
+        beat.close()
+        t.close()
