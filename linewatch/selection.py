@@ -6,6 +6,8 @@
 from __future__ import annotations
 
 import argparse
+import fnmatch
+import os
 from dataclasses import replace
 
 from linewatch.config import DISPERSIONS, CharacteristicConfig, Config, FeedConfig, load_config
@@ -40,9 +42,37 @@ def validate_chart_options(args: argparse.Namespace) -> None:
             raise LinewatchError(f"--rules: {exc}") from None
 
 
-def feed_for_check(config: Config, args: argparse.Namespace) -> FeedConfig:
-    """How to read logs named on the command line: the config's first feed, or defaults."""
-    feed = replace(config.feeds[0]) if config.feeds else FeedConfig(paths=[])
+JSON_SUFFIXES = (".jsonl", ".ndjson", ".json")
+
+
+def looks_like_json_lines(path: str) -> bool:
+    """A log is JSON lines by its name, or when its first non-blank byte opens an object."""
+    if path.lower().endswith(JSON_SUFFIXES):
+        return True
+    if path == "-":
+        return False
+    try:
+        with open(path, "rb") as f:
+            head = f.read(512).lstrip(b"\xef\xbb\xbf \t\r\n")
+    except OSError:
+        return False
+    return head.startswith(b"{")
+
+
+def feed_for_log(config: Config, path: str, args: argparse.Namespace) -> FeedConfig:
+    """How to read one log named on the command line: the config feed whose paths match it,
+    else the config's first feed, else defaults (JSON lines recognised by name or content)."""
+    feed = None
+    for f in config.feeds:
+        if any(fnmatch.fnmatch(os.path.abspath(path), os.path.abspath(p)) or
+               fnmatch.fnmatch(os.path.basename(path), os.path.basename(p)) for p in f.paths):
+            feed = f
+            break
+    if feed is None and config.feeds:
+        feed = config.feeds[0]
+    feed = replace(feed) if feed is not None else FeedConfig(paths=[])
+    if not config.feeds and looks_like_json_lines(path):
+        feed.layout = "jsonl"
     if getattr(args, "decimal", None):
         feed.decimal = args.decimal
     return feed

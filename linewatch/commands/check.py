@@ -18,7 +18,7 @@ from linewatch.model import Rejected
 from linewatch.records import dumps, limits_record, rejected_record, signal_record
 from linewatch.selection import (
     chart_setup,
-    feed_for_check,
+    feed_for_log,
     load_optional_config,
     select_characteristics,
     validate_chart_options,
@@ -45,11 +45,11 @@ class Analysis:
     summary: dict
 
 
-def _read_all(paths: list[str], feed, columns: list[str] | None):
+def _read_all(paths: list[str], feeds, columns: list[str] | None):
     """Read every log into per-characteristic columns plus the rejected rows."""
     from linewatch.feeds.formats import read_log
 
-    batches = [read_log(p, feed, columns) for p in paths]
+    batches = [read_log(p, feed, columns) for p, feed in zip(paths, feeds, strict=True)]
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)
@@ -89,14 +89,14 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
     """Read the logs named in `args` and chart every selected characteristic."""
     validate_chart_options(args)
     config = load_optional_config(args.config)
-    feed = feed_for_check(config, args)
+    feeds = [feed_for_log(config, p, args) for p in args.logs]
     wanted = None
     if args.column:
         wanted = [config.characteristic(c).column if config.characteristic(c) else c
                   for c in args.column]
     elif config.characteristics:
         wanted = [c.column for c in config.characteristics]
-    cols, rejected = _read_all(args.logs, feed, wanted)
+    cols, rejected = _read_all(args.logs, feeds, wanted)
     chars = select_characteristics(config, args, list(cols))
     if not chars:
         raise LinewatchError("no numeric column to chart (name one with --column)")

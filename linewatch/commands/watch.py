@@ -11,6 +11,7 @@ from pathlib import Path
 from linewatch.config import Config, FeedConfig
 from linewatch.errors import LinewatchError
 from linewatch.selection import (
+    JSON_SUFFIXES,
     apply_overrides,
     load_optional_config,
     select_characteristics,
@@ -25,6 +26,8 @@ def build_plan(args: argparse.Namespace, config: Config):
     feeds: list[FeedConfig] = [f for f in config.feeds]
     if args.patterns:
         base = feeds[0] if feeds else FeedConfig(paths=[])
+        if not feeds and all(p.lower().endswith(JSON_SUFFIXES) for p in args.patterns):
+            base = FeedConfig(paths=[], layout="jsonl")
         extra = FeedConfig(
             paths=[str(Path(p).expanduser()) for p in args.patterns], layout=base.layout,
             delimiter=base.delimiter, decimal=args.decimal or base.decimal,

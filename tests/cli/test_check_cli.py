@@ -140,3 +140,15 @@ def test_directly_formatted_signal_lines_equal_the_generic_records(tmp_path):
     expected = [dumps(signal_record("od", f.chart, f.rule, f.index, int(a.column.lines[f.row]),
                                     f.value)) for f in a.result.firings]
     assert _signal_lines(a) == expected
+
+
+def test_json_lines_are_recognised_without_a_config(tmp_path):
+    log = tmp_path / "scale.jsonl"
+    values = [500.1, 499.8, 500.3, 499.9, 500.0] * 6
+    log.write_text("".join(json.dumps({"time": f"t{i}", "bag": f"B{i}", "fill_g": v}) + "\n"
+                           for i, v in enumerate(values)))
+    res = lw("check", str(log), "--format", "jsonl")
+    assert res.returncode in (0, 1), res.stderr
+    summary = next(r for r in records(res.stdout) if r["type"] == "summary")
+    assert summary["characteristic"] == "fill_g" and summary["points"] == 30
+    assert summary["mean"] == pytest.approx(np.mean(values))
