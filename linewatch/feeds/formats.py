@@ -361,7 +361,10 @@ class RowParser:
     def _split(self, text: str) -> list[str]:
         if '"' not in text:
             return text.split(self.delimiter)
-        return next(csv.reader([text], delimiter=self.delimiter), [])
+        try:
+            return next(csv.reader([text], delimiter=self.delimiter), [])
+        except csv.Error:  # a quoted field beyond the csv module's size limit
+            return text.split(self.delimiter)
 
     def _header_line(self, text: str, line_no: int, out: _Rows) -> None:
         if self.feed.delimiter == "auto":
@@ -461,7 +464,10 @@ class RowParser:
         if isinstance(v, bool):
             return None
         if isinstance(v, int | float):
-            f = float(v)
+            try:
+                f = float(v)
+            except OverflowError:
+                return None
             return f if math.isfinite(f) else None
         if isinstance(v, str):
             return parse_number(v, self.decimal_comma)
@@ -470,7 +476,7 @@ class RowParser:
     def _json_line(self, text: str, line_no: int, out: _Rows) -> None:
         try:
             obj = json.loads(text)
-        except (json.JSONDecodeError, RecursionError) as exc:
+        except (ValueError, RecursionError) as exc:  # ValueError: also numbers too long
             out.reject(line_no, f"not valid JSON: {getattr(exc, 'msg', exc)}")
             return
         if not isinstance(obj, dict):
@@ -505,7 +511,7 @@ class RowParser:
             keys = [
                 k for k, v in obj.items()
                 if k != self.time_key and not isinstance(v, bool) and isinstance(v, int | float)
-                and math.isfinite(v)
+                and self._json_number(v) is not None
             ]
             if not keys:
                 out.reject(line_no, "no number in any key")
