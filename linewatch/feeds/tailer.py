@@ -131,6 +131,7 @@ class _Followed:
         self.overflow = False  # the current line is longer than the cap: skipping to its end
         self.unreadable = False
         self.gone = False
+        self.resume_from: FileState | None = None  # where to go on after an I/O error
 
     # -- identity ---------------------------------------------------------------------------
 
@@ -169,9 +170,6 @@ class _Followed:
         if not stat.S_ISREG(st.st_mode):
             os.close(fd)
             return False
-        if self.unreadable:
-            self.unreadable = False
-            events.append(FeedEvent("readable", self.path, "the file can be read again"))
         self.fd, self.dev, self.inode = fd, st.st_dev, st.st_ino
         self.head = self._read_head(fd, st.st_size)
         self._restart()
@@ -351,8 +349,28 @@ class Tailer:
         chunks: list[TailChunk] = []
         self._discover(chunks)
         for f in list(self._followed.values()):
-            chunks.extend(self._step(f, max_bytes))
+            try:
+                chunks.extend(self._step(f, max_bytes))
+            except OSError as exc:  # an I/O error on one file (a share went away) stops only it
+                chunks.extend(self._broken(f, exc))
         return chunks
+
+    def _broken(
+        self, f: _Followed, exc: OSError, events: list[FeedEvent] | None = None
+    ) -> list[TailChunk]:
+        """Close a file that failed mid-read; it is opened again (same position) next poll.
+
+        The failure is said once; a chunk comes back only when there is something to say, so a
+        file that keeps failing never looks like work to the caller's loop.
+        """
+        if f.fd is not None:
+            f.resume_from = f.state()
+            f.close()
+        events = list(events or [])
+        if not f.unreadable:
+            f.unreadable = True
+            events.append(FeedEvent("unreadable", f.path, exc.strerror or str(exc)))
+        return [TailChunk(f.path, None, None, events)] if events else []
 
     # -- discovery --------------------------------------------------------------------------
 
@@ -432,7 +450,9 @@ class Tailer:
             if st is None:
                 return out
             was_gone = f.gone
-            adopt = self._adoptable(f.path, st)
+            adopt, f.resume_from = f.resume_from, None
+            if adopt is None:
+                adopt = self._adoptable(f.path, st)
             if adopt is None:
                 adopt = self._own_saved(f.path, st, out, max_bytes)
             if not f.open(events, adopt):
@@ -443,7 +463,13 @@ class Tailer:
                 f.gone = False
                 detail = f"going on at line {f.next_line}" if f.offset else "reading"
                 events.insert(0, FeedEvent("appeared", f.path, detail))
-        batch, more = f.read(max_bytes)
+        try:
+            batch, more = f.read(max_bytes)
+        except OSError as exc:
+            return out + self._broken(f, exc, events)
+        if f.unreadable:
+            f.unreadable = False
+            events.append(FeedEvent("readable", f.path, "the file can be read again"))
         if batch is not None or events or more:
             out.append(TailChunk(f.path, batch, f.state(), events, more))
         return out

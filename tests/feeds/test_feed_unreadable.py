@@ -82,3 +82,25 @@ def test_an_unreadable_file_is_reported_and_the_other_feeds_go_on() -> None:
     assert ["unreadable", "locked.csv"] not in second["events"]  # said once, not every poll
     assert ["readable", "locked.csv"] in third["events"]
     assert third["rows"] == {"locked.csv": [30.0]}
+
+
+def test_a_read_error_is_reported_once_and_never_looks_like_work(tmp_path: Path) -> None:
+    # /proc/self/mem is a regular file that opens but fails every read at offset 0 with EIO:
+    # a real I/O error, like a network share that went away under an open file
+    from linewatch.feeds.tailer import Tailer
+
+    good = tmp_path / "good.csv"
+    good.write_text("time,od\n06:00,25.0\n")
+    t = Tailer([], None, None, patterns=[str(good), "/proc/self/mem"])
+    try:
+        first = t.poll()
+        events = [(e.kind, e.file) for c in first for e in c.events]
+        assert ("unreadable", "/proc/self/mem") in events
+        assert [list(c.batch.values["od"]) for c in first if c.batch] == [[25.0]]
+        assert t.poll() == []  # nothing new: an idle loop may sleep
+        with open(good, "a") as fh:
+            fh.write("06:01,25.1\n")
+        again = t.poll()
+        assert [c.path for c in again] == [str(good)]
+    finally:
+        t.close()
