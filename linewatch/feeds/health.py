@@ -66,6 +66,12 @@ class FeedHealth:
             f.stale = False
             self._pending.append(FeedEvent("resumed", file, f"{n} new rows"))
 
+    def file_event(self, event: FeedEvent, now: float) -> None:
+        """Start a file's clock when the tailer reports it, so a file that never delivers a
+        row still goes stale."""
+        if event.kind in ("appeared", "waiting") and event.file not in self._files:
+            self._files[event.file] = _FileHealth(first_seen=now, last_row=now)
+
     def values_arrived(self, characteristic: str, values: Iterable[float]) -> None:
         """The next values of one characteristic, in order."""
         if self.stuck_repeats <= 0:

@@ -80,3 +80,13 @@ def test_rows_per_second_over_the_recent_window() -> None:
     assert h.rate("od.csv", now=120.0) == 5.0
     assert h.rates(now=140.0) == {"od.csv": 0.0}
     assert h.rate("unknown.csv", now=140.0) == 0.0
+
+
+def test_a_file_that_never_delivers_goes_stale_from_when_it_appeared() -> None:
+    from linewatch.model import FeedEvent
+
+    h = FeedHealth(stale_after=60, stuck_repeats=0)
+    h.file_event(FeedEvent("appeared", "od.csv", "reading"), now=100.0)
+    h.file_event(FeedEvent("rotated", "wall.csv", ""), now=100.0)  # not a start
+    assert h.tick(159.0) == []
+    assert kinds(h.tick(160.0)) == [("stale", "od.csv")]
