@@ -478,6 +478,8 @@ class Tailer:
         """Remember where an old file's reading ended, in case it shows up under a new name."""
         if f.offset:
             self._retired[(fst.st_dev, fst.st_ino)] = (f.offset, f.next_line, f.head)
+            while len(self._retired) > 256:  # only recent rotations can show up again
+                self._retired.pop(next(iter(self._retired)))
 
     def _adoptable(self, path: str, st: os.stat_result) -> SavedState | None:
         """A state for a file we already read under another name (a rotated log matched again)."""
