@@ -69,6 +69,8 @@ class LinewatchApp(App[int]):
         self.bells_rung = 0
         self._changed = True
         self._alarms_seen: set[int] | None = None
+        self._drawing_since = 0.0
+        self._quiet_until = 0.0
 
     def get_key_display(self, binding: Binding) -> str:
         """Plain key names on the Linux console, which lacks Textual's key symbols."""
@@ -89,7 +91,7 @@ class LinewatchApp(App[int]):
         self._changed = True
 
     def _refresh_if_changed(self) -> None:
-        if self._changed:
+        if self._changed and time.perf_counter() >= self._quiet_until:
             self._pull_line()
 
     def _pull_line(self) -> None:
@@ -102,7 +104,15 @@ class LinewatchApp(App[int]):
         self._ring_for_new_alarms(line)
         top = self.top_line_screen()
         if top is not None:
+            self._drawing_since = time.perf_counter()
             top.show_line()
+            self.call_after_refresh(self._drawn)
+
+    def _drawn(self) -> None:
+        """Leave the loop at least as long for keys as the last redraw took (a heavy line then
+        redraws less often instead of queueing redraws behind the operator's keypresses)."""
+        now = time.perf_counter()
+        self._quiet_until = now + (now - self._drawing_since)
 
     def _ring_for_new_alarms(self, line: view.LineSnapshot) -> None:
         ids = {a.id for a in line.alarms}

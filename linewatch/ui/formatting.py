@@ -57,12 +57,18 @@ def fmt_fixed(value: float | None, decimals: int = 2) -> str:
 
 
 def fmt_age(seconds: float | None) -> str:
-    """Compact age of the newest row: 4s, 12m, 3h, 2d; '-' when nothing arrived yet."""
+    """Coarse age of the newest row: <10s, 20s, 12m, 3h, 2d; '-' when nothing arrived yet.
+
+    Coarse on purpose: the text changes at most every ten seconds, so a quiet line does not
+    redraw every second just to count.
+    """
     if seconds is None:
         return "-"
     s = max(0, int(seconds))
+    if s < 10:
+        return "<10s"
     if s < 60:
-        return f"{s}s"
+        return f"{s // 10 * 10}s"
     if s < 3600:
         return f"{s // 60}m"
     if s < 86400:

@@ -126,5 +126,6 @@ def test_box_plot_marks_outliers_and_spec_brackets() -> None:
 
 
 def test_small_text_helpers() -> None:
-    assert [fmt_age(s) for s in (None, 4.9, 61, 7300, 90000)] == ["-", "4s", "1m", "2h", "1d"]
+    assert [fmt_age(s) for s in (None, 4.9, 37, 61, 7300, 90000)] == [
+        "-", "<10s", "30s", "1m", "2h", "1d"]
     assert [rule_digit(r) for r in ("", "we2", "n5,n6", "spec")] == ["", "2", "5", "?"]

@@ -74,6 +74,7 @@ class BoardScreen(LineScreen):
         self._widths = column_widths(80)
         self._row_sigs: dict[str, tuple[object, ...]] = {}
         self._shown: list[str] = []
+        self._by_name: dict[str, view.CharacteristicView] = {}
 
     def compose(self) -> ComposeResult:
         yield TopBar(id="topbar")
@@ -90,6 +91,7 @@ class BoardScreen(LineScreen):
         return self.query_one("#board-table", DataTable)
 
     def on_mount(self) -> None:
+        self.watch(self.table, "scroll_y", self._redraw_rows_in_view, init=False)
         self.query_one("#board-filter", Input).display = False
         self._rebuild_columns(self.size.width or 80)
         self.show_line()
@@ -123,6 +125,7 @@ class BoardScreen(LineScreen):
         line = self.lw.line
         shown = self.visible()
         names = [cv.name for cv in shown]
+        self._by_name = {cv.name: cv for cv in shown}
         table = self.table
         if names != self._shown:
             keep = self._highlighted_name()
@@ -135,12 +138,7 @@ class BoardScreen(LineScreen):
             if keep in names:
                 table.move_cursor(row=names.index(keep))
         else:
-            for cv in shown:
-                sig = self._signature(cv)
-                if self._row_sigs.get(cv.name) != sig:
-                    for key, cell in zip(COLUMNS, self._cells(cv), strict=True):
-                        table.update_cell(cv.name, key, cell)
-                    self._row_sigs[cv.name] = sig
+            self._redraw_rows_in_view()
         extra = []
         if self.filter_text:
             extra.append(f"filter '{self.filter_text}'")
@@ -155,11 +153,28 @@ class BoardScreen(LineScreen):
         super().show_line()
 
     def tick_clock(self) -> None:
-        for cv in self.visible():
+        self._redraw_rows_in_view()
+
+    def _rows_in_view(self) -> list[str]:
+        """Names of the rows on screen (two lines each, below one header line)."""
+        table = self.table
+        first = max(0, int(table.scroll_y) // 2 - 1)
+        count = table.size.height // 2 + 3
+        return self._shown[first : first + count]
+
+    def _redraw_rows_in_view(self) -> None:
+        """Refresh the cells of rows on screen whose content changed. Rows out of view wait
+        until they scroll in: with hundreds of characteristics, redrawing only what shows keeps
+        a keypress quick."""
+        for name in self._rows_in_view():
+            cv = self._by_name.get(name)
+            if cv is None:
+                continue
             sig = self._signature(cv)
-            if self._row_sigs.get(cv.name) != sig:
-                self.table.update_cell(cv.name, "age", self._age_cell(cv))
-                self._row_sigs[cv.name] = sig
+            if self._row_sigs.get(name) != sig:
+                for key, cell in zip(COLUMNS, self._cells(cv), strict=True):
+                    self.table.update_cell(name, key, cell)
+                self._row_sigs[name] = sig
 
     def _signature(self, cv: view.CharacteristicView) -> tuple[object, ...]:
         loc = cv.location
@@ -190,7 +205,7 @@ class BoardScreen(LineScreen):
             name.append(f" n={cv.subgroup_size}", palette.LABEL)
         loc = cv.location
         spark = SparkCell(loc.values if loc else [], loc.rules if loc else [],
-                          self._widths["recent"], g)
+                          self._widths["recent"], g).to_text()
         if cv.state == view.STATE_LEARNING or (cv.cpk is None and cv.baseline_needed):
             gauge: Text = Text(f"learning limits\n{cv.baseline_needed} more points",
                                palette.STATE_STYLE[view.STATE_LEARNING], end="")

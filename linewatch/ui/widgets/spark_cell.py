@@ -63,10 +63,32 @@ class SparkCell:
             text.append(mark or " ", palette.SIGNAL if mark else "")
         return text
 
+    def to_text(self) -> Text:
+        """Both lines as one Text, rendered once: a table redraw then costs no sparkline maths."""
+        console = _console()
+        bars = Text(end="")
+        for seg in self._bars(console, console.options.update(width=self.width)):
+            if seg.text != "\n":
+                bars.append(seg.text, seg.style)
+        bars.append("\n")
+        bars.append_text(self.markers())
+        return bars
+
     def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
-        yield from (s for s in self._bars(console, options) if s.text != "\n")
-        yield Segment.line()
-        yield from console.render(self.markers(), options.update(width=self.width))
+        yield self.to_text()
 
     def __rich_measure__(self, console: Console, options: ConsoleOptions) -> Measurement:
         return Measurement(self.width, self.width)
+
+
+_CONSOLE: Console | None = None
+
+
+def _console() -> Console:
+    """An off-screen console with full colour for turning the sparkline into styled text."""
+    global _CONSOLE
+    if _CONSOLE is None:
+        import io
+
+        _CONSOLE = Console(file=io.StringIO(), color_system="truecolor", width=400)
+    return _CONSOLE

@@ -28,4 +28,4 @@ class TopBar(Static):
             text.append(f"| {extra} ")
         if line.message:
             text.append(f"| {line.message}")
-        self.update(text)
+        self.update(text, layout=False)  # always one line: no need to lay the screen out
