@@ -1,10 +1,11 @@
 """Benchmark (run on demand, not collected by pytest): the feed layer on its own.
 
-    python tests/benchmarks/bench_feeds.py [ROWS]
+    python tests/benchmarks/bench_feeds.py [ROWS [STREAM_ROWS]]
 
 - read_log on a ROWS-row log (ISO timestamp, part id, one reading; default 1,000,000 ≈ 37 MB):
   best of three, and peak memory of a fresh process doing it once;
-- the tailer's sustained rate on a 20-characteristic wide log appended in blocks;
+- the tailer's sustained rate on a 20-characteristic wide log appended in blocks, and its
+  resident memory while STREAM_ROWS rows (default 2,000,000) stream through;
 - latency from a row's write to the tailer handing it out, woken by the real waker (p50/p95);
 - idle CPU of a waker plus tailer following 10 quiet files for 5 s, driven like the monitor.
 """
@@ -91,6 +92,38 @@ def bench_tail_rate(folder: Path, rows: int = 200_000, columns: int = 20) -> Non
           f"= {got / elapsed:,.0f} rows/s ({got * columns / elapsed:,.0f} values/s)")
 
 
+def bench_tail_memory(folder: Path, rows: int) -> None:
+    """Resident memory while `rows` rows stream through the tailer: it must stay flat."""
+    import psutil
+
+    log = folder / "stream.csv"
+    names = [f"c{k:02d}" for k in range(20)]
+    log.write_text("time," + ",".join(names) + "\n")
+    line = "2026-03-02T06:00:00," + ",".join(f"{25 + k / 7:.3f}" for k in range(20)) + "\n"
+    block = line * 10_000
+    t = Tailer([FeedConfig(paths=[str(log)])])
+    proc = psutil.Process()
+    marks: list[float] = []
+    got = 0
+    for k in range(rows // 10_000):
+        with open(log, "a") as fh:
+            fh.write(block)
+        for c in t.poll():
+            if c.batch is not None:
+                got += c.batch.rows
+        if k % max(1, rows // 10_000 // 5) == 0:
+            marks.append(proc.memory_info().rss / 2**20)
+        if k % 50 == 49:  # keep the disk use small: the writer truncates, as logrotate would
+            with open(log, "r+") as fh:
+                fh.truncate(0)
+            t.poll()
+            with open(log, "a") as fh:
+                fh.write("time," + ",".join(names) + "\n")
+    t.close()
+    shown = ", ".join(f"{m:.0f}" for m in marks)
+    print(f"tailer memory: {got:,} rows streamed; RSS MB along the way: {shown}")
+
+
 def bench_latency(folder: Path, samples: int = 200) -> None:
     log = folder / "live.csv"
     log.write_text("time,od\n")
@@ -140,6 +173,7 @@ def main() -> None:
         folder = Path(d)
         bench_read_log(folder, rows)
         bench_tail_rate(folder)
+        bench_tail_memory(folder, int(sys.argv[2]) if len(sys.argv) > 2 else 2_000_000)
         bench_latency(folder)
         idle = folder / "idle"
         idle.mkdir()
