@@ -1,0 +1,97 @@
+"""End to end in a real terminal (tmux): the real program follows a real file, an out-of-limit
+row raises an alarm on screen, keypresses acknowledge it, and the store records who and why."""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import subprocess
+import sys
+import time
+import uuid
+from collections.abc import Callable, Iterator
+from pathlib import Path
+
+import pytest
+
+WAIT = 30.0  # seconds allowed for each step on a slow machine; normally well under one
+
+
+def tmux(*args: str) -> str:
+    out = subprocess.run(["tmux", *args], capture_output=True, text=True, check=False)
+    return out.stdout
+
+
+def wait_for(check: Callable[[], bool], what: str, screen: Callable[[], str]) -> None:
+    deadline = time.monotonic() + WAIT
+    while time.monotonic() < deadline:
+        if check():
+            return
+        time.sleep(0.1)
+    raise AssertionError(f"waited {WAIT:.0f}s for {what}; the screen shows:\n{screen()}")
+
+
+@pytest.fixture
+def session(tmp_path: Path) -> Iterator[str]:
+    assert shutil.which("tmux"), "this test needs tmux (apt-get install tmux)"
+    name = f"lw-e2e-{uuid.uuid4().hex[:8]}"
+    yield name
+    subprocess.run(["tmux", "kill-session", "-t", name], capture_output=True, check=False)
+
+
+def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
+    tmp_path: Path, session: str
+) -> None:
+    log = tmp_path / "od.csv"
+    # In-control rows around the known centre 10.0 (σ 0.1): all within ±1σ.
+    rows = [f"2026-01-01T08:{i:02d}:00,{10.0 + 0.05 * ((i * 7) % 5 - 2) / 2:.3f}"
+            for i in range(30)]
+    log.write_text("time,od\n" + "\n".join(rows) + "\n")
+    state = tmp_path / "state"
+    command = " ".join([
+        sys.executable, "-m", "linewatch", "watch", str(log), "--center", "10",
+        "--sigma", "0.1", "--state-dir", str(state), "--no-bell",
+    ])
+    env = f"TERM=xterm-256color PYTHONPATH={os.getcwd()}"
+    tmux("new-session", "-d", "-s", session, "-x", "80", "-y", "24",
+         f"env {env} {command}; sleep 30")
+
+    def screen() -> str:
+        return tmux("capture-pane", "-p", "-t", session)
+
+    wait_for(lambda: " od " in screen() and "board" in screen(), "the board", screen)
+    with log.open("a") as f:
+        f.write("2026-01-01T08:30:00,11.000\n")  # ten σ above the centre: beyond the UCL
+    # the individual value and its moving range both go beyond their UCL: two alarms
+    wait_for(lambda: "2 UNACK" in screen(), "the alarms on the board", screen)
+
+    tmux("send-keys", "-t", session, "a")
+    wait_for(lambda: "alarm queue" in screen() and "beyond limits" in screen(),
+             "the alarm queue", screen)
+    tmux("send-keys", "-t", session, "Enter")
+    wait_for(lambda: "Acknowledge alarm" in screen(), "the acknowledge panel", screen)
+    reasons = {line.strip(" │|")[0]: line.strip(" │|")[2:].strip()
+               for line in screen().splitlines() if line.strip(" │|")[:2] in ("1 ", "2 ")}
+    tmux("send-keys", "-t", session, "1")
+    tmux("send-keys", "-t", session, "Enter")
+    wait_for(lambda: "1 UNACK" in screen(), "the first acknowledgement", screen)
+    # the other one with the key that acknowledges every alarm of the characteristic
+    tmux("send-keys", "-t", session, "K")
+    wait_for(lambda: "Acknowledge all" in screen(), "the acknowledge-all panel", screen)
+    tmux("send-keys", "-t", session, "2")
+    tmux("send-keys", "-t", session, "Enter")
+    wait_for(lambda: "no unacknowledged alarm" in screen(), "the second acknowledgement", screen)
+    tmux("send-keys", "-t", session, "q")
+    wait_for(lambda: "linewatch" not in screen() or "[exit" in screen() or screen().strip() == "",
+             "the program to quit", screen)
+
+    listed = subprocess.run(
+        [sys.executable, "-m", "linewatch", "alarms", "list", "--all", "--format", "jsonl",
+         "--state-dir", str(state)],
+        capture_output=True, text=True, check=True,
+    ).stdout
+    alarms = [json.loads(line) for line in listed.splitlines() if line.strip()]
+    assert len(alarms) == 2, alarms
+    assert all(a["acknowledged_by"] and a["characteristic"] == "od" for a in alarms), alarms
+    assert sorted(a["reason"] for a in alarms) == sorted([reasons["1"], reasons["2"]])
