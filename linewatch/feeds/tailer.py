@@ -9,7 +9,9 @@ rotated or truncated file is recognised whatever its name:
 - rename-and-create: the old file is read to its end through the still-open handle, then the
   new file from its start (`rotated`);
 - copy-and-truncate: the file got shorter, or its first bytes changed: read again from 0
-  (`truncated`);
+  (`truncated`); a file that got shorter but still begins like ours is given SHRINK_GRACE
+  seconds to grow back first, since copying onto an existing file truncates it before
+  writing the same content again;
 - a file copied over with the same beginning (a sync tool writing a temporary file and renaming
   it): reading goes on at the same offset (`replaced`);
 - deleted (`vanished`), created again (`appeared`), not readable (`unreadable` / `readable`),
@@ -25,6 +27,7 @@ import glob
 import hashlib
 import os
 import stat
+import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Protocol
@@ -37,6 +40,7 @@ FINGERPRINT_BYTES = 1024
 READ_SIZE = 1 << 20
 DEFAULT_MAX_BYTES = 4 << 20
 PRIME_BYTES = 64 << 10
+SHRINK_GRACE = 2.0  # seconds a shorter file that begins like ours may take to grow back
 
 
 @dataclass(frozen=True, slots=True)
@@ -132,6 +136,7 @@ class _Followed:
         self.unreadable = False
         self.gone = False
         self.resume_from: FileState | None = None  # where to go on after an I/O error
+        self.shrunk_since: float | None = None  # when the file was first seen shorter
 
     # -- identity ---------------------------------------------------------------------------
 
@@ -144,6 +149,7 @@ class _Followed:
         return os.pread(fd, min(size, FINGERPRINT_BYTES), 0)
 
     def _restart(self) -> None:
+        self.shrunk_since = None
         self.offset = self.pos = 0
         self.next_line = 1
         self.pending.clear()
@@ -270,27 +276,41 @@ class _Followed:
         else:
             self.pending += tail
 
-    def changed_in_place(self, size: int) -> str | None:
-        """Why the open file must be read again from 0, if it must."""
-        if size < self.pos:
-            return f"shorter than before ({size} < {self.pos} bytes): reading from the start"
+    def changed_in_place(self, size: int, now: float, grace: float) -> tuple[str | None, bool]:
+        """(why the open file must be read again from 0, or None; whether to wait and see).
+
+        A file that got shorter but still begins like ours may be in the middle of being
+        copied over with the same content (a copy onto an existing file truncates it first):
+        wait up to `grace` seconds for it to grow back before calling it truncated.
+        """
         assert self.fd is not None
+        if size < self.pos:
+            n = min(size, len(self.head))
+            if os.pread(self.fd, n, 0) != self.head[:n]:
+                return "shorter than before, with other first bytes: reading from the start", False
+            if self.shrunk_since is None:
+                self.shrunk_since = now
+            if now - self.shrunk_since < grace:
+                return None, True
+            return f"shorter than before ({size} < {self.pos} bytes): reading from the start", False
+        self.shrunk_since = None
         if len(self.head) < FINGERPRINT_BYTES and size > len(self.head):
             head = self._read_head(self.fd, size)
             if head[: len(self.head)] != self.head:
-                return "its first bytes changed: reading from the start"
+                return "its first bytes changed: reading from the start", False
             self.head = head
-            return None
+            return None, False
         if self.head and size != self.pos and self._read_head(self.fd, size) != self.head:
-            return "its first bytes changed: reading from the start"
-        return None
+            return "its first bytes changed: reading from the start", False
+        return None, False
 
 
 class Tailer:
     """Follow every file matched by the feeds' patterns (expanded again at each poll).
 
     `saved` maps paths to the states a previous run committed; `patterns` are extra patterns
-    read with `default_feed` (wide CSV, detected delimiter, unless given).
+    read with `default_feed` (wide CSV, detected delimiter, unless given); `shrink_grace` is
+    how long a shortened file that still begins like ours may take to grow back.
     """
 
     def __init__(
@@ -300,7 +320,9 @@ class Tailer:
         saved: Mapping[str, SavedState] | None = None,
         patterns: Sequence[str] = (),
         default_feed: FeedConfig | None = None,
+        shrink_grace: float = SHRINK_GRACE,
     ) -> None:
+        self.shrink_grace = shrink_grace
         self.columns = list(columns) if columns is not None else None
         self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
         extra_feed = default_feed or FeedConfig(paths=list(patterns))
@@ -441,7 +463,9 @@ class Tailer:
                     out.append(TailChunk(f.path, None, None, events))
                     return out
             else:
-                why = f.changed_in_place(fst.st_size)
+                why, wait = f.changed_in_place(fst.st_size, time.monotonic(), self.shrink_grace)
+                if wait:
+                    return out
                 if why:
                     events.append(FeedEvent("truncated", f.path, why))
                     f.head = f._read_head(f.fd, fst.st_size)

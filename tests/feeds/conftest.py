@@ -95,9 +95,9 @@ def follow():
         pats = [str(p) for p in patterns]
         if feed is not None:
             feed.paths = pats
-            tailer = Tailer([feed], columns, saved)
+            tailer = Tailer([feed], columns, saved, shrink_grace=0.3)
         else:
-            tailer = Tailer([], columns, saved, patterns=pats)
+            tailer = Tailer([], columns, saved, patterns=pats, shrink_grace=0.3)
         waker = Waker(tailer.patterns, poll_seconds=poll_seconds, safety_seconds=1.0)
         f = Follow(tailer, waker)
         made.append(f)

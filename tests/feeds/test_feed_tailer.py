@@ -108,6 +108,25 @@ def test_copy_and_truncate_restarts_at_zero_and_says_so(tmp_path, follow):
     assert seen.kinds().count("truncated") == 1
 
 
+def test_a_copy_onto_the_log_with_the_same_rows_reads_only_the_new_ones(tmp_path, follow):
+    # copying onto an existing file truncates it, then writes: for a moment it is shorter
+    log = tmp_path / "log.csv"
+    before = HEADER + row(1) + row(2) + row(3)
+    append(log, before)
+    f = follow([log])
+    f.until(has(3))
+    after = (before + row(4)).encode()
+    with open(log, "wb") as fh:  # truncates
+        fh.write(after[:20])
+        fh.flush()
+        f.settle(2)  # the tailer looks while the copy is half done
+        fh.write(after[20:])
+    seen = f.until(has(4))
+    f.settle(2)
+    assert seen.values["od"] == [value(k) for k in (1, 2, 3, 4)]
+    assert "truncated" not in seen.kinds()
+
+
 def test_truncated_and_rewritten_past_the_old_size_is_caught_by_the_fingerprint(tmp_path, follow):
     log = tmp_path / "log.csv"
     append(log, HEADER + row(1))
