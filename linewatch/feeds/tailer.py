@@ -549,15 +549,18 @@ class Tailer:
         return None
 
     def _same_copy(self, f: _Followed, fst: os.stat_result, st: os.stat_result) -> bool:
-        """The name now holds a copy of our file that goes on (the old one was unlinked)."""
-        if fst.st_nlink > 0 or len(f.head) < FINGERPRINT_BYTES or st.st_size < f.offset:
+        """The name now holds a copy of our file that goes on: the old file was unlinked (not
+        renamed away, as in a rotation) and the new one begins with everything we know of it."""
+        if fst.st_nlink > 0 or not f.head or st.st_size < f.offset:
+            return False
+        if len(f.head) < min(f.offset, FINGERPRINT_BYTES):
             return False
         try:
             fd = os.open(f.path, os.O_RDONLY)
         except OSError:
             return False
         try:
-            return os.pread(fd, FINGERPRINT_BYTES, 0) == f.head
+            return os.pread(fd, len(f.head), 0) == f.head
         finally:
             os.close(fd)
 

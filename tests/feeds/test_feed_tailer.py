@@ -11,6 +11,8 @@ import os
 import shutil
 from pathlib import Path
 
+import pytest
+
 from linewatch.config import FeedConfig
 from linewatch.feeds.formats import MAX_LINE_BYTES
 from linewatch.feeds.tailer import FINGERPRINT_BYTES, FileState, Tailer
@@ -294,20 +296,23 @@ def test_restart_after_rotation_picks_up_the_renamed_file_where_it_stopped(tmp_p
     assert sorted(seen.values["od"]) == [value(3), value(4)]
 
 
-def test_a_copy_with_the_same_beginning_goes_on_where_reading_stopped(tmp_path, follow):
+@pytest.mark.parametrize("rows_before", [3, 59])  # shorter and longer than the fingerprint
+def test_a_copy_renamed_over_the_log_goes_on_where_reading_stopped(
+    tmp_path, follow, rows_before
+):
     # a sync tool writes a fresh copy and renames it over the log
     log = tmp_path / "log.csv"
-    first = HEADER + "".join(row(k) for k in range(1, 60))
-    assert len(first) > FINGERPRINT_BYTES
+    first = HEADER + "".join(row(k) for k in range(1, rows_before + 1))
+    assert (len(first) > FINGERPRINT_BYTES) == (rows_before > 30)
     append(log, first)
     f = follow([log])
-    f.until(has(59))
+    f.until(has(rows_before))
     tmp = tmp_path / ".log.csv.partial"
     tmp.write_text(first + row(60) + row(61))
     os.replace(tmp, log)
-    seen = f.until(has(61))
+    seen = f.until(has(rows_before + 2))
     f.settle(2)
-    assert seen.values["od"] == [value(k) for k in range(1, 62)]
+    assert seen.values["od"] == [value(k) for k in (*range(1, rows_before + 1), 60, 61)]
     assert "replaced" in seen.kinds() and "rotated" not in seen.kinds()
 
 
