@@ -23,6 +23,7 @@ from linewatch.ui.screens.feeds import FeedScreen
 from linewatch.ui.screens.queue import AlarmQueueScreen
 
 REFRESH_HZ = 10.0
+RETRY_AFTER = 2.0  # seconds before asking again for a snapshot that failed
 BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell
 
 
@@ -96,7 +97,14 @@ class LinewatchApp(App[int]):
 
     def _pull_line(self) -> None:
         self._changed = False
-        line = self.source.snapshot()
+        try:
+            line = self.source.snapshot()
+        except Exception as exc:  # a busy or vanished store must not take the screen down
+            self._changed = True
+            self._quiet_until = time.perf_counter() + RETRY_AFTER
+            self.notify(f"cannot read the line: {exc}", title="retrying", severity="error",
+                        timeout=RETRY_AFTER)
+            return
         self.line_taken_at = self.clock()
         if line is self.line or (line.version == self.line.version and line.version != 0):
             return

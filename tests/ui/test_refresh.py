@@ -103,3 +103,31 @@ async def test_ages_move_on_with_the_clock_without_a_new_snapshot(source: FakeSo
         await pilot.pause()
         assert str(table.get_cell("line-speed", "age")).startswith("2m")
         assert source.snapshot_calls == before
+
+
+class FlakySource(FakeSource):
+    """A source whose store is busy for a while."""
+
+    failing = False
+
+    def snapshot(self) -> view.LineSnapshot:
+        if self.failing:
+            raise OSError("database is locked")
+        return super().snapshot()
+
+
+async def test_a_failing_snapshot_keeps_the_last_picture_and_retries() -> None:
+    source = FlakySource()
+    app = LinewatchApp(source, FakeActions(), bell=False, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        source.failing = True
+        publish_from_thread(source, [changed(2, value=99.0)])
+        await asyncio.sleep(0.3)
+        assert app.line.version == 1  # the last good picture stays
+        assert any("database is locked" in n.message for n in app._notifications)
+        source.failing = False
+        await asyncio.sleep(2.5)  # retried after the pause, without a new notification
+        assert app.line.version == 2
+        await pilot.press("a")  # and the screen still answers keys
+        assert app.current_mode == "alarms"

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, cast
+from typing import TYPE_CHECKING, Any, cast
 
 from textual.screen import Screen
 
@@ -27,6 +27,19 @@ class LineScreen(Screen[None]):
     def show_line(self) -> None:
         """Draw `app.line`. Subclasses draw, then call this to record the version."""
         self.drawn_version = self.lw.line.version
+
+    def ask(self, call: str, *args: Any) -> tuple[bool, Any]:
+        """Call one of the monitor's actions. A refusal (a one-line LinewatchError) or any other
+        failure becomes a message on screen; the screen keeps running either way."""
+        from linewatch.errors import LinewatchError
+
+        try:
+            return True, getattr(self.lw.actions, call)(*args)
+        except LinewatchError as exc:
+            self.notify(str(exc), title="not done", severity="error")
+        except Exception as exc:  # the store may be busy or gone; never take the screen down
+            self.notify(f"{type(exc).__name__}: {exc}", title="not done", severity="error")
+        return False, None
 
     def tick_clock(self) -> None:
         """Once a second: refresh what only time changes (ages). Default: nothing."""

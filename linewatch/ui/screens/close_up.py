@@ -15,7 +15,6 @@ from textual.widgets import Footer, Static
 from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
-from linewatch.errors import LinewatchError
 from linewatch.ui import palette
 from linewatch.ui.formatting import STATE_WORDS, fmt_value, rule_digit
 from linewatch.ui.screens.base import LineScreen
@@ -87,7 +86,10 @@ class CloseUpScreen(LineScreen):
         self.call_after_refresh(self._draw_figures)
 
     def show_line(self) -> None:
-        self.detail = self.lw.source.detail(self.characteristic)
+        try:
+            self.detail = self.lw.source.detail(self.characteristic)
+        except Exception as exc:  # keep the last picture; the next change tries again
+            self.notify(f"cannot read {self.characteristic}: {exc}", severity="error")
         cv = self.detail
         loc = cv.location if cv else None
         if loc and loc.values:
@@ -207,13 +209,7 @@ class CloseUpScreen(LineScreen):
         last = loc.indices[-1] if loc.indices else len(loc.values) - 1
 
         def done(choice: RestartChoice | None) -> None:
-            if not choice:
-                return
-            try:
-                self.lw.actions.new_baseline(cv.name, choice.start_index, choice.reason)
-            except LinewatchError as exc:
-                self.notify(str(exc), title="not done", severity="error")
-                return
-            self.notify(f"new baseline for {cv.name} from point {choice.start_index}")
+            if choice and self.ask("new_baseline", cv.name, choice.start_index, choice.reason)[0]:
+                self.notify(f"new baseline for {cv.name} from point {choice.start_index}")
 
         self.app.push_screen(RestartPanel(cv.name, start, last), done)

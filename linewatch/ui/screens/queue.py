@@ -12,7 +12,6 @@ from textual.events import Resize
 from textual.widgets import DataTable, Footer, Static
 
 from linewatch import view
-from linewatch.errors import LinewatchError
 from linewatch.ui import palette
 from linewatch.ui.formatting import ALARM_STATE_WORDS, fmt_clock, fmt_day_clock
 from linewatch.ui.screens.base import LineScreen
@@ -59,7 +58,7 @@ class AlarmQueueScreen(LineScreen):
                 "highlighted alarm: a digit picks the reason, a note is optional, Enter confirms"),
         Binding("k", "acknowledge", "Acknowledge", show=False,
                 tooltip="same as Enter: acknowledge the highlighted alarm"),
-        Binding("K", "acknowledge_all", "Ack all of char.",
+        Binding("K", "acknowledge_all", "Ack all",
                 tooltip="acknowledge every open alarm of the highlighted alarm's characteristic"),
         Binding("s", "shelve", "Shelve", tooltip="shelve the highlighted alarm for a while"),
         Binding("u", "unshelve", "Unshelve", tooltip="bring a shelved alarm back"),
@@ -125,7 +124,8 @@ class AlarmQueueScreen(LineScreen):
         what.append(a.description or a.rule)
         if a.rule and a.kind in ("run-rule", "beyond-limits"):
             what.append(f" ({a.rule})", palette.LABEL)
-        state_style = "bold reverse" if a.state == view.UNACKNOWLEDGED else ""
+        state_style = {view.UNACKNOWLEDGED: "bold reverse",
+                       view.RETURNED_UNACKNOWLEDGED: "bold"}.get(a.state, "")
         return [
             Text(str(a.priority), loud),
             fmt_clock(a.raised_at),
@@ -179,15 +179,6 @@ class AlarmQueueScreen(LineScreen):
                         else palette.LABEL)
         self.query_one("#queue-plan", Static).update(text)
 
-    def _act(self, call: str, *args: object) -> bool:
-        """Call an action of the monitor; a refusal becomes a message, never a crash."""
-        try:
-            getattr(self.lw.actions, call)(*args)
-        except LinewatchError as exc:
-            self.notify(str(exc), title="not done", severity="error")
-            return False
-        return True
-
     def action_acknowledge(self) -> None:
         from linewatch.ui.screens.ack_panel import AckChoice, AckPanel
 
@@ -199,7 +190,7 @@ class AlarmQueueScreen(LineScreen):
             return
 
         def done(choice: AckChoice | None) -> None:
-            if choice and self._act("acknowledge", [a.id], choice.reason, choice.note):
+            if choice and self.ask("acknowledge", [a.id], choice.reason, choice.note)[0]:
                 self.notify(f"alarm #{a.id} acknowledged: {choice.reason}")
 
         self.app.push_screen(
@@ -222,12 +213,9 @@ class AlarmQueueScreen(LineScreen):
         def done(choice: AckChoice | None) -> None:
             if not choice:
                 return
-            try:
-                n = self.lw.actions.acknowledge_characteristic(name, choice.reason, choice.note)
-            except LinewatchError as exc:
-                self.notify(str(exc), title="not done", severity="error")
-                return
-            self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
+            done, n = self.ask("acknowledge_characteristic", name, choice.reason, choice.note)
+            if done:
+                self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
 
         self.app.push_screen(
             AckPanel(f"all {count} unacknowledged alarms of {name}", reasons_for(a)), done
@@ -241,7 +229,7 @@ class AlarmQueueScreen(LineScreen):
             return
 
         def done(choice: ShelveChoice | None) -> None:
-            if choice and self._act("shelve", a.id, choice.seconds, choice.reason):
+            if choice and self.ask("shelve", a.id, choice.seconds, choice.reason)[0]:
                 self.notify(f"alarm #{a.id} shelved for {choice.text}")
 
         self.app.push_screen(ShelvePanel(f"alarm #{a.id} {a.characteristic}: {a.description}"),
@@ -254,7 +242,7 @@ class AlarmQueueScreen(LineScreen):
         if a.state != view.SHELVED:
             self.notify(f"alarm #{a.id} is not shelved")
             return
-        if self._act("unshelve", a.id):
+        if self.ask("unshelve", a.id)[0]:
             self.notify(f"alarm #{a.id} unshelved")
 
     def action_close_up(self) -> None:
