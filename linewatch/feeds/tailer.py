@@ -343,6 +343,18 @@ class Tailer:
         """Paths followed now (open or waiting to be readable again)."""
         return [p for p, f in self._followed.items() if not f.gone]
 
+    def status(self) -> dict[str, str]:
+        """Each known path's condition for a health display: reading, unreadable or gone."""
+        out: dict[str, str] = {}
+        for path, f in self._followed.items():
+            if f.unreadable:
+                out[path] = "unreadable"
+            elif f.fd is not None:
+                out[path] = "reading"
+            else:
+                out[path] = "gone"
+        return out
+
     def states(self) -> dict[str, FileState]:
         """The current state of every open file."""
         return {p: f.state() for p, f in self._followed.items() if f.fd is not None}

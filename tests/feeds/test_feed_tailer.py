@@ -146,8 +146,10 @@ def test_delete_and_later_recreate(tmp_path, follow):
     append(log, HEADER + row(1))
     f = follow([tmp_path / "*.csv"])
     f.until(has(1))
+    assert f.tailer.status() == {str(log): "reading"}
     log.unlink()
     f.until(lambda s: "vanished" in s.kinds())
+    assert f.tailer.status() == {str(log): "gone"}
     append(log, HEADER + row(2))
     seen = f.until(has(2))
     assert seen.values["od"] == [value(1), value(2)]

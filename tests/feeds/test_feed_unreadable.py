@@ -98,6 +98,7 @@ def test_a_read_error_is_reported_once_and_never_looks_like_work(tmp_path: Path)
         assert ("unreadable", "/proc/self/mem") in events
         assert [list(c.batch.values["od"]) for c in first if c.batch] == [[25.0]]
         assert t.poll() == []  # nothing new: an idle loop may sleep
+        assert t.status() == {str(good): "reading", "/proc/self/mem": "unreadable"}
         with open(good, "a") as fh:
             fh.write("06:01,25.1\n")
         again = t.poll()
