@@ -87,6 +87,11 @@ class Monitor:
         self._version = 0
         self._last_tick = 0.0
         self._hooks = None
+        self.rows_read = 0
+        self.catching_up: float | None = None  # fraction of the history read, while behind
+        self._catch_up_since: float | None = None
+        self._catch_up_rows = 0
+        self._last_progress = 0.0
         self._alarm_states: dict[int, tuple] = {}
         self._seen_data_version: int | None = None
         self._announced = False
@@ -250,6 +255,8 @@ class Monitor:
             if self.role != "collector":
                 return False
             self._process_chunk(chunk)
+            self.rows_read += chunk.batch.rows if chunk.batch is not None else 0
+        self._report_progress(any(c.more for c in chunks))
         self._emit_alarm_changes()
         self._changed()
         return True
@@ -267,6 +274,8 @@ class Monitor:
                 # a collector that stalled past its lease and was replaced must not write twice
                 self.lease.ensure()
                 for ev in chunk.events:
+                    assert self.health is not None
+                    self.health.file_event(ev, now)
                     records.append(self._record_feed_event(ev, now, raised))
                 if batch is not None:
                     for r in batch.rejected:
@@ -332,6 +341,28 @@ class Monitor:
         self.health.values_arrived(name, values)
         self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
         return records
+
+    def _report_progress(self, behind: bool) -> None:
+        """While reading a large history (more than a second of it), say how far it got."""
+        now = time.monotonic()
+        if not behind:
+            if self.catching_up is not None:
+                self.catching_up = None
+                self.emit({"type": "progress", "done": 1.0, "rows_per_second": 0.0})
+            self._catch_up_since = None
+            return
+        if self._catch_up_since is None:
+            self._catch_up_since, self._catch_up_rows = now, self.rows_read
+            return
+        elapsed = now - self._catch_up_since
+        if elapsed < 1.0 or now - self._last_progress < 0.5:
+            return
+        assert self.tailer is not None
+        done, total = self.tailer.backlog()
+        self.catching_up = done / total if total else 1.0
+        self._last_progress = now
+        rate = (self.rows_read - self._catch_up_rows) / elapsed
+        self.emit({"type": "progress", "done": self.catching_up, "rows_per_second": rate})
 
     def _save_file_state(self, state, now: float) -> None:
         from linewatch.store.ingest import FileState
@@ -490,11 +521,13 @@ class MonitorFace:
         from linewatch.snapshot import build_snapshot
 
         with self._lock:
-            return build_snapshot(
+            snap = build_snapshot(
                 self.store, self.alarms, self._characteristics(), role=self.monitor.role,
                 title=self.monitor.title, version=self.monitor._version,
                 stale_after=self.monitor.config.monitor.stale_after,
             )
+        snap.catching_up = self.monitor.catching_up
+        return snap
 
     def detail(self, characteristic: str):
         from linewatch.snapshot import DETAIL_POINTS, characteristic_view
