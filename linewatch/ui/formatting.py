@@ -49,6 +49,17 @@ def fmt_value(value: float | None, digits: int = 4) -> str:
     return f"{value:.{decimals}f}"
 
 
+def fmt_scaled(value: float | None, scale: float | None, significant: int = 2) -> str:
+    """`value` with as many decimals as `scale` (a spread such as σ) needs for `significant`
+    digits, so a mean and its interval never collapse to the same printed number."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    if not scale or scale <= 0 or math.isnan(scale):
+        return fmt_value(value)
+    decimals = min(8, max(0, significant - 1 - math.floor(math.log10(scale))))
+    return f"{value:.{decimals}f}"
+
+
 def fmt_fixed(value: float | None, decimals: int = 2) -> str:
     """A ratio such as Cpk with fixed decimals; '-' when missing."""
     if value is None or (isinstance(value, float) and math.isnan(value)):

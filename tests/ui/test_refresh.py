@@ -127,7 +127,10 @@ async def test_a_failing_snapshot_keeps_the_last_picture_and_retries() -> None:
         assert app.line.version == 1  # the last good picture stays
         assert any("database is locked" in n.message for n in app._notifications)
         source.failing = False
-        await asyncio.sleep(2.5)  # retried after the pause, without a new notification
+        for _ in range(60):  # retried after a pause of about two seconds
+            if app.line.version == 2:
+                break
+            await asyncio.sleep(0.1)
         assert app.line.version == 2
         await pilot.press("a")  # and the screen still answers keys
         assert app.current_mode == "alarms"

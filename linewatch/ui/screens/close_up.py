@@ -74,6 +74,7 @@ class CloseUpScreen(LineScreen):
                 yield Static(id="closeup-box")
                 yield Static(id="closeup-phases")
                 yield Static(id="closeup-trend")
+                yield Static(id="closeup-alarms")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -133,6 +134,25 @@ class CloseUpScreen(LineScreen):
             phase_table(cv.phases) if cv.phases else Text("no limits yet", palette.LABEL),
         ))
         self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
+        self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
+
+    def _alarms_text(self, name: str) -> Text:
+        """This characteristic's open alarms, so the close-up answers 'why is it red'."""
+        from linewatch.ui.formatting import ALARM_STATE_WORDS, fmt_clock
+        from linewatch.ui.screens.queue import sorted_alarms
+
+        mine = [a for a in sorted_alarms(self.lw.line.alarms)
+                if a.characteristic == name and a.state != view.NORMAL]
+        text = Text(end="")
+        text.append(f"open alarms ({len(mine)})\n", "bold")
+        for a in mine[:8]:
+            text.append(f"P{a.priority} {fmt_clock(a.raised_at)} ")
+            text.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9}",
+                        "bold reverse" if a.state == view.UNACKNOWLEDGED else "")
+            text.append(f" {a.description or a.rule}\n")
+        if not mine:
+            text.append("none", palette.LABEL)
+        return text
 
     def _cursor_text(self, cv: view.CharacteristicView) -> Text:
         loc = cv.location

@@ -6,7 +6,7 @@ from rich.text import Text
 
 from linewatch.engine.summary import Description, describe
 from linewatch.ui import palette
-from linewatch.ui.formatting import fmt_value
+from linewatch.ui.formatting import fmt_scaled, fmt_value
 from linewatch.ui.glyphs import Glyphs
 
 
@@ -65,13 +65,18 @@ def _scale_line(lo: float, hi: float, lsl: float | None, usl: float | None, widt
 
 
 def _figures_line(fig: Description, outliers: list[float]) -> Text:
+    spread = fig.stdev or ((fig.q3 or 0.0) - (fig.q1 or 0.0)) or None
+
+    def f(v: float | None) -> str:
+        return fmt_scaled(v, spread)
+
     out = Text(
-        f"Q1 {fmt_value(fig.q1)}  median {fmt_value(fig.median)}  Q3 {fmt_value(fig.q3)}  "
-        f"whiskers {fmt_value(fig.whisker_low)}..{fmt_value(fig.whisker_high)}  ",
+        f"Q1 {f(fig.q1)}  median {f(fig.median)}  Q3 {f(fig.q3)}  "
+        f"whiskers {f(fig.whisker_low)}..{f(fig.whisker_high)}  ",
         palette.LABEL,
     )
     if outliers:
-        shown = ", ".join(fmt_value(v) for v in outliers[:4])
+        shown = ", ".join(f(v) for v in outliers[:4])
         more = f" +{len(outliers) - 4}" if len(outliers) > 4 else ""
         out.append(f"outliers {len(outliers)}: {shown}{more}", palette.SIGNAL)
     else:

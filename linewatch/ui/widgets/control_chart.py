@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from rich.text import Text
 
 from linewatch.ui import palette
-from linewatch.ui.formatting import fmt_value, rule_digit
+from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_digit
 from linewatch.ui.glyphs import Glyphs
 from linewatch.view import ChartView
 
@@ -118,7 +118,8 @@ def draw_control_chart(
 
     def label(row: int, name: str, value: float, style: str) -> None:
         if 0 <= row < height and row not in labels:
-            labels[row] = Text(f"{name} {fmt_value(value)}"[:LABEL_WIDTH - 1], style)
+            shown = fmt_scaled(value, chart.sigma) if chart.sigma else fmt_value(value)
+            labels[row] = Text(f"{name} {shown}"[:LABEL_WIDTH - 1], style)
 
     if chart.center is not None and chart.sigma:
         for k in (1, 2):

@@ -5,7 +5,7 @@ from __future__ import annotations
 from rich.table import Table
 
 from linewatch.ui import palette
-from linewatch.ui.formatting import fmt_fixed, fmt_value
+from linewatch.ui.formatting import fmt_fixed, fmt_scaled, fmt_value
 from linewatch.view import PhaseStats
 
 
@@ -16,11 +16,14 @@ def phase_table(phases: list[PhaseStats]) -> Table:
                  "ppm"):
         table.add_column(name, justify="right", no_wrap=True)
     for p in phases:
-        ci = f"{fmt_value(p.ci95[0])}..{fmt_value(p.ci95[1])}" if p.ci95 else "-"
+        # mean and interval to the decimals the spread needs (2 significant digits of the SD)
+        sd = p.stdev
+        ci = f"{fmt_scaled(p.ci95[0], sd)}..{fmt_scaled(p.ci95[1], sd)}" if p.ci95 else "-"
         cpk_ci = f"{fmt_fixed(p.cpk_ci95[0])}..{fmt_fixed(p.cpk_ci95[1])}" if p.cpk_ci95 else "-"
         ppm = "-" if p.ppm_out is None else f"{p.ppm_out:,.0f}"
         table.add_row(
-            str(p.phase), str(p.start_index), str(p.n), fmt_value(p.mean), fmt_value(p.stdev, 3),
-            ci, fmt_fixed(p.cp), f"[{palette.cpk_style(p.cpk)}]{fmt_fixed(p.cpk)}[/]", cpk_ci, ppm,
+            str(p.phase), str(p.start_index), str(p.n), fmt_scaled(p.mean, sd),
+            fmt_value(p.stdev, 3), ci, fmt_fixed(p.cp),
+            f"[{palette.cpk_style(p.cpk)}]{fmt_fixed(p.cpk)}[/]", cpk_ci, ppm,
         )
     return table
