@@ -45,7 +45,8 @@ class LinewatchApp(App[int]):
         Binding("question_mark", "keys_help", "Keys", key_display="?",
                 tooltip="every key, glyph and colour explained"),
         Binding("q", "leave", "Quit", tooltip="quit (asks only if an acknowledgement is open)"),
-        Binding("ctrl+q", "leave", "Quit", show=False, priority=True),
+        Binding("ctrl+q", "leave", "Quit", show=False, priority=True,
+                tooltip="quit from anywhere, even while typing in a field"),
     ]
 
     def __init__(

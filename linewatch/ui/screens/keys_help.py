@@ -63,6 +63,9 @@ class KeysHelp(ModalScreen[None]):
         with VerticalScroll(id="help-box", classes="panel"):
             yield Static(self._content(), id="help-text")
 
+    def on_mount(self) -> None:
+        self.query_one("#help-box", VerticalScroll).focus()  # arrows and PgUp/PgDn scroll
+
     def _content(self) -> Group:
         parts: list[Text | Table] = [Text("Keys  (Esc closes)", "bold")]
         for where, bindings in key_sections():
