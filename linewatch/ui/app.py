@@ -114,7 +114,7 @@ class LinewatchApp(App[int]):
         top = self.top_line_screen()
         if top is not None:
             self._drawing_since = time.perf_counter()
-            top.show_line()
+            top.redraw()
             self.call_after_refresh(self._drawn)
 
     def _drawn(self) -> None:
@@ -139,7 +139,7 @@ class LinewatchApp(App[int]):
 
     def _tick_clock(self) -> None:
         top = self.top_line_screen()
-        if top is not None:
+        if top is not None and top.ready:
             top.tick_clock()
 
     def top_line_screen(self) -> LineScreen | None:

@@ -11,6 +11,7 @@ from textual.widgets import DataTable
 
 from linewatch import view
 from linewatch.ui.app import LinewatchApp
+from linewatch.ui.screens.queue import AlarmQueueScreen
 
 from .fake_line import NOW, FakeActions, FakeSource, build_snapshot, fixed_clock
 
@@ -134,3 +135,17 @@ async def test_a_failing_snapshot_keeps_the_last_picture_and_retries() -> None:
         assert app.line.version == 2
         await pilot.press("a")  # and the screen still answers keys
         assert app.current_mode == "alarms"
+
+
+async def test_a_picture_arriving_before_a_view_is_mounted_waits_for_the_mount(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        queue = AlarmQueueScreen()  # created, not yet mounted: no table, no columns
+        queue.redraw()  # what the refresh timer does when a picture lands at that moment
+        assert queue.drawn_version == -1
+        await app.push_screen(queue)
+        await pilot.pause()
+        assert queue.query_one("#queue-table", DataTable).row_count == 6
+        assert queue.drawn_version == app.line.version

@@ -14,6 +14,7 @@ class LineScreen(Screen[None]):
     """A screen that draws from `app.line`; redraws only when the snapshot version moved."""
 
     drawn_version: int = -1
+    ready: bool = False  # set by on_mount once the widgets (and table columns) exist
 
     @property
     def lw(self) -> LinewatchApp:
@@ -22,6 +23,12 @@ class LineScreen(Screen[None]):
 
     def on_screen_resume(self) -> None:
         if self.drawn_version != self.lw.line.version:
+            self.redraw()
+
+    def redraw(self) -> None:
+        """Draw the current line if the screen is mounted (a new picture can arrive between a
+        screen's creation and its mount)."""
+        if self.ready:
             self.show_line()
 
     def show_line(self) -> None:

@@ -94,6 +94,7 @@ class BoardScreen(LineScreen):
         self.watch(self.table, "scroll_y", self._redraw_rows_in_view, init=False)
         self.query_one("#board-filter", Input).display = False
         self._rebuild_columns(self.size.width or 80)
+        self.ready = True
         self.show_line()
 
     def on_resize(self, event: Resize) -> None:

@@ -79,6 +79,7 @@ class CloseUpScreen(LineScreen):
 
     def on_mount(self) -> None:
         self.query_one(CloseUpBody).focus()
+        self.ready = True
         self.show_line()
 
     def on_resize(self, event: Resize) -> None:

@@ -82,6 +82,7 @@ class AlarmQueueScreen(LineScreen):
 
     def on_mount(self) -> None:
         self._add_columns(self.app.size.width)
+        self.ready = True
         self.show_line()
 
     def on_resize(self, event: Resize) -> None:
