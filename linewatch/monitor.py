@@ -275,7 +275,8 @@ class Monitor:
                 self.lease.ensure()
                 for ev in chunk.events:
                     assert self.health is not None
-                    self.health.file_event(ev, now)
+                    if ev.kind != "waiting":  # a pattern with no file yet shows as waiting
+                        self.health.file_event(ev, now)
                     records.append(self._record_feed_event(ev, now, raised))
                 if batch is not None:
                     for r in batch.rejected:
