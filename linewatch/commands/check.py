@@ -4,9 +4,11 @@ budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors."""
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import math
 import sys
+import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -113,21 +115,38 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
 
 
 def _signal_lines(a: Analysis) -> list[str]:
-    """Signal records as JSON text, formatted directly: the same text `dumps(signal_record())`
-    gives (a test holds them equal), without a json.dumps call per signal."""
+    """Signal records as JSON text, formatted directly from the firing table: the same text
+    `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each."""
     name = json.dumps(a.config.name, ensure_ascii=False)
-    head = '{"type":"signal","characteristic":' + name + ',"chart":'
-    lines = a.column.lines
+    t = a.result.table
+    heads = [[f'{{"type":"signal","characteristic":{name},"chart":"{c}","rule":"{r}","index":'
+              for r in t.rules] for c in t.charts]
+    lines = a.column.lines[t.row].tolist()
     out = []
-    for f in a.result.firings:
-        value = "null" if not math.isfinite(f.value) else repr(f.value)
-        out.append(f'{head}"{f.chart}","rule":"{f.rule}","index":{f.index},'
-                   f'"line":{int(lines[f.row])},"value":{value}}}')
+    for i, c, r, line, v in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(), lines,
+                                t.value.tolist(), strict=True):
+        value = repr(v) if math.isfinite(v) else "null"
+        out.append(f'{heads[c][r]}{i},"line":{line},"value":{value}}}')
     return out
 
 
+def _warm_up_statistics() -> threading.Thread:
+    """Import the special functions the summary needs on a second core while the logs are read
+    (the import takes about as long as reading a million rows)."""
+
+    def load() -> None:
+        with contextlib.suppress(ImportError):
+            import scipy.special  # noqa: F401
+
+    thread = threading.Thread(target=load, name="warm-up", daemon=True)
+    thread.start()
+    return thread
+
+
 def run(args: argparse.Namespace) -> int:
+    warm = _warm_up_statistics()
     analyses, rejected = analyse(args)
+    warm.join()
     several_files = len(args.logs) > 1
     write = sys.stdout.write
     if args.format == "jsonl":
@@ -150,4 +169,4 @@ def run(args: argparse.Namespace) -> int:
         from linewatch.commands.check_text import render_text
 
         write(render_text(analyses, rejected, several_files))
-    return 1 if any(a.result.firings for a in analyses) else 0
+    return 1 if any(len(a.result.table) for a in analyses) else 0

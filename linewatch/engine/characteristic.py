@@ -92,6 +92,22 @@ class Firing:
     meta: object = None  # what the caller attached to the row (live path: file, line, time)
 
 
+@dataclass(frozen=True, slots=True)
+class FiringTable:
+    """Firings of a whole history as parallel arrays, ordered by point, chart, then rule."""
+
+    index: np.ndarray
+    chart: np.ndarray  # position in `charts`
+    rule: np.ndarray  # position in `rules`
+    row: np.ndarray
+    value: np.ndarray
+    charts: tuple[str, ...]
+    rules: tuple[str, ...]
+
+    def __len__(self) -> int:
+        return int(self.index.shape[0])
+
+
 @dataclass(slots=True)
 class HistoryResult:
     """What `analyse_history` found."""
@@ -99,8 +115,18 @@ class HistoryResult:
     limits: LimitSet
     location: np.ndarray
     dispersion: np.ndarray
-    firings: list[Firing]
+    table: FiringTable
     leftover: int  # values of a trailing incomplete subgroup, left out
+
+    @property
+    def firings(self) -> list[Firing]:
+        """The firings as records (the table is the fast form for large histories)."""
+        t = self.table
+        return [
+            Firing(t.charts[c], t.rules[r], i, w, v)
+            for i, c, r, w, v in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
+                                     t.row.tolist(), t.value.tolist(), strict=True)
+        ]
 
 
 def _limit_state(lim: ChartLimits) -> ChartLimitsState:
@@ -134,21 +160,29 @@ def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
             )
         disp_base = disp.values[: b - 1] if n == 1 else disp.values[:b]
         limits = estimate_limits(loc.values[:b], disp_base, n, setup.dispersion)
-    firings: list[Firing] = []
-    for series, lim, specs in (
+    rule_ids = tuple(r.id for r in setup.rules)
+    parts: list[tuple[np.ndarray, int, int, np.ndarray, np.ndarray]] = []
+    for c, (series, lim, specs) in enumerate((
         (loc, limits.location, setup.rules),
         (disp, limits.dispersion, setup.dispersion_rules),
-    ):
+    )):
         for rule_id, fired in _evaluate_series(series.values, lim, specs).items():
-            for pos in np.flatnonzero(fired):
-                firings.append(
-                    Firing(series.chart, rule_id, int(series.indices[pos]), int(series.rows[pos]),
-                           float(series.values[pos]))
-                )
-    order = {setup.charts[0]: 0, setup.charts[1]: 1}
-    rule_order = {r.id: i for i, r in enumerate(setup.rules)}
-    firings.sort(key=lambda f: (f.index, order[f.chart], rule_order[f.rule]))
-    return HistoryResult(limits, loc.values, disp.values, firings, leftover)
+            pos = np.flatnonzero(fired)
+            parts.append((series.indices[pos], c, rule_ids.index(rule_id), series.rows[pos],
+                          series.values[pos]))
+    if parts:
+        index = np.concatenate([p[0] for p in parts])
+        chart = np.concatenate([np.full(p[0].shape[0], p[1], dtype=np.int8) for p in parts])
+        rule = np.concatenate([np.full(p[0].shape[0], p[2], dtype=np.int16) for p in parts])
+        row = np.concatenate([p[3] for p in parts])
+        value = np.concatenate([p[4] for p in parts])
+        order = np.lexsort((rule, chart, index))
+        table = FiringTable(index[order], chart[order], rule[order], row[order], value[order],
+                            setup.charts, rule_ids)
+    else:
+        empty = np.zeros(0, dtype=np.int64)
+        table = FiringTable(empty, empty, empty, empty, np.zeros(0), setup.charts, rule_ids)
+    return HistoryResult(limits, loc.values, disp.values, table, leftover)
 
 
 @dataclass(slots=True)
