@@ -28,6 +28,7 @@ class FeedScreen(LineScreen):
         super().__init__()
         self._columns_for = 0
         self._file_width = 16
+        self._ages: dict[str, str] = {}
 
     def compose(self) -> ComposeResult:
         yield TopBar(id="topbar")
@@ -66,6 +67,7 @@ class FeedScreen(LineScreen):
         line = self.lw.line
         keep = self.table.cursor_row
         self.table.clear()
+        self._ages.clear()
         for f in line.feeds:
             self.table.add_row(*self._cells(f, self._file_width), key=f.file)
         if 0 <= keep < len(line.feeds):
@@ -78,8 +80,12 @@ class FeedScreen(LineScreen):
         super().show_line()
 
     def tick_clock(self) -> None:
+        """Ages move on with the clock; touch a cell only when its text changes."""
         for f in self.lw.line.feeds:
-            self.table.update_cell(f.file, "age", fmt_age(self.lw.age_now(f.last_row_age)))
+            age = fmt_age(self.lw.age_now(f.last_row_age))
+            if self._ages.get(f.file) != age:
+                self._ages[f.file] = age
+                self.table.update_cell(f.file, "age", age)
 
     def _cells(self, f: view.FeedView, file_width: int) -> list[object]:
         g = self.lw.glyphs
@@ -92,7 +98,7 @@ class FeedScreen(LineScreen):
             f"{f.rows_per_second:.1f}",
             Text(f"{f.rejected:,}", palette.SIGNAL if f.rejected else ""),
             f"{f.rotations}/{f.truncations}",
-            fmt_age(self.lw.age_now(f.last_row_age)),
+            self._ages.setdefault(f.file, fmt_age(self.lw.age_now(f.last_row_age))),
         ]
 
     @on(DataTable.RowHighlighted, "#feed-table")
