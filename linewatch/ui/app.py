@@ -106,10 +106,10 @@ class LinewatchApp(App[int]):
             self.notify(f"cannot read the line: {exc}", title="retrying", severity="error",
                         timeout=RETRY_AFTER)
             return
-        self.line_taken_at = self.clock()
         if line is self.line or (line.version == self.line.version and line.version != 0):
-            return
+            return  # nothing new: keep the picture and the moment it was taken
         self.line = line
+        self.line_taken_at = self.clock()
         self._ring_for_new_alarms(line)
         top = self.top_line_screen()
         if top is not None:
