@@ -75,6 +75,8 @@ class BoardScreen(LineScreen):
         self._row_sigs: dict[str, tuple[object, ...]] = {}
         self._shown: list[str] = []
         self._by_name: dict[str, view.CharacteristicView] = {}
+        self._side_plain: dict[str, str] = {}
+        self._side_lines: dict[str, int] = {}
 
     def compose(self) -> ComposeResult:
         yield TopBar(id="topbar")
@@ -238,7 +240,7 @@ class BoardScreen(LineScreen):
             alarms.append("none\n", palette.LABEL)
         elif len(open_) > 12:
             alarms.append(f"... {len(open_) - 12} more (a)\n", palette.LABEL)
-        self.query_one("#side-alarms", Static).update(alarms)
+        self._update_side("#side-alarms", alarms)
         feeds = Text(end="")
         feeds.append("feeds\n", "bold underline")
         for f in line.feeds:
@@ -248,7 +250,17 @@ class BoardScreen(LineScreen):
             if f.rejected:
                 feeds.append(f" {f.rejected} rejected", palette.SIGNAL)
             feeds.append("\n")
-        self.query_one("#side-feeds", Static).update(feeds)
+        self._update_side("#side-feeds", feeds)
+
+    def _update_side(self, selector: str, text: Text) -> None:
+        """Update a digest; lay the screen out again only when its height changes."""
+        lines = text.plain.count("\n")
+        if self._side_plain.get(selector) == text.plain:
+            return
+        same_height = self._side_lines.get(selector) == lines
+        self._side_plain[selector] = text.plain
+        self._side_lines[selector] = lines
+        self.query_one(selector, Static).update(text, layout=not same_height)
 
     def action_close_up(self) -> None:
         name = self._highlighted_name()
