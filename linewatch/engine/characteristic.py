@@ -25,12 +25,31 @@ from linewatch.engine.rules import classify, evaluate_classified
 from linewatch.engine.stream import ChartLimitsState, ChartRules
 from linewatch.errors import NotEnoughData
 
+VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
 STATE_HISTORY = 500  # of those, how many are saved with the engine state
 
 
 def _lookback(specs) -> int:
     return max((s.lookback for s in specs), default=1)
+
+
+def _judge_vectorised(points: list[PlottedPoint], rules: ChartRules, fed: deque) -> None:
+    """Fire the rules on `points` with numpy over the fed tail plus the new points, then bring
+    the incremental counters up to date by replaying the new tail."""
+    tail = list(fed)
+    x = np.array(tail + [p.value for p in points], dtype=float)
+    lim = rules.limits
+    side, level = classify(x, lim.center, lim.sigma, lim.ucl, lim.lcl)
+    hits: list[list[str]] = [[] for _ in points]
+    start = len(tail)
+    for spec in rules.specs:
+        for k in np.flatnonzero(evaluate_classified(spec, x, side, level)[start:]).tolist():
+            hits[k].append(spec.id)
+    for point, rule_ids in zip(points, hits, strict=True):
+        point.rules = rule_ids
+    fed.extend(p.value for p in points)
+    rules.replay(list(fed))
 
 
 def _limits_to_dict(lim: LimitSet) -> dict:
@@ -276,6 +295,7 @@ class CharacteristicEngine:
         `meta`, when given, holds one JSON-ready item per value (e.g. file, line, time); it is
         carried on the plotted point (a subgroup's from its last row) and on its firings."""
         out = LiveOutput()
+        queue: list[tuple[PlottedPoint, PlottedPoint | None]] = []
         n = self.setup.subgroup_size
         for k, v in enumerate(values):
             x = float(v)
@@ -302,10 +322,13 @@ class CharacteristicEngine:
                 self.pending = []
                 self.pending_rows = []
             self.next_index += 1
-            self._plot(loc, disp, out)
+            self._plot(loc, disp, out, queue)
+        self._judge_all(queue, out)
         return out
 
-    def _plot(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput) -> None:
+    def _plot(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput,
+              queue: list[tuple[PlottedPoint, PlottedPoint | None]]) -> None:
+        """Keep a new point; queue it for judging once this phase has limits."""
         self.loc_history.append(loc)
         out.points.append(loc)
         if disp is not None:
@@ -318,26 +341,43 @@ class CharacteristicEngine:
                 return
             self._apply_limits(limits)
             out.limits = limits
-            pending, self.waiting = self.waiting, []
-            for p, d in pending:
-                self._judge(p, d, out)
+            queue.extend(self.waiting)
+            self.waiting = []
             return
-        self._judge(loc, disp, out)
+        queue.append((loc, disp))
 
-    def _judge(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput) -> None:
+    def _judge_all(self, queue: list[tuple[PlottedPoint, PlottedPoint | None]],
+                   out: LiveOutput) -> None:
+        """Judge queued points in order: point by point for a few, in one vectorised pass over
+        the recent tail plus the new points for many (both give the same firings, since every
+        rule looks back at most `lookback` points)."""
+        if not queue:
+            return
         assert self.loc_rules is not None and self.disp_rules is not None
-        for point, rules, fed in ((loc, self.loc_rules, self.loc_fed),
-                                  (disp, self.disp_rules, self.disp_fed)):
-            if point is None or point.judged:
+        for which, rules, fed in ((0, self.loc_rules, self.loc_fed),
+                                  (1, self.disp_rules, self.disp_fed)):
+            points = [pair[which] for pair in queue
+                      if pair[which] is not None and not pair[which].judged]
+            if not points:
                 continue
-            point.judged = True
-            point.rules = rules.push(point.value)
-            fed.append(point.value)
-            lo, _ = out.judged.get(point.chart, (point.index, point.index))
-            out.judged[point.chart] = (lo, point.index)
-            for rule_id in point.rules:
-                out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
-                                          point.value, point.meta))
+            if len(points) >= VECTOR_MIN:
+                _judge_vectorised(points, rules, fed)
+            else:
+                for point in points:
+                    point.rules = rules.push(point.value)
+                    fed.append(point.value)
+            for point in points:
+                point.judged = True
+            chart = points[0].chart
+            lo, _ = out.judged.get(chart, (points[0].index, points[0].index))
+            out.judged[chart] = (lo, points[-1].index)
+        for pair in queue:
+            for point in pair:
+                if point is None:
+                    continue
+                for rule_id in point.rules:
+                    out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
+                                              point.value, point.meta))
 
     # -- phases -------------------------------------------------------------------------------
     def new_baseline(self, start_index: int, baseline: int | None = None) -> None:
@@ -375,8 +415,7 @@ class CharacteristicEngine:
         self._apply_limits(limits)
         out.limits = limits
         pending, self.waiting = self.waiting, []
-        for p, d in pending:
-            self._judge(p, d, out)
+        self._judge_all(pending, out)
         return out
 
     # -- persistence --------------------------------------------------------------------------

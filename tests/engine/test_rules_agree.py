@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from linewatch.engine import characteristic
 from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup, analyse_history
 from linewatch.engine.rulebook import RULES, resolve_rules
 from linewatch.engine.rules import evaluate
@@ -76,7 +78,8 @@ def test_replaying_the_recent_points_rebuilds_the_state(values, cuts):
     assert got == expected
 
 
-@settings(max_examples=150, deadline=None)
+@pytest.mark.parametrize("vector_min", [1, 10**9], ids=["vectorised-chunks", "point-by-point"])
+@settings(max_examples=120, deadline=None)
 @given(
     st.lists(st.floats(-5, 5, allow_nan=False), min_size=0, max_size=150),
     st.sampled_from([1, 2, 3, 5, 10]),
@@ -84,7 +87,19 @@ def test_replaying_the_recent_points_rebuilds_the_state(values, cuts):
     st.integers(2, 12),
     st.lists(st.integers(0, 200), max_size=6),
 )
-def test_live_engine_matches_history_for_any_chunking(values, n, dispersion, baseline, cuts):
+def test_live_engine_matches_history_for_any_chunking(
+    vector_min, values, n, dispersion, baseline, cuts
+):
+    # the live engine judges large chunks in one vectorised pass and small ones point by point;
+    # both must equal the history's verdict
+    old, characteristic.VECTOR_MIN = characteristic.VECTOR_MIN, vector_min
+    try:
+        _live_equals_history(values, n, dispersion, baseline, cuts)
+    finally:
+        characteristic.VECTOR_MIN = old
+
+
+def _live_equals_history(values, n, dispersion, baseline, cuts):
     setup = ChartSetup("x", n, dispersion, tuple(resolve_rules(list(RULES))), baseline)
     live = CharacteristicEngine(setup)
     firings = []
@@ -113,6 +128,14 @@ def test_live_engine_matches_history_for_any_chunking(values, n, dispersion, bas
     st.lists(st.integers(0, 200), max_size=6),
 )
 def test_a_saved_and_restored_engine_continues_exactly(values, n, baseline, cuts):
+    old, characteristic.VECTOR_MIN = characteristic.VECTOR_MIN, 4  # both paths, small chunks
+    try:
+        _restored_engine_continues(values, n, baseline, cuts)
+    finally:
+        characteristic.VECTOR_MIN = old
+
+
+def _restored_engine_continues(values, n, baseline, cuts):
     import json
 
     setup = ChartSetup("x", n, "range", tuple(resolve_rules(list(RULES))), baseline)
