@@ -104,7 +104,9 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="SECONDS",
         help="poll files every SECONDS instead of waiting for file-system events (network shares)",
     )
-    p.add_argument("--no-ui", action="store_true", help="print events instead of opening the screen")
+    p.add_argument(
+        "--no-ui", action="store_true", help="print events instead of opening the screen"
+    )
     p.add_argument("--format", choices=("text", "jsonl"), default="text")
     p.add_argument("--no-bell", action="store_true", help="no terminal bell on new alarms")
 
@@ -116,7 +118,9 @@ def build_parser() -> argparse.ArgumentParser:
     _add_state_dir(a)
     a = asub.add_parser("ack", help="acknowledge alarms with a reason")
     a.add_argument("ids", nargs="*", type=int, metavar="ID")
-    a.add_argument("--characteristic", metavar="NAME", help="every open alarm of this characteristic")
+    a.add_argument(
+        "--characteristic", metavar="NAME", help="every open alarm of this characteristic"
+    )
     a.add_argument("--reason", required=True, metavar="TEXT")
     a.add_argument("--note", default="", metavar="TEXT")
     _add_state_dir(a)

@@ -41,7 +41,7 @@ def parse_duration(text: str | int | float) -> float:
 
 def format_duration(seconds: float) -> str:
     """Compact form: 45s, 12m, 3h05m, 2d04h."""
-    s = int(round(max(0.0, seconds)))
+    s = round(max(0.0, seconds))
     if s < 60:
         return f"{s}s"
     if s < 3600:

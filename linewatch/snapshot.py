@@ -49,6 +49,10 @@ def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray, limits_hist
         cur = mine[-1]
         cv.center, cv.ucl, cv.lcl, cv.sigma = cur.center, cur.ucl, cur.lcl, cur.sigma
         cv.phase_starts = sorted({lim.start_index for lim in mine if lim.phase > 0})
+        latest: dict[int, tuple[int, float, float, float, float]] = {}
+        for lim in mine:  # the newest limits of each phase
+            latest[lim.phase] = (lim.start_index, lim.center, lim.ucl, lim.lcl, lim.sigma)
+        cv.phase_limits = [latest[p] for p in sorted(latest)]
     return cv
 
 
@@ -101,6 +105,7 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.points = recs[-1].index + 1
         v.last_value = float(values[-1])
         v.last_row_age = max(0.0, now - recs[-1].received_at)
+        v.seconds_per_point = _seconds_per_point(recs, n)
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
         marks: dict[str, dict[int, list[str]]] = {}
         for a in alarms.alarms(include_closed=detail):
@@ -131,6 +136,22 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.stuck = any(a.rule == "stuck" for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)
     return v
+
+
+def _seconds_per_point(recs, n: int) -> float | None:
+    """Mean time between plotted points over the recent readings, from the rows' own time
+    stamps when they parse, else from when they were received."""
+    from datetime import datetime
+
+    if len(recs) < 2 * n:
+        return None
+    try:
+        first = datetime.fromisoformat(recs[0].time).timestamp()
+        last = datetime.fromisoformat(recs[-1].time).timestamp()
+    except (TypeError, ValueError):
+        first, last = recs[0].received_at, recs[-1].received_at
+    span = (recs[-1].index - recs[0].index) / n
+    return (last - first) / span if span > 0 and last > first else None
 
 
 def _state(v: CharacteristicView, open_alarms, has_limits: bool, now: float) -> str:

@@ -7,8 +7,8 @@ Nothing here imports textual or rich.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from collections.abc import Callable
+from dataclasses import dataclass, field
 from typing import Protocol
 
 # Alarm states (ISA-18.2 / IEC 62682 wording).
@@ -42,6 +42,8 @@ class ChartView:
     sigma: float | None = None
     # indices (into the chart's full series) where a new phase of limits starts
     phase_starts: list[int] = field(default_factory=list)
+    # every phase's limits, oldest first: (start index, CL, UCL, LCL, sigma of the statistic)
+    phase_limits: list[tuple[int, float, float, float, float]] = field(default_factory=list)
 
 
 @dataclass(slots=True)
@@ -86,6 +88,7 @@ class CharacteristicView:
     phases: list[PhaseStats] = field(default_factory=list)
     stale: bool = False
     stuck: bool = False
+    seconds_per_point: float | None = None  # mean time between recent plotted points
 
 
 @dataclass(slots=True)
@@ -148,7 +151,9 @@ class LineActions(Protocol):
 
     def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None: ...
 
-    def acknowledge_characteristic(self, characteristic: str, reason: str, note: str = "") -> int: ...
+    def acknowledge_characteristic(
+        self, characteristic: str, reason: str, note: str = ""
+    ) -> int: ...
 
     def shelve(self, alarm_id: int, seconds: float, reason: str) -> None: ...
 

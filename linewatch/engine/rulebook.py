@@ -64,7 +64,10 @@ class RuleSpec:
                     "same side"
                 )
             case "within":
-                return f"{self.length} points in a row within 1σ of the centre (too little variation)"
+                return (
+                    f"{self.length} points in a row within 1σ of the centre "
+                    "(too little variation)"
+                )
             case "mixture":
                 return f"{self.length} points in a row beyond 1σ, on both sides (a mixture)"
         return self.id

@@ -15,32 +15,7 @@ import tempfile
 import time
 from pathlib import Path
 
-PEER = r'''
-import sys, json, numpy as np, pandas as pd
-df = pd.read_csv(sys.argv[1])
-x = df["reading"].to_numpy(float)
-mr = np.abs(np.diff(x)); cl = x.mean(); s = mr.mean() / 1.128
-z = pd.Series((x - cl) / s)
-side = np.sign(z)
-out = []
-out.append(z.abs() > 3)
-up, dn = (side > 0).astype(int), (side < 0).astype(int)
-out.append((up.rolling(9).sum() == 9) | (dn.rolling(9).sum() == 9))
-d = np.sign(pd.Series(x).diff())
-out.append(((d > 0).astype(int).rolling(5).sum() == 5) | ((d < 0).astype(int).rolling(5).sum() == 5))
-alt = (d * d.shift(1) < 0).astype(int)
-out.append(alt.rolling(12).sum() == 12)
-b2u, b2d = ((z > 2)).astype(int), ((z < -2)).astype(int)
-out.append(((b2u.rolling(3, min_periods=1).sum() >= 2) & (z > 2)) | ((b2d.rolling(3, min_periods=1).sum() >= 2) & (z < -2)))
-b1u, b1d = ((z > 1)).astype(int), ((z < -1)).astype(int)
-out.append(((b1u.rolling(5, min_periods=1).sum() >= 4) & (z > 1)) | ((b1d.rolling(5, min_periods=1).sum() >= 4) & (z < -1)))
-out.append((z.abs() <= 1).astype(int).rolling(15).sum() == 15)
-out.append(((z.abs() > 1).astype(int).rolling(8).sum() == 8) & (b1u.rolling(8).sum() > 0) & (b1d.rolling(8).sum() > 0))
-w = sys.stdout.write
-for k, fired in enumerate(out, 1):
-    for i in np.flatnonzero(fired.to_numpy()):
-        w(json.dumps({"type": "signal", "rule": f"n{k}", "index": int(i), "value": float(x[i])}) + "\n")
-'''
+PEER = Path(__file__).with_name("pandas_peer.py")
 
 
 def make_log(path: Path, rows: int) -> None:
@@ -52,7 +27,8 @@ def make_log(path: Path, rows: int) -> None:
     stamps = (t0 + np.arange(rows) * np.timedelta64(1, "s")).astype(str)
     with path.open("w") as f:
         f.write("time,part,reading\n")
-        f.writelines(f"{s},P{i:07d},{v:.4f}\n" for i, (s, v) in enumerate(zip(stamps, x)))
+        rows = enumerate(zip(stamps, x, strict=True))
+        f.writelines(f"{s},P{i:07d},{v:.4f}\n" for i, (s, v) in rows)
 
 
 def timed(cmd: list[str]) -> tuple[float, float]:
@@ -69,8 +45,7 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         log = Path(tmp) / "big.csv"
         make_log(log, rows)
-        peer = Path(tmp) / "peer.py"
-        peer.write_text(PEER)
+        peer = PEER
         size = os.path.getsize(log) / 1e6
         ours = [sys.executable, "-m", "linewatch", "check", str(log), "--column", "reading",
                 "--rules", "nelson", "--format", "jsonl"]
