@@ -258,6 +258,9 @@ def _read_alarms(path: str, table: Any) -> AlarmConfig:
     timeout = r.duration("hook_timeout", 5.0)
     if timeout <= 0:
         raise r.fail("hook_timeout", "must be more than 0 seconds")
+    if isinstance(r.table.get("hook"), str):
+        raise r.fail("hook", "must be a list of arguments, e.g. [\"/usr/bin/light\", \"red\"] "
+                             "(never a shell command line)")
     return AlarmConfig(
         priorities=prio, hook=r.string_list("hook"), hook_timeout=timeout, reasons=reasons
     )
@@ -324,7 +327,7 @@ def _read_characteristic(
     lengths_reader.check_known(set(RULES))
     lengths = {k: lengths_reader.integer(k, None, 2, 100) or 0 for k in lengths_reader.table}
     try:
-        resolve_rules(rules, lengths)
+        resolve_rules(sorted(set(rules) | set(lengths)), lengths)
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
