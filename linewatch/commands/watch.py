@@ -107,7 +107,8 @@ def summaries(monitor) -> list[dict]:
 
 def run_screen(plan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
-    from linewatch.monitor import Monitor, MonitorFace
+    from linewatch.face import MonitorFace
+    from linewatch.monitor import Monitor
 
     messages: list[dict] = []
     monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
