@@ -72,3 +72,17 @@ class FeedEvent:
     kind: str
     file: str
     detail: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class FileState:
+    """Where reading of one file stopped: identity (device, inode, a fingerprint of its first
+    bytes, ``"<n>:<sha256 of the first n bytes>"``) and the offset after the last whole line.
+    The tailer produces it; the store keeps it in the same transaction as what was read."""
+
+    path: str
+    dev: int
+    inode: int
+    fingerprint: str
+    offset: int
+    next_line: int = 1

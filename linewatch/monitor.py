@@ -294,7 +294,7 @@ class Monitor:
                         assert self.health is not None
                         self.health.rows_arrived(batch.file, batch.rows, now)
                 if chunk.state is not None:
-                    self._save_file_state(chunk.state, now)
+                    self.store.ingest.save_file(chunk.state, now)
         except LeaseLost:
             self._step_down()
             return
@@ -364,15 +364,6 @@ class Monitor:
         self._last_progress = now
         rate = (self.rows_read - self._catch_up_rows) / elapsed
         self.emit({"type": "progress", "done": self.catching_up, "rows_per_second": rate})
-
-    def _save_file_state(self, state, now: float) -> None:
-        from linewatch.store.ingest import FileState
-
-        self.store.ingest.save_file(
-            FileState(state.path, state.dev, state.inode, state.fingerprint, state.offset,
-                      state.next_line),
-            now,
-        )
 
     def _record_feed_event(self, ev: FeedEvent, now: float, raised=None) -> dict[str, Any]:
         self.store.history.add_feed_event(ev, now)

@@ -34,29 +34,13 @@ from typing import Protocol
 
 from linewatch.config import FeedConfig
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
-from linewatch.model import FeedEvent
+from linewatch.model import FeedEvent, FileState
 
 FINGERPRINT_BYTES = 1024
 READ_SIZE = 1 << 20
 DEFAULT_MAX_BYTES = 4 << 20
 PRIME_BYTES = 64 << 10
 SHRINK_GRACE = 2.0  # seconds a shorter file that begins like ours may take to grow back
-
-
-@dataclass(frozen=True, slots=True)
-class FileState:
-    """Where reading of one file stopped: identity and the offset after the last whole line.
-
-    `fingerprint` is ``"<n>:<sha256 of the first n bytes>"`` (n grows up to FINGERPRINT_BYTES
-    as the file does).
-    """
-
-    path: str
-    dev: int
-    inode: int
-    fingerprint: str
-    offset: int
-    next_line: int = 1
 
 
 class SavedState(Protocol):

@@ -5,27 +5,16 @@ transaction as the points and alarms of the batch that moved them."""
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
 from typing import TYPE_CHECKING, Protocol
+
+from linewatch.model import FileState
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store
 
 
-@dataclass(frozen=True, slots=True)
-class FileState:
-    """A followed file: identity (device, inode, fingerprint of its first bytes) and position."""
-
-    path: str
-    dev: int
-    inode: int
-    fingerprint: str
-    offset: int
-    next_line: int = 1
-
-
 class FilePosition(Protocol):
-    """Anything shaped like a file state (the tailer's own record qualifies)."""
+    """Anything shaped like a `model.FileState`."""
 
     @property
     def path(self) -> str: ...

@@ -13,8 +13,8 @@ import time
 from pathlib import Path
 
 from linewatch.alarms import AlarmBook
+from linewatch.model import FileState
 from linewatch.store.db import Store
-from linewatch.store.ingest import FileState
 
 CHARACTERISTICS = 20
 

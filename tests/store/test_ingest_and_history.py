@@ -9,9 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.model import FeedEvent, Limits
+from linewatch.model import FeedEvent, FileState, Limits
 from linewatch.store.db import Store
-from linewatch.store.ingest import FileState
 from linewatch.store.points import History
 
 
