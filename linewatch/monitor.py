@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from linewatch.alarms import SYSTEM_ACTOR
 from linewatch.config import CharacteristicConfig, Config, FeedConfig
 from linewatch.engine.characteristic import CharacteristicEngine, LiveOutput
 from linewatch.errors import LinewatchError
@@ -33,6 +34,7 @@ from linewatch.selection import chart_setup
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = 0.5  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
+PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
 
 
 @dataclass(slots=True)
@@ -322,14 +324,9 @@ class Monitor:
         self.store.history.add_points(name, first, values, lines, batch.file, times, now)
         records: list[dict] = []
         if out.limits is not None:
-            for lim in (out.limits.location, out.limits.dispersion):
-                self.store.history.record_limits(
-                    Limits(name, lim.chart, lim.center, lim.ucl, lim.lcl, lim.sigma, eng.phase,
-                           eng.phase_start),
-                    reason="baseline" if eng.phase == 0 else "new baseline",
-                    now=now,
-                )
-                records.append(limits_record(name, lim))
+            self._record_limits(name, eng, out.limits, now)
+            records.extend(limits_record(name, lim)
+                           for lim in (out.limits.location, out.limits.dispersion))
         fired: dict[str, dict[str, list[int]]] = {}
         for f in out.firings:
             fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
@@ -364,6 +361,23 @@ class Monitor:
         self._last_progress = now
         rate = (self.rows_read - self._catch_up_rows) / elapsed
         self.emit({"type": "progress", "done": self.catching_up, "rows_per_second": rate})
+
+    def _record_limits(self, name: str, eng: CharacteristicEngine, limits, now: float) -> None:
+        """Put new limits on the history: the first phase's as set by linewatch from its
+        baseline, a later phase's with the reason and person that asked for it."""
+        reason, actor, asked = "baseline", SYSTEM_ACTOR, False
+        if eng.phase > 0:
+            raw = self.store.get_meta(PHASE_REQUEST.format(name=name, phase=eng.phase))
+            request = json.loads(raw) if raw else {}
+            reason = request.get("reason") or "new baseline"
+            actor = request.get("actor") or SYSTEM_ACTOR
+            asked = True
+        for lim in (limits.location, limits.dispersion):
+            self.store.history.record_limits(
+                Limits(name, lim.chart, lim.center, lim.ucl, lim.lcl, lim.sigma, eng.phase,
+                       eng.phase_start),
+                reason=reason, now=now, actor=actor, new_baseline=asked,
+            )
 
     def _record_feed_event(self, ev: FeedEvent, now: float, raised=None) -> dict[str, Any]:
         self.store.history.add_feed_event(ev, now)
@@ -453,15 +467,11 @@ class Monitor:
                 {"start_index": eng.phase_start, "phase": eng.phase, "reason": req["reason"]},
                 at=now, actor=req.get("actor"),
             )
-            self.store.set_meta(f"phase-reason:{name}:{eng.phase}", req["reason"])
+            self.store.set_meta(PHASE_REQUEST.format(name=name, phase=eng.phase),
+                                json.dumps({"reason": req["reason"], "actor": req.get("actor")}))
             out = eng.settle()  # the new phase may already hold enough points for limits
             if out.limits is not None:
-                for lim in (out.limits.location, out.limits.dispersion):
-                    self.store.history.record_limits(
-                        Limits(name, lim.chart, lim.center, lim.ucl, lim.lcl, lim.sigma,
-                               eng.phase, eng.phase_start),
-                        reason=req["reason"], now=now, new_baseline=True,
-                    )
+                self._record_limits(name, eng, out.limits, now)
             self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
             self.emit({"type": "baseline", "characteristic": name, "start_index": eng.phase_start,
                        "reason": req["reason"]})

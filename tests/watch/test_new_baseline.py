@@ -1,0 +1,64 @@
+"""A new baseline asked for from the screen (or any instance): the collector starts a new phase
+at the chosen point, re-estimates the limits from the next N points, keeps the old limits on the
+history and records who asked and why in the audit trail."""
+
+from __future__ import annotations
+
+import json
+import threading
+import time
+
+import numpy as np
+
+from linewatch.config import parse_config
+from linewatch.face import MonitorFace
+from linewatch.monitor import Monitor, WatchPlan
+from tests.watch.helpers import HEADER, rows_text
+
+
+def _wait(predicate, timeout: float = 20.0) -> None:
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if predicate():
+            return
+        time.sleep(0.05)
+    raise AssertionError("condition not reached")
+
+
+def test_a_new_phase_gets_its_own_limits_and_an_audit_entry(tmp_path):
+    log = tmp_path / "line.csv"
+    first = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 3  # 30 points near 10
+    second = list(np.array(first) + 2.0)  # after a process change: 30 points near 12
+    log.write_text(HEADER + "".join(rows_text(first + second)))
+    config = parse_config(f'[[feed]]\npaths = ["{log}"]\n')
+    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
+                     baseline=20)
+    monitor = Monitor(plan, tmp_path / "state")
+    face = MonitorFace(monitor)
+    stop = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
+    worker.start()
+    try:
+        history = face.store.history
+        _wait(lambda: history.current_limits("od"))
+        _wait(lambda: len(history.points("od")) == 60)
+        face.new_baseline("od", 30, "new die fitted")
+        _wait(lambda: any(r.limits.phase == 1 for r in history.limits_history("od")))
+    finally:
+        stop.set()
+        worker.join(timeout=10)
+    records = history.limits_history("od")
+    old = [r for r in records if r.limits.chart == "individuals" and r.limits.phase == 0]
+    new = [r for r in records if r.limits.chart == "individuals" and r.limits.phase == 1]
+    assert len(old) == 1 and len(new) == 1  # the old limits stay on the history
+    assert old[0].limits.center == np.mean(first[:20])
+    assert new[0].limits.start_index == 30
+    assert new[0].limits.center == np.mean(second[:20])  # the next 20 points after point 30
+    assert new[0].reason == "new die fitted"
+    entries = face.store.audit.entries()
+    asked = [e for e in entries if e.action == "new-baseline"]
+    assert asked and all(json.loads(e.payload)["reason"] == "new die fitted" for e in asked)
+    automatic = [e for e in entries if e.action == "limits-set"]
+    assert automatic and all(e.actor == "linewatch" for e in automatic)
+    assert face.store.audit.verify().ok
+    face.close()
