@@ -159,6 +159,9 @@ class LinewatchApp(App[int]):
         """Go to one of the three main views, leaving close-ups and dialogs of the others."""
         if self.current_mode != mode:
             self.switch_mode(mode)
+            return
+        while len(self.screen_stack) > 1:  # already in that view: back to its own screen
+            self.pop_screen()
 
     def action_keys_help(self) -> None:
         from linewatch.ui.screens.keys_help import KeysHelp

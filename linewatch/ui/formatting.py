@@ -102,3 +102,33 @@ def rule_digit(rules: str) -> str:
     first = rules.split(",")[0].strip()
     digits = "".join(ch for ch in first if ch.isdigit())
     return digits[-1:] if digits else ("?" if first else "")
+
+
+def fmt_span(seconds: float) -> str:
+    """A rough length of time for projections: 45s, 3m, 2h10m, 3d; coarse on purpose."""
+    s = max(0, round(seconds))
+    if s < 90:
+        return f"{s}s"
+    if s < 90 * 60:
+        return f"{round(s / 60)}m"
+    if s < 48 * 3600:
+        hours, minutes = divmod(round(s / 60), 60)
+        return f"{hours}h{minutes:02d}m" if minutes else f"{hours}h"
+    return f"{round(s / 86400)}d"
+
+
+def alarm_subject(alarm: view.AlarmView) -> str:
+    """What an alarm is about, short: a feed-health alarm on a file shows the file's base name
+    (the full path stays in the alarm's detail line)."""
+    subject = alarm.characteristic
+    if alarm.kind == "feed-health" and ("/" in subject or "\\" in subject):
+        return subject.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1] or subject
+    return subject
+
+
+def to_acknowledge(alarms: list[view.AlarmView]) -> tuple[int, int]:
+    """(alarms still needing an acknowledgement, how many of them are still active). Both the
+    unacknowledged and the returned-unacknowledged ones wait for an operator (ISA-18.2)."""
+    active = sum(1 for a in alarms if a.state == view.UNACKNOWLEDGED)
+    returned = sum(1 for a in alarms if a.state == view.RETURNED_UNACKNOWLEDGED)
+    return active + returned, active

@@ -129,12 +129,25 @@ def build_snapshot() -> view.LineSnapshot:
     chars.append(_characteristic("outer-diameter", "mm", view.STATE_ALARM, loc, disp, xbar,
                                  24.85, 25.15, 2.0, subgroup_size=5, open_alarms=3))
 
-    loc, disp, xs = _individuals("wall-thickness", 23, 90, 2.10, 0.03, drift=0.003, drift_from=62)
+    # Wall thickness: a new die at point 40 moved the centre up, so the
+    # second phase has limits of its own; then die wear makes it drift up from point 62.
+    loc, disp, xs = _individuals("wall-thickness", 23, 90, 2.10, 0.03, shift_at=40, shift=0.05,
+                                 drift=0.002, drift_from=62)
+    old, new = (2.10, 0.03), (2.15, 0.03)
     loc.phase_starts = [0, 40]
+    loc.phase_limits = [(0, old[0], old[0] + 3 * old[1], old[0] - 3 * old[1], old[1]),
+                        (40, new[0], new[0] + 3 * new[1], new[0] - 3 * new[1], new[1])]
+    loc.center, loc.ucl, loc.lcl, loc.sigma = loc.phase_limits[-1][1:]
+    loc.rules = (_rules_beyond(xs[:40], old[0] + 3 * old[1], old[0] - 3 * old[1], "we1")
+                 + _rules_beyond(xs[40:], new[0] + 3 * new[1], new[0] - 3 * new[1], "we1"))
+    loc.rules[84:90] = [r or "we4" for r in loc.rules[84:90]]
     disp.phase_starts = [1, 40]
-    loc.rules[84:90] = ["we4"] * 6
+    # moving-range limits from d2(2) = 1.128 and D4(2) = 3.267 (published, from memory)
+    disp.phase_limits = [(1, 1.128 * old[1], 3.686 * old[1], 0.0, 0.853 * old[1]),
+                         (40, 1.128 * new[1], 3.686 * new[1], 0.0, 0.853 * new[1])]
+    disp.center, disp.ucl, disp.lcl, disp.sigma = disp.phase_limits[-1][1:]
     chars.append(_characteristic("wall-thickness", "mm", view.STATE_WATCH, loc, disp, xs,
-                                 1.90, 2.30, 1.0, open_alarms=1))
+                                 1.90, 2.30, 1.0, open_alarms=1, seconds_per_point=6.0))
 
     loc, disp, xs = _individuals("ovality", 31, 70, 0.60, 0.12)
     chars.append(_characteristic("ovality", "%", view.STATE_OK, loc, disp, xs, None, 1.50, 3.0))
@@ -173,7 +186,7 @@ def build_snapshot() -> view.LineSnapshot:
         alarm(3, "out-of-spec", "fill-weight", "individuals", "spec",
               "a measurement above the USL", view.SHELVED, 1, 2400, shelved_until=NOW + 1200,
               reason="scale being recalibrated", reaction_plan="Re-weigh the last carton."),
-        alarm(4, "feed-health", "fill-weight", "", "stale", "no new row for 20 minutes",
+        alarm(4, "feed-health", "/srv/line3/scale.jsonl", "", "stale", "no new row for 20 minutes",
               view.UNACKNOWLEDGED, 4, 60, reaction_plan="Check the packing scale's cable."),
         alarm(5, "run-rule", "wall-thickness", "individuals", "we4",
               "8 points in a row on one side of the centre line", view.ACKNOWLEDGED, 3, 300,

@@ -3,6 +3,7 @@ general-purpose references (scipy.stats.linregress, statistics.quantiles)."""
 
 from __future__ import annotations
 
+import math
 import re
 import statistics
 
@@ -16,7 +17,7 @@ from linewatch.ui.glyphs import ASCII
 from linewatch.ui.screens.close_up import TREND_WINDOW
 from linewatch.ui.widgets.box_plot import draw_box_plot
 
-from .fake_line import build_snapshot
+from .fake_line import FakeSource, build_snapshot
 
 
 async def test_trend_line_matches_scipy_linregress_over_the_window(app: LinewatchApp) -> None:
@@ -49,3 +50,40 @@ def test_box_plot_figures_match_the_standard_library_quartiles() -> None:
     # Tukey's fences (common practice): 2.30 is beyond Q3 + 1.5·IQR, so it is an outlier
     assert q3 + 1.5 * (q3 - q1) < 2.30
     assert "outliers 1: 2.300" in words
+
+
+async def test_a_significant_trend_is_projected_in_points_and_in_time(
+    app: LinewatchApp,
+) -> None:
+    wall = build_snapshot().characteristics[1]
+    values = wall.location.values[-TREND_WINDOW:]  # type: ignore[union-attr]
+    ref = stats.linregress(np.arange(len(values)), values)
+    assert ref.pvalue < 0.05 and ref.slope > 0 and wall.usl is not None
+    assert wall.seconds_per_point is not None
+    # points after the last one until the fitted line reaches the USL
+    last_fitted = ref.intercept + ref.slope * (len(values) - 1)
+    points = math.ceil((wall.usl - last_fitted) / ref.slope)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("down", "enter")
+        await pilot.pause()
+        text = str(app.screen.query_one("#closeup-trend", Static).render()).replace("\n", " ")
+    found = re.search(r"reaches USL \S+ in about (\d+) points, ~(\d+)([smh]) at the current pace",
+                      text)
+    assert found is not None, text
+    assert int(found.group(1)) == points
+    seconds = int(found.group(2)) * {"s": 1, "m": 60, "h": 3600}[found.group(3)]
+    assert seconds == pytest.approx(points * wall.seconds_per_point, rel=0.1, abs=30)
+
+
+async def test_without_a_known_pace_the_projection_stays_in_points(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    picture = build_snapshot()
+    picture.characteristics[1].seconds_per_point = None
+    source.picture = picture
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("down", "enter")
+        await pilot.pause()
+        text = str(app.screen.query_one("#closeup-trend", Static).render()).replace("\n", " ")
+    assert re.search(r"in about \d+ points if it goes on", text), text
+    assert "pace" not in text

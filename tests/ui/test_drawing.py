@@ -129,3 +129,51 @@ def test_small_text_helpers() -> None:
     assert [fmt_age(s) for s in (None, 4.9, 37, 61, 7300, 90000)] == [
         "-", "<10s", "30s", "1m", "2h", "1d"]
     assert [rule_digit(r) for r in ("", "we2", "n5,n6", "spec")] == ["", "2", "5", "?"]
+
+
+def line_rows(lines: list[str], cols: range, glyph: str) -> set[int]:
+    """Rows whose cells in `cols` are all `glyph` (a limit line drawn across those columns)."""
+    return {i for i, line in enumerate(lines) if all(line[c] == glyph for c in cols)}
+
+
+def test_each_phase_is_drawn_against_its_own_limits_with_a_separator_between() -> None:
+    # phase 1 (points 0-9) around 0 with σ 1; phase 2 (points 10-19) around 10 with σ 1
+    values = [0.0] * 10 + [10.0] * 10
+    two = view.ChartView("individuals", values, list(range(20)), [""] * 20,
+                         center=10.0, ucl=13.0, lcl=7.0, sigma=1.0, phase_starts=[10],
+                         phase_limits=[(0, 0.0, 3.0, -3.0, 1.0), (10, 10.0, 13.0, 7.0, 1.0)])
+    lines = lines_of(draw_control_chart(two, 20 + LABEL_WIDTH, 40, ASCII))
+    old_rows = line_rows(lines, range(1, 9), "-")  # columns of the first phase
+    new_rows = line_rows(lines, range(11, 20), "-")  # columns of the second phase
+    # each phase: UCL and LCL lines; its CL row is covered by its own points
+    assert len(old_rows) == 2 and len(new_rows) == 2
+    # the labels name the newest phase
+    assert {row_with(lines, "UCL 13"), row_with(lines, "LCL 7")} == new_rows
+    new_cl = row_with(lines, "CL 10")
+    assert set(lines[new_cl][10:20]) == {"o"}
+    # the old phase's band (values -3..3) lies below the new one (7..13), the old points on
+    # the old centre line halfway between the old UCL and LCL rows
+    assert min(old_rows) > max(new_rows)
+    old_cl = sum(old_rows) // 2
+    assert set(lines[old_cl][0:10]) == {"o"}
+    assert "o" not in lines[old_cl][11:20] and "o" not in lines[new_cl][0:10]
+    # the separator stands at the first point of the second phase, nowhere else
+    columns = {line.index("|") for line in lines if "|" in line[:20]}
+    assert columns == {10}
+
+
+def test_a_chart_without_a_phase_list_draws_its_current_limits_across() -> None:
+    lines = lines_of(draw_control_chart(chart([0.0] * 20), 20 + LABEL_WIDTH, 15, ASCII))
+    assert line_rows(lines, range(1, 20), "-") == {row_with(lines, "UCL 3"),
+                                                  row_with(lines, "LCL -3")}
+
+
+def test_a_far_lower_spec_limit_is_named_at_the_bottom_edge_not_inside_the_band() -> None:
+    lines = lines_of(draw_control_chart(chart([0.0, 1.0]), 30 + LABEL_WIDTH, 9, UNICODE,
+                                        lsl=-40.0, usl=40.0))
+    lcl = row_with(lines, "LCL -3")
+    lsl = row_with(lines, "LSLv -40")
+    usl = row_with(lines, "USL^ 40")
+    # at the bottom edge: the last row, or right above it when the LCL's label holds that row
+    assert lsl == len(lines) - 1 or (lcl == len(lines) - 1 and lsl == lcl - 1)
+    assert usl == 0 or (row_with(lines, "UCL 3") == 0 and usl == 1)

@@ -64,7 +64,7 @@ def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
     with log.open("a") as f:
         f.write("2026-01-01T08:30:00,11.000\n")  # ten σ above the centre: beyond the UCL
     # the individual value and its moving range both go beyond their UCL: two alarms
-    wait_for(lambda: "2 UNACK" in screen(), "the alarms on the board", screen)
+    wait_for(lambda: "2 to acknowledge" in screen(), "the alarms on the board", screen)
 
     tmux("send-keys", "-t", session, "a")
     wait_for(lambda: "alarm queue" in screen() and "beyond limits" in screen(),
@@ -75,13 +75,13 @@ def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
                for line in screen().splitlines() if line.strip(" │|")[:2] in ("1 ", "2 ")}
     tmux("send-keys", "-t", session, "1")
     tmux("send-keys", "-t", session, "Enter")
-    wait_for(lambda: "1 UNACK" in screen(), "the first acknowledgement", screen)
+    wait_for(lambda: "1 to acknowledge" in screen(), "the first acknowledgement", screen)
     # the other one with the key that acknowledges every alarm of the characteristic
     tmux("send-keys", "-t", session, "K")
     wait_for(lambda: "Acknowledge all" in screen(), "the acknowledge-all panel", screen)
     tmux("send-keys", "-t", session, "2")
     tmux("send-keys", "-t", session, "Enter")
-    wait_for(lambda: "no unacknowledged alarm" in screen(), "the second acknowledgement", screen)
+    wait_for(lambda: "nothing to acknowledge" in screen(), "the second acknowledgement", screen)
     tmux("send-keys", "-t", session, "q")
     wait_for(lambda: "linewatch" not in screen() or "[exit" in screen() or screen().strip() == "",
              "the program to quit", screen)

@@ -10,18 +10,20 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
 from textual.events import Resize
-from textual.widgets import DataTable, Footer, Input, Static
+from textual.widgets import DataTable, Input, Static
 
 from linewatch import view
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
     STATE_WORDS,
+    alarm_subject,
     fmt_age,
     fmt_value,
     needs_attention,
 )
 from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.margin_gauge import margin_gauge
 from linewatch.ui.widgets.spark_cell import SparkCell
 from linewatch.ui.widgets.top_bar import TopBar
@@ -86,7 +88,7 @@ class BoardScreen(LineScreen):
                 yield Static(id="side-alarms")
                 yield Static(id="side-feeds")
         yield Input(placeholder="characteristic name contains...", id="board-filter")
-        yield Footer()
+        yield KeyFooter()
 
     @property
     def table(self) -> DataTable[object]:
@@ -235,7 +237,7 @@ class BoardScreen(LineScreen):
             alarms.append(f"P{a.priority} ", "bold" if a.priority <= 2 else "")
             alarms.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9} ",
                           "reverse" if a.state == view.UNACKNOWLEDGED else "")
-            alarms.append(f"{a.characteristic} {a.rule}\n")
+            alarms.append(f"{alarm_subject(a)} {a.rule}\n")
         if not open_:
             alarms.append("none\n", palette.LABEL)
         elif len(open_) > 12:

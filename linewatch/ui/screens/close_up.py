@@ -10,21 +10,35 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.events import Resize
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
 from linewatch.ui import palette
-from linewatch.ui.formatting import STATE_WORDS, fmt_value, rule_digit
+from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_digit
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.widgets.box_plot import draw_box_plot
 from linewatch.ui.widgets.chart_pane import ChartPane
+from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.phase_table import phase_table
 from linewatch.ui.widgets.top_bar import TopBar
 
 TREND_WINDOW = 30  # points in the trend fit
 WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the charts
+
+
+def projection_words(slope: float, points: int, lsl: float | None, usl: float | None,
+                     seconds_per_point: float | None) -> str:
+    """Where a significant trend leads: the spec limit it heads for, in points and, when the
+    pace of the line is known, in time."""
+    name, limit = ("USL", usl) if slope > 0 else ("LSL", lsl)
+    if points <= 0:
+        return f"the fitted line is already past {name} {fmt_value(limit)}"
+    when = f"about {points} points"
+    if seconds_per_point:
+        when += f", ~{fmt_span(points * seconds_per_point)} at the current pace"
+    return f"reaches {name} {fmt_value(limit)} in {when} if it goes on"
 
 
 class CloseUpBody(VerticalScroll):
@@ -75,7 +89,7 @@ class CloseUpScreen(LineScreen):
                 yield Static(id="closeup-phases")
                 yield Static(id="closeup-trend")
                 yield Static(id="closeup-alarms")
-        yield Footer()
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         self.query_one(CloseUpBody).focus()
@@ -195,10 +209,8 @@ class CloseUpScreen(LineScreen):
             text.append("no significant trend towards a spec limit (p < 0.05 needed)",
                         palette.LABEL)
         else:
-            heading = "USL" if fit.slope > 0 else "LSL"
-            limit = cv.usl if fit.slope > 0 else cv.lsl
-            text.append(f"reaches {heading} {fmt_value(limit)} in about {fit.points_to_spec} "
-                        "points if it goes on", palette.SIGNAL)
+            text.append(projection_words(fit.slope, fit.points_to_spec, cv.lsl, cv.usl,
+                                         cv.seconds_per_point), palette.SIGNAL)
         return text
 
     def action_move(self, step: int) -> None:

@@ -7,18 +7,32 @@ from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.events import Resize
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_age
 from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
 
 
 def short_path(path: str, width: int) -> str:
     """Keep the end of a long path, where the file name is."""
     return path if len(path) <= width else "..." + path[-(width - 3):]
+
+
+def base_name(path: str) -> str:
+    """The file's own name, without its folder."""
+    return path.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1] or path
+
+
+def shown_names(paths: list[str], width: int) -> dict[str, str]:
+    """What the file column shows: the base name (the full path is in the line below the
+    table), or the end of the path for files that share a base name."""
+    names = [base_name(p) for p in paths]
+    return {p: short_path(name if names.count(name) == 1 else p, width)
+            for p, name in zip(paths, names, strict=True)}
 
 
 class FeedScreen(LineScreen):
@@ -34,7 +48,7 @@ class FeedScreen(LineScreen):
         yield TopBar(id="topbar")
         yield DataTable(id="feed-table", cursor_type="row")
         yield Static(id="feed-rejects")
-        yield Footer()
+        yield KeyFooter()
 
     @property
     def table(self) -> DataTable[object]:
@@ -68,8 +82,9 @@ class FeedScreen(LineScreen):
         keep = self.table.cursor_row
         self.table.clear()
         self._ages.clear()
+        names = shown_names([f.file for f in line.feeds], self._file_width)
         for f in line.feeds:
-            self.table.add_row(*self._cells(f, self._file_width), key=f.file)
+            self.table.add_row(*self._cells(f, names[f.file]), key=f.file)
         if 0 <= keep < len(line.feeds):
             self.table.move_cursor(row=keep)
         stale = sum(1 for f in line.feeds if f.stale)
@@ -87,13 +102,13 @@ class FeedScreen(LineScreen):
                 self._ages[f.file] = age
                 self.table.update_cell(f.file, "age", age)
 
-    def _cells(self, f: view.FeedView, file_width: int) -> list[object]:
+    def _cells(self, f: view.FeedView, name: str) -> list[object]:
         g = self.lw.glyphs
         bad = f.stale or f.status in ("missing", "unreadable", "stale")
         mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
         return [
             Text(f"{mark} {f.status}", "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
-            short_path(f.file, file_width),
+            name,
             f"{f.rows:,}",
             f"{f.rows_per_second:.1f}",
             Text(f"{f.rejected:,}", palette.SIGNAL if f.rejected else ""),

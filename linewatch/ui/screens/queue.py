@@ -9,12 +9,18 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.events import Resize
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.ui import palette
-from linewatch.ui.formatting import ALARM_STATE_WORDS, fmt_clock, fmt_day_clock
+from linewatch.ui.formatting import (
+    ALARM_STATE_WORDS,
+    alarm_subject,
+    fmt_clock,
+    fmt_day_clock,
+)
 from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
 
 DEFAULT_REASONS = [
@@ -74,7 +80,7 @@ class AlarmQueueScreen(LineScreen):
         yield TopBar(id="topbar")
         yield QueueTable(id="queue-table", cursor_type="row")
         yield Static(id="queue-plan")
-        yield Footer()
+        yield KeyFooter()
 
     @property
     def table(self) -> DataTable[object]:
@@ -130,7 +136,7 @@ class AlarmQueueScreen(LineScreen):
         return [
             Text(str(a.priority), loud),
             fmt_clock(a.raised_at),
-            Text(a.characteristic, no_wrap=True, overflow="ellipsis"),
+            Text(alarm_subject(a), no_wrap=True, overflow="ellipsis"),
             what,
             Text(ALARM_STATE_WORDS.get(a.state, a.state), state_style),
         ]
@@ -195,7 +201,7 @@ class AlarmQueueScreen(LineScreen):
                 self.notify(f"alarm #{a.id} acknowledged: {choice.reason}")
 
         self.app.push_screen(
-            AckPanel(f"alarm #{a.id} {a.characteristic}: {a.description}", reasons_for(a)), done
+            AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", reasons_for(a)), done
         )
 
     def action_acknowledge_all(self) -> None:
@@ -233,7 +239,7 @@ class AlarmQueueScreen(LineScreen):
             if choice and self.ask("shelve", a.id, choice.seconds, choice.reason)[0]:
                 self.notify(f"alarm #{a.id} shelved for {choice.text}")
 
-        self.app.push_screen(ShelvePanel(f"alarm #{a.id} {a.characteristic}: {a.description}"),
+        self.app.push_screen(ShelvePanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}"),
                              done)
 
     def action_unshelve(self) -> None:
@@ -251,6 +257,9 @@ class AlarmQueueScreen(LineScreen):
         if a is None:
             return
         if not any(cv.name == a.characteristic for cv in self.lw.line.characteristics):
+            if a.kind == "feed-health":  # an alarm about a file: its close-up is the feed pulse
+                self.lw.action_show("feeds")
+                return
             self.notify(f"no characteristic named {a.characteristic}")
             return
         from linewatch.ui.screens.close_up import CloseUpScreen

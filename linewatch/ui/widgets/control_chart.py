@@ -3,6 +3,7 @@ limits, rule numbers at signalling points, phase separators and an optional curs
 
 from __future__ import annotations
 
+from bisect import bisect_left, bisect_right
 from dataclasses import dataclass
 
 from rich.text import Text
@@ -63,6 +64,35 @@ class _Canvas:
         return out
 
 
+@dataclass(frozen=True, slots=True)
+class PhaseLines:
+    """The limits one phase draws: from its first index on, until the next phase starts."""
+
+    start: int
+    center: float | None
+    ucl: float | None
+    lcl: float | None
+    sigma: float | None
+
+
+def phases_of(chart: ChartView) -> list[PhaseLines]:
+    """Every phase's limits, oldest first; a chart without a phase list has its current limits
+    across the whole series."""
+    if chart.phase_limits:
+        return [PhaseLines(*limits) for limits in sorted(chart.phase_limits)]
+    if chart.center is None and chart.ucl is None and chart.lcl is None:
+        return []
+    first = chart.indices[0] if chart.indices else 0
+    return [PhaseLines(first, chart.center, chart.ucl, chart.lcl, chart.sigma)]
+
+
+def separators_of(chart: ChartView, phases: list[PhaseLines]) -> list[int]:
+    """Indices where a later phase starts (the first phase needs no separator)."""
+    starts = set(chart.phase_starts) | {p.start for p in phases}
+    first = phases[0].start if phases else (chart.indices[0] if chart.indices else 0)
+    return sorted(s for s in starts if s > first)
+
+
 def draw_control_chart(
     chart: ChartView,
     width: int,
@@ -74,8 +104,10 @@ def draw_control_chart(
 ) -> Text:
     """Render `chart` in `width` x `height` cells (labels take LABEL_WIDTH more on the right).
 
-    `cursor` is a position in chart.values to highlight; spec limits far outside the control
-    band are named in the label column instead of squashing the chart.
+    Each point is drawn against its own phase's CL, UCL, LCL and zones, so old limits stay on
+    the history; the labels name the limits of the newest phase shown. `cursor` is a position in
+    chart.values to highlight; spec limits far outside the control band are named in the label
+    column instead of squashing the chart.
     """
     plot_w = max(5, width - LABEL_WIDTH)
     height = max(5, height)
@@ -85,17 +117,41 @@ def draw_control_chart(
     if not values:
         return Text("no points yet", palette.LABEL)
 
-    limits = [v for v in (chart.center, chart.ucl, chart.lcl) if v is not None]
-    span_values = list(values) + limits
+    indices = chart.indices[win.start : win.start + win.count] if chart.indices else []
+    phases = phases_of(chart)
+    starts = [p.start for p in phases]
+
+    def phase_at(j: int) -> PhaseLines | None:
+        """The phase of the j-th shown point (points before the first phase take the first)."""
+        if not phases:
+            return None
+        if j >= len(indices):
+            return phases[-1]
+        return phases[max(0, bisect_right(starts, indices[j]) - 1)]
+
+    step = max(1, min(4, plot_w // max(1, win.count)))
+
+    def col_of(j: int) -> int:
+        return j * step
+
+    # which phase each column belongs to; columns right of the newest point keep the last one
+    col_phase = [phase_at(min(col // step, win.count - 1)) for col in range(plot_w)]
+    shown = [p for p in dict.fromkeys(col_phase) if p is not None]
+    newest = shown[-1] if shown else None
+
+    span_values = list(values)
+    for p in shown:
+        span_values += [v for v in (p.center, p.ucl, p.lcl) if v is not None]
     half = None
-    if chart.center is not None and chart.ucl is not None and chart.lcl is not None:
-        half = max(chart.ucl - chart.center, chart.center - chart.lcl)
+    if newest and newest.center is not None and newest.ucl is not None and newest.lcl is not None:
+        half = max(newest.ucl - newest.center, newest.center - newest.lcl)
     specs: dict[str, float] = {}
     off_chart: list[str] = []
     for name, spec in (("USL", usl), ("LSL", lsl)):
         if spec is None:
             continue
-        if half is None or chart.center is None or abs(spec - chart.center) <= 2.5 * half:
+        if half is None or newest is None or newest.center is None or \
+                abs(spec - newest.center) <= 2.5 * half:
             specs[name] = spec
             span_values.append(spec)
         else:
@@ -109,44 +165,47 @@ def draw_control_chart(
     def row_of(v: float) -> int:
         return round((hi - v) / (hi - lo) * (height - 1))
 
-    step = max(1, min(4, plot_w // max(1, win.count)))
-
-    def col_of(j: int) -> int:
-        return j * step
-
     labels: dict[int, Text] = {}
+    scale = newest.sigma if newest else chart.sigma
 
     def label(row: int, name: str, value: float, style: str) -> None:
         if 0 <= row < height and row not in labels:
-            shown = fmt_scaled(value, chart.sigma) if chart.sigma else fmt_value(value)
-            labels[row] = Text(f"{name} {shown}"[:LABEL_WIDTH - 1], style)
+            shown_value = fmt_scaled(value, scale) if scale else fmt_value(value)
+            labels[row] = Text(f"{name} {shown_value}"[:LABEL_WIDTH - 1], style)
 
-    if chart.center is not None and chart.sigma:
+    for col, p in enumerate(col_phase):
+        if p is None or p.center is None or not p.sigma or col % 2:
+            continue
         for k in (1, 2):
             for sign in (1, -1):
-                z = chart.center + sign * k * chart.sigma
-                if lo <= z <= hi and (chart.lcl is None or z > chart.lcl or sign > 0):
-                    canvas.hline(row_of(z), glyphs.zone, palette.ZONE, every=2)
+                z = p.center + sign * k * p.sigma
+                if lo <= z <= hi and (p.lcl is None or z > p.lcl or sign > 0):
+                    canvas.put(row_of(z), col, glyphs.zone, palette.ZONE)
     for name, spec in specs.items():
         canvas.hline(row_of(spec), glyphs.spec, palette.SPEC)
         label(row_of(spec), name, spec, palette.SPEC)
-    if chart.ucl is not None:
-        canvas.hline(row_of(chart.ucl), glyphs.hline, palette.LIMIT)
-        label(row_of(chart.ucl), "UCL", chart.ucl, palette.LIMIT)
-    if chart.lcl is not None:
-        canvas.hline(row_of(chart.lcl), glyphs.hline, palette.LIMIT)
-        label(row_of(chart.lcl), "LCL", chart.lcl, palette.LIMIT)
-    if chart.center is not None:
-        canvas.hline(row_of(chart.center), glyphs.center, palette.CENTER)
-        label(row_of(chart.center), "CL", chart.center, palette.CENTER)
+    for col, p in enumerate(col_phase):
+        if p is None:
+            continue
+        for value, glyph, style in ((p.ucl, glyphs.hline, palette.LIMIT),
+                                    (p.lcl, glyphs.hline, palette.LIMIT),
+                                    (p.center, glyphs.center, palette.CENTER)):
+            if value is not None:
+                canvas.put(row_of(value), col, glyph, style)
+    if newest is not None:
+        for name, value, style in (("UCL", newest.ucl, palette.LIMIT),
+                                   ("LCL", newest.lcl, palette.LIMIT),
+                                   ("CL", newest.center, palette.CENTER)):
+            if value is not None:
+                label(row_of(value), name, value, style)
 
-    indices = chart.indices[win.start : win.start + win.count] if chart.indices else []
-    starts = set(chart.phase_starts)
-    for j, idx in enumerate(indices):
-        if idx in starts and idx != 0:
-            for r in range(height):
-                col = max(0, col_of(j) - (1 if step > 1 else 0))
-                canvas.put(r, col, glyphs.phase, palette.PHASE)
+    for s in separators_of(chart, phases):
+        j = bisect_left(indices, s)
+        if j >= len(indices) or (j == 0 and indices[0] != s):
+            continue  # the phase starts outside the shown window
+        col = max(0, col_of(j) - (1 if step > 1 else 0))
+        for r in range(height):
+            canvas.put(r, col, glyphs.phase, palette.PHASE)
 
     rules = chart.rules[win.start : win.start + win.count] if chart.rules else []
     for j, v in enumerate(values):
@@ -163,10 +222,11 @@ def draw_control_chart(
             canvas.put(r, col, ch, f"{st} {palette.CURSOR}".strip())
         canvas.put(0, col, glyphs.cursor, palette.CURSOR)
 
-    for i, note in enumerate(off_chart):
-        row = 0 if note.startswith("USL") else height - 1
-        if row in labels:
-            row = min(height - 1, row + 1) if row == 0 else max(0, row - 1 - i)
-        labels.setdefault(row, Text(f"{note[:3]}{'^' if row < height // 2 else 'v'}{note[3:]}"
-                                    [:LABEL_WIDTH - 1], palette.SPEC))
+    for note in off_chart:
+        above = note.startswith("USL")
+        rows = range(height) if above else range(height - 1, -1, -1)
+        row = next((r for r in rows if r not in labels), None)  # nearest free row to its edge
+        if row is not None:
+            labels[row] = Text(f"{note[:3]}{'^' if above else 'v'}{note[3:]}"[:LABEL_WIDTH - 1],
+                               palette.SPEC)
     return canvas.text(labels)

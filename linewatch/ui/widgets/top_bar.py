@@ -3,29 +3,58 @@
 from __future__ import annotations
 
 from rich.text import Text
+from textual.events import Resize
 from textual.widgets import Static
 
 from linewatch import view
+from linewatch.ui.formatting import to_acknowledge
+
+
+def acknowledge_words(alarms: list[view.AlarmView]) -> str:
+    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge'."""
+    waiting, active = to_acknowledge(alarms)
+    if not waiting:
+        return "nothing to acknowledge"
+    return f"{waiting} to acknowledge ({active or 'none'} still active)"
 
 
 class TopBar(Static):
-    """Title · view name · open alarms · catching up · the monitor's message · filter."""
+    """Title · view name · alarms to acknowledge · catching up · the monitor's message · filter.
+
+    When the line is narrower than the whole text, the title goes first, so where you are and
+    what waits for you stay readable."""
+
+    _last: tuple[view.LineSnapshot, str, str] | None = None
 
     def show(self, line: view.LineSnapshot, where: str, extra: str = "") -> None:
-        unack = sum(1 for a in line.alarms if a.state == view.UNACKNOWLEDGED)
-        text = Text(no_wrap=True, overflow="ellipsis", end="")
-        text.append(f" {line.title} ", "bold")
-        text.append(f"| {where} ")
+        self._last = (line, where, extra)
+        self.update(self._compose_text(line, where, extra), layout=False)  # always one line
+
+    def _compose_text(self, line: view.LineSnapshot, where: str, extra: str) -> Text:
+        waiting, _active = to_acknowledge(line.alarms)
+        parts: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
         if line.role == "viewer":
-            text.append("| viewing ")
-        if unack:
-            text.append(f"| {unack} UNACK ", "bold reverse")
-        else:
-            text.append("| no unacknowledged alarm ")
+            parts.append(("viewing", ""))
+        parts.append((acknowledge_words(line.alarms), "bold reverse" if waiting else ""))
         if line.catching_up is not None:
-            text.append(f"| catching up {line.catching_up:.0%} ", "italic")
+            parts.append((f"catching up {line.catching_up:.0%}", "italic"))
         if extra:
-            text.append(f"| {extra} ")
+            parts.append((extra, ""))
         if line.message:
-            text.append(f"| {line.message}")
-        self.update(text, layout=False)  # always one line: no need to lay the screen out
+            parts.append((line.message, ""))
+        width = self.size.width or (self.app.size.width if self.is_attached else 0)
+        if width and sum(len(p) + 3 for p, _ in parts) > width:
+            parts = parts[1:]
+        text = Text(no_wrap=True, overflow="ellipsis", end="")
+        for k, (part, style) in enumerate(parts):
+            if k == 0:
+                text.append(f" {part} ", style)
+            else:
+                text.append("| ")
+                text.append(part, style)
+                text.append(" ")
+        return text
+
+    def on_resize(self, event: Resize) -> None:
+        if self._last is not None:
+            self.show(*self._last)

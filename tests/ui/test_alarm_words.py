@@ -1,0 +1,79 @@
+"""What the screen says about alarms: how many wait for an acknowledgement, and feed alarms named
+by their file rather than a long path."""
+
+from __future__ import annotations
+
+import dataclasses
+
+from textual.widgets import DataTable, Static
+
+from linewatch import view
+from linewatch.ui.app import LinewatchApp
+from linewatch.ui.screens.feeds import FeedScreen
+from linewatch.ui.screens.queue import AlarmQueueScreen
+from linewatch.ui.widgets.top_bar import TopBar
+
+from .fake_line import FakeSource, build_snapshot
+
+
+def top_bar_text(app: LinewatchApp) -> str:
+    return str(app.screen.query_one(TopBar).render())
+
+
+async def test_top_bar_counts_returned_unacknowledged_alarms_as_waiting(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    alarms = build_snapshot().alarms
+    # ISA-18.2: both unacknowledged and returned-unacknowledged alarms need an acknowledgement
+    active = sum(a.state == view.UNACKNOWLEDGED for a in alarms)
+    returned = sum(a.state == view.RETURNED_UNACKNOWLEDGED for a in alarms)
+    assert returned > 0 and active > 0  # the fixed line has both kinds
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.pause()
+        assert f"{active + returned} to acknowledge ({active} still active)" in top_bar_text(app)
+        # every alarm returned to normal but none acknowledged: still waiting, none active
+        waiting = [dataclasses.replace(a, state=view.RETURNED_UNACKNOWLEDGED) for a in alarms]
+        source.publish(dataclasses.replace(build_snapshot(), version=2, alarms=waiting))
+        await pilot.pause(0.3)
+        assert f"{len(alarms)} to acknowledge (none still active)" in top_bar_text(app)
+        done = [dataclasses.replace(a, state=view.ACKNOWLEDGED) for a in alarms]
+        source.publish(dataclasses.replace(build_snapshot(), version=3, alarms=done))
+        await pilot.pause(0.3)
+        assert "nothing to acknowledge" in top_bar_text(app)
+
+
+async def test_narrow_top_bar_drops_the_title_before_the_alarm_count(app: LinewatchApp) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f")
+        await pilot.pause()
+        text = top_bar_text(app)
+        assert "extrusion line 3" not in text
+        assert text.startswith(" feed pulse") and "to acknowledge" in text
+
+
+async def test_feed_alarm_shows_the_file_name_and_its_path_below(app: LinewatchApp) -> None:
+    feed_alarm = next(a for a in build_snapshot().alarms if a.kind == "feed-health")
+    assert feed_alarm.characteristic == "/srv/line3/scale.jsonl"
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("a")
+        screen = app.screen
+        assert isinstance(screen, AlarmQueueScreen)
+        table = screen.query_one("#queue-table", DataTable)
+        row = [str(k.value) for k in table.rows].index(str(feed_alarm.id))
+        assert str(table.get_cell_at((row, 2))) == "scale.jsonl"
+        table.move_cursor(row=row)
+        await pilot.pause()
+        plan = str(screen.query_one("#queue-plan", Static).render())
+        assert "/srv/line3/scale.jsonl" in plan
+        await pilot.press("c")  # a file has no chart: its close-up is the feed pulse
+        await pilot.pause()
+        assert isinstance(app.screen, FeedScreen)
+
+
+async def test_feed_pulse_names_files_by_their_base_name(app: LinewatchApp) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f")
+        await pilot.pause()
+        table = app.screen.query_one("#feed-table", DataTable)
+        names = [str(table.get_cell_at((r, 1))) for r in range(table.row_count)]
+        assert names == [f.file.rsplit("/", 1)[-1] for f in build_snapshot().feeds]
