@@ -34,22 +34,31 @@ def _lookback(specs) -> int:
     return max((s.lookback for s in specs), default=1)
 
 
-def _judge_vectorised(points: list[PlottedPoint], rules: ChartRules, fed: deque) -> None:
-    """Fire the rules on `points` with numpy over the fed tail plus the new points, then bring
-    the incremental counters up to date by replaying the new tail."""
-    tail = list(fed)
-    x = np.array(tail + [p.value for p in points], dtype=float)
+def _fire_chunk(values: np.ndarray, rules: ChartRules, fed: deque) -> dict[int, list[str]]:
+    """Rule ids firing at each position of `values` (new points of one chart, in order), judged
+    with numpy over the fed tail plus the new points; the counters are then brought up to date
+    by replaying the new tail."""
+    if values.shape[0] == 0:
+        return {}
+    tail = np.fromiter(fed, dtype=float, count=len(fed))
+    x = np.concatenate((tail, values))
     lim = rules.limits
     side, level = classify(x, lim.center, lim.sigma, lim.ucl, lim.lcl)
-    hits: list[list[str]] = [[] for _ in points]
-    start = len(tail)
+    hits: dict[int, list[str]] = {}
+    start = tail.shape[0]
     for spec in rules.specs:
         for k in np.flatnonzero(evaluate_classified(spec, x, side, level)[start:]).tolist():
-            hits[k].append(spec.id)
-    for point, rule_ids in zip(points, hits, strict=True):
-        point.rules = rule_ids
-    fed.extend(p.value for p in points)
+            hits.setdefault(k, []).append(spec.id)
+    fed.extend(values[-fed.maxlen :].tolist() if fed.maxlen else values.tolist())
     rules.replay(list(fed))
+    return hits
+
+
+def _judge_vectorised(points: list[PlottedPoint], rules: ChartRules, fed: deque) -> None:
+    """Set the rules that fire at each of `points` in one numpy pass (see `_fire_chunk`)."""
+    hits = _fire_chunk(np.array([p.value for p in points], dtype=float), rules, fed)
+    for k, point in enumerate(points):
+        point.rules = hits.get(k, [])
 
 
 def _limits_to_dict(lim: LimitSet) -> dict:
@@ -295,6 +304,10 @@ class CharacteristicEngine:
         `meta`, when given, holds one JSON-ready item per value (e.g. file, line, time); it is
         carried on the plotted point (a subgroup's from its last row) and on its firings."""
         out = LiveOutput()
+        if (self.limits is not None and not self.waiting
+                and len(values) >= VECTOR_MIN * self.setup.subgroup_size):
+            self._push_judged_chunk(values, meta, out)
+            return out
         queue: list[tuple[PlottedPoint, PlottedPoint | None]] = []
         n = self.setup.subgroup_size
         for k, v in enumerate(values):
@@ -323,8 +336,73 @@ class CharacteristicEngine:
                 self.pending_rows = []
             self.next_index += 1
             self._plot(loc, disp, out, queue)
+            rest = len(values) - k - 1
+            if self.limits is not None and not self.waiting and rest >= VECTOR_MIN * n:
+                # limits formed inside this chunk: the rest goes the vectorised way
+                self._judge_all(queue, out)
+                queue = []
+                self._push_judged_chunk(values[k + 1 :],
+                                        None if meta is None else meta[k + 1 :], out)
+                break
         self._judge_all(queue, out)
         return out
+
+    def _push_judged_chunk(self, values, meta, out: LiveOutput) -> None:
+        """A large chunk in a phase that has limits: plotted statistics, rule firings and the
+        kept history all computed with numpy, the same as feeding the values one by one."""
+        n = self.setup.subgroup_size
+        x = np.asarray(values, dtype=float)
+        first_row = self.values_seen
+        self.values_seen += x.shape[0]
+        if n == 1:
+            loc_vals = x
+            rows = first_row + np.arange(x.shape[0])
+            prev = self.prev_value
+            disp_vals = np.abs(np.diff(x, prepend=x[0] if prev is None else prev))
+            disp_from = 1 if prev is None else 0
+            self.prev_value = float(x[-1])
+            tags = range(x.shape[0])
+        else:
+            joined = np.concatenate((np.asarray(self.pending, dtype=float), x))
+            groups = joined.shape[0] // n
+            loc_s, disp_s = plotted_series(joined[: groups * n], n, self.setup.dispersion)
+            loc_vals, disp_vals, disp_from = loc_s.values, disp_s.values, 0
+            last = np.arange(groups) * n + (n - 1) - len(self.pending)  # position in this chunk
+            rows = first_row + last
+            tags = last.tolist()
+            left = joined[groups * n :]
+            self.pending = left.tolist()
+            self.pending_rows = list(range(self.values_seen - len(left), self.values_seen))
+        count = loc_vals.shape[0]
+        if count == 0:
+            return
+        start = self.next_index
+        self.next_index += count
+        assert self.loc_rules is not None and self.disp_rules is not None
+        loc_hits = _fire_chunk(loc_vals, self.loc_rules, self.loc_fed)
+        disp_hits = _fire_chunk(disp_vals[disp_from:], self.disp_rules, self.disp_fed)
+        tag_of = (lambda k: None) if meta is None else (lambda k: meta[tags[k]])
+        keep_from = max(0, count - HISTORY_KEEP)
+        for k in range(keep_from, count):
+            idx = start + k
+            self.loc_history.append(PlottedPoint(self.loc_chart, idx, float(loc_vals[k]),
+                                                 int(rows[k]), self.phase, True,
+                                                 loc_hits.get(k, []), tag_of(k)))
+            if k >= disp_from:
+                self.disp_history.append(PlottedPoint(
+                    self.disp_chart, idx, float(disp_vals[k]), int(rows[k]), self.phase, True,
+                    disp_hits.get(k - disp_from, []), tag_of(k)))
+        for chart, lo in ((self.loc_chart, start), (self.disp_chart, start + disp_from)):
+            if lo <= start + count - 1:
+                earlier, _ = out.judged.get(chart, (lo, lo))
+                out.judged[chart] = (min(earlier, lo), start + count - 1)
+        for k in sorted(set(loc_hits) | {j + disp_from for j in disp_hits}):
+            for chart, hits, pos, vals in ((self.loc_chart, loc_hits, k, loc_vals),
+                                           (self.disp_chart, disp_hits, k - disp_from,
+                                            disp_vals)):
+                for rule_id in hits.get(pos, []):
+                    out.firings.append(Firing(chart, rule_id, start + k, int(rows[k]),
+                                              float(vals[k]), tag_of(k)))
 
     def _plot(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput,
               queue: list[tuple[PlottedPoint, PlottedPoint | None]]) -> None:

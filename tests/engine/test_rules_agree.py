@@ -104,10 +104,19 @@ def _live_equals_history(values, n, dispersion, baseline, cuts):
     live = CharacteristicEngine(setup)
     firings = []
     limits = None
+    judged: dict[str, list[tuple[int, int]]] = {}
     for chunk in _chunks(values, cuts):
         out = live.push(chunk)
         firings.extend(out.firings)
         limits = out.limits or limits
+        for chart, span in out.judged.items():
+            judged.setdefault(chart, []).append(span)
+    # the alarm book is told of every judged point once, in contiguous ranges
+    for spans in judged.values():
+        for (_, hi), (lo, _) in zip(spans, spans[1:]):
+            assert lo == hi + 1
+        if limits is not None:
+            assert spans[-1][1] == live.next_index - 1
     try:
         hist = analyse_history(np.array(values), setup)
     except NotEnoughData:
