@@ -4,6 +4,7 @@ by their file rather than a long path."""
 from __future__ import annotations
 
 import dataclasses
+import re
 
 from textual.widgets import DataTable, Static
 
@@ -77,3 +78,37 @@ async def test_feed_pulse_names_files_by_their_base_name(app: LinewatchApp) -> N
         table = app.screen.query_one("#feed-table", DataTable)
         names = [str(table.get_cell_at((r, 1))) for r in range(table.row_count)]
         assert names == [f.file.rsplit("/", 1)[-1] for f in build_snapshot().feeds]
+
+
+async def test_a_close_up_top_bar_fits_80_columns_with_the_alarm_count_in_short(
+    app: LinewatchApp,
+) -> None:
+    alarms = build_snapshot().alarms
+    waiting = sum(a.state in (view.UNACKNOWLEDGED, view.RETURNED_UNACKNOWLEDGED) for a in alarms)
+    active = sum(a.state == view.UNACKNOWLEDGED for a in alarms)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("enter")
+        await pilot.pause()
+        bar = app.screen.query_one(TopBar)
+        text = bar.render()
+        plain = getattr(text, "plain", str(text))
+        assert len(plain.rstrip()) <= 80
+        assert f"{waiting} to ack, {active} active" in plain
+        assert plain.rstrip().endswith("points")  # the close-up's own words are not cut off
+
+
+async def test_a_shelved_alarm_without_a_reason_reads_cleanly(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    picture = build_snapshot()
+    shelved = next(a for a in picture.alarms if a.state == view.SHELVED)
+    shelved.reason = None
+    source.picture = picture
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("a")
+        table = app.screen.query_one("#queue-table", DataTable)
+        table.move_cursor(row=[str(k.value) for k in table.rows].index(str(shelved.id)))
+        await pilot.pause()
+        plan = str(app.screen.query_one("#queue-plan", Static).render())
+    line = next(s for s in plan.split("\n") if s.startswith("shelved until"))
+    assert re.fullmatch(r"shelved until \d\d:\d\d:\d\d", line.strip()), line

@@ -180,7 +180,8 @@ class AlarmQueueScreen(LineScreen):
                     text.append(f" - {a.note}")
                 text.append("\n")
             if a.state == view.SHELVED and a.shelved_until:
-                text.append(f"shelved until {fmt_clock(a.shelved_until)}: {a.reason or ''}\n")
+                why = f": {a.reason}" if a.reason else ""
+                text.append(f"shelved until {fmt_clock(a.shelved_until)}{why}\n")
             text.append("reaction plan: ", "bold")
             text.append(a.reaction_plan or "none given in the config", "" if a.reaction_plan
                         else palette.LABEL)
@@ -225,7 +226,9 @@ class AlarmQueueScreen(LineScreen):
                 self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
 
         self.app.push_screen(
-            AckPanel(f"all {count} unacknowledged alarms of {name}", reasons_for(a)), done
+            AckPanel(f"all {count} alarm{'' if count == 1 else 's'} of {alarm_subject(a)}",
+                     reasons_for(a)),
+            done,
         )
 
     def action_shelve(self) -> None:

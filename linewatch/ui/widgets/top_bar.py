@@ -10,11 +10,14 @@ from linewatch import view
 from linewatch.ui.formatting import to_acknowledge
 
 
-def acknowledge_words(alarms: list[view.AlarmView]) -> str:
-    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge'."""
+def acknowledge_words(alarms: list[view.AlarmView], short: bool = False) -> str:
+    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge'; `short` for a narrow
+    terminal: '5 to ack, 2 active'."""
     waiting, active = to_acknowledge(alarms)
     if not waiting:
-        return "nothing to acknowledge"
+        return "nothing to ack" if short else "nothing to acknowledge"
+    if short:
+        return f"{waiting} to ack, {active} active"
     return f"{waiting} to acknowledge ({active or 'none'} still active)"
 
 
@@ -32,19 +35,23 @@ class TopBar(Static):
 
     def _compose_text(self, line: view.LineSnapshot, where: str, extra: str) -> Text:
         waiting, _active = to_acknowledge(line.alarms)
-        parts: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
+        loud = "bold reverse" if waiting else ""
+        head: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
         if line.role == "viewer":
-            parts.append(("viewing", ""))
-        parts.append((acknowledge_words(line.alarms), "bold reverse" if waiting else ""))
+            head.append(("viewing", ""))
+        tail: list[tuple[str, str]] = []
         if line.catching_up is not None:
-            parts.append((f"catching up {line.catching_up:.0%}", "italic"))
+            tail.append((f"catching up {line.catching_up:.0%}", "italic"))
         if extra:
-            parts.append((extra, ""))
+            tail.append((extra, ""))
         if line.message:
-            parts.append((line.message, ""))
+            tail.append((line.message, ""))
         width = self.size.width or (self.app.size.width if self.is_attached else 0)
-        if width and sum(len(p) + 3 for p, _ in parts) > width:
-            parts = parts[1:]
+        # narrower and narrower: first without the title, then with the alarm count in short
+        for drop, short in ((0, False), (1, False), (1, True)):
+            parts = [*head[drop:], (acknowledge_words(line.alarms, short), loud), *tail]
+            if not width or sum(len(p) + 3 for p, _ in parts) <= width:
+                break
         text = Text(no_wrap=True, overflow="ellipsis", end="")
         for k, (part, style) in enumerate(parts):
             if k == 0:
