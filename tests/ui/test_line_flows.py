@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import io
 
 from rich.console import Console
@@ -16,7 +17,7 @@ from linewatch.ui.screens.feeds import FeedScreen
 from linewatch.ui.screens.keys_help import KeysHelp
 from linewatch.ui.screens.restart_panel import RestartPanel
 
-from .fake_line import FakeActions
+from .fake_line import FakeActions, FakeSource, build_snapshot
 
 
 def board_rows(app: LinewatchApp) -> list[str]:
@@ -155,3 +156,25 @@ async def test_quit_asks_when_an_acknowledgement_is_half_typed(
         await pilot.pause()
     assert app.return_code == 0
     assert actions.calls == []
+
+
+async def test_a_requested_new_phase_is_announced_until_its_limits_arrive(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("down", "enter")
+        await pilot.pause()
+        screen = app.screen
+        assert isinstance(screen, CloseUpScreen)
+        await pilot.press("left", "n", *"new die fitted", "enter")
+        await pilot.pause()
+        cursor = screen.query_one("#closeup-cursor", Static)
+        assert "new phase from point 88 asked for" in str(cursor.render())
+        # the collector has estimated the new phase's limits: a third phase appears
+        picture = build_snapshot()
+        wall = picture.characteristics[1]
+        assert wall.location is not None
+        wall.location.phase_limits.append((88, 2.2, 2.29, 2.11, 0.03))
+        source.publish(dataclasses.replace(picture, version=2))
+        await pilot.pause(0.3)
+        assert "asked for" not in str(cursor.render())

@@ -75,6 +75,8 @@ class CloseUpScreen(LineScreen):
         self.focus_index = focus_index
         self.cursor: int | None = None  # position in location.values
         self.detail: view.CharacteristicView | None = None
+        # a new phase asked for here, and how many phases there were then (until one more comes)
+        self.requested: tuple[int, int] | None = None
 
     def compose(self) -> ComposeResult:
         g = self.lw.glyphs
@@ -175,6 +177,14 @@ class CloseUpScreen(LineScreen):
         if cv.baseline_needed:
             text.append(f"learning: {cv.baseline_needed} more points before limits exist\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])
+        if self.requested is not None and loc is not None:
+            start, phases_then = self.requested
+            if len(loc.phase_limits) > phases_then:
+                self.requested = None  # its limits have arrived and are drawn
+            else:
+                text.append(f"new phase from point {start} asked for: its limits come once "
+                            "enough points have arrived\n",
+                            palette.STATE_STYLE[view.STATE_LEARNING])
         if loc and self.cursor is not None and loc.values:
             i = self.cursor
             idx = loc.indices[i] if i < len(loc.indices) else i
@@ -240,9 +250,12 @@ class CloseUpScreen(LineScreen):
             return
         start = loc.indices[self.cursor] if self.cursor < len(loc.indices) else self.cursor
         last = loc.indices[-1] if loc.indices else len(loc.values) - 1
+        phases_now = len(loc.phase_limits)
 
         def done(choice: RestartChoice | None) -> None:
             if choice and self.ask("new_baseline", cv.name, choice.start_index, choice.reason)[0]:
                 self.notify(f"new baseline for {cv.name} from point {choice.start_index}")
+                self.requested = (choice.start_index, phases_now)
+                self._draw()
 
         self.app.push_screen(RestartPanel(cv.name, start, last), done)
