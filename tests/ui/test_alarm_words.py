@@ -112,3 +112,20 @@ async def test_a_shelved_alarm_without_a_reason_reads_cleanly(
         plan = str(app.screen.query_one("#queue-plan", Static).render())
     line = next(s for s in plan.split("\n") if s.startswith("shelved until"))
     assert re.fullmatch(r"shelved until \d\d:\d\d:\d\d", line.strip()), line
+
+
+async def test_the_rule_id_joins_the_chart_in_one_bracket(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    picture = build_snapshot()
+    first = next(a for a in picture.alarms if a.kind == "beyond-limits")
+    first.description = "a point outside the control limits (xbar chart)"
+    source.picture = picture
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.press("a")
+        await pilot.pause()
+        table = app.screen.query_one("#queue-table", DataTable)
+        row = [str(k.value) for k in table.rows].index(str(first.id))
+        what = str(table.get_cell_at((row, 3)))
+    assert what.endswith(f"outside the control limits (xbar chart, {first.rule})"), what
+    assert what.count("(") == 1

@@ -128,9 +128,17 @@ class AlarmQueueScreen(LineScreen):
         loud = "bold" if a.priority <= 2 else ""
         what = Text(f"{KIND_WORDS.get(a.kind, a.kind)}: ", loud, no_wrap=True,
                     overflow="ellipsis", end="")
-        what.append(a.description or a.rule)
+        words = a.description or a.rule
         if a.rule and a.kind in ("run-rule", "beyond-limits"):
-            what.append(f" ({a.rule})", palette.LABEL)
+            if words.endswith(")"):  # "... (xbar chart)": one bracket, "(xbar chart, we1)"
+                what.append(words[:-1])
+                what.append(f", {a.rule}", palette.LABEL)
+                what.append(")")
+            else:
+                what.append(words)
+                what.append(f" ({a.rule})", palette.LABEL)
+        else:
+            what.append(words)
         state_style = {view.UNACKNOWLEDGED: "bold reverse",
                        view.RETURNED_UNACKNOWLEDGED: "bold"}.get(a.state, "")
         return [
