@@ -67,7 +67,9 @@ class KeysHelp(ModalScreen[None]):
         self.query_one("#help-box", VerticalScroll).focus()  # arrows and PgUp/PgDn scroll
 
     def _content(self) -> Group:
-        parts: list[Text | Table] = [Text("Keys  (Esc closes)", "bold")]
+        parts: list[Text | Table] = [Text("Keys  (Esc closes)", "bold"), Text(
+            "The footer shows the keys most needed where you are; on a narrow terminal it "
+            "leaves some out. Every key is listed here.", "italic")]
         for where, bindings in key_sections():
             parts.append(Text(f"\n{where}", "underline"))
             table = Table(box=None, show_header=False, pad_edge=False, expand=False)
@@ -82,7 +84,8 @@ class KeysHelp(ModalScreen[None]):
         marks.append(", ".join(f"{glyph} {state}" for state, glyph in g.state.items()))
         marks.append(
             "\nsparklines and charts: a digit marks a signalling point with its rule's number "
-            f"(1 = n1/we1 ...); {g.phase} separates phases of limits; [ ] are LSL and USL."
+            f"(1 = n1/we1 ...); {g.phase} separates phases of limits, and each phase's points "
+            "are drawn against that phase's own CL, UCL, LCL and zones; [ ] are LSL and USL."
             "\nspec margin: [ ] the spec limits, = the recent mean ± 3σ, "
             f"{g.mean} the mean; then the margin to the nearer limit in σ, Cpk and, after >, "
             "its 95% lower bound."
