@@ -2,8 +2,8 @@
 
 Everything here takes the plotted individual values in order and returns plain dataclasses. Data
 never makes these functions raise: a figure that cannot be computed (too few points, zero spread,
-a missing spec limit) is None. scipy is imported inside the functions that need a distribution, so
-importing this module stays cheap on the `check` path.
+a missing spec limit) is None. The distribution functions come from engine/distributions.py (pure
+Python), so the `check` path never pays for importing scipy.
 """
 
 from __future__ import annotations
@@ -15,6 +15,14 @@ from dataclasses import dataclass
 from typing import Any, TypeVar
 
 import numpy as np
+
+from linewatch.engine.distributions import (
+    chi_square_upper_quantile,
+    normal_cdf,
+    normal_quantile,
+    student_t_cdf,
+    student_t_quantile,
+)
 
 # Quartiles use numpy's "linear" method (Hyndman & Fan type 7, numpy's default); it equals
 # statistics.quantiles(method="inclusive").
@@ -172,9 +180,7 @@ def describe(values: Any, confidence: float = CONFIDENCE) -> Description:
     stdev = float(np.std(x, ddof=1)) if n >= 2 else None
     ci = None
     if stdev is not None:
-        from scipy.special import stdtrit  # Student t quantile; lazy: keeps import cheap
-
-        half = float(stdtrit(n - 1, 0.5 + confidence / 2.0)) * stdev / math.sqrt(n)
+        half = student_t_quantile(n - 1, 0.5 + confidence / 2.0) * stdev / math.sqrt(n)
         ci = _pair(mean - half, mean + half)
     q1, median, q3 = (float(q) for q in np.percentile(x, [25, 50, 75], method=QUARTILE_METHOD))
     spread = q3 - q1
@@ -245,31 +251,27 @@ def capability(
 
     cp_ci = cpk_ci = cpk_lower = None
     if n >= 2:
-        from scipy.special import chdtri, ndtri  # lazy: keeps import cheap
-
         alpha = 1.0 - confidence
         df = n - 1
         if cp is not None:
-            # chdtri(df, q) is the chi-square value with upper-tail probability q
-            lo = cp * math.sqrt(float(chdtri(df, 1.0 - alpha / 2.0)) / df)
-            hi = cp * math.sqrt(float(chdtri(df, alpha / 2.0)) / df)
+            # chi_square_upper_quantile(df, q) is the chi-square value with upper-tail probability q
+            lo = cp * math.sqrt(chi_square_upper_quantile(df, 1.0 - alpha / 2.0) / df)
+            hi = cp * math.sqrt(chi_square_upper_quantile(df, alpha / 2.0) / df)
             cp_ci = _pair(lo, hi)
         if cpk is not None:
             se = math.sqrt(1.0 / (9.0 * n) + cpk * cpk / (2.0 * df))
-            z2 = float(ndtri(1.0 - alpha / 2.0))
-            z1 = float(ndtri(confidence))
+            z2 = normal_quantile(1.0 - alpha / 2.0)
+            z1 = normal_quantile(confidence)
             cpk_ci = _pair(cpk - z2 * se, cpk + z2 * se)
             cpk_lower = _finite(cpk - z1 * se)
 
     ppm = None
     if overall is not None:
-        from scipy.special import ndtr  # lazy: keeps import cheap
-
         out = 0.0
         if lsl is not None:
-            out += float(ndtr((lsl - mean) / overall))
+            out += normal_cdf((lsl - mean) / overall)
         if usl is not None:
-            out += float(ndtr((mean - usl) / overall))
+            out += normal_cdf((mean - usl) / overall)
         ppm = _finite(out * 1e6)
     return Capability(
         cp=cp,
@@ -315,12 +317,7 @@ def trend(
         return Trend(slope=slope, intercept=intercept, r2=r2)
     adj_r2 = 1.0 - (1.0 - r2) * (n - 1) / (n - 2)
     se = math.sqrt(residual / (n - 2) / sxx)
-    if se == 0.0:
-        p_value = 0.0
-    else:
-        from scipy.special import stdtr  # lazy: keeps import cheap
-
-        p_value = float(2.0 * stdtr(n - 2, -abs(slope / se)))
+    p_value = 0.0 if se == 0.0 else 2.0 * student_t_cdf(n - 2, -abs(slope / se))
     ahead = None
     if p_value < alpha and slope != 0.0:
         limit = usl if slope > 0 else lsl
