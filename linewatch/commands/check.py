@@ -4,11 +4,9 @@ budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors."""
 from __future__ import annotations
 
 import argparse
-import contextlib
 import json
 import math
 import sys
-import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -130,23 +128,8 @@ def _signal_lines(a: Analysis) -> list[str]:
     return out
 
 
-def _warm_up_statistics() -> threading.Thread:
-    """Import the special functions the summary needs on a second core while the logs are read
-    (the import takes about as long as reading a million rows)."""
-
-    def load() -> None:
-        with contextlib.suppress(ImportError):
-            import scipy.special  # noqa: F401
-
-    thread = threading.Thread(target=load, name="warm-up", daemon=True)
-    thread.start()
-    return thread
-
-
 def run(args: argparse.Namespace) -> int:
-    warm = _warm_up_statistics()
     analyses, rejected = analyse(args)
-    warm.join()
     several_files = len(args.logs) > 1
     write = sys.stdout.write
     if args.format == "jsonl":
