@@ -3,12 +3,14 @@ general-purpose references (scipy.stats.linregress, statistics.quantiles)."""
 
 from __future__ import annotations
 
+import io
 import math
 import re
 import statistics
 
 import numpy as np
 import pytest
+from rich.console import Console
 from scipy import stats
 from textual.widgets import Static
 
@@ -87,3 +89,18 @@ async def test_without_a_known_pace_the_projection_stays_in_points(
         text = str(app.screen.query_one("#closeup-trend", Static).render()).replace("\n", " ")
     assert re.search(r"in about \d+ points if it goes on", text), text
     assert "pace" not in text
+
+
+async def test_the_box_plot_of_a_subgrouped_characteristic_says_it_shows_means(
+    app: LinewatchApp,
+) -> None:
+    od = build_snapshot().characteristics[0]
+    assert od.subgroup_size == 5
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.press("enter")
+        await pilot.pause()
+        box = app.screen.query_one("#closeup-box", Static)
+        console = Console(width=120, file=io.StringIO(), color_system=None)
+        console.print(box.content)
+        heading = console.file.getvalue().split("\n")[0]  # type: ignore[attr-defined]
+    assert "subgroup means (n=5)" in heading

@@ -142,9 +142,11 @@ class CloseUpScreen(LineScreen):
         values = loc.values if loc else []
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
         box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs)
+        # the spec limits bound single parts; means of subgroups spread less, so say which
+        what = "points" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
         box.end = "\n"  # Textual counts newlines to size a Group
         self.query_one("#closeup-box", Static).update(Group(
-            Text(f"last {min(len(values), 100)} points against the spec limits", "bold"), box,
+            Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
         ))
         self.query_one("#closeup-phases", Static).update(Group(
             Text("phases of limits", "bold"),
