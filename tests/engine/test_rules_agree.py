@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -113,7 +115,7 @@ def _live_equals_history(values, n, dispersion, baseline, cuts):
             judged.setdefault(chart, []).append(span)
     # the alarm book is told of every judged point once, in contiguous ranges
     for spans in judged.values():
-        for (_, hi), (lo, _) in zip(spans, spans[1:]):
+        for (_, hi), (lo, _) in itertools.pairwise(spans):
             assert lo == hi + 1
         if limits is not None:
             assert spans[-1][1] == live.next_index - 1
