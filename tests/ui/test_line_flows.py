@@ -178,3 +178,34 @@ async def test_a_requested_new_phase_is_announced_until_its_limits_arrive(
         source.publish(dataclasses.replace(picture, version=2))
         await pilot.pause(0.3)
         assert "asked for" not in str(cursor.render())
+
+
+async def test_home_and_end_move_the_close_up_cursor_to_the_first_and_newest_points(
+    app: LinewatchApp,
+) -> None:
+    wall = build_snapshot().characteristics[1]
+    assert wall.location is not None
+    first, newest = wall.location.indices[0], wall.location.indices[-1]
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("down", "enter", "home")
+        await pilot.pause()
+        cursor = app.screen.query_one("#closeup-cursor", Static)
+        assert f"point {first} =" in str(cursor.render())
+        await pilot.press("end")
+        await pilot.pause()
+        assert f"point {newest} =" in str(cursor.render())
+
+
+async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_charts() -> None:
+    from textual.widgets._footer import FooterKey
+
+    from .conftest import make_app
+
+    for size, offered in (((80, 24), True), ((160, 48), False)):
+        app = make_app()
+        async with app.run_test(size=size) as pilot:
+            await pilot.press("down", "enter")
+            await pilot.pause()
+            await pilot.pause()
+            keys = {k.key for k in app.screen.query(FooterKey)}
+            assert ("pagedown" in keys) is offered, (size, keys)

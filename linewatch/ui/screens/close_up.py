@@ -42,12 +42,20 @@ def projection_words(slope: float, points: int, lsl: float | None, usl: float | 
 
 
 class CloseUpBody(VerticalScroll):
-    """Scrolls with up/down/PgUp/PgDn; left and right stay with the point cursor."""
+    """Scrolls with up/down/PgUp/PgDn; left, right, Home and End stay with the point cursor."""
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("left", "screen.move(-1)", "Point", key_display="<-"),
         Binding("right", "screen.move(1)", "Point", key_display="->", show=False),
+        Binding("home", "screen.move_to(0)", "First", show=False),
+        Binding("end", "screen.move_to(-1)", "Newest", show=False),
+        Binding("pagedown", "page_down", "Figures", key_display="PgDn",
+                tooltip="scroll down to the box plot, phases, trend and open alarms"),
     ]
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """PgDn leads to the figures only when they sit below the charts (not beside them)."""
+        return not (action == "page_down" and self.screen.has_class("-wide"))
 
 
 class CloseUpScreen(LineScreen):
@@ -101,6 +109,7 @@ class CloseUpScreen(LineScreen):
     def on_resize(self, event: Resize) -> None:
         wide = event.size.width >= WIDE_AT[0] and event.size.height >= WIDE_AT[1]
         self.set_class(wide, "-wide")
+        self.refresh_bindings()
         self.call_after_refresh(self._draw_figures)
 
     def show_line(self) -> None:
