@@ -46,3 +46,18 @@ def test_help_and_the_check_command_module_load_no_heavy_libraries():
     )
     heavy = {"textual", "rich", "scipy.stats", "pandas", "sqlite3", "watchdog"}
     assert not heavy & loaded
+
+
+def test_a_whole_check_run_loads_neither_scipy_nor_the_ui(tmp_path):
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    sample = root / "sample_feeds" / "extrusion_wide.csv"
+    config = root / "config" / "extrusion_wide.toml"
+    loaded = _modules_after(
+        "import contextlib, io\nfrom linewatch.cli import main\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        f"    main(['check', {str(sample)!r}, '-c', {str(config)!r}, '--format', 'jsonl'])"
+    )
+    assert "linewatch.engine.summary" in loaded  # the run really summarised
+    assert not {m.split(".")[0] for m in loaded} & {"scipy", "pandas", "textual", "rich"}
