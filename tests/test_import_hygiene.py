@@ -48,7 +48,7 @@ def test_help_and_the_check_command_module_load_no_heavy_libraries():
     assert not heavy & loaded
 
 
-def test_a_whole_check_run_loads_neither_scipy_nor_the_ui(tmp_path):
+def test_a_whole_check_run_loads_neither_scipy_nor_the_ui():
     from pathlib import Path
 
     root = Path(__file__).resolve().parents[1]
