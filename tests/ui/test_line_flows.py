@@ -119,7 +119,8 @@ async def test_keys_help_lists_the_keys_and_the_thresholds(app: LinewatchApp) ->
         console.print(app.screen.query_one("#help-text", Static).content)
         text = console.file.getvalue()  # type: ignore[attr-defined]
         for phrase in ("acknowledge the highlighted alarm", "shelve", "new phase", "Ctrl+Q",
-                       "1.00", "1.33", "common practice", "name contains"):
+                       "1.00", "1.33", "common practice", "name contains",
+                       "scroll down to the box plot"):
             assert phrase in text
         await pilot.press("escape")
         assert isinstance(app.screen, BoardScreen)

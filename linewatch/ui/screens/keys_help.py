@@ -21,7 +21,7 @@ def key_sections() -> list[tuple[str, list[Binding]]]:
     from linewatch.ui.app import LinewatchApp
     from linewatch.ui.screens.ack_panel import AckPanel
     from linewatch.ui.screens.board import BoardScreen
-    from linewatch.ui.screens.close_up import CloseUpScreen
+    from linewatch.ui.screens.close_up import CloseUpBody, CloseUpScreen
     from linewatch.ui.screens.queue import AlarmQueueScreen
     from linewatch.ui.screens.restart_panel import RestartPanel
     from linewatch.ui.screens.shelve_panel import ShelvePanel
@@ -29,11 +29,13 @@ def key_sections() -> list[tuple[str, list[Binding]]]:
     def own(cls: type) -> list[Binding]:
         return [b for b in cls.__dict__.get("BINDINGS", []) if isinstance(b, Binding)]
 
+    close_up = own(CloseUpScreen)
+    close_up += [b for b in own(CloseUpBody) if b.key not in {c.key for c in close_up}]
     return [
         ("everywhere", own(LinewatchApp)),
         ("line board", own(BoardScreen)),
         ("alarm queue", own(AlarmQueueScreen)),
-        ("close-up", own(CloseUpScreen)),
+        ("close-up", close_up),
         ("acknowledge panel (1-9 pick the reason)", own(AckPanel)),
         ("shelve panel", own(ShelvePanel)),
         ("new-baseline panel", own(RestartPanel)),
