@@ -62,7 +62,7 @@ class KeyFooter(Footer):
     _fitted_for = -1
 
     def compose(self) -> ComposeResult:
-        if not self._bindings_ready:
+        if not getattr(self, "_bindings_ready", True):
             return
         seen: set[str] = set()
         keys: list[tuple[Binding, str]] = []
