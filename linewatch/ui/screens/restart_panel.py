@@ -41,11 +41,13 @@ class RestartPanel(ModalScreen[RestartChoice | None]):
                 "points from here on; the old limits stay on the history.",
                 classes="panel-title",
             )
+            yield Static(f"first point of the new phase (0-{self.last_index}), then the reason:",
+                         classes="panel-label")
             yield Input(str(self.start_index), placeholder="first point of the new phase",
                         id="restart-at", type="integer")
             yield Input(placeholder="reason (required), e.g. new die fitted", id="restart-reason")
-            yield Static("Enter: next / confirm   Esc: cancel", id="restart-hint",
-                         classes="panel-hint")
+            yield Static("Enter: next / confirm   Shift+Tab: back to the point   Esc: cancel",
+                         id="restart-hint", classes="panel-hint")
 
     def on_mount(self) -> None:
         self.query_one("#restart-reason", Input).focus()
