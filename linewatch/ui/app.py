@@ -73,6 +73,7 @@ class LinewatchApp(App[int]):
         self._alarms_seen: set[int] | None = None
         self._drawing_since = 0.0
         self._quiet_until = 0.0
+        self.wanted_feed: str | None = None  # a file the feed pulse highlights when shown next
 
     def get_key_display(self, binding: Binding) -> str:
         """Plain key names on the Linux console, which lacks Textual's key symbols."""

@@ -69,6 +69,16 @@ async def test_feed_alarm_shows_the_file_name_and_its_path_below(app: LinewatchA
         await pilot.press("c")  # a file has no chart: its close-up is the feed pulse
         await pilot.pause()
         assert isinstance(app.screen, FeedScreen)
+        feeds = app.screen.query_one("#feed-table", DataTable)
+        files = [f.file for f in build_snapshot().feeds]
+        assert feeds.cursor_row == files.index(feed_alarm.characteristic)
+        # again after looking at another file: the alarm's file is highlighted once more
+        await pilot.press("up", "a")
+        await pilot.pause()
+        await pilot.press("c")
+        await pilot.pause()
+        assert isinstance(app.screen, FeedScreen)
+        assert feeds.cursor_row == files.index(feed_alarm.characteristic)
 
 
 async def test_feed_pulse_names_files_by_their_base_name(app: LinewatchApp) -> None:

@@ -87,12 +87,26 @@ class FeedScreen(LineScreen):
             self.table.add_row(*self._cells(f, names[f.file]), key=f.file)
         if 0 <= keep < len(line.feeds):
             self.table.move_cursor(row=keep)
+        self._go_to_wanted_file()
         stale = sum(1 for f in line.feeds if f.stale)
         rejected = sum(f.rejected for f in line.feeds)
         self.query_one(TopBar).show(line, "feed pulse",
                                     f"{len(line.feeds)} files, {stale} stale, {rejected} rejected")
         self._show_rejects()
         super().show_line()
+
+    def on_screen_resume(self) -> None:
+        super().on_screen_resume()
+        if self.ready:
+            self._go_to_wanted_file()
+
+    def _go_to_wanted_file(self) -> None:
+        """Highlight the file another view asked for (a feed alarm's 'close-up'), once."""
+        wanted, self.lw.wanted_feed = self.lw.wanted_feed, None
+        files = [f.file for f in self.lw.line.feeds]
+        if wanted in files:
+            self.table.move_cursor(row=files.index(wanted))
+            self._show_rejects()
 
     def tick_clock(self) -> None:
         """Ages move on with the clock; touch a cell only when its text changes."""

@@ -269,6 +269,7 @@ class AlarmQueueScreen(LineScreen):
             return
         if not any(cv.name == a.characteristic for cv in self.lw.line.characteristics):
             if a.kind == "feed-health":  # an alarm about a file: its close-up is the feed pulse
+                self.lw.wanted_feed = a.characteristic
                 self.lw.action_show("feeds")
                 return
             self.notify(f"no characteristic named {a.characteristic}")
