@@ -104,3 +104,14 @@ async def test_the_box_plot_of_a_subgrouped_characteristic_says_it_shows_means(
         console.print(box.content)
         heading = console.file.getvalue().split("\n")[0]  # type: ignore[attr-defined]
     assert "subgroup means (n=5)" in heading
+
+
+def test_a_trend_already_past_its_limit_is_not_given_zero_points_to_go() -> None:
+    from linewatch.engine.summary import trend
+    from linewatch.ui.screens.close_up import projection_words
+
+    rising = [10.0 + 0.5 * i for i in range(20)]  # ends at 19.5, beyond a USL of 15
+    fit = trend(rising, None, 15.0)
+    assert fit.slope is not None and fit.points_to_spec == 0
+    words = projection_words(fit.slope, fit.points_to_spec, None, 15.0, 6.0)
+    assert "already past USL" in words and "0 points" not in words
