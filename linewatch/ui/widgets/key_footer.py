@@ -22,7 +22,8 @@ SPARE_ACTIONS = (
     "filter",
     "acknowledge_all",
     "show('alarms')",
-    "move(-1)",
+    "page_down",
+    "screen.move(-1)",
 )
 KEPT_ACTIONS = ("keys_help", "leave")
 
