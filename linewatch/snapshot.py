@@ -183,6 +183,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     for path in dict.fromkeys(names):
         mine = [e.event for e in events if e.event.file == path]
         fv = FeedView(file=path)
+        if path in files:  # lines read so far (header, comments and rejects included)
+            fv.rows = max(0, files[path].next_line - 1)
         fv.rows_per_second = rate.get(path, 0.0)
         fv.last_row_age = None if path not in last else max(0.0, now - last[path])
         fv.rotations = sum(1 for e in mine if e.kind in ("rotated", "replaced"))
