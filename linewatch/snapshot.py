@@ -7,6 +7,7 @@ the k-th value of its characteristic, so subgroup j holds indices j·n .. j·n +
 
 from __future__ import annotations
 
+import fnmatch
 import time
 from typing import TYPE_CHECKING
 
@@ -179,7 +180,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     last = {r["file"]: r["last"] for r in store.query(
         "SELECT file, MAX(received_at) AS last FROM points GROUP BY file")}
     names = list(files) + [e.event.file for e in events if e.event.file not in files
-                           and e.event.kind not in ("stuck", "unstuck")]
+                           and e.event.kind not in ("stuck", "unstuck")
+                           and not _pattern_found(e.event.file, files)]
     for path in dict.fromkeys(names):
         mine = [e.event for e in events if e.event.file == path]
         fv = FeedView(file=path)
@@ -201,6 +203,11 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
                      "waiting": "waiting"}.get(latest, "following")
         out.append(fv)
     return out
+
+
+def _pattern_found(name: str, files) -> bool:
+    """A pattern that was waiting for its file once, and now matches a followed one."""
+    return any(ch in name for ch in "*?[") and any(fnmatch.fnmatch(f, name) for f in files)
 
 
 def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicConfig],
