@@ -39,6 +39,7 @@ if TYPE_CHECKING:
 OVERVIEW_POINTS = 120  # raw readings per characteristic on the overview
 DETAIL_POINTS = 1500  # raw readings per characteristic in the detail view
 RATE_WINDOW = 60.0  # seconds over which rows per second are measured
+RECENT_VALUES = 100  # individual readings for the detail's box plot
 
 
 def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray, limits_hist,
@@ -131,6 +132,7 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
                 v.margin_sigma = min(margins)
         if detail:
             v.phases = _phase_stats(values, first, limits_hist, c, n)
+            v.recent_values = values[-RECENT_VALUES:].tolist()
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))

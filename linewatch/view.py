@@ -89,6 +89,7 @@ class CharacteristicView:
     stale: bool = False
     stuck: bool = False
     seconds_per_point: float | None = None  # mean time between recent plotted points
+    recent_values: list[float] = field(default_factory=list)  # latest individual readings
 
 
 @dataclass(slots=True)

@@ -115,3 +115,24 @@ def test_a_trend_already_past_its_limit_is_not_given_zero_points_to_go() -> None
     assert fit.slope is not None and fit.points_to_spec == 0
     words = projection_words(fit.slope, fit.points_to_spec, None, 15.0, 6.0)
     assert "already past USL" in words and "0 points" not in words
+
+
+async def test_the_box_plot_shows_individual_readings_when_the_source_gives_them(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    picture = build_snapshot()
+    od = picture.characteristics[0]
+    od.recent_values = [25.0 + 0.01 * (i % 7 - 3) for i in range(60)] + [25.3]  # 25.3 lies out
+    source.picture = picture
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.press("enter")
+        await pilot.pause()
+        box = app.screen.query_one("#closeup-box", Static)
+        console = Console(width=120, file=io.StringIO(), color_system=None)
+        console.print(box.content)
+        shown = console.file.getvalue()  # type: ignore[attr-defined]
+    assert shown.split("\n")[0].startswith("last 61 readings against the spec limits")
+    # the figures under the plot are those of the readings (statistics.quantiles, inclusive)
+    q1, median, q3 = statistics.quantiles(od.recent_values, n=4, method="inclusive")
+    assert f"Q1 {q1:.3f}  median {median:.3f}  Q3 {q3:.3f}" in shown
+    assert "outliers 1: 25.300" in shown

@@ -147,12 +147,16 @@ class CloseUpScreen(LineScreen):
         cv = self.detail
         if cv is None:
             return
+        # the spec limits bound single parts, so the box plot shows individual readings;
+        # without them (an older source) it falls back to the plotted points and says so
         loc = cv.location
-        values = loc.values if loc else []
+        if cv.recent_values:
+            values, what = cv.recent_values, "readings"
+        else:
+            values = loc.values if loc else []
+            what = "points" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
         box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs)
-        # the spec limits bound single parts; means of subgroups spread less, so say which
-        what = "points" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
         box.end = "\n"  # Textual counts newlines to size a Group
         self.query_one("#closeup-box", Static).update(Group(
             Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
