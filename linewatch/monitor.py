@@ -468,7 +468,8 @@ class Monitor:
                 at=now, actor=req.get("actor"),
             )
             self.store.set_meta(PHASE_REQUEST.format(name=name, phase=eng.phase),
-                                json.dumps({"reason": req["reason"], "actor": req.get("actor")}))
+                                json.dumps({"reason": req["reason"], "actor": req.get("actor"),
+                                            "start": eng.phase_start}))
             out = eng.settle()  # the new phase may already hold enough points for limits
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)

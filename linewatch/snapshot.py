@@ -134,11 +134,33 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
             v.phases = _phase_stats(values, first, limits_hist, c, n)
             v.recent_values = values[-RECENT_VALUES:].tolist()
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
+    v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
     v.stuck = any(a.rule == "stuck" for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)
     return v
+
+
+def _pending_phase(store: Store, name: str, limits_hist) -> int | None:
+    """Where a new phase asked for starts, while its limits are not in yet (else None)."""
+    import json
+
+    from linewatch.monitor import BASELINE_REQUEST
+
+    rows = store.query("SELECT key, value FROM meta WHERE key = ? OR key LIKE ?",
+                       (BASELINE_REQUEST + name, f"phase-request:{name}:%"))
+    newest_phase = max((r.limits.phase for r in limits_hist), default=0)
+    for key, value in rows:
+        if not value:
+            continue
+        request = json.loads(value)
+        if key == BASELINE_REQUEST + name:
+            return int(request["start"])  # not yet taken up by the collector
+        phase = int(key.rsplit(":", 1)[1])
+        if phase > newest_phase and "start" in request:
+            return int(request["start"])
+    return None
 
 
 def _seconds_per_point(recs, n: int) -> float | None:

@@ -90,6 +90,7 @@ class CharacteristicView:
     stuck: bool = False
     seconds_per_point: float | None = None  # mean time between recent plotted points
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
+    pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
 
 
 @dataclass(slots=True)

@@ -62,3 +62,30 @@ def test_a_new_phase_gets_its_own_limits_and_an_audit_entry(tmp_path):
     assert automatic and all(e.actor == "linewatch" for e in automatic)
     assert face.store.audit.verify().ok
     face.close()
+
+
+def test_every_instance_sees_a_new_phase_waiting_for_its_limits(tmp_path):
+    log = tmp_path / "line.csv"
+    base = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 5  # 50 points
+    log.write_text(HEADER + "".join(rows_text(base)))
+    config = parse_config(f'[[feed]]\npaths = ["{log}"]\n')
+    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
+                     baseline=20)
+    monitor = Monitor(plan, tmp_path / "state")
+    face = MonitorFace(monitor)
+    stop = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
+    worker.start()
+    try:
+        _wait(lambda: len(face.store.history.points("od")) == 50)
+        face.new_baseline("od", 40, "gauge recalibrated")  # only 10 of 20 points are there
+        _wait(lambda: face.detail("od").pending_phase_start == 40)
+        with log.open("a") as f:
+            f.writelines(rows_text(base[:15], start=50))
+        _wait(lambda: face.detail("od").pending_phase_start is None)
+    finally:
+        stop.set()
+        worker.join(timeout=10)
+    detail = face.detail("od")
+    assert [p[0] for p in detail.location.phase_limits] == [0, 40]
+    face.close()

@@ -192,14 +192,17 @@ class CloseUpScreen(LineScreen):
         if cv.baseline_needed:
             text.append(f"learning: {cv.baseline_needed} more points before limits exist\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])
-        if self.requested is not None and loc is not None:
+        pending = cv.pending_phase_start  # known to every instance through the store
+        if pending is None and self.requested is not None and loc is not None:
             start, phases_then = self.requested
             if len(loc.phase_limits) > phases_then:
                 self.requested = None  # its limits have arrived and are drawn
             else:
-                text.append(f"new phase from point {start} asked for: its limits come once "
-                            "enough points have arrived\n",
-                            palette.STATE_STYLE[view.STATE_LEARNING])
+                pending = start
+        if pending is not None:
+            text.append(f"new phase from point {pending} asked for: its limits come once "
+                        "enough points have arrived\n",
+                        palette.STATE_STYLE[view.STATE_LEARNING])
         if loc and self.cursor is not None and loc.values:
             i = self.cursor
             idx = loc.indices[i] if i < len(loc.indices) else i
