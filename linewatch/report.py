@@ -206,7 +206,8 @@ class ShiftReport:
 
 
 def _subgroup_size(store: Store, config: Config | None, name: str, limits: dict) -> int:
-    """Subgroup size from the config, else inferred from the stored limits.
+    """Subgroup size from the config, else as the store remembers it, else (a store written
+    before it remembered) inferred from the stored limits.
 
     For X̄ charts the stored dispersion limits give it back: R̄ / σ(X̄) = d2(n)·√n and
     s̄ / σ(X̄) = c4(n)·√n, both increasing in n (common practice constants).
@@ -215,6 +216,9 @@ def _subgroup_size(store: Store, config: Config | None, name: str, limits: dict)
         c = config.characteristic(name)
         if c is not None:
             return c.subgroup_size
+    settings = store.history.settings(name)
+    if settings is not None and settings.subgroup_size:
+        return settings.subgroup_size
     if CHART_INDIVIDUALS in limits or CHART_MOVING_RANGE in limits or "xbar" not in limits:
         return 1
     from linewatch.engine.constants import MAX_N, MIN_N, c4, d2

@@ -65,6 +65,8 @@ class CharacteristicSettings:
     reasons: list[str] = field(default_factory=list)
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
+    subgroup_size: int | None = None  # None: written by a linewatch that did not store it
+    dispersion: str | None = None
 
     def plan_for(self, rule: str | None) -> str:
         """The reaction plan for `rule` (per-rule text first), as the config defines it."""
@@ -275,10 +277,12 @@ class History:
             for c in characteristics:
                 conn.execute(
                     "INSERT INTO characteristics (name, unit, lsl, usl, reasons, reaction_plan, "
-                    "reaction_plans) VALUES (?, ?, ?, ?, ?, ?, ?) ON CONFLICT (name) DO UPDATE "
+                    "reaction_plans, subgroup_size, dispersion) "
+                    "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (name) DO UPDATE "
                     "SET unit = excluded.unit, lsl = excluded.lsl, usl = excluded.usl, "
                     "reasons = excluded.reasons, reaction_plan = excluded.reaction_plan, "
-                    "reaction_plans = excluded.reaction_plans",
+                    "reaction_plans = excluded.reaction_plans, "
+                    "subgroup_size = excluded.subgroup_size, dispersion = excluded.dispersion",
                     (
                         c.name,
                         c.unit,
@@ -287,6 +291,8 @@ class History:
                         json.dumps(list(c.reasons)),
                         c.reaction_plan,
                         json.dumps(dict(c.reaction_plans)),
+                        c.subgroup_size,
+                        c.effective_dispersion,
                     ),
                 )
 
@@ -304,4 +310,6 @@ class History:
             reasons=list(json.loads(r["reasons"])),
             reaction_plan=r["reaction_plan"],
             reaction_plans=dict(json.loads(r["reaction_plans"])),
+            subgroup_size=r["subgroup_size"],
+            dispersion=r["dispersion"],
         )

@@ -126,4 +126,10 @@ MIGRATIONS: tuple[str, ...] = (
     DROP INDEX points_by_time;
     CREATE INDEX points_by_characteristic_time ON points (characteristic, received_at);
     """,
+    # 3: how each characteristic is charted, so readers without the config (report, viewers)
+    # need not infer the subgroup size from the limits.
+    """
+    ALTER TABLE characteristics ADD COLUMN subgroup_size INTEGER;
+    ALTER TABLE characteristics ADD COLUMN dispersion TEXT;
+    """,
 )
