@@ -4,7 +4,9 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any, cast
 
+from textual.events import Resize
 from textual.screen import Screen
+from textual.widgets import DataTable
 
 if TYPE_CHECKING:
     from linewatch.ui.app import LinewatchApp
@@ -50,3 +52,28 @@ class LineScreen(Screen[None]):
 
     def tick_clock(self) -> None:
         """Once a second: refresh what only time changes (ages). Default: nothing."""
+
+
+class TableScreen(LineScreen):
+    """A line screen built around one DataTable whose columns depend on the terminal width."""
+
+    TABLE_ID = ""  # the DataTable's id, set by each subclass
+    _columns_for = 0  # the width the columns were laid out for
+
+    @property
+    def table(self) -> DataTable[object]:
+        return self.query_one(f"#{self.TABLE_ID}", DataTable)
+
+    def on_mount(self) -> None:
+        self._add_columns(self.app.size.width)
+        self.ready = True
+        self.show_line()
+
+    def on_resize(self, event: Resize) -> None:
+        if event.size.width != self._columns_for:
+            self._add_columns(event.size.width)
+            self.show_line()
+
+    def _add_columns(self, width: int) -> None:
+        """Lay the table's columns out for `width` (and remember it in `_columns_for`)."""
+        raise NotImplementedError

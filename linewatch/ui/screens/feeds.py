@@ -6,13 +6,12 @@ from __future__ import annotations
 from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
-from textual.events import Resize
 from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_age
-from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.screens.base import TableScreen
 from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
 
@@ -35,8 +34,10 @@ def shown_names(paths: list[str], width: int) -> dict[str, str]:
             for p, name in zip(paths, names, strict=True)}
 
 
-class FeedScreen(LineScreen):
+class FeedScreen(TableScreen):
     """A row per file; the highlighted file's last rejected rows below."""
+
+    TABLE_ID = "feed-table"
 
     def __init__(self) -> None:
         super().__init__()
@@ -49,20 +50,6 @@ class FeedScreen(LineScreen):
         yield DataTable(id="feed-table", cursor_type="row")
         yield Static(id="feed-rejects")
         yield KeyFooter()
-
-    @property
-    def table(self) -> DataTable[object]:
-        return self.query_one("#feed-table", DataTable)
-
-    def on_mount(self) -> None:
-        self._add_columns(self.app.size.width)
-        self.ready = True
-        self.show_line()
-
-    def on_resize(self, event: Resize) -> None:
-        if event.size.width != self._columns_for:
-            self._add_columns(event.size.width)
-            self.show_line()
 
     def _add_columns(self, width: int) -> None:
         self._columns_for = width

@@ -8,7 +8,6 @@ from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.events import Resize
 from textual.widgets import DataTable, Static
 
 from linewatch import view
@@ -19,7 +18,7 @@ from linewatch.ui.formatting import (
     fmt_clock,
     fmt_day_clock,
 )
-from linewatch.ui.screens.base import LineScreen
+from linewatch.ui.screens.base import TableScreen
 from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
 
@@ -56,8 +55,10 @@ class QueueTable(DataTable[object]):
     BINDINGS: ClassVar[list[BindingType]] = [Binding("enter", "select_cursor", "Acknowledge")]
 
 
-class AlarmQueueScreen(LineScreen):
+class AlarmQueueScreen(TableScreen):
     """Acknowledge, shelve and read the reaction plan of the highlighted alarm."""
+
+    TABLE_ID = "queue-table"
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("enter", "acknowledge", "Acknowledge", show=False, tooltip="acknowledge the "
@@ -81,20 +82,6 @@ class AlarmQueueScreen(LineScreen):
         yield QueueTable(id="queue-table", cursor_type="row")
         yield Static(id="queue-plan")
         yield KeyFooter()
-
-    @property
-    def table(self) -> DataTable[object]:
-        return self.query_one("#queue-table", DataTable)
-
-    def on_mount(self) -> None:
-        self._add_columns(self.app.size.width)
-        self.ready = True
-        self.show_line()
-
-    def on_resize(self, event: Resize) -> None:
-        if event.size.width != self._columns_for:
-            self._add_columns(event.size.width)
-            self.show_line()
 
     def _add_columns(self, width: int) -> None:
         """Fixed columns, and what happened gets the rest, so state is never cut off."""
