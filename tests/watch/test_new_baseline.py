@@ -25,19 +25,24 @@ def _wait(predicate, timeout: float = 20.0) -> None:
     raise AssertionError("condition not reached")
 
 
+def _collect(log, state_dir) -> tuple[MonitorFace, threading.Event, threading.Thread]:
+    """A collector on `log` (baseline of 20 points) running on a thread, with its face."""
+    config = parse_config(f'[[feed]]\npaths = ["{log}"]\n')
+    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
+                     baseline=20)
+    monitor = Monitor(plan, state_dir)
+    stop = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
+    worker.start()
+    return MonitorFace(monitor), stop, worker
+
+
 def test_a_new_phase_gets_its_own_limits_and_an_audit_entry(tmp_path):
     log = tmp_path / "line.csv"
     first = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 3  # 30 points near 10
     second = list(np.array(first) + 2.0)  # after a process change: 30 points near 12
     log.write_text(HEADER + "".join(rows_text(first + second)))
-    config = parse_config(f'[[feed]]\npaths = ["{log}"]\n')
-    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
-                     baseline=20)
-    monitor = Monitor(plan, tmp_path / "state")
-    face = MonitorFace(monitor)
-    stop = threading.Event()
-    worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
-    worker.start()
+    face, stop, worker = _collect(log, tmp_path / "state")
     try:
         history = face.store.history
         _wait(lambda: history.current_limits("od"))
@@ -68,14 +73,7 @@ def test_every_instance_sees_a_new_phase_waiting_for_its_limits(tmp_path):
     log = tmp_path / "line.csv"
     base = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 5  # 50 points
     log.write_text(HEADER + "".join(rows_text(base)))
-    config = parse_config(f'[[feed]]\npaths = ["{log}"]\n')
-    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
-                     baseline=20)
-    monitor = Monitor(plan, tmp_path / "state")
-    face = MonitorFace(monitor)
-    stop = threading.Event()
-    worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
-    worker.start()
+    face, stop, worker = _collect(log, tmp_path / "state")
     try:
         _wait(lambda: len(face.store.history.points("od")) == 50)
         face.new_baseline("od", 40, "gauge recalibrated")  # only 10 of 20 points are there
