@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import shutil
+import signal
 import tempfile
 import threading
 from datetime import datetime
@@ -42,6 +43,17 @@ def start_simulator(folder: Path, seed: int, speed: float, stop: threading.Event
     return thread
 
 
+def _exit_on_hangup() -> None:
+    """A closed terminal or SSH session (SIGHUP) or a SIGTERM ends the demo through the normal
+    way out, so its temporary folder is removed then too."""
+
+    def leave(signum: int, frame: object) -> None:
+        raise SystemExit(128 + signum)
+
+    for sig in (signal.SIGHUP, signal.SIGTERM):
+        signal.signal(sig, leave)
+
+
 def run(args: argparse.Namespace) -> int:
     from linewatch.cli import build_parser
     from linewatch.commands import watch
@@ -49,6 +61,7 @@ def run(args: argparse.Namespace) -> int:
     folder = Path(tempfile.mkdtemp(prefix="linewatch-demo-"))
     stop = threading.Event()
     sim = None
+    _exit_on_hangup()
     try:
         config_path = prepare(folder)
         sim = start_simulator(folder, args.seed, args.speed, stop)
