@@ -42,7 +42,7 @@ class MonitorFace:
         with self._lock:
             snap = build_snapshot(
                 self.store, self.alarms, self._characteristics(), role=self.monitor.role,
-                title=self.monitor.title, version=self.monitor._version,
+                title=self.monitor.title, version=self.monitor.version,
                 stale_after=self.monitor.config.monitor.stale_after,
             )
         snap.catching_up = self.monitor.catching_up

@@ -97,8 +97,6 @@ class Monitor:
         self._alarm_states: dict[int, tuple] = {}
         self._seen_data_version: int | None = None
         self._announced = False
-        self._wake = threading.Event()
-        self.started = self.clock()
         self.alarms.load_config(plan.config)
 
     @property
@@ -110,6 +108,11 @@ class Monitor:
             return "linewatch"
         name = src.stem if src.stem != "linewatch" else src.resolve().parent.name
         return f"linewatch · {name}"
+
+    @property
+    def version(self) -> int:
+        """Grows with every change the faces should redraw for."""
+        return self._version
 
     def poke(self) -> None:
         """Something changed outside the loop (an acknowledgement): tell the faces now."""
@@ -445,14 +448,13 @@ class Monitor:
                               "actor": _actor()})
         with self.store.transaction():
             self.store.set_meta(BASELINE_REQUEST + characteristic, request)
-        self._wake.set()
 
     def _serve_baseline_requests(self, now: float) -> None:
-        for name in list(self.char_configs) + list(self.engines):
-            raw = self.store.get_meta(BASELINE_REQUEST + name)
-            if not raw:
-                continue
-            self.store.set_meta(BASELINE_REQUEST + name, "")
+        rows = self.store.query("SELECT key, value FROM meta WHERE key LIKE ? AND value != ''",
+                                (BASELINE_REQUEST + "%",))
+        for key, raw in rows:
+            name = key[len(BASELINE_REQUEST):]
+            self.store.set_meta(key, "")
             req = json.loads(raw)
             eng = self._engine(name)
             if eng is None:

@@ -91,15 +91,19 @@ def _phase_stats(values, first_index, limits_hist, c, n) -> list[PhaseStats]:
 
 def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
                         points: int = OVERVIEW_POINTS, detail: bool = False,
-                        stale_after: float = 600.0) -> CharacteristicView:
-    """One characteristic as the overview (or, with detail, the detail screen) shows it."""
+                        stale_after: float = 600.0,
+                        open_now: list | None = None) -> CharacteristicView:
+    """One characteristic as the overview (or, with detail, the detail screen) shows it.
+    `open_now`: the line's open alarms, when the caller has read them already."""
     from linewatch.engine.summary import capability
 
     n = c.subgroup_size
     recs = store.history.last_points(c.name, points * (n if n > 1 else 1))
     v = CharacteristicView(name=c.name, unit=c.unit, lsl=c.lsl, usl=c.usl, subgroup_size=n)
     limits_hist = store.history.limits_history(c.name)
-    open_alarms = [a for a in alarms.alarms() if a.characteristic == c.name]
+    if open_now is None:
+        open_now = alarms.alarms()
+    open_alarms = [a for a in open_now if a.characteristic == c.name]
     v.open_alarms = len(open_alarms)
     if recs:
         values = np.array([r.value for r in recs])
@@ -110,7 +114,7 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.seconds_per_point = _seconds_per_point(recs, n)
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
         marks: dict[str, dict[int, list[str]]] = {}
-        for a in alarms.alarms(include_closed=detail):
+        for a in alarms.alarms(include_closed=True) if detail else open_alarms:
             if a.characteristic != c.name or a.first_index is None:
                 continue
             for i in range(a.first_index, (a.last_index or a.first_index) + 1):
@@ -239,7 +243,9 @@ def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicCo
                    now: float | None = None) -> LineSnapshot:
     """The whole line at this moment."""
     now = time.time() if now is None else now
-    views = [characteristic_view(store, alarms, c, now, stale_after=stale_after) for c in chars]
+    open_now = alarms.alarms()  # read once for every row, not once per characteristic
+    views = [characteristic_view(store, alarms, c, now, stale_after=stale_after,
+                                 open_now=open_now) for c in chars]
     alarm_views: list[AlarmView] = alarms.views(now=now)
     alarm_views.sort(key=lambda a: (a.state == SHELVED, a.priority, -a.raised_at))
     return LineSnapshot(version=version, title=title, role=role, characteristics=views,

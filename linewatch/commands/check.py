@@ -31,8 +31,8 @@ class Column:
 
     values: np.ndarray
     lines: np.ndarray
-    files: list[str]  # file of each value, as ranges are rare: one entry per value source
-    file_index: np.ndarray  # index into `files` per value
+    files: list[str]  # the logs read, in order
+    file_index: np.ndarray  # for each value, its log's position in `files`
 
 
 @dataclass(slots=True)
