@@ -118,29 +118,46 @@ class Waker:
             return
         with self._lock:
             self._refresh_due = False
-            wanted: set[tuple[str, bool]] = set()
-            for pattern in self.patterns:
-                folder, below = _target(pattern)
-                existing = _nearest_existing(folder)
-                wanted.add((existing, below and existing == folder))
-            for key in list(self._watches):
-                if key not in wanted or not os.path.isdir(key[0]):
-                    watch = self._watches.pop(key)
-                    with contextlib.suppress(KeyError, OSError, ValueError):
-                        self._observer.unschedule(watch)
-            first, self._refreshed = not self._refreshed, True
-            for key in wanted - set(self._watches):
-                folder, below = key
-                try:
-                    self._watches[key] = self._observer.schedule(
-                        self._handler, folder, recursive=below, event_filter=self._filter
-                    )
-                except OSError as exc:
-                    log.warning("cannot watch %s (%s): relying on the re-check beat", folder, exc)
-                    continue
-                if not first:
-                    # files may have arrived in the new folder before its watch began
-                    self._event.set()
+            wanted = self._wanted()
+            # a deeper folder may appear before the watch on its parent starts (mkdir -p):
+            # schedule, look again, until the nearest existing folders stop changing
+            for _ in range(16):
+                self._sync(wanted)
+                again = self._wanted()
+                if again == wanted:
+                    break
+                wanted = again
+
+    def _wanted(self) -> set[tuple[str, bool]]:
+        """Each pattern's folder, or its nearest existing parent, and whether to recurse."""
+        wanted: set[tuple[str, bool]] = set()
+        for pattern in self.patterns:
+            folder, below = _target(pattern)
+            existing = _nearest_existing(folder)
+            wanted.add((existing, below and existing == folder))
+        return wanted
+
+    def _sync(self, wanted: set[tuple[str, bool]]) -> None:
+        """Unschedule watches no longer wanted and schedule the new ones (lock held)."""
+        assert self._observer is not None
+        for key in list(self._watches):
+            if key not in wanted or not os.path.isdir(key[0]):
+                watch = self._watches.pop(key)
+                with contextlib.suppress(KeyError, OSError, ValueError):
+                    self._observer.unschedule(watch)
+        first, self._refreshed = not self._refreshed, True
+        for key in wanted - set(self._watches):
+            folder, below = key
+            try:
+                self._watches[key] = self._observer.schedule(
+                    self._handler, folder, recursive=below, event_filter=self._filter
+                )
+            except OSError as exc:
+                log.warning("cannot watch %s (%s): relying on the re-check beat", folder, exc)
+                continue
+            if not first:
+                # files may have arrived in the new folder before its watch began
+                self._event.set()
 
     @property
     def watched(self) -> list[str]:
