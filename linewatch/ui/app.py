@@ -140,7 +140,7 @@ class LinewatchApp(App[int]):
 
     def _tick_clock(self) -> None:
         top = self.top_line_screen()
-        if top is not None and top.ready:
+        if top is not None and top.drawable:
             top.tick_clock()
 
     def top_line_screen(self) -> LineScreen | None:

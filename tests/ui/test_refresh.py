@@ -9,6 +9,7 @@ import threading
 import time
 from collections.abc import Callable
 
+import pytest
 from textual.widgets import DataTable
 
 from linewatch import view
@@ -153,3 +154,25 @@ async def test_a_picture_arriving_before_a_view_is_mounted_waits_for_the_mount(
         await pilot.pause()
         assert queue.query_one("#queue-table", DataTable).row_count == 6
         assert queue.drawn_version == app.line.version
+
+
+
+async def test_the_clock_and_a_new_picture_during_shutdown_draw_nothing_and_raise_nothing(
+    app: LinewatchApp, source: FakeSource, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The once-a-second clock and the refresh timer can fire while the app is being taken
+    down, after the board's table is already gone; drawing then must be skipped, not fail."""
+    from linewatch.ui.screens.board import BoardTable
+
+    fired: list[str] = []
+
+    def tick_while_going(table: BoardTable) -> None:
+        source.publish(changed(99, value=1.0))
+        app._tick_clock()
+        app._pull_line()
+        fired.append("ticked")
+
+    monkeypatch.setattr(BoardTable, "on_unmount", tick_while_going, raising=False)
+    async with app.run_test(size=(80, 24)):
+        assert isinstance(app.screen.query_one("#board-table"), BoardTable)
+    assert fired == ["ticked"]

@@ -23,6 +23,14 @@ class LineScreen(Screen[None]):
         """The app, typed."""
         return cast("LinewatchApp", self.app)
 
+    @property
+    def drawable(self) -> bool:
+        """Mounted with its widgets and not being taken down: the clock and the snapshot timer
+        can fire while the app shuts down, after a screen's widgets are already removed."""
+        # `display` turns False while a node is closing or being pruned (screens are never
+        # hidden by style), so it tells teardown apart without reaching into private state.
+        return self.ready and self.app.is_running and self.is_running and self.display
+
     def on_screen_resume(self) -> None:
         if self.drawn_version != self.lw.line.version:
             self.redraw()
@@ -30,7 +38,7 @@ class LineScreen(Screen[None]):
     def redraw(self) -> None:
         """Draw the current line if the screen is mounted (a new picture can arrive between a
         screen's creation and its mount)."""
-        if self.ready:
+        if self.drawable:
             self.show_line()
 
     def show_line(self) -> None:

@@ -171,6 +171,8 @@ class BoardScreen(LineScreen):
         """Refresh the cells of rows on screen whose content changed. Rows out of view wait
         until they scroll in: with hundreds of characteristics, redrawing only what shows keeps
         a keypress quick."""
+        if not self.drawable:
+            return
         for name in self._rows_in_view():
             cv = self._by_name.get(name)
             if cv is None:

@@ -84,7 +84,7 @@ class FeedScreen(TableScreen):
 
     def on_screen_resume(self) -> None:
         super().on_screen_resume()
-        if self.ready:
+        if self.drawable:
             self._go_to_wanted_file()
 
     def _go_to_wanted_file(self) -> None:
