@@ -145,7 +145,7 @@ class CloseUpScreen(LineScreen):
 
     def _draw_figures(self) -> None:
         cv = self.detail
-        if cv is None:
+        if cv is None or not self.drawable:  # a resize can queue this just before the screen goes
             return
         # the spec limits bound single parts, so the box plot shows individual readings;
         # without them (an older source) it falls back to the plotted points and says so
