@@ -15,6 +15,7 @@ from linewatch.ui.screens.queue import AlarmQueueScreen
 from linewatch.ui.widgets.top_bar import TopBar
 
 from .fake_line import FakeSource, build_snapshot
+from .waiting import until
 
 
 def top_bar_text(app: LinewatchApp) -> str:
@@ -35,12 +36,11 @@ async def test_top_bar_counts_returned_unacknowledged_alarms_as_waiting(
         # every alarm returned to normal but none acknowledged: still waiting, none active
         waiting = [dataclasses.replace(a, state=view.RETURNED_UNACKNOWLEDGED) for a in alarms]
         source.publish(dataclasses.replace(build_snapshot(), version=2, alarms=waiting))
-        await pilot.pause(0.3)
-        assert f"{len(alarms)} to acknowledge (none still active)" in top_bar_text(app)
+        await until(lambda: f"{len(alarms)} to acknowledge (none still active)"
+                    in top_bar_text(app))
         done = [dataclasses.replace(a, state=view.ACKNOWLEDGED) for a in alarms]
         source.publish(dataclasses.replace(build_snapshot(), version=3, alarms=done))
-        await pilot.pause(0.3)
-        assert "nothing to acknowledge" in top_bar_text(app)
+        await until(lambda: "nothing to acknowledge" in top_bar_text(app))
 
 
 async def test_narrow_top_bar_drops_the_title_before_the_alarm_count(app: LinewatchApp) -> None:

@@ -18,6 +18,7 @@ from linewatch.ui.screens.keys_help import KeysHelp
 from linewatch.ui.screens.restart_panel import RestartPanel
 
 from .fake_line import FakeActions, FakeSource, build_snapshot
+from .waiting import until
 
 
 def board_rows(app: LinewatchApp) -> list[str]:
@@ -177,8 +178,7 @@ async def test_a_requested_new_phase_is_announced_until_its_limits_arrive(
         assert wall.location is not None
         wall.location.phase_limits.append((88, 2.2, 2.29, 2.11, 0.03))
         source.publish(dataclasses.replace(picture, version=2))
-        await pilot.pause(0.3)
-        assert "asked for" not in str(cursor.render())
+        await until(lambda: "asked for" not in str(cursor.render()))
 
 
 async def test_home_and_end_move_the_close_up_cursor_to_the_first_and_newest_points(

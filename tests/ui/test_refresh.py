@@ -7,7 +7,6 @@ import asyncio
 import copy
 import threading
 import time
-from collections.abc import Callable
 
 import pytest
 from textual.widgets import DataTable
@@ -17,6 +16,7 @@ from linewatch.ui.app import LinewatchApp
 from linewatch.ui.screens.queue import AlarmQueueScreen
 
 from .fake_line import NOW, FakeActions, FakeSource, build_snapshot, fixed_clock
+from .waiting import until
 
 
 def changed(version: int, value: float | None = None,
@@ -35,15 +35,6 @@ def new_alarm(id_: int, priority: int) -> view.AlarmView:
     return view.AlarmView(id=id_, kind="beyond-limits", characteristic="ovality",
                           chart="individuals", rule="we1", description="a point outside",
                           state=view.UNACKNOWLEDGED, priority=priority, raised_at=NOW)
-
-
-async def until(condition: Callable[[], bool], seconds: float = 5.0) -> None:
-    """Wait for `condition` (the refresh timer runs at about 10 Hz; a busy machine is slower)."""
-    for _ in range(int(seconds / 0.05)):
-        if condition():
-            return
-        await asyncio.sleep(0.05)
-    assert condition()
 
 
 def publish_from_thread(source: FakeSource, pictures: list[view.LineSnapshot]) -> None:
