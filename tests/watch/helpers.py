@@ -8,6 +8,7 @@ import signal
 import sqlite3
 import subprocess
 import sys
+import threading
 import time
 from pathlib import Path
 
@@ -90,3 +91,26 @@ def check_signals(path: Path, *extra: str) -> set[tuple]:
     ).stdout
     return {(r["characteristic"], r["chart"], r["rule"], r["index"]) for r in records(out)
             if r["type"] == "signal"}
+
+
+class Reader:
+    """Collects the JSON lines a process prints, with the time each arrived."""
+
+    def __init__(self, proc: subprocess.Popen) -> None:
+        self.lines: list[tuple[float, dict]] = []
+        self._t = threading.Thread(target=self._pump, args=(proc,), daemon=True)
+        self._t.start()
+
+    def _pump(self, proc) -> None:
+        for line in proc.stdout:
+            if line.startswith("{"):
+                self.lines.append((time.monotonic(), json.loads(line)))
+
+    def wait_for(self, pred, timeout: float = 15) -> tuple[float, dict]:
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline:
+            for t, rec in list(self.lines):
+                if pred(rec):
+                    return t, rec
+            time.sleep(0.02)
+        raise AssertionError(f"no matching record; saw {[r for _, r in self.lines][-5:]}")

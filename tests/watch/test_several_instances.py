@@ -4,37 +4,20 @@ remaining instance takes over within 5 seconds without losing or doubling an ala
 
 from __future__ import annotations
 
-import json
 import os
 import subprocess
 import sys
-import threading
 import time
 
-from tests.watch.helpers import HEADER, alarm_set, rows_text, start_watch, stop, wait_caught_up
-
-
-class Reader:
-    """Collects the JSON lines a process prints, with the time each arrived."""
-
-    def __init__(self, proc: subprocess.Popen) -> None:
-        self.lines: list[tuple[float, dict]] = []
-        self._t = threading.Thread(target=self._pump, args=(proc,), daemon=True)
-        self._t.start()
-
-    def _pump(self, proc) -> None:
-        for line in proc.stdout:
-            if line.startswith("{"):
-                self.lines.append((time.monotonic(), json.loads(line)))
-
-    def wait_for(self, pred, timeout: float = 15) -> tuple[float, dict]:
-        deadline = time.monotonic() + timeout
-        while time.monotonic() < deadline:
-            for t, rec in list(self.lines):
-                if pred(rec):
-                    return t, rec
-            time.sleep(0.02)
-        raise AssertionError(f"no matching record; saw {[r for _, r in self.lines][-5:]}")
+from tests.watch.helpers import (
+    HEADER,
+    Reader,
+    alarm_set,
+    rows_text,
+    start_watch,
+    stop,
+    wait_caught_up,
+)
 
 
 def test_collector_viewer_shell_ack_and_takeover(tmp_path):
