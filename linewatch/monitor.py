@@ -289,15 +289,19 @@ class Monitor:
                         self.store.history.add_feed_event(
                             FeedEvent("rejected", r.file, f"line {r.line}: {r.reason}"), now)
                     self.rejected += len(batch.rejected)
+                    # rows caught up from a file's history count as written when the file says
+                    # (its ages and staleness then tell the truth right after a start)
+                    written = now if chunk.written_at is None else min(now, chunk.written_at)
                     for column, values in batch.values.items():
                         name = self.by_column.get(column) or (
                             column if not self.plan.characteristics else None)
                         if name is None or not values:
                             continue
-                        records.extend(self._process_values(name, batch, column, now, raised))
+                        records.extend(
+                            self._process_values(name, batch, column, now, written, raised))
                     if batch.rows:
                         assert self.health is not None
-                        self.health.rows_arrived(batch.file, batch.rows, now)
+                        self.health.rows_arrived(batch.file, batch.rows, written)
                 if chunk.state is not None:
                     self.store.ingest.save_file(chunk.state, now)
         except LeaseLost:
@@ -312,7 +316,9 @@ class Monitor:
         if raised:
             self._run_hooks(raised)
 
-    def _process_values(self, name: str, batch, column: str, now: float, raised) -> list[dict]:
+    def _process_values(
+        self, name: str, batch, column: str, now: float, written: float, raised
+    ) -> list[dict]:
         eng = self._engine(name)
         if eng is None:
             return []
@@ -324,7 +330,7 @@ class Monitor:
         meta = [(batch.file, ln, times[k] if times else None) for k, ln in enumerate(lines)]
         out: LiveOutput = eng.push(values, meta)
         self.counts[name] = self.counts.get(name, 0) + len(values)
-        self.store.history.add_points(name, first, values, lines, batch.file, times, now)
+        self.store.history.add_points(name, first, values, lines, batch.file, times, written)
         records: list[dict] = []
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)

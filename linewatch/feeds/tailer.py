@@ -63,6 +63,9 @@ class TailChunk:
     state: FileState | None
     events: list[FeedEvent] = field(default_factory=list)
     more: bool = False  # bytes are still waiting beyond this poll's budget
+    # when the rows were written, for rows that were already in the file when it was opened
+    # (catching up on a history); None for rows that arrived while following (written now)
+    written_at: float | None = None
 
 
 def _fingerprint(head: bytes) -> str:
@@ -121,6 +124,8 @@ class _Followed:
         self.gone = False
         self.resume_from: FileState | None = None  # where to go on after an I/O error
         self.shrunk_since: float | None = None  # when the file was first seen shorter
+        self.backlog_end = 0  # bytes the file held when it was opened ...
+        self.backlog_mtime = 0.0  # ... and when it was last written then
 
     # -- identity ---------------------------------------------------------------------------
 
@@ -132,7 +137,13 @@ class _Followed:
     def _read_head(self, fd: int, size: int) -> bytes:
         return os.pread(fd, min(size, FINGERPRINT_BYTES), 0)
 
+    def written_at(self) -> float | None:
+        """When the rows read so far were written, as far as the file tells: its modification
+        time at opening for rows it already held (a catch-up), None for rows appended since."""
+        return self.backlog_mtime if 0 < self.offset <= self.backlog_end else None
+
     def _restart(self) -> None:
+        self.backlog_end = 0
         self.shrunk_since = None
         self.offset = self.pos = 0
         self.next_line = 1
@@ -163,6 +174,7 @@ class _Followed:
         self.fd, self.dev, self.inode = fd, st.st_dev, st.st_ino
         self.head = self._read_head(fd, st.st_size)
         self._restart()
+        self.backlog_end, self.backlog_mtime = st.st_size, st.st_mtime
         if adopt is not None:
             self._resume(adopt, st.st_size, events)
         return True
@@ -439,7 +451,7 @@ class Tailer:
                 if fst.st_size > f.pos:
                     batch, more = f.read(max_bytes)
                     if batch is not None or more:
-                        out.append(TailChunk(f.path, batch, f.state(), [], more))
+                        out.append(TailChunk(f.path, batch, f.state(), [], more, f.written_at()))
                     if more:
                         return out
                 if st is not None and self._same_copy(f, fst, st):
@@ -491,7 +503,7 @@ class Tailer:
             f.unreadable = False
             events.append(FeedEvent("readable", f.path, "the file can be read again"))
         if batch is not None or events or more:
-            out.append(TailChunk(f.path, batch, f.state(), events, more))
+            out.append(TailChunk(f.path, batch, f.state(), events, more, f.written_at()))
         return out
 
     def _retire(self, f: _Followed, fst: os.stat_result) -> None:
@@ -539,7 +551,8 @@ class Tailer:
             more = True
             while more:
                 batch, more = old.read(max_bytes)
-                out.append(TailChunk(renamed, batch, old.state(), [*head, *events]))
+                out.append(TailChunk(renamed, batch, old.state(), [*head, *events],
+                                     written_at=old.written_at()))
                 head, events = [], []
             old.close()
         return None
@@ -574,4 +587,4 @@ class Tailer:
         if not f.open(events, same):
             return [TailChunk(f.path, None, None, events)]
         batch, more = f.read(max_bytes)
-        return [TailChunk(f.path, batch, f.state(), events, more)]
+        return [TailChunk(f.path, batch, f.state(), events, more, f.written_at())]

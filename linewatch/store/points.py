@@ -157,19 +157,24 @@ class History:
         return names
 
     def prune(self, now: float | None = None) -> int:
-        """Drop points older than `keep_seconds` or beyond the newest `keep_points` of their
-        characteristic; returns how many went."""
+        """Drop points more than `keep_seconds` older than their characteristic's newest point
+        (or than now, if sooner) and beyond its newest `keep_points`; returns how many went.
+
+        Counting back from the newest point keeps the last stretch of a history caught up
+        from an old file (its points carry when the file was written), so its charts still
+        have something to show."""
         now = time.time() if now is None else now
         self._last_prune = now
         gone = 0
         with self.store.transaction() as conn:
             for name in self.characteristics_with_points():
-                newest = conn.execute(
-                    "SELECT MAX(idx) FROM points WHERE characteristic = ?", (name,)
-                ).fetchone()[0]
+                newest, newest_at = conn.execute(
+                    "SELECT MAX(idx), MAX(received_at) FROM points WHERE characteristic = ?",
+                    (name,),
+                ).fetchone()
                 gone += conn.execute(
                     "DELETE FROM points WHERE characteristic = ? AND received_at < ?",
-                    (name, now - self.keep_seconds),
+                    (name, min(now, newest_at) - self.keep_seconds),
                 ).rowcount
                 gone += conn.execute(
                     "DELETE FROM points WHERE characteristic = ? AND idx <= ?",

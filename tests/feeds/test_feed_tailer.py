@@ -387,3 +387,22 @@ def test_polling_mode_follows_appends_and_rotation_without_events(tmp_path, foll
     seen = f.until(has(3))
     assert seen.values["od"] == [value(1), value(2), value(3)]
     assert "rotated" in seen.kinds()
+
+
+def test_rows_a_file_already_held_carry_its_write_time_and_new_rows_carry_none(
+    tmp_path, follow
+):
+    """Catching up on a history: the rows were written when the file last changed, not when
+    they were read. Rows appended while following were written just now."""
+    log = tmp_path / "log.csv"
+    append(log, HEADER + row(1) + row(2))
+    two_hours_ago = os.stat(log).st_mtime - 7200
+    os.utime(log, (two_hours_ago, two_hours_ago))
+    f = follow([log])
+    f.until(has(2))
+    caught_up = [c for c in f.seen.chunks if c.batch is not None]
+    assert [c.written_at for c in caught_up] == [two_hours_ago]
+    append(log, row(3))
+    f.until(has(3))
+    live = [c for c in f.seen.chunks if c.batch is not None][1:]
+    assert live and all(c.written_at is None for c in live)

@@ -140,3 +140,15 @@ def test_alarms_in_a_period(store: Store) -> None:
     assert [a.id for a in store.alarms.between(120, 200)] == [1]
     assert [a.id for a in store.alarms.between(160, 400)] == [2]
     assert [a.id for a in store.alarms.between(0, 1000)] == [1, 2]
+
+
+def test_prune_by_age_counts_back_from_the_newest_point_of_an_old_history(
+    tmp_path: Path,
+) -> None:
+    """A history caught up from a file last written long ago keeps its last stretch."""
+    with Store(tmp_path / "s") as store:
+        h = History(store, keep_seconds=1000.0, keep_points=100, prune_every=float("inf"))
+        h.add_points("od", 0, [1.0] * 2, [1, 2], "f", received_at=0.0)
+        h.add_points("od", 2, [1.0] * 2, [3, 4], "f", received_at=1500.0)
+        assert h.prune(now=1_000_000.0) == 2
+        assert [p.index for p in h.points("od")] == [2, 3]
