@@ -17,6 +17,11 @@ rotated or truncated file is recognised whatever its name:
 - deleted (`vanished`), created again (`appeared`), not readable (`unreadable` / `readable`),
   a pattern whose folder or file does not exist yet (`waiting`).
 
+At most `max_open` files are held open. When more match (a folder of archived daily logs), the
+files that have been quiet longest are put to rest: their handle is closed, their state kept,
+and they are opened again (resuming at the same offset) when a stat shows them changed. A
+file that is renamed or deleted while resting is handled like a rotation found on restart.
+
 The caller commits each chunk's `FileState` with whatever it derived from the chunk and passes
 the saved states back on restart, so reading resumes exactly where it stopped.
 """
@@ -38,9 +43,25 @@ from linewatch.model import FeedEvent, FileState
 
 FINGERPRINT_BYTES = 1024
 READ_SIZE = 1 << 20
-DEFAULT_MAX_BYTES = 4 << 20
+DEFAULT_MAX_BYTES = 4 << 20  # read from one file in one poll at most
+POLL_BYTES = 16 << 20  # read from all files in one poll at most (memory stays bounded)
 PRIME_BYTES = 64 << 10
 SHRINK_GRACE = 2.0  # seconds a shorter file that begins like ours may take to grow back
+MAX_OPEN = 200  # handles held at once at most ...
+
+
+def default_max_open() -> int:
+    """... and no more than a quarter of this process's limit on open files, leaving room for
+    the store, the watcher and the screen."""
+    try:
+        import resource
+
+        soft, _ = resource.getrlimit(resource.RLIMIT_NOFILE)
+    except (ImportError, OSError, ValueError):  # no such limit on this platform
+        return MAX_OPEN
+    if soft == resource.RLIM_INFINITY or soft <= 0:
+        return MAX_OPEN
+    return max(4, min(MAX_OPEN, soft // 4))
 
 
 class SavedState(Protocol):
@@ -124,6 +145,8 @@ class _Followed:
         self.gone = False
         self.resume_from: FileState | None = None  # where to go on after an I/O error
         self.shrunk_since: float | None = None  # when the file was first seen shorter
+        # (device, inode, size, mtime) when put to rest with its handle closed; None otherwise
+        self.rest: tuple[int, int, int, int] | None = None
         self.backlog_end = 0  # bytes the file held when it was opened ...
         self.backlog_mtime = 0.0  # ... and when it was last written then
 
@@ -156,8 +179,12 @@ class _Followed:
             os.close(self.fd)
             self.fd = None
 
-    def open(self, events: list[FeedEvent], adopt: SavedState | None) -> bool:
-        """Open the path; resume from `adopt` when it describes this same file."""
+    def open(
+        self, events: list[FeedEvent], adopt: SavedState | None, history: bool = True
+    ) -> bool:
+        """Open the path; resume from `adopt` when it describes this same file. `history`:
+        the bytes it holds now were written before we followed it (their rows carry its
+        modification time); False when waking a resting file, whose new rows are live."""
         try:
             fd = os.open(self.path, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
         except FileNotFoundError:
@@ -174,7 +201,8 @@ class _Followed:
         self.fd, self.dev, self.inode = fd, st.st_dev, st.st_ino
         self.head = self._read_head(fd, st.st_size)
         self._restart()
-        self.backlog_end, self.backlog_mtime = st.st_size, st.st_mtime
+        if history:
+            self.backlog_end, self.backlog_mtime = st.st_size, st.st_mtime
         if adopt is not None:
             self._resume(adopt, st.st_size, events)
         return True
@@ -317,8 +345,12 @@ class Tailer:
         patterns: Sequence[str] = (),
         default_feed: FeedConfig | None = None,
         shrink_grace: float = SHRINK_GRACE,
+        max_open: int | None = None,
     ) -> None:
         self.shrink_grace = shrink_grace
+        self.max_open = max(1, default_max_open() if max_open is None else max_open)
+        # open files, the one with the oldest news first (the first to be put to rest)
+        self._open: dict[str, _Followed] = {}
         self.columns = list(columns) if columns is not None else None
         self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
         extra_feed = default_feed or FeedConfig(paths=list(patterns))
@@ -336,24 +368,28 @@ class Tailer:
 
     @property
     def files(self) -> list[str]:
-        """Paths followed now (open or waiting to be readable again)."""
+        """Paths followed now (open, resting or waiting to be readable again)."""
         return [p for p, f in self._followed.items() if not f.gone]
 
     def status(self) -> dict[str, str]:
-        """Each known path's condition for a health display: reading, unreadable or gone."""
+        """Each known path's condition: reading, resting (handle closed until it changes),
+        unreadable or gone."""
         out: dict[str, str] = {}
         for path, f in self._followed.items():
             if f.unreadable:
                 out[path] = "unreadable"
             elif f.fd is not None:
                 out[path] = "reading"
+            elif f.rest is not None:
+                out[path] = "resting"
             else:
                 out[path] = "gone"
         return out
 
-    def states(self) -> dict[str, FileState]:
-        """The current state of every open file."""
-        return {p: f.state() for p, f in self._followed.items() if f.fd is not None}
+    @property
+    def open_files(self) -> int:
+        """How many handles are held now."""
+        return sum(f.fd is not None for f in self._followed.values())
 
     def backlog(self) -> tuple[int, int]:
         """(bytes read, bytes in total) over the open files: catch-up progress for a display."""
@@ -373,17 +409,63 @@ class Tailer:
         """Close every handle (the unread partial lines are not points)."""
         for f in self._followed.values():
             f.close()
+        self._open.clear()
 
-    def poll(self, max_bytes: int = DEFAULT_MAX_BYTES) -> list[TailChunk]:
-        """Discover files, then read at most `max_bytes` from each; one chunk per path with news."""
+    def poll(
+        self, max_bytes: int = DEFAULT_MAX_BYTES, poll_bytes: int = POLL_BYTES
+    ) -> list[TailChunk]:
+        """Discover files, then read at most `max_bytes` from each, in the order the patterns
+        match them (a folder of daily logs is caught up day by day), until `poll_bytes` were
+        read in all; one chunk per path with news. When the files left over wait for the next
+        poll, the last chunk says `more`."""
         chunks: list[TailChunk] = []
         self._discover(chunks)
+        spent = 0
         for f in list(self._followed.values()):
+            if spent >= poll_bytes:
+                chunks.append(TailChunk("", None, None, [], more=True))
+                break
+            before = f.pos if f.fd is not None else None
             try:
-                chunks.extend(self._step(f, max_bytes))
+                out = self._step(f, max_bytes)
             except OSError as exc:  # an I/O error on one file (a share went away) stops only it
-                chunks.extend(self._broken(f, exc))
+                out = self._broken(f, exc)
+            chunks.extend(out)
+            self._note_open(f, news=bool(out))
+            if out and f.fd is not None:
+                spent += f.pos - (before if before is not None and before <= f.pos else 0)
         return chunks
+
+    # -- handles ----------------------------------------------------------------------------
+
+    def _note_open(self, f: _Followed, news: bool) -> None:
+        """Keep `_open` in order of news: a file with news moves to the end."""
+        if f.fd is None:
+            self._open.pop(f.path, None)
+        elif news or f.path not in self._open:
+            self._open.pop(f.path, None)
+            self._open[f.path] = f
+
+    def _make_room(self, needing: _Followed) -> bool:
+        """Below `max_open` handles, or put the quietest fully read file to rest; False when
+        every open file still has bytes to read (the caller waits for its turn)."""
+        if len(self._open) < self.max_open:
+            return True
+        for g in self._open.values():
+            if g is needing or g.fd is None:
+                continue
+            fst = os.fstat(g.fd)
+            if g.pos >= fst.st_size and g.shrunk_since is None:
+                self._rest(g, fst)
+                return True
+        return False
+
+    def _rest(self, f: _Followed, fst: os.stat_result) -> None:
+        """Close a fully read file's handle, keeping where it stopped for when it changes."""
+        self._saved[f.path] = f.state()
+        f.rest = (fst.st_dev, fst.st_ino, fst.st_size, fst.st_mtime_ns)
+        f.close()
+        self._open.pop(f.path, None)
 
     def _broken(
         self, f: _Followed, exc: OSError, events: list[FeedEvent] | None = None
@@ -479,15 +561,29 @@ class Tailer:
                     f.head = f._read_head(f.fd, fst.st_size)
                     f._restart()
         else:
+            waking = f.rest is not None
             if st is None:
-                return out
+                return out + self._left_while_resting(f) if waking else out
+            if f.rest == (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns):
+                return out  # resting and unchanged
+            if not self._make_room(f):
+                return [*out, TailChunk(f.path, None, None, [], more=True)]
             was_gone = f.gone
             adopt, f.resume_from = f.resume_from, None
+            if f.rest is not None:
+                if f.rest[:2] == (st.st_dev, st.st_ino):
+                    adopt = self._saved.pop(f.path, None)
+                else:  # replaced while resting; a followed new name reads the old file's rest
+                    renamed = _find_inode(os.path.dirname(f.path), *f.rest[:2])
+                    if renamed and os.path.abspath(renamed) in self._followed:
+                        events.append(FeedEvent("rotated", f.path,
+                                                f"old file now {renamed}; reading the new one"))
+                f.rest = None
             if adopt is None:
                 adopt = self._adoptable(f.path, st)
             if adopt is None:
                 adopt = self._own_saved(f.path, st, out, max_bytes)
-            if not f.open(events, adopt):
+            if not f.open(events, adopt, history=not waking):
                 if events:
                     out.append(TailChunk(f.path, None, None, events))
                 return out
@@ -506,6 +602,18 @@ class Tailer:
             out.append(TailChunk(f.path, batch, f.state(), events, more, f.written_at()))
         return out
 
+    def _left_while_resting(self, f: _Followed) -> list[TailChunk]:
+        """A resting file's name is gone: say where it went. Its saved state stays, so if a
+        pattern matches the new name, reading goes on there from the same offset."""
+        assert f.rest is not None
+        dev, inode = f.rest[:2]
+        f.rest = None
+        f.gone = True
+        renamed = _find_inode(os.path.dirname(f.path), dev, inode)
+        event = (FeedEvent("rotated", f.path, f"renamed to {renamed}") if renamed
+                 else FeedEvent("vanished", f.path, "deleted"))
+        return [TailChunk(f.path, None, None, [event])]
+
     def _retire(self, f: _Followed, fst: os.stat_result) -> None:
         """Remember where an old file's reading ended, in case it shows up under a new name."""
         if f.offset:
@@ -519,6 +627,9 @@ class Tailer:
         if hit is not None:
             offset, next_line, head = hit
             return FileState(path, st.st_dev, st.st_ino, _fingerprint(head), offset, next_line)
+        own = self._saved.get(path)
+        if own is not None and (own.dev, own.inode) == (st.st_dev, st.st_ino):
+            return self._saved.pop(path)  # the usual case, without a search
         for key, saved in list(self._saved.items()):
             if (saved.dev, saved.inode) == (st.st_dev, st.st_ino):
                 return self._saved.pop(key)
@@ -546,8 +657,8 @@ class Tailer:
         events: list[FeedEvent] = []
         if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
                                       saved.offset, saved.next_line)):
-            head = [FeedEvent("rotated", path, f"renamed to {renamed} while stopped: reading "
-                              f"its last rows")]
+            head = [FeedEvent("rotated", path, f"renamed to {renamed}: reading its last rows, "
+                              f"then the new file")]
             more = True
             while more:
                 batch, more = old.read(max_bytes)

@@ -82,7 +82,8 @@ class Follow:
 
 @pytest.fixture
 def follow():
-    """Factory: follow(patterns, feed=None, columns=None, saved=None) with a real waker."""
+    """Factory: follow(patterns, feed=None, columns=None, saved=None, poll_seconds=0,
+    max_open=200) with a real waker."""
     made: list[Follow] = []
 
     def make(
@@ -91,13 +92,15 @@ def follow():
         columns: list[str] | None = None,
         saved: dict | None = None,
         poll_seconds: float = 0.0,
+        max_open: int = 200,
     ) -> Follow:
         pats = [str(p) for p in patterns]
         if feed is not None:
             feed.paths = pats
-            tailer = Tailer([feed], columns, saved, shrink_grace=0.3)
+            tailer = Tailer([feed], columns, saved, shrink_grace=0.3, max_open=max_open)
         else:
-            tailer = Tailer([], columns, saved, patterns=pats, shrink_grace=0.3)
+            tailer = Tailer([], columns, saved, patterns=pats, shrink_grace=0.3,
+                            max_open=max_open)
         waker = Waker(tailer.patterns, poll_seconds=poll_seconds, safety_seconds=1.0)
         f = Follow(tailer, waker)
         made.append(f)
