@@ -256,65 +256,76 @@ class Monitor:
         chunks = self.tailer.poll()
         if not chunks:
             return False
-        for chunk in chunks:
-            if self.role != "collector":
-                return False
-            self._process_chunk(chunk)
-            self.rows_read += chunk.batch.rows if chunk.batch is not None else 0
+        if self.role != "collector":
+            return False
+        self._process_chunks(chunks)
+        self.rows_read += sum(c.batch.rows for c in chunks if c.batch is not None)
         self._report_progress(any(c.more for c in chunks))
         self._emit_alarm_changes()
         self._changed()
         return True
 
     # -- processing --
-    def _process_chunk(self, chunk) -> None:
+    def _process_chunks(self, chunks) -> None:
+        """Everything one poll read, in one transaction: file offsets, points, limits, alarms,
+        audit and each touched characteristic's engine state (saved once, at the end), so a
+        folder of many small files costs one commit, and a crash keeps all of it or none."""
         now = self.clock()
         records: list[dict[str, Any]] = []
-        raised = []
-        batch = chunk.batch
+        raised: list = []
+        touched: set[str] = set()
         from linewatch.store.lease import LeaseLost
 
         try:
             with self.store.transaction():
                 # a collector that stalled past its lease and was replaced must not write twice
                 self.lease.ensure()
-                for ev in chunk.events:
-                    assert self.health is not None
-                    if ev.kind != "waiting":  # a pattern with no file yet shows as waiting
-                        self.health.file_event(ev, now)
-                    records.append(self._record_feed_event(ev, now, raised))
-                if batch is not None:
-                    for r in batch.rejected:
-                        records.append(rejected_record(r))
-                        self.store.history.add_feed_event(
-                            FeedEvent("rejected", r.file, f"line {r.line}: {r.reason}"), now)
-                    self.rejected += len(batch.rejected)
-                    # rows caught up from a file's history count as written when the file says
-                    # (its ages and staleness then tell the truth right after a start)
-                    written = now if chunk.written_at is None else min(now, chunk.written_at)
-                    for column, values in batch.values.items():
-                        name = self.by_column.get(column) or (
-                            column if not self.plan.characteristics else None)
-                        if name is None or not values:
-                            continue
-                        records.extend(
-                            self._process_values(name, batch, column, now, written, raised))
-                    if batch.rows:
-                        assert self.health is not None
-                        self.health.rows_arrived(batch.file, batch.rows, written)
-                if chunk.state is not None:
-                    self.store.ingest.save_file(chunk.state, now)
+                for chunk in chunks:
+                    self._process_chunk(chunk, now, records, raised, touched)
+                for name in sorted(touched):
+                    eng = self.engines[name]
+                    self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
         except LeaseLost:
             self._step_down()
             return
-        except Exception:
-            # the transaction rolled back: the caller steps down and resumes from the store
-            raise
+        # any other failure rolled the transaction back: the caller steps down and resumes
+        # from the store
         for rec in records:
             if rec:
                 self.emit(rec)
         if raised:
             self._run_hooks(raised)
+
+    def _process_chunk(self, chunk, now: float, records: list, raised: list,
+                       touched: set[str]) -> None:
+        """One file's part of a poll (inside the poll's transaction)."""
+        assert self.health is not None
+        for ev in chunk.events:
+            if ev.kind != "waiting":  # a pattern with no file yet shows as waiting
+                self.health.file_event(ev, now)
+            records.append(self._record_feed_event(ev, now, raised))
+        batch = chunk.batch
+        if batch is not None:
+            for r in batch.rejected:
+                records.append(rejected_record(r))
+                self.store.history.add_feed_event(
+                    FeedEvent("rejected", r.file, f"line {r.line}: {r.reason}"), now)
+            self.rejected += len(batch.rejected)
+            # rows caught up from a file's history count as written when the file says (its
+            # ages and staleness then tell the truth right after a start)
+            written = now if chunk.written_at is None else min(now, chunk.written_at)
+            for column, values in batch.values.items():
+                name = self.by_column.get(column) or (
+                    column if not self.plan.characteristics else None)
+                if name is None or not values:
+                    continue
+                if self._engine(name) is not None:
+                    touched.add(name)
+                records.extend(self._process_values(name, batch, column, now, written, raised))
+            if batch.rows:
+                self.health.rows_arrived(batch.file, batch.rows, written)
+        if chunk.state is not None:
+            self.store.ingest.save_file(chunk.state, now)
 
     def _process_values(
         self, name: str, batch, column: str, now: float, written: float, raised
@@ -346,7 +357,6 @@ class Monitor:
             raised += self.alarms.observe_spec(name, first, values, c.lsl, c.usl, now)
         assert self.health is not None
         self.health.values_arrived(name, values)
-        self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
         return records
 
     def _report_progress(self, behind: bool) -> None:
