@@ -210,3 +210,18 @@ async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_char
             await pilot.pause()
             keys = {k.key for k in app.screen.query(FooterKey)}
             assert ("pagedown" in keys) is offered, (size, keys)
+
+
+async def test_the_board_row_says_learning_while_a_new_phase_s_limits_are_being_learned(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        table = app.screen.query_one("#board-table", DataTable)
+        assert "learning" not in str(table.get_cell("ovality", "state"))
+        picture = build_snapshot()
+        ovality = next(cv for cv in picture.characteristics if cv.name == "ovality")
+        assert ovality.open_alarms == 0  # the row's second line is free for the phase
+        ovality.pending_phase_start = 64
+        source.publish(dataclasses.replace(picture, version=2))
+        await until(lambda: "learning" in str(table.get_cell("ovality", "state")))

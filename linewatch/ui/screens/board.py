@@ -188,7 +188,8 @@ class BoardScreen(LineScreen):
         width = self._widths["recent"]
         tail = (len(loc.values), loc.values[-1:], loc.rules[-width:]) if loc else ()
         return (cv.state, cv.last_value, cv.points, cv.open_alarms, cv.cpk, cv.cpk_lower95,
-                cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed, tail,
+                cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
+                cv.pending_phase_start, tail,
                 fmt_age(self.lw.age_now(cv.last_row_age)))
 
     def _highlighted_name(self) -> str | None:
@@ -204,6 +205,8 @@ class BoardScreen(LineScreen):
         state.append("\n")
         if cv.open_alarms:
             state.append(f"{cv.open_alarms} open", "bold")
+        elif cv.pending_phase_start is not None:  # limits are being learned again
+            state.append("learning", palette.STATE_STYLE[view.STATE_LEARNING])
         name = Text(cv.name, "bold", end="", no_wrap=True, overflow="ellipsis")
         name.append("\n")
         value = fmt_value(cv.last_value)
