@@ -206,7 +206,10 @@ class Monitor:
             self.close()
 
     def close(self) -> None:
-        """Release the lease and close files and the store."""
+        """Let running alarm hooks finish or reach their time limit (so their outcome is
+        reported), then release the lease and close files and the store."""
+        if self._hooks is not None:
+            self._hooks.wait(self._hooks.timeout + 1.0)
         if self.waker is not None:
             self.waker.close()
             self.waker = None
