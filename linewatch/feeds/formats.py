@@ -38,6 +38,7 @@ import codecs
 import csv
 import json
 import math
+import re
 import sys
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
@@ -206,6 +207,21 @@ def _detect_delimiter(text: str) -> str:
     return best if counts[best] else ","
 
 
+_DATE_TIME = re.compile(
+    r"\d{1,4}[-/.]\d{1,2}[-/.]\d{1,4}(?:[T ]\d{1,2}:\d{2}(?::\d{2}(?:[.,]\d+)?)?)?"
+    r"(?:Z|[+-]\d{2}:?\d{2})?"
+)
+
+
+def _looks_like_data(fields: list[str], decimal_comma: bool) -> bool:
+    """At least half the fields are numbers or dates and times: a row, not column names."""
+    data = sum(
+        1 for f in fields
+        if parse_number(f, decimal_comma) is not None or _DATE_TIME.fullmatch(f) is not None
+    )
+    return data > 0 and 2 * data >= len(fields)
+
+
 def _time_index(names: list[str], configured: str | None) -> int | None:
     if configured:
         return names.index(configured) if configured in names else None
@@ -265,6 +281,7 @@ class RowParser:
         self.columns = list(columns) if columns is not None else None
         self.require_columns = require_columns
         self.decimal_comma = feed.decimal == ","
+        self.previous_header: tuple[str, ...] | None = None  # kept across `reset`
         self.reset()
 
     def reset(self) -> None:
@@ -344,9 +361,9 @@ class RowParser:
         if self.feed.layout == "jsonl":
             self._json_line(stripped, line_no, out)
             return
-        if self.header is None:
-            self._header_line(text, line_no, out)
+        if self.header is None and not self._header_line(text, line_no, out):
             return
+        assert self.header is not None
         fields = self._split(text)
         if tuple(f.strip() for f in fields) == self.header:
             return
@@ -366,18 +383,30 @@ class RowParser:
         except csv.Error:  # a quoted field beyond the csv module's size limit
             return text.split(self.delimiter)
 
-    def _header_line(self, text: str, line_no: int, out: _Rows) -> None:
+    def _header_line(self, text: str, line_no: int, out: _Rows) -> bool:
+        """Take a file's first line as its header. True when it is a data row instead, read
+        under the header this path had before (a writer that starts a rotated file without
+        one); a first line of data with no header to go by is rejected."""
         if self.feed.delimiter == "auto":
             self.delimiter = _detect_delimiter(text)
         self.decimal_comma = self.feed.decimal == "," or self.delimiter == ";"
         names = [f.strip() for f in self._split(text)]
-        if all(parse_number(n, self.decimal_comma) is not None for n in names):
-            problem = "first line holds numbers, not a header of column names"
+        if _looks_like_data(names, self.decimal_comma):
+            before = self.previous_header
+            if before is not None and len(before) == len(names):
+                self._use_header(list(before), line_no, out)
+                return True
+            problem = "first line holds numbers and times, not a header of column names"
             if self.require_columns:
                 raise LinewatchError(f"{self.file}: line {line_no}: {problem}")
             out.reject(line_no, problem)
-            return
+            return False
+        self._use_header(names, line_no, out)
+        return False
+
+    def _use_header(self, names: list[str], line_no: int, out: _Rows) -> None:
         self.header = tuple(names)
+        self.previous_header = self.header
         self.time_idx = _time_index(names, self.feed.time_column)
         problems: list[str] = []
         if self.feed.time_column and self.time_idx is None:

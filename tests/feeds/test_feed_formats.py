@@ -326,3 +326,37 @@ def test_fast_reader_on_many_rows_equals_float(tmp_path: Path) -> None:
     b = read_log(str(p), FeedConfig(paths=[]))
     assert np.array_equal(b.values["od"], np.array([float(t) for t in texts]))
     assert b.times["od"][19_999] == "t19999"
+
+
+def test_a_new_file_without_a_header_is_read_under_the_header_the_path_had_before() -> None:
+    """A writer that starts a rotated file with data, not a header (common practice on line
+    PCs, whose loggers often write the header only once): the rows keep their columns."""
+    lines = WIDE.encode().split(b"\n")[:-1]
+    parser = RowParser(FeedConfig(paths=[]), "log.csv")
+    first = parser.parse(lines, 1)
+    parser.reset()  # the file was rotated: a new file starts
+    second = parser.parse(lines[1:], 1)
+    assert list(second.values["od"]) == list(first.values["od"])
+    assert list(second.lines["od"]) == [1, 2, 3] and not second.rejected
+    # a differently shaped first row is not forced under the old header
+    parser.reset()
+    other = parser.parse([b"2026-03-02T06:01:00,25.001"], 1)
+    assert not other.values and "not a header" in other.rejected[0].reason
+
+
+def test_a_first_line_of_data_with_no_header_before_is_rejected_not_taken_for_names() -> None:
+    b = rows("2026-03-02T06:00:00,T-0001,25.013,1.502\n2026-03-02T06:00:05,T-0002,24.987,1.497\n")
+    assert not b.values  # '25.013' never becomes a characteristic
+    assert b.rejected[0].line == 1 and "not a header" in b.rejected[0].reason
+    # column names that happen to hold a digit or two are still a header
+    named = rows("time,station 2,od\n2026-03-02T06:00:00,4,25.013\n")
+    assert list(named.values) == ["station 2", "od"]
+
+
+def test_check_says_when_a_log_starts_with_data_instead_of_a_header(tmp_path: Path) -> None:
+    log = tmp_path / "log.csv"
+    log.write_text("2026-03-02T06:00:00,T-0001,25.013\n")
+    out = subprocess.run([sys.executable, "-m", "linewatch", "check", str(log)],
+                         capture_output=True, text=True, timeout=60)
+    assert out.returncode == 2
+    assert "line 1" in out.stderr and "not a header" in out.stderr

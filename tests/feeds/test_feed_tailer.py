@@ -406,3 +406,17 @@ def test_rows_a_file_already_held_carry_its_write_time_and_new_rows_carry_none(
     f.until(has(3))
     live = [c for c in f.seen.chunks if c.batch is not None][1:]
     assert live and all(c.written_at is None for c in live)
+
+
+def test_a_rotated_file_started_without_a_header_keeps_the_columns(tmp_path, follow):
+    log = tmp_path / "log.csv"
+    append(log, HEADER + row(1) + row(2))
+    f = follow([log])
+    f.until(has(2))
+    os.rename(log, tmp_path / "log.csv.1")
+    append(log, row(3) + row(4))  # the logger writes its header only once
+    seen = f.until(has(4))
+    f.settle(2)
+    assert seen.values["od"] == [value(1), value(2), value(3), value(4)]
+    assert seen.lines["od"][-2:] == [(str(log), 1), (str(log), 2)]
+    assert not seen.rejected and list(seen.values) == ["od"]
