@@ -175,6 +175,7 @@ class Monitor:
     # -- the loop --
     def run(self, stop: threading.Event) -> None:
         """Collect (or watch as a viewer) until `stop` is set; then finish what was read."""
+        due = True  # read at once; later only when the waker says something may have changed
         try:
             while not stop.is_set():
                 now = self.clock()
@@ -182,6 +183,7 @@ class Monitor:
                     if self.lease.try_acquire(now):
                         self._become_collector()
                         self._changed()
+                        due = True
                         continue
                     if not self._announced:
                         self._announced = True
@@ -192,14 +194,16 @@ class Monitor:
                 try:
                     if now - self._last_tick >= TICK_SECONDS:
                         self._tick(now)
-                    worked = self.step()
+                    worked = self.step() if due or self.waker is None else False
                 except Exception as exc:  # keep monitoring; resume from what the store holds
                     self._step_down()
                     self.emit({"type": "error", "problem": f"{type(exc).__name__}: {exc}"})
                     stop.wait(1.0)
+                    due = True
                     continue
-                if not worked and self.waker is not None:
-                    self.waker.wait(TICK_SECONDS)
+                # an idle line costs a wait, not a stat of every file twice a second: the
+                # waker returns True on a file-system event and on its slow safety beat
+                due = worked or self.waker is None or self.waker.wait(TICK_SECONDS)
             if self.role == "collector":
                 self.step()
         finally:

@@ -102,10 +102,12 @@ def latency(tmp: Path, n: int = 200) -> tuple[float, float]:
     return float(np.percentile(d, 50)), float(np.percentile(d, 95))
 
 
-def idle(tmp: Path, seconds: float = 10.0) -> float:
-    for k in range(10):
-        (tmp / f"quiet{k}.csv").write_text("od\n10.0\n10.1\n9.9\n")
-    proc = start([str(tmp / "quiet*.csv"), "--state-dir", str(tmp / "state-idle")])
+def idle(tmp: Path, seconds: float = 10.0, files: int = 10) -> float:
+    folder = tmp / f"idle-{files}"
+    folder.mkdir()
+    for k in range(files):
+        (folder / f"quiet{k}.csv").write_text("od\n10.0\n10.1\n9.9\n")
+    proc = start([str(folder / "quiet*.csv"), "--state-dir", str(folder / "state")])
     time.sleep(3)
     before = _cpu(proc.pid)
     time.sleep(seconds)
@@ -132,6 +134,7 @@ def main() -> None:
         p50, p95 = latency(tmp)
         print(f"write-to-signal latency: p50 {p50:.1f} ms, p95 {p95:.1f} ms")
         print(f"idle CPU: {idle(tmp):.2f}% of one core")
+        print(f"idle CPU, 300 quiet files: {idle(tmp, files=300):.2f}% of one core")
 
 
 if __name__ == "__main__":
