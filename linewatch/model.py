@@ -86,3 +86,6 @@ class FileState:
     fingerprint: str
     offset: int
     next_line: int = 1
+    # the column names the file is read under: its own header, or the one its path had before
+    # when it began without one (kept so a restart reads such a file the same way)
+    header: tuple[str, ...] | None = None

@@ -73,6 +73,7 @@ class SavedState(Protocol):
     fingerprint: str
     offset: int
     next_line: int
+    header: tuple[str, ...] | None
 
 
 @dataclass(slots=True)
@@ -154,7 +155,8 @@ class _Followed:
 
     def state(self) -> FileState:
         return FileState(
-            self.path, self.dev, self.inode, _fingerprint(self.head), self.offset, self.next_line
+            self.path, self.dev, self.inode, _fingerprint(self.head), self.offset, self.next_line,
+            self.parser.header,
         )
 
     def _read_head(self, fd: int, size: int) -> bytes:
@@ -236,6 +238,8 @@ class _Followed:
             )
         self.offset = self.pos = saved.offset
         self.next_line = saved.next_line
+        if saved.header and self.parser.previous_header is None:
+            self.parser.previous_header = tuple(saved.header)
         if saved.offset:
             head = os.pread(self.fd or 0, min(saved.offset, PRIME_BYTES), 0)
             cut = head.rfind(b"\n")
@@ -359,7 +363,8 @@ class Tailer:
         self._followed: dict[str, _Followed] = {}
         self._feed_of: dict[str, FeedConfig] = {}
         self._waiting: dict[str, bool] = {}
-        self._retired: dict[tuple[int, int], tuple[int, int, bytes]] = {}
+        # (device, inode) -> (offset, next line, first bytes, header) of files rotated away
+        self._retired: dict[tuple[int, int], tuple[int, int, bytes, tuple[str, ...] | None]] = {}
 
     @property
     def patterns(self) -> list[str]:
@@ -617,7 +622,8 @@ class Tailer:
     def _retire(self, f: _Followed, fst: os.stat_result) -> None:
         """Remember where an old file's reading ended, in case it shows up under a new name."""
         if f.offset:
-            self._retired[(fst.st_dev, fst.st_ino)] = (f.offset, f.next_line, f.head)
+            self._retired[(fst.st_dev, fst.st_ino)] = (
+                f.offset, f.next_line, f.head, f.parser.header)
             while len(self._retired) > 256:  # only recent rotations can show up again
                 self._retired.pop(next(iter(self._retired)))
 
@@ -625,8 +631,9 @@ class Tailer:
         """A state for a file we already read under another name (a rotated log matched again)."""
         hit = self._retired.pop((st.st_dev, st.st_ino), None)
         if hit is not None:
-            offset, next_line, head = hit
-            return FileState(path, st.st_dev, st.st_ino, _fingerprint(head), offset, next_line)
+            offset, next_line, head, header = hit
+            return FileState(path, st.st_dev, st.st_ino, _fingerprint(head), offset, next_line,
+                             header)
         own = self._saved.get(path)
         if own is not None and (own.dev, own.inode) == (st.st_dev, st.st_ino):
             return self._saved.pop(path)  # the usual case, without a search
@@ -656,7 +663,7 @@ class Tailer:
         old = _Followed(renamed, self._feed_of[path], self.columns)
         events: list[FeedEvent] = []
         if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
-                                      saved.offset, saved.next_line)):
+                                      saved.offset, saved.next_line, saved.header)):
             head = [FeedEvent("rotated", path, f"renamed to {renamed}: reading its last rows, "
                               f"then the new file")]
             more = True
@@ -694,7 +701,7 @@ class Tailer:
                       f"line {before.next_line}")
         ]
         same = FileState(f.path, st.st_dev, st.st_ino, before.fingerprint, before.offset,
-                         before.next_line)
+                         before.next_line, before.header)
         if not f.open(events, same):
             return [TailChunk(f.path, None, None, events)]
         batch, more = f.read(max_bytes)

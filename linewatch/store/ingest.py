@@ -4,6 +4,7 @@ transaction as the points and alarms of the batch that moved them."""
 
 from __future__ import annotations
 
+import json
 import time
 from typing import TYPE_CHECKING, Protocol
 
@@ -28,6 +29,8 @@ class FilePosition(Protocol):
     def offset(self) -> int: ...
     @property
     def next_line(self) -> int: ...
+    @property
+    def header(self) -> tuple[str, ...] | None: ...
 
 
 class IngestState:
@@ -40,11 +43,11 @@ class IngestState:
         """Insert or replace the position of one file."""
         with self.store.transaction() as conn:
             conn.execute(
-                "INSERT INTO files (path, dev, inode, fingerprint, offset, next_line, updated_at) "
-                "VALUES (?, ?, ?, ?, ?, ?, ?) ON CONFLICT (path) DO UPDATE SET "
+                "INSERT INTO files (path, dev, inode, fingerprint, offset, next_line, header, "
+                "updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (path) DO UPDATE SET "
                 "dev = excluded.dev, inode = excluded.inode, fingerprint = excluded.fingerprint, "
                 "offset = excluded.offset, next_line = excluded.next_line, "
-                "updated_at = excluded.updated_at",
+                "header = excluded.header, updated_at = excluded.updated_at",
                 (
                     state.path,
                     state.dev,
@@ -52,6 +55,7 @@ class IngestState:
                     state.fingerprint,
                     state.offset,
                     state.next_line,
+                    None if state.header is None else json.dumps(list(state.header)),
                     time.time() if now is None else now,
                 ),
             )
@@ -64,9 +68,12 @@ class IngestState:
     def files(self) -> dict[str, FileState]:
         """Every saved file position, by path."""
         rows = self.store.query(
-            "SELECT path, dev, inode, fingerprint, offset, next_line FROM files ORDER BY path"
+            "SELECT path, dev, inode, fingerprint, offset, next_line, header FROM files "
+            "ORDER BY path"
         )
-        return {r["path"]: FileState(*tuple(r)) for r in rows}
+        return {
+            r["path"]: FileState(*tuple(r)[:6], header=_header(r["header"])) for r in rows
+        }
 
     def save_engine(self, characteristic: str, state: str, now: float | None = None) -> None:
         """Insert or replace one characteristic's engine state (JSON text)."""
@@ -82,3 +89,14 @@ class IngestState:
         """Every saved engine state, by characteristic."""
         rows = self.store.query("SELECT characteristic, state FROM engine_state")
         return {r[0]: r[1] for r in rows}
+
+
+def _header(text: str | None) -> tuple[str, ...] | None:
+    """A saved header back from its JSON list (None when none was saved or it is unreadable)."""
+    if not text:
+        return None
+    try:
+        names = json.loads(text)
+    except ValueError:
+        return None
+    return tuple(str(n) for n in names) if isinstance(names, list) else None

@@ -132,4 +132,8 @@ MIGRATIONS: tuple[str, ...] = (
     ALTER TABLE characteristics ADD COLUMN subgroup_size INTEGER;
     ALTER TABLE characteristics ADD COLUMN dispersion TEXT;
     """,
+    # 4: the header a file is read under (JSON list), for files that begin without one.
+    """
+    ALTER TABLE files ADD COLUMN header TEXT;
+    """,
 )

@@ -420,3 +420,24 @@ def test_a_rotated_file_started_without_a_header_keeps_the_columns(tmp_path, fol
     assert seen.values["od"] == [value(1), value(2), value(3), value(4)]
     assert seen.lines["od"][-2:] == [(str(log), 1), (str(log), 2)]
     assert not seen.rejected and list(seen.values) == ["od"]
+
+
+def test_after_a_restart_a_file_that_began_without_a_header_is_read_the_same_way(
+    tmp_path, follow
+):
+    log = tmp_path / "log.csv"
+    append(log, HEADER + row(1))
+    f = follow([log])
+    f.until(has(1))
+    os.rename(log, tmp_path / "log.csv.1")
+    append(log, row(2) + row(3))  # no header in the new file
+    f.until(has(3))
+    last = [c.state for c in f.seen.chunks if c.path == str(log) and c.state is not None][-1]
+    assert last.header == ("time", "part", "od")  # what the store keeps with the offset
+    f.tailer.close()
+    append(log, row(4))  # written while linewatch was stopped
+    again = follow([log], saved={str(log): last})
+    seen = again.until(has(1))
+    again.settle(2)
+    assert seen.values["od"] == [value(4)] and not seen.rejected
+    assert seen.lines["od"] == [(str(log), 3)]

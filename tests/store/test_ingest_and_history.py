@@ -23,6 +23,10 @@ def test_file_positions_round_trip_and_update(store: Store) -> None:
     files = store.ingest.files()
     assert files["/logs/od.csv"].offset == 8192 and files["/logs/od.csv"].next_line == 170
     assert files["/logs/wall.csv"].next_line == 1
+    assert files["/logs/wall.csv"].header is None
+    store.ingest.save_file(FileState("/logs/wall.csv", 2049, 132, "cd34", 10, 2,
+                                     ("time", "wall, mm")), now=3)
+    assert store.ingest.files()["/logs/wall.csv"].header == ("time", "wall, mm")
     store.ingest.forget_file("/logs/wall.csv")
     assert list(store.ingest.files()) == ["/logs/od.csv"]
 
