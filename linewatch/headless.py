@@ -31,7 +31,9 @@ def _text(record: dict[str, Any]) -> str:
         figures += "" if sd is None else f" SD {sd:.4g}"
         cpk = record.get("cpk")
         figures += "" if cpk is None else f" Cpk {cpk:.3g}"
-        return (f"SUMMARY {record['characteristic']}: {record['points']} points, "
+        read = record.get("read")
+        here = "" if read is None or read == record["points"] else f" ({read} read by this run)"
+        return (f"SUMMARY {record['characteristic']}: {record['points']} points{here}, "
                 f"{record['rejected']} rejected rows{figures}")
     if kind == "progress":
         return (f"READING {record['done'] * 100:.0f}% of history, "

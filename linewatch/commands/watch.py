@@ -81,7 +81,10 @@ def run_headless(plan, state_dir: Path, fmt: str, poll: float | None) -> int:
 
 
 def summaries(monitor) -> list[dict]:
-    """`summary` records per characteristic over the points this instance has seen."""
+    """`summary` records per characteristic. `points` and the figures cover the readings the
+    store holds for it (up to the newest 100,000), whichever instance read them, so they agree
+    after a restart or a takeover; `read` is how many this instance read, `rejected` how many
+    rows it rejected."""
     from linewatch.engine.summary import summarize
     from linewatch.statedir import open_store
 
@@ -96,8 +99,8 @@ def summaries(monitor) -> list[dict]:
                         if lim.chart in ("individuals", "xbar")), None)
             sigma = loc.sigma * (c.subgroup_size ** 0.5) if loc else None
             s = summarize(values, sigma_within=sigma, lsl=c.lsl, usl=c.usl).to_dict()
-            rec = {"type": "summary", "characteristic": name,
-                   "points": monitor.counts.get(name, 0), "rejected": monitor.rejected}
+            rec = {"type": "summary", "characteristic": name, "points": len(values),
+                   "read": monitor.counts.get(name, 0), "rejected": monitor.rejected}
             rec.update({k: v for k, v in s.items() if k != "points"})
             out.append(rec)
     finally:

@@ -102,3 +102,31 @@ def test_a_run_that_spans_a_restart_still_fires(tmp_path):
     sig = [r for r in records(second) if r["type"] == "signal"]
     assert [(s["rule"], s["index"], s["line"]) for s in sig] == [("n2", 38, 40)]
     assert offset_of(state, log) == log.stat().st_size
+
+
+def test_the_summary_after_a_restart_covers_every_stored_reading_and_says_what_this_run_read(
+    tmp_path,
+):
+    """The summary's figures come from the store, so its point count must too: after a
+    restart it counts the readings of both runs (and the figures agree with `check` on the
+    whole file); `read` is this run's share."""
+    log = tmp_path / "line.csv"
+    series = process_series(60, seed=8)
+    log.write_text(HEADER + "".join(rows_text(series[:45])))
+    state = tmp_path / "state"
+    first = start_watch([str(log)], state, "--baseline", "20")
+    wait_caught_up(state, log)
+    stop(first)
+    with log.open("a") as f:
+        f.writelines(rows_text(series[45:], start=45))
+    second = start_watch([str(log)], state, "--baseline", "20")
+    wait_caught_up(state, log)
+    out, err = stop(second)
+    assert second.returncode == 0, err
+    summary = next(r for r in records(out) if r["type"] == "summary")
+    assert (summary["points"], summary["read"]) == (60, 15)
+    checked = subprocess.run(
+        [sys.executable, "-m", "linewatch", "check", str(log), "--baseline", "20",
+         "--format", "jsonl"], capture_output=True, text=True, timeout=60)
+    whole = next(r for r in records(checked.stdout) if r["type"] == "summary")
+    assert summary["mean"] == whole["mean"] and summary["stdev"] == whole["stdev"]
