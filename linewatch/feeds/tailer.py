@@ -65,15 +65,23 @@ def default_max_open() -> int:
 
 
 class SavedState(Protocol):
-    """Anything with FileState's fields (the store keeps its own record type)."""
+    """Anything with FileState's fields (the store keeps its own record type); read-only, so
+    a frozen record satisfies it."""
 
-    path: str
-    dev: int
-    inode: int
-    fingerprint: str
-    offset: int
-    next_line: int
-    header: tuple[str, ...] | None
+    @property
+    def path(self) -> str: ...
+    @property
+    def dev(self) -> int: ...
+    @property
+    def inode(self) -> int: ...
+    @property
+    def fingerprint(self) -> str: ...
+    @property
+    def offset(self) -> int: ...
+    @property
+    def next_line(self) -> int: ...
+    @property
+    def header(self) -> tuple[str, ...] | None: ...
 
 
 @dataclass(slots=True)
@@ -144,7 +152,7 @@ class _Followed:
         self.overflow = False  # the current line is longer than the cap: skipping to its end
         self.unreadable = False
         self.gone = False
-        self.resume_from: FileState | None = None  # where to go on after an I/O error
+        self.resume_from: SavedState | None = None  # where to go on after an I/O error
         self.shrunk_since: float | None = None  # when the file was first seen shorter
         # (device, inode, size, mtime) when put to rest with its handle closed; None otherwise
         self.rest: tuple[int, int, int, int] | None = None
@@ -523,8 +531,9 @@ class Tailer:
     def _step(self, f: _Followed, max_bytes: int) -> list[TailChunk]:
         events: list[FeedEvent] = []
         out: list[TailChunk] = []
+        st: os.stat_result | None
         try:
-            st: os.stat_result | None = os.stat(f.path)
+            st = os.stat(f.path)
             if not stat.S_ISREG(st.st_mode):
                 st = None
         except FileNotFoundError:

@@ -72,7 +72,11 @@ class IngestState:
             "ORDER BY path"
         )
         return {
-            r["path"]: FileState(*tuple(r)[:6], header=_header(r["header"])) for r in rows
+            r["path"]: FileState(
+                r["path"], r["dev"], r["inode"], r["fingerprint"], r["offset"], r["next_line"],
+                _header(r["header"]),
+            )
+            for r in rows
         }
 
     def save_engine(self, characteristic: str, state: str, now: float | None = None) -> None:
