@@ -21,7 +21,7 @@ import uuid
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from linewatch.alarms import SYSTEM_ACTOR
 from linewatch.config import CharacteristicConfig, Config, FeedConfig
@@ -30,6 +30,12 @@ from linewatch.errors import LinewatchError
 from linewatch.model import FeedEvent, Limits
 from linewatch.records import limits_record, rejected_record, signal_record
 from linewatch.selection import chart_setup
+
+if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
+    from linewatch.feeds.health import FeedHealth
+    from linewatch.feeds.tailer import Tailer
+    from linewatch.feeds.watcher import Waker
+    from linewatch.hooks import HookRunner
 
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = 0.5  # lease renewal, stale checks, shelf expiry, changes by others
@@ -82,13 +88,13 @@ class Monitor:
         self.by_column: dict[str, str] = {c.column: c.name for c in plan.characteristics}
         self.counts: dict[str, int] = {}  # good values per characteristic (this run)
         self.rejected = 0
-        self.tailer = None
-        self.waker = None
-        self.health = None
+        self.tailer: Tailer | None = None
+        self.waker: Waker | None = None
+        self.health: FeedHealth | None = None
         self._listeners: list[Callable[[int], None]] = []
         self._version = 0
         self._last_tick = 0.0
-        self._hooks = None
+        self._hooks: HookRunner | None = None
         self.rows_read = 0
         self.catching_up: float | None = None  # fraction of the history read, while behind
         self._catch_up_since: float | None = None
@@ -236,7 +242,7 @@ class Monitor:
         if not self.lease.renew(now):
             self._step_down()
             return
-        events = []
+        events: list[FeedEvent] = []
         assert self.health is not None
         for ev in self.health.tick(now):
             events.append(ev)
