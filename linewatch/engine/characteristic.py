@@ -80,9 +80,8 @@ def _point_to_list(p: PlottedPoint | None) -> list | None:
     return [p.index, p.value, p.row, p.phase, p.judged, p.rules, p.meta]
 
 
-def _point_from_list(chart: str, a: list | None) -> PlottedPoint | None:
-    if a is None:
-        return None
+def _point_from_list(chart: str, a: list) -> PlottedPoint:
+    """A point saved by `_point_to_list` (callers skip the None of a missing dispersion point)."""
     return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]), a[6])
 
 
@@ -434,8 +433,8 @@ class CharacteristicEngine:
         assert self.loc_rules is not None and self.disp_rules is not None
         for which, rules, fed in ((0, self.loc_rules, self.loc_fed),
                                   (1, self.disp_rules, self.disp_fed)):
-            points = [pair[which] for pair in queue
-                      if pair[which] is not None and not pair[which].judged]
+            points = [point for pair in queue
+                      if (point := pair[which]) is not None and not point.judged]
             if not points:
                 continue
             if len(points) >= VECTOR_MIN:
