@@ -284,14 +284,17 @@ def build_report(
 
     alarms: list[AlarmLine] = []
     for a in alarm_rows:
-        acked = a.acknowledged_at is not None and a.acknowledged_at < until
-        waited = (a.acknowledged_at if acked else end) - a.raised_at
+        acked_at = a.acknowledged_at
+        if acked_at is not None and acked_at >= until:
+            acked_at = None  # acknowledged after the report's window: still waiting then
+        acked = acked_at is not None
+        waited = (end if acked_at is None else acked_at) - a.raised_at
         alarms.append(
             AlarmLine(
                 id=a.id, kind=a.kind, characteristic=a.characteristic, chart=a.chart,
                 rule=a.rule, what=book.describe(a), priority=a.priority, raised_at=a.raised_at,
                 state=a.state(end), acknowledged_by=(a.acknowledged_by or "") if acked else "",
-                acknowledged_at=a.acknowledged_at if acked else None,
+                acknowledged_at=acked_at,
                 unacknowledged_for=max(0.0, waited), still_unacknowledged=not acked,
                 reason=(a.reason or "") if acked else "", note=(a.note or "") if acked else "",
                 returned_at=a.returned_at, closed_at=a.closed_at,
