@@ -92,8 +92,7 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
     feeds = [feed_for_log(config, p, args) for p in args.logs]
     wanted = None
     if args.column:
-        wanted = [config.characteristic(c).column if config.characteristic(c) else c
-                  for c in args.column]
+        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in args.column]
     elif config.characteristics:
         wanted = [c.column for c in config.characteristics]
     cols, rejected = _read_all(args.logs, feeds, wanted)

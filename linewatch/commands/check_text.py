@@ -41,9 +41,9 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
         source = "known centre and sigma" if lim.source == "given" else (
             f"Phase I, baseline of {c.baseline or len(res.location)} plotted points")
         w(f"   limits ({source}); sigma within = {_f(lim.sigma_within)}")
-        for chart in (lim.location, lim.dispersion):
-            w(f"   {chart.chart:<13} CL {_f(chart.center):>10}  UCL {_f(chart.ucl):>10}  "
-              f"LCL {_f(chart.lcl):>10}")
+        for chart_lim in (lim.location, lim.dispersion):
+            w(f"   {chart_lim.chart:<13} CL {_f(chart_lim.center):>10}  "
+              f"UCL {_f(chart_lim.ucl):>10}  LCL {_f(chart_lim.lcl):>10}")
         if res.leftover:
             w(f"   note: the last {res.leftover} values form an incomplete subgroup and are "
               "left out")
