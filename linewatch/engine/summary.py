@@ -12,7 +12,7 @@ import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, TypeVar
+from typing import Any, Final, TypeVar
 
 import numpy as np
 
@@ -26,7 +26,7 @@ from linewatch.engine.distributions import (
 
 # Quartiles use numpy's "linear" method (Hyndman & Fan type 7, numpy's default); it equals
 # statistics.quantiles(method="inclusive").
-QUARTILE_METHOD = "linear"
+QUARTILE_METHOD: Final = "linear"
 WHISKER_FACTOR = 1.5  # Tukey's fences: 1.5·IQR beyond the quartiles (common practice)
 CONFIDENCE = 0.95
 
