@@ -21,21 +21,23 @@ import uuid
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, cast
 
-from linewatch.alarms import SYSTEM_ACTOR
+from linewatch.alarms import SYSTEM_ACTOR, AlarmEvent
 from linewatch.config import CharacteristicConfig, Config, FeedConfig
-from linewatch.engine.characteristic import CharacteristicEngine, LiveOutput
+from linewatch.engine.characteristic import CharacteristicEngine, Firing, LiveOutput
 from linewatch.errors import LinewatchError
 from linewatch.model import FeedEvent, Limits
 from linewatch.records import limits_record, rejected_record, signal_record
 from linewatch.selection import chart_setup
 
 if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
+    from linewatch.engine.limits import LimitSet
+    from linewatch.feeds.formats import Batch
     from linewatch.feeds.health import FeedHealth
-    from linewatch.feeds.tailer import Tailer
+    from linewatch.feeds.tailer import TailChunk, Tailer
     from linewatch.feeds.watcher import Waker
-    from linewatch.hooks import HookRunner
+    from linewatch.hooks import HookOutcome, HookRunner
 
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = 0.5  # lease renewal, stale checks, shelf expiry, changes by others
@@ -246,8 +248,8 @@ class Monitor:
         assert self.health is not None
         for ev in self.health.tick(now):
             events.append(ev)
-        records = []
-        raised: list = []
+        records: list[dict[str, Any]] = []
+        raised: list[AlarmEvent] = []
         with self.store.transaction():
             for ev in events:
                 records.append(self._record_feed_event(ev, now, raised))
@@ -279,13 +281,13 @@ class Monitor:
         return True
 
     # -- processing --
-    def _process_chunks(self, chunks) -> None:
+    def _process_chunks(self, chunks: list[TailChunk]) -> None:
         """Everything one poll read, in one transaction: file offsets, points, limits, alarms,
         audit and each touched characteristic's engine state (saved once, at the end), so a
         folder of many small files costs one commit, and a crash keeps all of it or none."""
         now = self.clock()
         records: list[dict[str, Any]] = []
-        raised: list = []
+        raised: list[AlarmEvent] = []
         touched: set[str] = set()
         from linewatch.store.lease import LeaseLost
 
@@ -309,8 +311,8 @@ class Monitor:
         if raised:
             self._run_hooks(raised)
 
-    def _process_chunk(self, chunk, now: float, records: list, raised: list,
-                       touched: set[str]) -> None:
+    def _process_chunk(self, chunk: TailChunk, now: float, records: list[dict[str, Any]],
+                       raised: list[AlarmEvent], touched: set[str]) -> None:
         """One file's part of a poll (inside the poll's transaction)."""
         assert self.health is not None
         for ev in chunk.events:
@@ -341,8 +343,9 @@ class Monitor:
             self.store.ingest.save_file(chunk.state, now)
 
     def _process_values(
-        self, name: str, batch, column: str, now: float, written: float, raised
-    ) -> list[dict]:
+        self, name: str, batch: Batch, column: str, now: float, written: float,
+        raised: list[AlarmEvent],
+    ) -> list[dict[str, Any]]:
         eng = self._engine(name)
         if eng is None:
             return []
@@ -355,7 +358,7 @@ class Monitor:
         out: LiveOutput = eng.push(values, meta)
         self.counts[name] = self.counts.get(name, 0) + len(values)
         self.store.history.add_points(name, first, values, lines, batch.file, times, written)
-        records: list[dict] = []
+        records: list[dict[str, Any]] = []
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)
@@ -394,7 +397,9 @@ class Monitor:
         rate = (self.rows_read - self._catch_up_rows) / elapsed
         self.emit({"type": "progress", "done": self.catching_up, "rows_per_second": rate})
 
-    def _record_limits(self, name: str, eng: CharacteristicEngine, limits, now: float) -> None:
+    def _record_limits(
+        self, name: str, eng: CharacteristicEngine, limits: LimitSet, now: float
+    ) -> None:
         """Put new limits on the history: the first phase's as set by linewatch from its
         baseline, a later phase's with the reason and person that asked for it."""
         reason, actor, asked = "baseline", SYSTEM_ACTOR, False
@@ -411,7 +416,9 @@ class Monitor:
                 reason=reason, now=now, actor=actor, new_baseline=asked,
             )
 
-    def _record_feed_event(self, ev: FeedEvent, now: float, raised=None) -> dict[str, Any]:
+    def _record_feed_event(
+        self, ev: FeedEvent, now: float, raised: list[AlarmEvent] | None = None
+    ) -> dict[str, Any]:
         self.store.history.add_feed_event(ev, now)
         stuck = ev.kind in ("stuck", "unstuck")
         events = self.alarms.observe_feed(ev, now, characteristic=ev.file if stuck else None)
@@ -434,7 +441,7 @@ class Monitor:
         self.role = "viewer"
         self._announced = False
 
-    def _run_hooks(self, events) -> None:
+    def _run_hooks(self, events: list[AlarmEvent]) -> None:
         if not self.config.alarms.hook:
             return
         if self._hooks is None:
@@ -446,7 +453,7 @@ class Monitor:
             if ev.action == "raised":
                 self._hooks.fire(self.alarms.hook_payload(ev.alarm))
 
-    def _hook_outcome(self, outcome) -> None:
+    def _hook_outcome(self, outcome: HookOutcome) -> None:
         if not outcome.ok:
             self.emit({"type": "hook", "alarm": outcome.alarm_id, "problem": outcome.message})
 
@@ -509,9 +516,12 @@ class Monitor:
                        "reason": req["reason"]})
 
 
-def _signal_record(name: str, f) -> dict[str, Any]:
+def _signal_record(name: str, f: Firing) -> dict[str, Any]:
     """A `check`-style signal record plus the file and, when the row has one, its time."""
-    file, line, when = f.meta if f.meta else (None, -1, None)
+    # the monitor tags each row with (file, line, time); a restored engine gives it back as a
+    # JSON list of the same three
+    tag = cast("tuple[str, int, str | None] | None", f.meta)
+    file, line, when = tag if tag else (None, -1, None)
     rec = signal_record(name, f.chart, f.rule, f.index, int(line), f.value)
     rec["file"] = file
     if when:
