@@ -8,6 +8,7 @@ produce the same limits and the same signals (a property test holds them to it).
 from __future__ import annotations
 
 from collections import deque
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -30,7 +31,7 @@ HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new
 STATE_HISTORY = 500  # of those, how many are saved with the engine state
 
 
-def _lookback(specs) -> int:
+def _lookback(specs: Iterable[RuleSpec]) -> int:
     return max((s.lookback for s in specs), default=1)
 
 
@@ -162,7 +163,9 @@ def _limit_state(lim: ChartLimits) -> ChartLimitsState:
     return ChartLimitsState(lim.center, lim.sigma)
 
 
-def _evaluate_series(values, lim: ChartLimits, specs) -> dict[str, np.ndarray]:
+def _evaluate_series(
+    values: np.ndarray, lim: ChartLimits, specs: Iterable[RuleSpec]
+) -> dict[str, np.ndarray]:
     st = _limit_state(lim)
     x = np.asarray(values, dtype=float)
     side, level = classify(x, st.center, st.sigma, st.ucl, st.lcl)  # once for every rule
@@ -297,7 +300,9 @@ class CharacteristicEngine:
             return None  # σ̂ = 0 so far: keep collecting, the baseline grows
 
     # -- feeding ------------------------------------------------------------------------------
-    def push(self, values, meta=None) -> LiveOutput:
+    def push(
+        self, values: Sequence[float] | np.ndarray, meta: Sequence[object] | None = None
+    ) -> LiveOutput:
         """Feed the next values (in order); returns new points, firings and new limits.
 
         `meta`, when given, holds one JSON-ready item per value (e.g. file, line, time); it is
@@ -346,7 +351,10 @@ class CharacteristicEngine:
         self._judge_all(queue, out)
         return out
 
-    def _push_judged_chunk(self, values, meta, out: LiveOutput) -> None:
+    def _push_judged_chunk(
+        self, values: Sequence[float] | np.ndarray, meta: Sequence[object] | None,
+        out: LiveOutput,
+    ) -> None:
         """A large chunk in a phase that has limits: plotted statistics, rule firings and the
         kept history all computed with numpy, the same as feeding the values one by one."""
         n = self.setup.subgroup_size

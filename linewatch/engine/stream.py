@@ -9,8 +9,10 @@ from __future__ import annotations
 
 import math
 from collections import deque
+from collections.abc import Iterable
 from dataclasses import dataclass
 
+from linewatch.engine.rulebook import RuleSpec
 from linewatch.engine.rules import LEVEL_BEYOND
 
 
@@ -37,7 +39,7 @@ class RuleState:
     __slots__ = ("count", "down", "k", "last_down", "last_up", "length", "n", "prev", "prev_d",
                  "spec", "up", "window", "zone")
 
-    def __init__(self, spec) -> None:
+    def __init__(self, spec: RuleSpec) -> None:
         self.spec = spec
         self.length = spec.length
         self.k = spec.k
@@ -137,7 +139,7 @@ class ChartLimitsState:
 class ChartRules:
     """All selected rules of one chart, fed point by point."""
 
-    def __init__(self, specs, limits: ChartLimitsState) -> None:
+    def __init__(self, specs: Iterable[RuleSpec], limits: ChartLimitsState) -> None:
         self.specs = list(specs)
         self.states = [RuleState(s) for s in self.specs]
         self.limits = limits
