@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from linewatch.config import CharacteristicConfig
+from linewatch.config import CharacteristicConfig, FeedConfig
 from linewatch.engine.characteristic import HistoryResult, analyse_history
 from linewatch.errors import LinewatchError, NotEnoughData
 from linewatch.model import Rejected
@@ -45,7 +45,9 @@ class Analysis:
     summary: dict
 
 
-def _read_all(paths: list[str], feeds, columns: list[str] | None):
+def _read_all(
+    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
+) -> tuple[dict[str, Column], list[Rejected]]:
     """Read every log into per-characteristic columns plus the rejected rows."""
     from linewatch.feeds.formats import read_log
 

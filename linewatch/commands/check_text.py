@@ -14,7 +14,9 @@ if TYPE_CHECKING:
 MAX_LISTED = 12  # signals listed per rule before "... and N more"
 
 
-def _f(x, digits: int = 6) -> str:
+def _f(
+    x: float | list[float | None] | tuple[float | None, ...] | None, digits: int = 6
+) -> str:
     if x is None:
         return "—"
     if isinstance(x, list | tuple):
