@@ -4,6 +4,7 @@ drawn as larger hollow squares so they stand out in grey print too."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from html import escape
 
 from linewatch.report import ChartTrace, num
@@ -12,16 +13,17 @@ WIDTH, HEIGHT = 680, 180
 LEFT, RIGHT, TOP, BOTTOM = 8, 86, 10, 22
 
 
-def _steps(xs: list[float], ys: list[float | None], y_of) -> list[str]:
+def _steps(xs: list[float], ys: list[float | None], y_of: Callable[[float], float]) -> list[str]:
     """Horizontal segments per run of equal values (a new phase starts a new segment)."""
     paths: list[str] = []
     start = 0
     for k in range(1, len(xs) + 1):
         if k == len(xs) or ys[k] != ys[start]:
-            if ys[start] is not None:
+            level = ys[start]
+            if level is not None:
                 x0 = xs[start] - (0 if start == 0 else (xs[start] - xs[start - 1]) / 2)
                 x1 = xs[k - 1] + (0 if k == len(xs) else (xs[k] - xs[k - 1]) / 2)
-                y = y_of(ys[start])
+                y = y_of(level)
                 paths.append(f"M{x0:.1f},{y:.1f}H{x1:.1f}")
             start = k
     return paths
@@ -31,7 +33,7 @@ LABEL_GAP = 11.0  # px between label baselines on the right edge
 DOT_LIMIT = 1200  # beyond this many points: no dots, and the line becomes a per-pixel envelope
 
 
-def _envelope(xs: list[float], values: list[float], y_of) -> str:
+def _envelope(xs: list[float], values: list[float], y_of: Callable[[float], float]) -> str:
     """Polyline points visiting the lowest and highest value of every pixel column in turn."""
     columns: dict[int, tuple[float, float]] = {}
     for x, v in zip(xs, values, strict=True):
