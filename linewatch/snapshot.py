@@ -7,8 +7,10 @@ the k-th value of its characteristic, so subgroup j holds indices j·n .. j·n +
 
 from __future__ import annotations
 
+import contextlib
 import fnmatch
 import time
+from collections.abc import Iterable
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -34,7 +36,9 @@ from linewatch.view import (
 if TYPE_CHECKING:
     from linewatch.alarms import AlarmBook
     from linewatch.config import CharacteristicConfig
+    from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.db import Store
+    from linewatch.store.points import LimitsRecord, PointRecord
 
 OVERVIEW_POINTS = 120  # raw readings per characteristic on the overview
 DETAIL_POINTS = 1500  # raw readings per characteristic in the detail view
@@ -42,8 +46,8 @@ RATE_WINDOW = 60.0  # seconds over which rows per second are measured
 RECENT_VALUES = 100  # individual readings for the detail's box plot
 
 
-def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray, limits_hist,
-                marks: dict[int, list[str]]) -> ChartView:
+def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray,
+                limits_hist: list[LimitsRecord], marks: dict[int, list[str]]) -> ChartView:
     cv = ChartView(chart, values.tolist(), indices.tolist(),
                    [",".join(marks.get(int(i), [])) for i in indices])
     mine = [r.limits for r in limits_hist if r.limits.chart == chart]
@@ -58,7 +62,9 @@ def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray, limits_hist
     return cv
 
 
-def _plotted(values: np.ndarray, first_index: int, n: int, dispersion: str):
+def _plotted(
+    values: np.ndarray, first_index: int, n: int, dispersion: str
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Plotted location and dispersion points of raw readings starting at `first_index`."""
     if n == 1:
         loc, disp = plotted_series(values, 1, dispersion)
@@ -70,7 +76,8 @@ def _plotted(values: np.ndarray, first_index: int, n: int, dispersion: str):
     return loc.values, loc.indices + base, disp.values, disp.indices + base
 
 
-def _phase_stats(values, first_index, limits_hist, c, n) -> list[PhaseStats]:
+def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsRecord],
+                 c: CharacteristicConfig, n: int) -> list[PhaseStats]:
     from linewatch.engine.summary import capability, describe
 
     loc_chart = chart_names(n, c.effective_dispersion)[0]
@@ -92,7 +99,7 @@ def _phase_stats(values, first_index, limits_hist, c, n) -> list[PhaseStats]:
 def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
                         points: int = OVERVIEW_POINTS, detail: bool = False,
                         stale_after: float = 600.0,
-                        open_now: list | None = None) -> CharacteristicView:
+                        open_now: list[AlarmRecord] | None = None) -> CharacteristicView:
     """One characteristic as the overview (or, with detail, the detail screen) shows it.
     `open_now`: the line's open alarms, when the caller has read them already."""
     from linewatch.engine.summary import capability
@@ -146,7 +153,7 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     return v
 
 
-def _pending_phase(store: Store, name: str, limits_hist) -> int | None:
+def _pending_phase(store: Store, name: str, limits_hist: list[LimitsRecord]) -> int | None:
     """Where a new phase asked for starts, while its limits are not in yet (else None)."""
     import json
 
@@ -167,23 +174,25 @@ def _pending_phase(store: Store, name: str, limits_hist) -> int | None:
     return None
 
 
-def _seconds_per_point(recs, n: int) -> float | None:
+def _seconds_per_point(recs: list[PointRecord], n: int) -> float | None:
     """Mean time between plotted points over the recent readings, from the rows' own time
     stamps when they parse, else from when they were received."""
     from datetime import datetime
 
     if len(recs) < 2 * n:
         return None
-    try:
-        first = datetime.fromisoformat(recs[0].time).timestamp()
-        last = datetime.fromisoformat(recs[-1].time).timestamp()
-    except (TypeError, ValueError):
-        first, last = recs[0].received_at, recs[-1].received_at
+    first, last = recs[0].received_at, recs[-1].received_at
+    t0, t1 = recs[0].time, recs[-1].time
+    if t0 is not None and t1 is not None:
+        with contextlib.suppress(TypeError, ValueError):  # not ISO 8601: keep receive times
+            first, last = (datetime.fromisoformat(t0).timestamp(),
+                           datetime.fromisoformat(t1).timestamp())
     span = (recs[-1].index - recs[0].index) / n
     return (last - first) / span if span > 0 and last > first else None
 
 
-def _state(v: CharacteristicView, open_alarms, has_limits: bool, now: float) -> str:
+def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bool,
+           now: float) -> str:
     states = [a.state(now) for a in open_alarms]
     if UNACKNOWLEDGED in states or any(s == "returned-unacknowledged" for s in states):
         return STATE_ALARM
@@ -233,7 +242,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     return out
 
 
-def _pattern_found(name: str, files) -> bool:
+def _pattern_found(name: str, files: Iterable[str]) -> bool:
     """A pattern that was waiting for its file once, and now matches a followed one."""
     return any(ch in name for ch in "*?[") and any(fnmatch.fnmatch(f, name) for f in files)
 
