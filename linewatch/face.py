@@ -11,6 +11,7 @@ from collections.abc import Callable
 
 from linewatch.config import CharacteristicConfig
 from linewatch.monitor import Monitor
+from linewatch.view import CharacteristicView, LineSnapshot
 
 
 class MonitorFace:
@@ -36,7 +37,7 @@ class MonitorFace:
         return list(known.values())
 
     # -- SnapshotSource --
-    def snapshot(self):
+    def snapshot(self) -> LineSnapshot:
         from linewatch.snapshot import build_snapshot
 
         with self._lock:
@@ -48,7 +49,7 @@ class MonitorFace:
         snap.catching_up = self.monitor.catching_up
         return snap
 
-    def detail(self, characteristic: str):
+    def detail(self, characteristic: str) -> CharacteristicView | None:
         from linewatch.snapshot import DETAIL_POINTS, characteristic_view
 
         with self._lock:
