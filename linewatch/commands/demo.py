@@ -26,7 +26,9 @@ def prepare(folder: Path) -> Path:
     return path
 
 
-def start_simulator(folder: Path, seed: int, speed: float, stop: threading.Event):
+def start_simulator(
+    folder: Path, seed: int, speed: float, stop: threading.Event
+) -> threading.Thread:
     """Run the line simulator into `folder` on a daemon thread until `stop` is set."""
     from linewatch.simulate import generate
     from linewatch.simulation.writer import write_feeds

@@ -7,6 +7,8 @@ import signal
 import sys
 import threading
 from pathlib import Path
+from types import FrameType
+from typing import TYPE_CHECKING, Any
 
 from linewatch.config import Config, FeedConfig
 from linewatch.errors import LinewatchError
@@ -18,8 +20,11 @@ from linewatch.selection import (
     validate_chart_options,
 )
 
+if TYPE_CHECKING:
+    from linewatch.monitor import Monitor, WatchPlan
 
-def build_plan(args: argparse.Namespace, config: Config):
+
+def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
     """Feeds and characteristics from the config and the command line."""
     from linewatch.monitor import WatchPlan
 
@@ -60,7 +65,7 @@ def run(args: argparse.Namespace, title: str = "") -> int:
     return run_screen(plan, state_dir, args.poll, bell=config.monitor.bell and not args.no_bell)
 
 
-def run_headless(plan, state_dir: Path, fmt: str, poll: float | None) -> int:
+def run_headless(plan: WatchPlan, state_dir: Path, fmt: str, poll: float | None) -> int:
     """Collect (or view) until SIGTERM/SIGINT, then print one summary per characteristic."""
     from linewatch.headless import Printer
     from linewatch.monitor import Monitor
@@ -69,7 +74,7 @@ def run_headless(plan, state_dir: Path, fmt: str, poll: float | None) -> int:
     monitor = Monitor(plan, state_dir, emit=printer, poll_seconds=poll)
     stop = threading.Event()
 
-    def _stop(signum, frame) -> None:
+    def _stop(signum: int, frame: FrameType | None) -> None:
         stop.set()
 
     signal.signal(signal.SIGTERM, _stop)
@@ -80,7 +85,7 @@ def run_headless(plan, state_dir: Path, fmt: str, poll: float | None) -> int:
     return 0
 
 
-def summaries(monitor) -> list[dict]:
+def summaries(monitor: Monitor) -> list[dict[str, Any]]:
     """`summary` records per characteristic. `points` and the figures cover the readings the
     store holds for it (up to the newest 100,000), whichever instance read them, so they agree
     after a restart or a takeover; `read` is how many this instance read, `rejected` how many
@@ -88,7 +93,7 @@ def summaries(monitor) -> list[dict]:
     from linewatch.engine.summary import summarize
     from linewatch.statedir import open_store
 
-    out = []
+    out: list[dict[str, Any]] = []
     store = open_store(monitor.state_dir, create=True)
     try:
         for name, c in monitor.char_configs.items():
@@ -108,7 +113,7 @@ def summaries(monitor) -> list[dict]:
     return out
 
 
-def run_screen(plan, state_dir: Path, poll: float | None, bell: bool) -> int:
+def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
     from linewatch.face import MonitorFace
     from linewatch.monitor import Monitor
