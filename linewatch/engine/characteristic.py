@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -35,7 +36,9 @@ def _lookback(specs: Iterable[RuleSpec]) -> int:
     return max((s.lookback for s in specs), default=1)
 
 
-def _fire_chunk(values: np.ndarray, rules: ChartRules, fed: deque) -> dict[int, list[str]]:
+def _fire_chunk(
+    values: np.ndarray, rules: ChartRules, fed: deque[float]
+) -> dict[int, list[str]]:
     """Rule ids firing at each position of `values` (new points of one chart, in order), judged
     with numpy over the fed tail plus the new points; the counters are then brought up to date
     by replaying the new tail."""
@@ -55,33 +58,35 @@ def _fire_chunk(values: np.ndarray, rules: ChartRules, fed: deque) -> dict[int, 
     return hits
 
 
-def _judge_vectorised(points: list[PlottedPoint], rules: ChartRules, fed: deque) -> None:
+def _judge_vectorised(
+    points: list[PlottedPoint], rules: ChartRules, fed: deque[float]
+) -> None:
     """Set the rules that fire at each of `points` in one numpy pass (see `_fire_chunk`)."""
     hits = _fire_chunk(np.array([p.value for p in points], dtype=float), rules, fed)
     for k, point in enumerate(points):
         point.rules = hits.get(k, [])
 
 
-def _limits_to_dict(lim: LimitSet) -> dict:
-    def chart(c: ChartLimits) -> list:
+def _limits_to_dict(lim: LimitSet) -> dict[str, Any]:
+    def chart(c: ChartLimits) -> list[Any]:
         return [c.chart, c.center, c.ucl, c.lcl, c.sigma]
 
     return {"location": chart(lim.location), "dispersion": chart(lim.dispersion),
             "sigma_within": lim.sigma_within, "source": lim.source}
 
 
-def _limits_from_dict(d: dict) -> LimitSet:
+def _limits_from_dict(d: dict[str, Any]) -> LimitSet:
     return LimitSet(ChartLimits(*d["location"]), ChartLimits(*d["dispersion"]),
                     d["sigma_within"], d["source"])
 
 
-def _point_to_list(p: PlottedPoint | None) -> list | None:
+def _point_to_list(p: PlottedPoint | None) -> list[Any] | None:
     if p is None:
         return None
     return [p.index, p.value, p.row, p.phase, p.judged, p.rules, p.meta]
 
 
-def _point_from_list(chart: str, a: list) -> PlottedPoint:
+def _point_from_list(chart: str, a: list[Any]) -> PlottedPoint:
     """A point saved by `_point_to_list` (callers skip the None of a missing dispersion point)."""
     return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]), a[6])
 
@@ -510,7 +515,7 @@ class CharacteristicEngine:
         rules = ",".join(f"{r.id}:{r.length}" for r in s.rules)
         return f"{s.subgroup_size}|{s.dispersion}|{rules}|{s.baseline}|{s.center}|{s.sigma}"
 
-    def to_state(self) -> dict:
+    def to_state(self) -> dict[str, Any]:
         """A JSON-ready snapshot from which `from_state` rebuilds this engine exactly."""
         disp_by_index = {d.index: d for d in self.disp_history}
         hist = list(self.loc_history)[-STATE_HISTORY:]
@@ -533,7 +538,7 @@ class CharacteristicEngine:
         }
 
     @classmethod
-    def from_state(cls, setup: ChartSetup, state: dict) -> CharacteristicEngine:
+    def from_state(cls, setup: ChartSetup, state: dict[str, Any]) -> CharacteristicEngine:
         """Rebuild an engine saved by `to_state`; a state from another setup starts afresh."""
         engine = cls(setup)
         if state.get("signature") != engine.signature():
