@@ -102,7 +102,8 @@ class Monitor:
         self._catch_up_since: float | None = None
         self._catch_up_rows = 0
         self._last_progress = 0.0
-        self._alarm_states: dict[int, tuple] = {}
+        # alarm id -> (state, acknowledged by, last index) at the last look
+        self._alarm_states: dict[int, tuple[str, str | None, int | None]] = {}
         self._seen_data_version: int | None = None
         self._announced = False
         self.alarms.load_config(plan.config)

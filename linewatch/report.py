@@ -205,7 +205,9 @@ class ShiftReport:
         )
 
 
-def _subgroup_size(store: Store, config: Config | None, name: str, limits: dict) -> int:
+def _subgroup_size(
+    store: Store, config: Config | None, name: str, limits: dict[str, Limits]
+) -> int:
     """Subgroup size from the config, else as the store remembers it, else (a store written
     before it remembered) inferred from the stored limits.
 

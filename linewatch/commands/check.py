@@ -8,6 +8,7 @@ import json
 import math
 import sys
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -42,7 +43,7 @@ class Analysis:
     config: CharacteristicConfig
     column: Column
     result: HistoryResult
-    summary: dict
+    summary: dict[str, Any]
 
 
 def _read_all(
@@ -68,7 +69,7 @@ def _read_all(
 
 
 def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
-             rejected: int) -> dict:
+             rejected: int) -> dict[str, Any]:
     from linewatch.engine.budget import average_run_length
     from linewatch.engine.summary import summarize
 

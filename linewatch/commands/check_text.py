@@ -9,6 +9,7 @@ from linewatch.engine.rulebook import RULES
 
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
+    from linewatch.engine.characteristic import Firing
     from linewatch.model import Rejected
 
 MAX_LISTED = 12  # signals listed per rule before "... and N more"
@@ -49,7 +50,7 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
         if res.leftover:
             w(f"   note: the last {res.leftover} values form an incomplete subgroup and are "
               "left out")
-        by_rule: dict[tuple[str, str], list] = defaultdict(list)
+        by_rule: dict[tuple[str, str], list[Firing]] = defaultdict(list)
         for f in res.firings:
             by_rule[(f.chart, f.rule)].append(f)
         if not by_rule:

@@ -118,7 +118,7 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
     from linewatch.face import MonitorFace
     from linewatch.monitor import Monitor
 
-    messages: list[dict] = []
+    messages: list[dict[str, Any]] = []
     monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
     face = MonitorFace(monitor)
     stop = threading.Event()
