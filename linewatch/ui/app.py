@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from textual.app import App
 from textual.binding import Binding, BindingType
@@ -32,7 +32,7 @@ class LinewatchApp(App[int]):
 
     CSS_PATH = "linewatch.tcss"
     ENABLE_COMMAND_PALETTE = False
-    MODES: ClassVar[dict[str, type[Screen[None]]]] = {
+    MODES: ClassVar[dict[str, str | Callable[[], Screen[Any]]]] = {
         "board": BoardScreen,
         "alarms": AlarmQueueScreen,
         "feeds": FeedScreen,

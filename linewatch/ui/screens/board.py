@@ -118,7 +118,7 @@ class BoardScreen(LineScreen):
         self._row_sigs.clear()
         self._shown = []
 
-    def visible(self) -> list[view.CharacteristicView]:
+    def passing_filter(self) -> list[view.CharacteristicView]:
         """The characteristics the filter lets through, in the line's order."""
         needle = self.filter_text.lower()
         return [
@@ -128,7 +128,7 @@ class BoardScreen(LineScreen):
 
     def show_line(self) -> None:
         line = self.lw.line
-        shown = self.visible()
+        shown = self.passing_filter()
         names = [cv.name for cv in shown]
         self._by_name = {cv.name: cv for cv in shown}
         table = self.table

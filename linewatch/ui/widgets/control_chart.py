@@ -140,8 +140,8 @@ def draw_control_chart(
     newest = shown[-1] if shown else None
 
     span_values = list(values)
-    for p in shown:
-        span_values += [v for v in (p.center, p.ucl, p.lcl) if v is not None]
+    for phase in shown:
+        span_values += [v for v in (phase.center, phase.ucl, phase.lcl) if v is not None]
     half = None
     if newest and newest.center is not None and newest.ucl is not None and newest.lcl is not None:
         half = max(newest.ucl - newest.center, newest.center - newest.lcl)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+from rich.color import Color
 from rich.console import Console, ConsoleOptions, RenderResult
 from rich.measure import Measurement
 from rich.segment import Segment
@@ -50,8 +51,8 @@ class SparkCell:
             self.values,
             width=n,
             height=1,
-            min_color=Style.parse(palette.SPARK_LOW).color,
-            max_color=Style.parse(palette.SPARK_HIGH).color,
+            min_color=Color.parse(palette.SPARK_LOW),
+            max_color=Color.parse(palette.SPARK_HIGH),
         )
         return [*pad, *console.render(spark, options.update(width=n, height=1))]
 
