@@ -226,7 +226,7 @@ class Monitor:
         if self.waker is not None:
             self.waker.close()
             self.waker = None
-        if self.tailer is not None and hasattr(self.tailer, "close"):
+        if self.tailer is not None:
             self.tailer.close()
         if self.role == "collector":
             with contextlib.suppress(Exception):  # best effort on the way out
@@ -333,7 +333,7 @@ class Monitor:
             for column, values in batch.values.items():
                 name = self.by_column.get(column) or (
                     column if not self.plan.characteristics else None)
-                if name is None or not values:
+                if name is None or len(values) == 0:
                     continue
                 if self._engine(name) is not None:
                     touched.add(name)

@@ -35,7 +35,6 @@ import stat
 import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Protocol
 
 from linewatch.config import FeedConfig
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
@@ -62,26 +61,6 @@ def default_max_open() -> int:
     if soft == resource.RLIM_INFINITY or soft <= 0:
         return MAX_OPEN
     return max(4, min(MAX_OPEN, soft // 4))
-
-
-class SavedState(Protocol):
-    """Anything with FileState's fields (the store keeps its own record type); read-only, so
-    a frozen record satisfies it."""
-
-    @property
-    def path(self) -> str: ...
-    @property
-    def dev(self) -> int: ...
-    @property
-    def inode(self) -> int: ...
-    @property
-    def fingerprint(self) -> str: ...
-    @property
-    def offset(self) -> int: ...
-    @property
-    def next_line(self) -> int: ...
-    @property
-    def header(self) -> tuple[str, ...] | None: ...
 
 
 @dataclass(slots=True)
@@ -152,7 +131,7 @@ class _Followed:
         self.overflow = False  # the current line is longer than the cap: skipping to its end
         self.unreadable = False
         self.gone = False
-        self.resume_from: SavedState | None = None  # where to go on after an I/O error
+        self.resume_from: FileState | None = None  # where to go on after an I/O error
         self.shrunk_since: float | None = None  # when the file was first seen shorter
         # (device, inode, size, mtime) when put to rest with its handle closed; None otherwise
         self.rest: tuple[int, int, int, int] | None = None
@@ -190,7 +169,7 @@ class _Followed:
             self.fd = None
 
     def open(
-        self, events: list[FeedEvent], adopt: SavedState | None, history: bool = True
+        self, events: list[FeedEvent], adopt: FileState | None, history: bool = True
     ) -> bool:
         """Open the path; resume from `adopt` when it describes this same file. `history`:
         the bytes it holds now were written before we followed it (their rows carry its
@@ -217,7 +196,7 @@ class _Followed:
             self._resume(adopt, st.st_size, events)
         return True
 
-    def _resume(self, saved: SavedState, size: int, events: list[FeedEvent]) -> None:
+    def _resume(self, saved: FileState, size: int, events: list[FeedEvent]) -> None:
         n = _fingerprint_size(saved.fingerprint)
         same_start = _fingerprint(self.head[:n]) == saved.fingerprint and len(self.head) >= n
         same_inode = (saved.dev, saved.inode) == (self.dev, self.inode)
@@ -353,7 +332,7 @@ class Tailer:
         self,
         feeds: Sequence[FeedConfig] = (),
         columns: list[str] | None = None,
-        saved: Mapping[str, SavedState] | None = None,
+        saved: Mapping[str, FileState] | None = None,
         patterns: Sequence[str] = (),
         default_feed: FeedConfig | None = None,
         shrink_grace: float = SHRINK_GRACE,
@@ -367,7 +346,7 @@ class Tailer:
         self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
         extra_feed = default_feed or FeedConfig(paths=list(patterns))
         self._patterns += [(p, extra_feed) for p in patterns]
-        self._saved: dict[str, SavedState] = dict(saved or {})
+        self._saved: dict[str, FileState] = dict(saved or {})
         self._followed: dict[str, _Followed] = {}
         self._feed_of: dict[str, FeedConfig] = {}
         self._waiting: dict[str, bool] = {}
@@ -636,7 +615,7 @@ class Tailer:
             while len(self._retired) > 256:  # only recent rotations can show up again
                 self._retired.pop(next(iter(self._retired)))
 
-    def _adoptable(self, path: str, st: os.stat_result) -> SavedState | None:
+    def _adoptable(self, path: str, st: os.stat_result) -> FileState | None:
         """A state for a file we already read under another name (a rotated log matched again)."""
         hit = self._retired.pop((st.st_dev, st.st_ino), None)
         if hit is not None:
@@ -653,7 +632,7 @@ class Tailer:
 
     def _own_saved(
         self, path: str, st: os.stat_result, out: list[TailChunk], max_bytes: int
-    ) -> SavedState | None:
+    ) -> FileState | None:
         """The state saved under this name when it names another file now.
 
         If that other file still exists under a new name (rotated while we were stopped), the

@@ -6,31 +6,12 @@ from __future__ import annotations
 
 import json
 import time
-from typing import TYPE_CHECKING, Protocol
+from typing import TYPE_CHECKING
 
 from linewatch.model import FileState
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store
-
-
-class FilePosition(Protocol):
-    """Anything shaped like a `model.FileState`."""
-
-    @property
-    def path(self) -> str: ...
-    @property
-    def dev(self) -> int: ...
-    @property
-    def inode(self) -> int: ...
-    @property
-    def fingerprint(self) -> str: ...
-    @property
-    def offset(self) -> int: ...
-    @property
-    def next_line(self) -> int: ...
-    @property
-    def header(self) -> tuple[str, ...] | None: ...
 
 
 class IngestState:
@@ -39,7 +20,7 @@ class IngestState:
     def __init__(self, store: Store) -> None:
         self.store = store
 
-    def save_file(self, state: FilePosition, now: float | None = None) -> None:
+    def save_file(self, state: FileState, now: float | None = None) -> None:
         """Insert or replace the position of one file."""
         with self.store.transaction() as conn:
             conn.execute(
