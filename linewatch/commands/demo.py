@@ -72,6 +72,9 @@ def run(args: argparse.Namespace) -> int:
         )
         return watch.run(watch_args, title="demo extrusion line")
     finally:
+        # leaving anyway: a hang-up now must not cut the clean-up short
+        for sig in (signal.SIGHUP, signal.SIGTERM):
+            signal.signal(sig, signal.SIG_IGN)
         stop.set()
         if sim is not None:
             sim.join(timeout=5)

@@ -82,12 +82,30 @@ class LinewatchApp(App[int]):
             return binding.key.replace("_", " ").title()
         return shown
 
+    def on_load(self) -> None:
+        # before the terminal driver starts, so a hang-up at any later moment is handled
+        self._leave_on_hangup()
+
     def on_mount(self) -> None:
         self.set_class(self.glyphs.ascii, "-ascii")
         self.source.subscribe(self._source_changed)
         self._pull_line()
         self.set_interval(1.0 / REFRESH_HZ, self._refresh_if_changed)
         self.set_interval(1.0, self._tick_clock)
+
+    def _leave_on_hangup(self) -> None:
+        """A closed terminal or SSH session (SIGHUP) or a SIGTERM quits the screen the normal
+        way, so the terminal driver's threads stop and the caller's clean-up runs; otherwise
+        the process would linger, reading a terminal that is gone."""
+        import asyncio
+        import signal
+
+        try:
+            loop = asyncio.get_running_loop()
+            for sig in (signal.SIGHUP, signal.SIGTERM):
+                loop.add_signal_handler(sig, self.exit, 128 + sig)
+        except (NotImplementedError, RuntimeError, ValueError, AttributeError):
+            pass  # no such signals here, or not the main thread (tests): nothing to hang up
 
     def _source_changed(self, version: int) -> None:
         """Called from any thread: only raise the flag; the timer does the rest."""

@@ -8,28 +8,13 @@ import os
 import shutil
 import subprocess
 import sys
-import time
 import uuid
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 
-WAIT = 30.0  # seconds allowed for each step on a slow machine; normally well under one
-
-
-def tmux(*args: str) -> str:
-    out = subprocess.run(["tmux", *args], capture_output=True, text=True, check=False)
-    return out.stdout
-
-
-def wait_for(check: Callable[[], bool], what: str, screen: Callable[[], str]) -> None:
-    deadline = time.monotonic() + WAIT
-    while time.monotonic() < deadline:
-        if check():
-            return
-        time.sleep(0.1)
-    raise AssertionError(f"waited {WAIT:.0f}s for {what}; the screen shows:\n{screen()}")
+from .terminal import running, tmux, wait_for
 
 
 @pytest.fixture
@@ -95,3 +80,38 @@ def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
     assert len(alarms) == 2, alarms
     assert all(a["acknowledged_by"] and a["characteristic"] == "od" for a in alarms), alarms
     assert sorted(a["reason"] for a in alarms) == sorted([reasons["1"], reasons["2"]])
+
+
+def test_a_closed_terminal_ends_the_screen_and_its_collector(
+    tmp_path: Path, session: str
+) -> None:
+    """An SSH session that drops (SIGHUP): the program quits the normal way and ends, instead
+    of lingering on a terminal that is gone; the store it leaves verifies."""
+    log = tmp_path / "od.csv"
+    log.write_text("time,od\n" + "".join(f"2026-01-01T08:{i:02d}:00,10.0{i % 3}\n"
+                                          for i in range(30)))
+    state = tmp_path / "state"
+    pid_file = tmp_path / "watch.pid"
+    command = " ".join([sys.executable, "-m", "linewatch", "watch", str(log), "--center", "10",
+                        "--sigma", "0.1", "--state-dir", str(state), "--no-bell"])
+    env = f"TERM=xterm-256color PYTHONPATH={os.getcwd()}"
+    tmux("new-session", "-d", "-s", session, "-x", "80", "-y", "24",
+         f"sh -c 'echo $$ > {pid_file}; exec env {env} {command}'; sleep 30")
+
+    def screen() -> str:
+        return tmux("capture-pane", "-p", "-t", session)
+
+    wait_for(lambda: " od " in screen() and "board" in screen(), "the board", screen)
+    pid = int(pid_file.read_text())
+    tmux("kill-session", "-t", session)
+    wait_for(lambda: not running(pid), "the program to end after the hang-up", screen)
+    verified = subprocess.run(
+        [sys.executable, "-m", "linewatch", "audit", "verify", "--state-dir", str(state)],
+        capture_output=True, text=True, timeout=60)
+    assert verified.returncode == 0, verified.stdout + verified.stderr
+    # it quit the normal way: the collector gave its lease up (a killed one leaves it to expire)
+    from linewatch.store.db import Store
+    from linewatch.store.lease import Lease
+
+    with Store(state) as store:
+        assert Lease(store).holder() is None
