@@ -59,3 +59,21 @@ def test_an_unterminated_last_line_is_not_a_point(tmp_path):
     out, _ = stop(proc)
     summary = next(r for r in records(out) if r["type"] == "summary")
     assert summary["points"] == 30
+
+
+def test_with_poll_a_row_is_seen_without_file_system_events(tmp_path):
+    """`--poll` (network shares, where inotify never fires) reads on a fixed beat instead."""
+    from tests.watch.helpers import Reader
+
+    log = tmp_path / "line.csv"
+    log.write_text(HEADER + "".join(rows_text(process_series(30, seed=5))))
+    proc = start_watch([str(log)], tmp_path / "state", "--baseline", "30", "--rules", "we1",
+                       "--poll", "0.3")
+    out = Reader(proc)
+    wait_caught_up(tmp_path / "state", log)
+    with log.open("a") as f:
+        f.writelines(rows_text([14.0], start=30))  # far beyond the limits
+    _, signal = out.wait_for(lambda r: r.get("type") == "signal" and r["index"] == 30)
+    assert signal["rule"] == "we1" and signal["value"] == 14.0
+    proc.terminate()
+    assert proc.wait(timeout=20) == 0
