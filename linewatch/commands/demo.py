@@ -59,11 +59,19 @@ def _exit_on_hangup() -> None:
 def run(args: argparse.Namespace) -> int:
     from linewatch.cli import build_parser
     from linewatch.commands import watch
+    from linewatch.exiting import on_forced_exit
 
     folder = Path(tempfile.mkdtemp(prefix="linewatch-demo-"))
     stop = threading.Event()
     sim = None
     _exit_on_hangup()
+
+    def remove_folder() -> None:
+        stop.set()
+        if not args.keep:
+            shutil.rmtree(folder, ignore_errors=True)
+
+    forget = on_forced_exit(remove_folder)  # runs last: after the collector has stopped
     try:
         config_path = prepare(folder)
         sim = start_simulator(folder, args.seed, args.speed, stop)
@@ -75,6 +83,7 @@ def run(args: argparse.Namespace) -> int:
         # leaving anyway: a hang-up now must not cut the clean-up short
         for sig in (signal.SIGHUP, signal.SIGTERM):
             signal.signal(sig, signal.SIG_IGN)
+        forget()
         stop.set()
         if sim is not None:
             sim.join(timeout=5)

@@ -119,18 +119,27 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
     from linewatch.monitor import Monitor
 
     messages: list[dict[str, Any]] = []
+    from linewatch.exiting import on_forced_exit
+
     monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
     face = MonitorFace(monitor)
     stop = threading.Event()
     worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
     worker.start()
+
+    def stop_collecting() -> None:
+        """Finish the collector's pass and give its lease up (also on a forced exit)."""
+        stop.set()
+        worker.join(timeout=5)
+
+    forget = on_forced_exit(stop_collecting)
     try:
         from linewatch.ui.app import run_app
 
         return run_app(face, face, bell=bell, title=monitor.title)
     finally:
-        stop.set()
-        worker.join(timeout=5)
+        forget()
+        stop_collecting()
         face.close()
         for m in messages:
             if m.get("type") == "hook":

@@ -27,6 +27,9 @@ RETRY_AFTER = 2.0  # seconds before asking again for a snapshot that failed
 BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell
 
 
+HANGUP_GRACE = 5.0  # seconds the normal way out may take after a hang-up
+
+
 class LinewatchApp(App[int]):
     """Line board, alarm queue, feed pulse and close-ups over one SnapshotSource."""
 
@@ -103,9 +106,17 @@ class LinewatchApp(App[int]):
         try:
             loop = asyncio.get_running_loop()
             for sig in (signal.SIGHUP, signal.SIGTERM):
-                loop.add_signal_handler(sig, self.exit, 128 + sig)
+                loop.add_signal_handler(sig, self._hang_up, 128 + sig)
         except (NotImplementedError, RuntimeError, ValueError, AttributeError):
             pass  # no such signals here, or not the main thread (tests): nothing to hang up
+
+    def _hang_up(self, code: int) -> None:
+        """Quit the normal way; should that hang on a terminal that is gone, the clean-ups the
+        caller registered still run after a grace period and the process ends."""
+        from linewatch.exiting import exit_later
+
+        exit_later(code, HANGUP_GRACE)
+        self.exit(code)
 
     def _source_changed(self, version: int) -> None:
         """Called from any thread: only raise the flag; the timer does the rest."""
