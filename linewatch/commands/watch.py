@@ -66,7 +66,8 @@ def run(args: argparse.Namespace, title: str = "") -> int:
 
 
 def run_headless(plan: WatchPlan, state_dir: Path, fmt: str, poll: float | None) -> int:
-    """Collect (or view) until SIGTERM/SIGINT, then print one summary per characteristic."""
+    """Collect (or view) until SIGTERM/SIGINT/SIGHUP, then print one summary per
+    characteristic."""
     from linewatch.headless import Printer
     from linewatch.monitor import Monitor
 
@@ -77,8 +78,10 @@ def run_headless(plan: WatchPlan, state_dir: Path, fmt: str, poll: float | None)
     def _stop(signum: int, frame: FrameType | None) -> None:
         stop.set()
 
-    signal.signal(signal.SIGTERM, _stop)
-    signal.signal(signal.SIGINT, _stop)
+    # a dropped SSH session (SIGHUP) ends it like SIGTERM: the pass is finished and the
+    # collector's lease given up at once, so another instance takes over without waiting
+    for sig in (signal.SIGTERM, signal.SIGINT, signal.SIGHUP):
+        signal.signal(sig, _stop)
     monitor.run(stop)
     for record in summaries(monitor):
         printer(record)

@@ -4,6 +4,7 @@ remaining instance takes over within 5 seconds without losing or doubling an ala
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import sys
@@ -68,3 +69,25 @@ def test_collector_viewer_shell_ack_and_takeover(tmp_path):
     wait_caught_up(straight, log)
     stop(proc)
     assert got == alarm_set(straight)
+
+
+def test_a_hang_up_ends_a_headless_collector_like_sigterm(tmp_path):
+    """Started from an SSH session that drops: it finishes its pass, prints its summary and
+    gives the collector's lease up at once (a killed one would leave it to expire)."""
+    import signal
+
+    from linewatch.store.db import Store
+    from linewatch.store.lease import Lease
+
+    log = tmp_path / "line.csv"
+    log.write_text(HEADER + "".join(rows_text([10.0, 10.2, 9.9, 10.1] * 5)))
+    state = tmp_path / "state"
+    proc = start_watch([str(log)], state, "--baseline", "10")
+    wait_caught_up(state, log)
+    proc.send_signal(signal.SIGHUP)
+    out, err = proc.communicate(timeout=20)
+    assert proc.returncode == 0, err
+    assert any(json.loads(line)["type"] == "summary" for line in out.splitlines()
+               if line.startswith("{"))
+    with Store(state) as store:
+        assert Lease(store).holder() is None
