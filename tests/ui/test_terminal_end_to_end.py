@@ -9,7 +9,7 @@ import shutil
 import subprocess
 import sys
 import uuid
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import pytest
@@ -25,6 +25,26 @@ def session(tmp_path: Path) -> Iterator[str]:
     subprocess.run(["tmux", "kill-session", "-t", name], capture_output=True, check=False)
 
 
+def open_board(
+    tmp_path: Path, session: str, log: Path
+) -> tuple[Path, Callable[[], str], int]:
+    """Start the real `watch` screen on `log` (known centre 10, σ 0.1) in tmux and wait for
+    the board; returns the state directory, a screen reader and the program's pid."""
+    state = tmp_path / "state"
+    pid_file = tmp_path / "watch.pid"
+    command = " ".join([sys.executable, "-m", "linewatch", "watch", str(log), "--center", "10",
+                        "--sigma", "0.1", "--state-dir", str(state), "--no-bell"])
+    env = f"TERM=xterm-256color PYTHONPATH={os.getcwd()}"
+    tmux("new-session", "-d", "-s", session, "-x", "80", "-y", "24",
+         f"sh -c 'echo $$ > {pid_file}; exec env {env} {command}'; sleep 30")
+
+    def screen() -> str:
+        return tmux("capture-pane", "-p", "-t", session)
+
+    wait_for(lambda: " od " in screen() and "board" in screen(), "the board", screen)
+    return state, screen, int(pid_file.read_text())
+
+
 def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
     tmp_path: Path, session: str
 ) -> None:
@@ -33,19 +53,7 @@ def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
     rows = [f"2026-01-01T08:{i:02d}:00,{10.0 + 0.05 * ((i * 7) % 5 - 2) / 2:.3f}"
             for i in range(30)]
     log.write_text("time,od\n" + "\n".join(rows) + "\n")
-    state = tmp_path / "state"
-    command = " ".join([
-        sys.executable, "-m", "linewatch", "watch", str(log), "--center", "10",
-        "--sigma", "0.1", "--state-dir", str(state), "--no-bell",
-    ])
-    env = f"TERM=xterm-256color PYTHONPATH={os.getcwd()}"
-    tmux("new-session", "-d", "-s", session, "-x", "80", "-y", "24",
-         f"env {env} {command}; sleep 30")
-
-    def screen() -> str:
-        return tmux("capture-pane", "-p", "-t", session)
-
-    wait_for(lambda: " od " in screen() and "board" in screen(), "the board", screen)
+    state, screen, _ = open_board(tmp_path, session, log)
     with log.open("a") as f:
         f.write("2026-01-01T08:30:00,11.000\n")  # ten σ above the centre: beyond the UCL
     # the individual value and its moving range both go beyond their UCL: two alarms
@@ -90,19 +98,7 @@ def test_a_closed_terminal_ends_the_screen_and_its_collector(
     log = tmp_path / "od.csv"
     log.write_text("time,od\n" + "".join(f"2026-01-01T08:{i:02d}:00,10.0{i % 3}\n"
                                           for i in range(30)))
-    state = tmp_path / "state"
-    pid_file = tmp_path / "watch.pid"
-    command = " ".join([sys.executable, "-m", "linewatch", "watch", str(log), "--center", "10",
-                        "--sigma", "0.1", "--state-dir", str(state), "--no-bell"])
-    env = f"TERM=xterm-256color PYTHONPATH={os.getcwd()}"
-    tmux("new-session", "-d", "-s", session, "-x", "80", "-y", "24",
-         f"sh -c 'echo $$ > {pid_file}; exec env {env} {command}'; sleep 30")
-
-    def screen() -> str:
-        return tmux("capture-pane", "-p", "-t", session)
-
-    wait_for(lambda: " od " in screen() and "board" in screen(), "the board", screen)
-    pid = int(pid_file.read_text())
+    state, screen, pid = open_board(tmp_path, session, log)
     tmux("kill-session", "-t", session)
     wait_for(lambda: not running(pid), "the program to end after the hang-up", screen)
     verified = subprocess.run(
