@@ -607,6 +607,8 @@ def parse_log_bytes(
     parser = RowParser(feed, file, columns, require_columns=True)
     if feed.layout == "wide":
         batch = _read_wide(data, parser)
+    elif feed.layout == "long":
+        batch = _read_long(data, parser)
     else:
         lines = data.split(b"\n")
         if lines and lines[-1] == b"":
@@ -652,6 +654,198 @@ def _read_wide(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
             lo = end + 1
         return _as_arrays(prefix.batch())
     return _FastWide(data, lo, line_no, parser).run(prefix)
+
+
+def _read_long(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
+    """The long layout (a name column and a value column) read like `_read_wide`: the header
+    line by line, then the plain rows as whole arrays, the rest line by line."""
+    if data and not data.endswith(b"\n"):
+        data += b"\n"
+    prefix = _Rows(parser.file)
+    lo, line_no = 0, lines_before
+    while lo < len(data) and not parser.ready:
+        end = data.index(b"\n", lo)
+        line_no += 1
+        parser.feed_line(data[lo:end], line_no, prefix)
+        lo = end + 1
+    plain = codecs.lookup(parser.feed.encoding).name in _ASCII_COMPATIBLE
+    if (
+        lo >= len(data)
+        or not parser.usable
+        or not plain
+        # a header repeat must never look like a row with a number to the fast path
+        or (parser.header is not None
+            and parse_number(parser.header[parser.value_idx], parser.decimal_comma) is not None)
+    ):
+        while lo < len(data):
+            end = data.index(b"\n", lo)
+            line_no += 1
+            parser.feed_line(data[lo:end], line_no, prefix)
+            lo = end + 1
+        return _as_arrays(prefix.batch())
+    return _FastLong(data, lo, line_no, parser).run(prefix)
+
+
+_NAME_BYTES = 64  # longer names take the per-line path
+
+
+class _FastLong:
+    """Whole-buffer conversion of the plain rows of a long-layout CSV.
+
+    A row takes the fast path when it is printable ASCII without quotes, does not start with a
+    blank or '#', has the header's number of fields, a name without surrounding blanks and a
+    plain decimal value; every other row goes through `RowParser.feed_line`, so both agree.
+    """
+
+    def __init__(self, data: bytes, lo: int, lines_before: int, parser: RowParser) -> None:
+        self.data = data
+        self.arr = np.frombuffer(data, dtype=np.uint8)
+        self.lo = lo
+        self.lines_before = lines_before
+        self.parser = parser
+
+    def _lines(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(starts, newline positions, ends without CR, first-delimiter index in pos, pos) and
+        a mask of the lines that need the per-line path, in `self.slow`."""
+        p = self.parser
+        assert p.header is not None
+        ncols = len(p.header)
+        arr, lo = self.arr, self.lo
+        pos, odd_pos = _scan(arr, lo, ord(p.delimiter))
+        nlk = np.flatnonzero(arr[pos] == 10)
+        nl = pos[nlk]
+        n = len(nl)
+        starts = np.empty(n, dtype=np.int64)
+        starts[0] = lo
+        starts[1:] = nl[:-1] + 1
+        base = np.empty(n, dtype=np.int64)
+        base[0] = 0
+        base[1:] = nlk[:-1] + 1
+        slow = (nlk - base) != ncols - 1
+        ends = nl.astype(np.int64)
+        ends -= (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
+        first = arr[np.minimum(starts, len(arr) - 1)]
+        slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
+        slow |= (ends - starts) > MAX_LINE_BYTES
+        if len(odd_pos):
+            slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
+        self.slow = slow
+        return starts, nl, ends, base, pos
+
+    def _span(self, j: int, starts: np.ndarray, ends: np.ndarray, base: np.ndarray,
+              pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        p = self.parser
+        assert p.header is not None
+        ncols, last = len(p.header), len(pos) - 1
+        s = starts if j == 0 else pos[np.minimum(base + j - 1, last)].astype(np.int64) + 1
+        e = ends if j == ncols - 1 else pos[np.minimum(base + j, last)].astype(np.int64)
+        return s, e
+
+    def _names(self, s: np.ndarray, e: np.ndarray, ok: np.ndarray) -> np.ndarray:
+        """Each row's name as fixed-width bytes (rows not `ok` get b'')."""
+        lens = np.where(ok, e - s, 0)
+        width = max(1, int(lens.max(initial=0)))
+        mat = np.zeros((len(s), width), dtype=np.uint8)
+        for j in range(width):
+            col = np.take(self.arr, s + j, mode="clip")
+            col[lens <= j] = 0
+            mat[:, j] = col
+        return mat.view(f"S{width}").ravel()
+
+    def run(self, prefix: _Rows) -> Batch:
+        p = self.parser
+        starts, nl, ends, base, pos = self._lines()
+        fast = np.flatnonzero(~self.slow)
+        fs, fe, fb = starts[fast], ends[fast], base[fast]
+        ns, ne = self._span(p.name_idx, fs, fe, fb, pos)
+        vs, ve = self._span(p.value_idx, fs, fe, fb, pos)
+        if p.time_idx is not None:
+            ts, te = self._span(p.time_idx, fs, fe, fb, pos)
+        else:
+            ts = te = np.zeros(len(fast), dtype=np.int64)
+        del pos
+        arr = self.arr
+        nlen = ne - ns
+        ok = (nlen > 0) & (nlen <= _NAME_BYTES)
+        ok &= ~np.isin(np.take(arr, ns, mode="clip"), (32, 9))
+        ok &= ~np.isin(np.take(arr, np.maximum(ne - 1, 0), mode="clip"), (32, 9))
+        vals, good = _convert(arr, vs, ve, p.decimal_comma)
+        ok &= good
+        self.slow[fast[~ok]] = True
+        keep = np.flatnonzero(ok)
+        fast, vals = fast[keep], vals[keep]
+        ns, ne, ts, te = ns[keep], ne[keep], ts[keep], te[keep]
+        first_no = self.lines_before + 1
+        fast_lines = fast + first_no
+        names = self._names(ns, ne, np.ones(len(fast), dtype=bool))
+        # the unusual rows, line by line through the same code as RowParser; note where each
+        # name was first seen so names_seen keeps the order of the file
+        rest = _Rows(p.file)
+        known = list(p.names_seen)  # met before this buffer: they keep their place
+        seen_at: dict[str, int] = {}
+        data = self.data
+        for i in np.flatnonzero(self.slow).tolist():
+            before = len(p.names_seen)
+            p.feed_line(data[starts[i] : nl[i]], i + first_no, rest)
+            if len(p.names_seen) != before:
+                seen_at[next(reversed(p.names_seen))] = i + first_no
+        uniq, first_idx, inverse = np.unique(names, return_index=True, return_inverse=True)
+        decoded = [u.decode("ascii") for u in uniq.tolist()]
+        old = set(known)
+        for k, name in enumerate(decoded):
+            if name not in old:
+                line = int(fast_lines[first_idx[k]])
+                seen_at[name] = min(line, seen_at.get(name, line))
+        order = sorted(seen_at, key=seen_at.__getitem__)
+        p.names_seen = {**dict.fromkeys(known), **dict.fromkeys(order)}
+        return self._merge(prefix, rest, decoded, inverse, fast_lines, vals, ts, te)
+
+    def _merge(self, prefix: _Rows, rest: _Rows, decoded: list[str], inverse: np.ndarray,
+               fast_lines: np.ndarray, vals: np.ndarray, ts: np.ndarray,
+               te: np.ndarray) -> Batch:
+        """Per name: prefix rows, then fast rows with the line-by-line rows put back in order."""
+        p = self.parser
+        wanted = None if p.columns is None else set(p.columns)
+        batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+        batch.rows = prefix.rows + rest.rows
+        groups = np.argsort(inverse, kind="stable")
+        bounds = np.searchsorted(inverse[groups], np.arange(len(decoded) + 1))
+        fast_rows: dict[str, np.ndarray] = {}
+        for k, name in enumerate(decoded):
+            if wanted is None or name in wanted:
+                fast_rows[name] = groups[bounds[k] : bounds[k + 1]]
+                batch.rows += len(fast_rows[name])
+        names = set(fast_rows) | set(rest.values) | set(prefix.values)
+        first_line: dict[str, int] = {}
+        for name in names:
+            cands = [int(fast_lines[fast_rows[name][0]])] if name in fast_rows else []
+            cands += rest.lines.get(name, [])[:1] + prefix.lines.get(name, [])[:1]
+            first_line[name] = min(cands)
+        for name in sorted(names, key=first_line.__getitem__):
+            rows = fast_rows.get(name, np.zeros(0, dtype=np.int64))
+            f_lines = fast_lines[rows]
+            slow_l = np.asarray(rest.lines.get(name, []), dtype=np.int64)
+            at = np.searchsorted(f_lines, slow_l)
+            lines = np.insert(f_lines, at, slow_l)
+            v = np.insert(vals[rows], at, np.asarray(rest.values.get(name, []), dtype=np.float64))
+            s, e = np.insert(ts[rows], at, 0), np.insert(te[rows], at, 0)
+            extra: dict[int, str | None] = {}
+            pre_l, pre_t = prefix.lines.get(name, []), prefix.times.get(name, [])
+            npre = len(pre_l)
+            for j, t in enumerate(pre_t):
+                extra[j] = t
+            for k, (at_k, t) in enumerate(zip(at.tolist(), rest.times.get(name, []), strict=True)):
+                extra[npre + at_k + k] = t
+            if npre:
+                lines = np.concatenate([np.asarray(pre_l, dtype=np.int64), lines])
+                v = np.concatenate([np.asarray(prefix.values[name], dtype=np.float64), v])
+                pad = np.zeros(npre, dtype=np.int64)
+                s, e = np.concatenate([pad, s]), np.concatenate([pad, e])
+            batch.values[name] = v
+            batch.lines[name] = lines
+            batch.times[name] = TimeColumn(buf=self.data, starts=s, ends=e, extra=extra)
+        batch.rejected.sort(key=lambda r: r.line)
+        return batch
 
 
 def _as_arrays(batch: Batch) -> Batch:

@@ -13,7 +13,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from linewatch.config import FeedConfig
-from linewatch.feeds.formats import Batch, RowParser, parse_log_bytes
+from linewatch.feeds.formats import Batch, RowParser, _read_long, parse_log_bytes
 
 NUMBERS = st.one_of(
     st.floats(allow_nan=False, allow_infinity=False, width=64).map(repr),
@@ -118,3 +118,65 @@ def test_numbers_are_read_as_python_float_reads_them(texts: list[str], semicolon
     expected = [float(t.replace(",", ".")) for t in texts]
     assert fast.values["od"].tolist() == expected
     assert fast.rejected == []
+
+
+LONG_NAMES = st.sampled_from(["od", "wall", "Ø", " od", "od ", "", "a" * 70, "value", "name",
+                              "7", "x-1"])
+
+
+@st.composite
+def long_files(draw: st.DrawFn) -> tuple[bytes, str]:
+    """Long-layout logs: time, name, value (in a drawn column order), with odd rows mixed in."""
+    delim = draw(st.sampled_from([",", ";", "\t"]))
+    cols = draw(st.permutations(["time", "name", "value"]))
+    header = delim.join(cols)
+    eol = draw(st.sampled_from(["\n", "\r\n"]))
+    out: list[bytes] = [(b"\xef\xbb\xbf" if draw(st.booleans()) else b"") + header.encode()]
+    for _ in range(draw(st.integers(0, 30))):
+        kind = draw(st.integers(0, 14))
+        if kind == 0:
+            out.append(header.encode())
+        elif kind == 1:
+            out.append(draw(st.sampled_from([b"", b"# note", b" 1", b"\t"])))
+        elif kind == 2:
+            out.append(draw(st.binary(max_size=12)).replace(b"\n", b""))
+        elif kind == 3:
+            out.append(delim.join(draw(st.lists(FIELD, max_size=4))).encode("utf-8"))
+        else:
+            row = {"time": draw(st.sampled_from(["2026-03-02T06:00:00", "", " t1 ", "06:01"])),
+                   "name": draw(LONG_NAMES),
+                   "value": draw(NUMBERS) if kind > 5 else draw(st.one_of(NUMBERS, JUNK))}
+            fields = [row[c].replace(delim, "") for c in cols]
+            out.append(delim.join(fields).encode("utf-8"))
+    data = eol.encode().join(out)
+    if draw(st.booleans()):
+        data += eol.encode()
+    return data, draw(st.sampled_from(["utf-8", "cp1252"]))
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(long_files(), st.sampled_from([None, ["od"], ["od", "wall"]]))
+def test_fast_long_reader_equals_per_line_parser(
+    case: tuple[bytes, str], columns: list[str] | None
+) -> None:
+    data, encoding = case
+    feed = FeedConfig(paths=[], encoding=encoding, layout="long", name_column="name",
+                      value_column="value")
+    by_line = RowParser(feed, "log.csv", columns, require_columns=True)
+    whole = RowParser(feed, "log.csv", columns, require_columns=True)
+    lines = data.split(b"\n")
+    if lines[-1] == b"":
+        lines.pop()
+    try:
+        slow = by_line.parse(lines, 1)
+    except Exception as exc:  # the per-line parser refused: the fast reader must say the same
+        try:
+            _read_long(data, whole)
+        except Exception as fast_exc:
+            assert type(fast_exc) is type(exc) and str(fast_exc) == str(exc)
+            return
+        raise AssertionError("the fast reader accepted what the per-line parser refused") from exc
+    fast = _read_long(data, whole)
+    assert_same(fast, slow)
+    # the names met, in the order of the file (what an unknown-name message lists)
+    assert list(whole.names_seen) == list(by_line.names_seen)
