@@ -1,8 +1,8 @@
 """Log rows -> columnar `Batch`: wide CSV, long CSV and JSON lines.
 
 Two paths give the same result for the same bytes (a property test proves it): the per-line
-code of `RowParser`, which defines every convention below, and a whole-buffer path for wide
-CSV that converts the common case (plain ASCII rows, plain decimal numbers) with numpy and
+code of `RowParser`, which defines every convention below, and a whole-buffer path for wide and
+long CSV that converts the common case (plain ASCII rows, plain decimal numbers) with numpy and
 sends only the unusual rows through the per-line code. `read_log` reads a whole file that way
 (the `check` command); a live tail hands `RowParser.parse_block` each block of complete lines,
 and blocks of at least FAST_BLOCK_BYTES take the whole-buffer path too.
@@ -325,11 +325,14 @@ class RowParser:
     def parse_block(self, data: bytes, first_line_no: int) -> Batch:
         """Parse complete lines given as one buffer, each ending in a newline.
 
-        A large block of a wide feed goes through the whole-buffer path (same result, far
+        A large block of a wide or long feed goes through the whole-buffer path (same result, far
         faster); the batch holds plain lists either way.
         """
-        if self.feed.layout == "wide" and len(data) >= FAST_BLOCK_BYTES:
-            return _as_lists(_read_wide(data, self, first_line_no - 1))
+        if len(data) >= FAST_BLOCK_BYTES:
+            if self.feed.layout == "wide":
+                return _as_lists(_read_wide(data, self, first_line_no - 1))
+            if self.feed.layout == "long":
+                return _as_lists(_read_long(data, self, first_line_no - 1))
         lines = data.split(b"\n")
         if lines and lines[-1] == b"":
             lines.pop()

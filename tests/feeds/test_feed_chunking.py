@@ -87,3 +87,72 @@ def test_any_write_chunking_yields_every_row_once_in_order(
         tailer.close()
         formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
     assert (vals, lines, rejected) == reference(data)
+
+
+LONG_ROWS = st.one_of(
+    st.builds(lambda k, n, v: f"06:{k:02d},{n},{v}\n", st.integers(0, 59),
+              st.sampled_from(["od", "wall", " od", "ovality"]),
+              st.floats(-100, 100, allow_nan=False).map(lambda v: f"{v:.4f}")),
+    st.sampled_from(["time,name,value\n", "\n", "# note\n", "junk\n", "06:00,od,\n",
+                     "06:00,,1.5\n", "06:00,wall,abc\n", "a,b,c,d\n", "06:00,od,25.5\r\n"]),
+    st.binary(max_size=8).map(lambda b: b.decode("latin-1")),
+)
+LONG_FEED = {"encoding": "latin-1", "layout": "long", "name_column": "name",
+             "value_column": "value"}
+
+
+@st.composite
+def long_streams(draw: st.DrawFn) -> tuple[bytes, list[int], int]:
+    body = "time,name,value\n" + "".join(draw(st.lists(LONG_ROWS, max_size=30)))
+    data = body.encode("latin-1")
+    cuts = sorted(set(draw(st.lists(st.integers(0, len(data)), max_size=12))))
+    return data, cuts, draw(st.sampled_from([7, 64, 1 << 20]))
+
+
+@settings(max_examples=120, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(long_streams(), st.booleans())
+def test_any_write_chunking_of_a_long_layout_log_yields_every_row_once_in_order(
+    tmp_path: Path, case, whole_buffer: bool
+) -> None:
+    data, cuts, budget = case
+    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
+    folder = Path(tempfile.mkdtemp(dir=tmp_path))
+    log = folder / "log.csv"
+    log.write_bytes(b"")
+    tailer = Tailer([FeedConfig(paths=[str(log)], **LONG_FEED)])
+    got: dict[str, list[tuple[int, float]]] = {}
+    rejected: list[tuple[int, str]] = []
+
+    def drain() -> None:
+        while True:
+            chunks = tailer.poll(max_bytes=budget)
+            for c in chunks:
+                if c.batch is None:
+                    continue
+                for name, values in c.batch.values.items():
+                    got.setdefault(name, []).extend(
+                        zip((int(n) for n in c.batch.lines[name]),
+                            np.asarray(values, dtype=float).tolist(), strict=True))
+                rejected.extend((r.line, r.reason) for r in c.batch.rejected)
+            if not any(c.more for c in chunks):
+                return
+
+    prev = 0
+    try:
+        for cut in [*cuts, len(data)]:
+            with open(log, "ab") as fh:
+                fh.write(data[prev:cut])
+            prev = cut
+            drain()
+        drain()
+    finally:
+        tailer.close()
+        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
+    complete = data[: data.rfind(b"\n") + 1]
+    ref = RowParser(FeedConfig(paths=[], **LONG_FEED), "log", None).parse(
+        complete.split(b"\n")[:-1], 1)
+    expected = {name: list(zip(ref.lines[name], [float(v) for v in ref.values[name]],
+                               strict=True)) for name in ref.values}
+    assert got == expected
+    assert rejected == [(r.line, r.reason) for r in ref.rejected]
