@@ -40,7 +40,7 @@ import json
 import math
 import re
 import sys
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, overload
@@ -630,75 +630,61 @@ def parse_log_bytes(
     return batch
 
 
-def _read_wide(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
-    if data and not data.endswith(b"\n"):
-        data += b"\n"
-    # the header and, without explicit columns, the first data row go through the slow path
-    prefix = _Rows(parser.file)
-    lo, line_no = 0, lines_before
-    while lo < len(data) and not parser.ready:
+def _line_by_line(data: bytes, lo: int, line_no: int, parser: RowParser, out: _Rows,
+                  until_ready: bool = False) -> tuple[int, int]:
+    """Feed the lines of `data` from byte `lo` to the per-line parser (only until it is ready,
+    with `until_ready`); returns where it stopped and the last line number."""
+    while lo < len(data) and not (until_ready and parser.ready):
         end = data.index(b"\n", lo)
         line_no += 1
-        parser.feed_line(data[lo:end], line_no, prefix)
+        parser.feed_line(data[lo:end], line_no, out)
         lo = end + 1
+    return lo, line_no
+
+
+def _read_whole(data: bytes, parser: RowParser, lines_before: int,
+                fast_ok: Callable[[RowParser], bool],
+                fast: type[_FastWide] | type[_FastLong]) -> Batch:
+    """The header (and whatever the parser needs before it is ready) line by line, then the
+    rest through `fast` when the encoding is ASCII-compatible and `fast_ok` says the columns
+    allow it, else line by line."""
+    if data and not data.endswith(b"\n"):
+        data += b"\n"
+    prefix = _Rows(parser.file)
+    lo, line_no = _line_by_line(data, 0, lines_before, parser, prefix, until_ready=True)
     plain = codecs.lookup(parser.feed.encoding).name in _ASCII_COMPATIBLE
-    if (
-        lo >= len(data)
-        or not parser.usable
-        or not parser.wanted
-        or not plain
-        # a header repeat must never look like a row of numbers to the fast path
-        or any(parse_number(name, parser.decimal_comma) is not None for name, _ in parser.wanted)
-    ):
-        while lo < len(data):
-            end = data.index(b"\n", lo)
-            line_no += 1
-            parser.feed_line(data[lo:end], line_no, prefix)
-            lo = end + 1
+    if lo >= len(data) or not parser.usable or not plain or not fast_ok(parser):
+        _line_by_line(data, lo, line_no, parser, prefix)
         return _as_arrays(prefix.batch())
-    return _FastWide(data, lo, line_no, parser).run(prefix)
+    return fast(data, lo, line_no, parser).run(prefix)
+
+
+def _wide_fast_ok(p: RowParser) -> bool:
+    # a header repeat must never look like a row of numbers to the fast path
+    return bool(p.wanted) and not any(
+        parse_number(name, p.decimal_comma) is not None for name, _ in p.wanted or [])
+
+
+def _long_fast_ok(p: RowParser) -> bool:
+    # a header repeat must never look like a row with a number to the fast path
+    return p.header is not None and parse_number(p.header[p.value_idx], p.decimal_comma) is None
+
+
+def _read_wide(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
+    """A wide CSV: plain rows as whole arrays, the rest line by line (same result)."""
+    return _read_whole(data, parser, lines_before, _wide_fast_ok, _FastWide)
 
 
 def _read_long(data: bytes, parser: RowParser, lines_before: int = 0) -> Batch:
-    """The long layout (a name column and a value column) read like `_read_wide`: the header
-    line by line, then the plain rows as whole arrays, the rest line by line."""
-    if data and not data.endswith(b"\n"):
-        data += b"\n"
-    prefix = _Rows(parser.file)
-    lo, line_no = 0, lines_before
-    while lo < len(data) and not parser.ready:
-        end = data.index(b"\n", lo)
-        line_no += 1
-        parser.feed_line(data[lo:end], line_no, prefix)
-        lo = end + 1
-    plain = codecs.lookup(parser.feed.encoding).name in _ASCII_COMPATIBLE
-    if (
-        lo >= len(data)
-        or not parser.usable
-        or not plain
-        # a header repeat must never look like a row with a number to the fast path
-        or (parser.header is not None
-            and parse_number(parser.header[parser.value_idx], parser.decimal_comma) is not None)
-    ):
-        while lo < len(data):
-            end = data.index(b"\n", lo)
-            line_no += 1
-            parser.feed_line(data[lo:end], line_no, prefix)
-            lo = end + 1
-        return _as_arrays(prefix.batch())
-    return _FastLong(data, lo, line_no, parser).run(prefix)
+    """A long-layout CSV (a name column and a value column), read like a wide one."""
+    return _read_whole(data, parser, lines_before, _long_fast_ok, _FastLong)
 
 
 _NAME_BYTES = 64  # longer names take the per-line path
 
 
-class _FastLong:
-    """Whole-buffer conversion of the plain rows of a long-layout CSV.
-
-    A row takes the fast path when it is printable ASCII without quotes, does not start with a
-    blank or '#', has the header's number of fields, a name without surrounding blanks and a
-    plain decimal value; every other row goes through `RowParser.feed_line`, so both agree.
-    """
+class _WholeBuffer:
+    """A buffer of complete lines from byte `lo` on, numbered after `lines_before`."""
 
     def __init__(self, data: bytes, lo: int, lines_before: int, parser: RowParser) -> None:
         self.data = data
@@ -707,33 +693,14 @@ class _FastLong:
         self.lines_before = lines_before
         self.parser = parser
 
-    def _lines(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """(starts, newline positions, ends without CR, first-delimiter index in pos, pos) and
-        a mask of the lines that need the per-line path, in `self.slow`."""
-        p = self.parser
-        assert p.header is not None
-        ncols = len(p.header)
-        arr, lo = self.arr, self.lo
-        pos, odd_pos = _scan(arr, lo, ord(p.delimiter))
-        nlk = np.flatnonzero(arr[pos] == 10)
-        nl = pos[nlk]
-        n = len(nl)
-        starts = np.empty(n, dtype=np.int64)
-        starts[0] = lo
-        starts[1:] = nl[:-1] + 1
-        base = np.empty(n, dtype=np.int64)
-        base[0] = 0
-        base[1:] = nlk[:-1] + 1
-        slow = (nlk - base) != ncols - 1
-        ends = nl.astype(np.int64)
-        ends -= (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
-        first = arr[np.minimum(starts, len(arr) - 1)]
-        slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
-        slow |= (ends - starts) > MAX_LINE_BYTES
-        if len(odd_pos):
-            slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
-        self.slow = slow
-        return starts, nl, ends, base, pos
+
+class _FastLong(_WholeBuffer):
+    """Whole-buffer conversion of the plain rows of a long-layout CSV.
+
+    A row takes the fast path when it is printable ASCII without quotes, does not start with a
+    blank or '#', has the header's number of fields, a name without surrounding blanks and a
+    plain decimal value; every other row goes through `RowParser.feed_line`, so both agree.
+    """
 
     def _span(self, j: int, starts: np.ndarray, ends: np.ndarray, base: np.ndarray,
               pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -757,7 +724,7 @@ class _FastLong:
 
     def run(self, prefix: _Rows) -> Batch:
         p = self.parser
-        starts, nl, ends, base, pos = self._lines()
+        starts, nl, ends, base, pos, self.slow = _line_table(self.arr, self.lo, p)
         fast = np.flatnonzero(~self.slow)
         fs, fe, fb = starts[fast], ends[fast], base[fast]
         ns, ne = self._span(p.name_idx, fs, fe, fb, pos)
@@ -884,7 +851,7 @@ _FAST_FIELD = 24
 _POW10 = 10.0 ** np.arange(23)
 
 
-class _FastWide:
+class _FastWide(_WholeBuffer):
     """Whole-buffer conversion of the plain rows of a wide CSV; the rest go line by line.
 
     A row takes the fast path when it is printable ASCII without quotes, does not start with a
@@ -892,44 +859,15 @@ class _FastWide:
     decimals; every other row goes through `RowParser.feed_line`, so both paths agree.
     """
 
-    def __init__(self, data: bytes, lo: int, lines_before: int, parser: RowParser) -> None:
-        self.data = data
-        self.arr = np.frombuffer(data, dtype=np.uint8)
-        self.lo = lo
-        self.lines_before = lines_before
-        self.parser = parser
-
     def run(self, prefix: _Rows) -> Batch:
         p = self.parser
         assert p.header is not None and p.wanted is not None
         ncols = len(p.header)
-        arr, lo = self.arr, self.lo
-        delim = ord(p.delimiter)
-        # newlines and delimiters, in order: each line's fields lie between them
-        pos, odd_pos = _scan(arr, lo, delim)
-        nlk = np.flatnonzero(arr[pos] == 10)
-        nl = pos[nlk]
-        n = len(nl)
-        starts = np.empty(n, dtype=pos.dtype)
-        starts[0] = lo
-        starts[1:] = nl[:-1] + 1
-        base = np.empty(n, dtype=pos.dtype)  # index in pos of each line's first delimiter
-        base[0] = 0
-        base[1:] = nlk[:-1] + 1
-        slow = (nlk - base) != ncols - 1
-        del nlk
-        ends = nl.copy()
-        cr_end = (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
-        ends -= cr_end
-        del cr_end
-        first = arr[np.minimum(starts, len(arr) - 1)]
-        slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
-        slow |= (ends - starts) > MAX_LINE_BYTES
-        if len(odd_pos):
-            slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
+        arr = self.arr
+        starts, nl, ends, base, pos, slow = _line_table(arr, self.lo, p)
         fast = np.flatnonzero(~slow)
         fbase = base[fast]
-        del base, first
+        del base
         last = len(pos) - 1
         fstarts, fends = starts[fast], ends[fast]
         spans: list[tuple[np.ndarray, np.ndarray]] = []
@@ -965,6 +903,40 @@ class _FastWide:
         for i in np.flatnonzero(slow).tolist():
             p.feed_line(data[starts[i] : nl[i]], i + first_no, rest)
         return _merge(prefix, rest, p, fast_lines, converted, data, ts, te)
+
+
+def _line_table(
+    arr: np.ndarray, lo: int, p: RowParser
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The lines of `arr` from `lo`: (starts, newline positions, ends without a CR, index in
+    `pos` of each line's first delimiter, `pos` = the newlines and delimiters in order, and a
+    mask of the lines that need the per-line path: a field count other than the header's,
+    empty, starting with '#' or a blank, too long, or holding a byte the fast path leaves
+    alone)."""
+    assert p.header is not None
+    ncols = len(p.header)
+    pos, odd_pos = _scan(arr, lo, ord(p.delimiter))
+    nlk = np.flatnonzero(arr[pos] == 10)
+    nl = pos[nlk]
+    n = len(nl)
+    starts = np.empty(n, dtype=pos.dtype)
+    starts[0] = lo
+    starts[1:] = nl[:-1] + 1
+    base = np.empty(n, dtype=pos.dtype)  # index in pos of each line's first delimiter
+    base[0] = 0
+    base[1:] = nlk[:-1] + 1
+    slow = (nlk - base) != ncols - 1
+    del nlk
+    ends = nl.copy()
+    cr_end = (ends > starts) & (arr[np.maximum(ends - 1, 0)] == 13)
+    ends -= cr_end
+    del cr_end
+    first = arr[np.minimum(starts, len(arr) - 1)]
+    slow |= (ends == starts) | (first == 35) | (first == 32) | (first == 9)
+    slow |= (ends - starts) > MAX_LINE_BYTES
+    if len(odd_pos):
+        slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
+    return starts, nl, ends, base, pos, slow
 
 
 _SCAN_BLOCK = 1 << 22

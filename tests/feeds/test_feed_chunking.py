@@ -8,6 +8,7 @@ reader of the finished file sees, minus an unterminated last line).
 from __future__ import annotations
 
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -45,6 +46,32 @@ def reference(data: bytes) -> tuple[list[float], list[int], list[tuple[int, str]
     return vals, list(b.lines.get("od", [])), [(r.line, r.reason) for r in b.rejected]
 
 
+def empty_log(tmp_path: Path, whole_buffer: bool) -> Path:
+    """A new empty log in its own folder (one per example). whole_buffer: every block goes
+    through the numpy path instead of line by line (`write_in_pieces` puts it back)."""
+    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
+    log = Path(tempfile.mkdtemp(dir=tmp_path)) / "log.csv"
+    log.write_bytes(b"")
+    return log
+
+
+def write_in_pieces(log: Path, data: bytes, cuts: list[int], tailer: Tailer,
+                    drain: Callable[[], None]) -> None:
+    """Append `data` cut at `cuts`, draining the tailer after each piece and at the end; then
+    close it and put the fast-path threshold back."""
+    prev = 0
+    try:
+        for cut in [*cuts, len(data)]:
+            with open(log, "ab") as fh:
+                fh.write(data[prev:cut])
+            prev = cut
+            drain()
+        drain()
+    finally:
+        tailer.close()
+        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
+
+
 @settings(max_examples=120, deadline=None,
           suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 @given(streams(), st.booleans())
@@ -52,11 +79,7 @@ def test_any_write_chunking_yields_every_row_once_in_order(
     tmp_path: Path, case, whole_buffer: bool
 ) -> None:
     data, cuts, budget = case
-    # whole_buffer: every block goes through the numpy path instead of line by line
-    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
-    folder = Path(tempfile.mkdtemp(dir=tmp_path))
-    log = folder / "log.csv"
-    log.write_bytes(b"")
+    log = empty_log(tmp_path, whole_buffer)
     feed = FeedConfig(paths=[str(log)], encoding="latin-1")
     tailer = Tailer([feed])
     vals: list[float] = []
@@ -75,17 +98,7 @@ def test_any_write_chunking_yields_every_row_once_in_order(
             if not any(c.more for c in chunks):
                 return
 
-    prev = 0
-    try:
-        for cut in [*cuts, len(data)]:
-            with open(log, "ab") as fh:
-                fh.write(data[prev:cut])
-            prev = cut
-            drain()
-        drain()
-    finally:
-        tailer.close()
-        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
+    write_in_pieces(log, data, cuts, tailer, drain)
     assert (vals, lines, rejected) == reference(data)
 
 
@@ -116,10 +129,7 @@ def test_any_write_chunking_of_a_long_layout_log_yields_every_row_once_in_order(
     tmp_path: Path, case, whole_buffer: bool
 ) -> None:
     data, cuts, budget = case
-    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
-    folder = Path(tempfile.mkdtemp(dir=tmp_path))
-    log = folder / "log.csv"
-    log.write_bytes(b"")
+    log = empty_log(tmp_path, whole_buffer)
     tailer = Tailer([FeedConfig(paths=[str(log)], **LONG_FEED)])
     got: dict[str, list[tuple[int, float]]] = {}
     rejected: list[tuple[int, str]] = []
@@ -138,17 +148,7 @@ def test_any_write_chunking_of_a_long_layout_log_yields_every_row_once_in_order(
             if not any(c.more for c in chunks):
                 return
 
-    prev = 0
-    try:
-        for cut in [*cuts, len(data)]:
-            with open(log, "ab") as fh:
-                fh.write(data[prev:cut])
-            prev = cut
-            drain()
-        drain()
-    finally:
-        tailer.close()
-        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
+    write_in_pieces(log, data, cuts, tailer, drain)
     complete = data[: data.rfind(b"\n") + 1]
     ref = RowParser(FeedConfig(paths=[], **LONG_FEED), "log", None).parse(
         complete.split(b"\n")[:-1], 1)
