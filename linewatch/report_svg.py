@@ -8,6 +8,7 @@ from collections.abc import Callable
 from html import escape
 
 from linewatch.report import ChartTrace, num
+from linewatch.scales import padded_span
 
 WIDTH, HEIGHT = 680, 180
 LEFT, RIGHT, TOP, BOTTOM = 8, 86, 10, 22
@@ -72,11 +73,7 @@ def control_chart_svg(
     specs = [v for v in (lsl, usl) if v is not None] if trace.chart == "individuals" else []
     lims = [v for v in (*trace.center, *trace.ucl, *trace.lcl) if v is not None]
     everything = [*trace.values, *lims, *specs]
-    lo, hi = min(everything), max(everything)
-    if hi == lo:
-        hi, lo = hi + 1, lo - 1
-    pad = (hi - lo) * 0.06
-    lo, hi = lo - pad, hi + pad
+    lo, hi = padded_span(everything, 0.06)
     plot_w, plot_h = WIDTH - LEFT - RIGHT, HEIGHT - TOP - BOTTOM
     count = len(trace.values)
 

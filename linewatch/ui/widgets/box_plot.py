@@ -5,6 +5,7 @@ from __future__ import annotations
 from rich.text import Text
 
 from linewatch.engine.summary import Description, describe
+from linewatch.scales import cell_of, padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value
 from linewatch.ui.glyphs import Glyphs
@@ -24,14 +25,10 @@ def draw_box_plot(
     width = max(20, width)
     ends = [fig.whisker_low, fig.whisker_high, *outliers]
     ends += [v for v in (lsl, usl) if v is not None]
-    lo, hi = min(ends), max(ends)
-    if hi == lo:
-        lo, hi = lo - 1.0, hi + 1.0
-    pad = (hi - lo) * 0.03
-    lo, hi = lo - pad, hi + pad
+    lo, hi = padded_span(ends, 0.03)
 
     def col(v: float) -> int:
-        return min(width - 1, max(0, round((v - lo) / (hi - lo) * (width - 1))))
+        return cell_of(v, lo, hi, width)
 
     cells = [(" ", "")] * width
     for c in range(col(fig.whisker_low), col(fig.whisker_high) + 1):

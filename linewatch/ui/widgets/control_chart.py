@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 from rich.text import Text
 
+from linewatch.scales import padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_digit
 from linewatch.ui.glyphs import Glyphs
@@ -156,11 +157,7 @@ def draw_control_chart(
             span_values.append(spec)
         else:
             off_chart.append(f"{name} {fmt_value(spec)}")
-    lo, hi = min(span_values), max(span_values)
-    if hi == lo:
-        lo, hi = lo - 1.0, hi + 1.0
-    pad = (hi - lo) * 0.04
-    lo, hi = lo - pad, hi + pad
+    lo, hi = padded_span(span_values, 0.04)
 
     def row_of(v: float) -> int:
         return round((hi - v) / (hi - lo) * (height - 1))

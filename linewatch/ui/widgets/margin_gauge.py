@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
+from linewatch.scales import cell_of, padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_fixed
 from linewatch.ui.glyphs import Glyphs
@@ -30,12 +31,10 @@ def gauge_bar(
         return Text(word.center(width), palette.LABEL)
     lo_band, hi_band = mean - 3 * sigma, mean + 3 * sigma
     ends = [v for v in (lsl, usl, lo_band, hi_band) if v is not None]
-    lo, hi = min(ends), max(ends)
-    pad = (hi - lo) * 0.04 or 1.0
-    lo, hi = lo - pad, hi + pad
+    lo, hi = padded_span(ends, 0.04)
 
     def col(v: float) -> int:
-        return min(width - 1, max(0, round((v - lo) / (hi - lo) * (width - 1))))
+        return cell_of(v, lo, hi, width)
 
     cells = [(" ", "")] * width
     left = col(lsl) if lsl is not None else 0
