@@ -2,7 +2,8 @@
 
 Layout of a config file (all tables optional; see config/*.toml for commented examples):
 
-    [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline, rules
+    [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline,
+                       shared_group
     [alarms]           priorities, hook, hook_timeout, reasons
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column

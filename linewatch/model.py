@@ -13,19 +13,7 @@ CHART_MOVING_RANGE = "moving-range"
 CHART_XBAR = "xbar"
 CHART_RANGE = "range"
 CHART_STDEV = "stdev"
-LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)
 DISPERSION_CHARTS = (CHART_MOVING_RANGE, CHART_RANGE, CHART_STDEV)
-
-
-@dataclass(frozen=True, slots=True)
-class Reading:
-    """One measured value of one characteristic, with where it came from."""
-
-    characteristic: str
-    value: float
-    file: str
-    line: int
-    time: str | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -49,20 +37,6 @@ class Limits:
     sigma: float
     phase: int = 0
     start_index: int = 0
-
-
-@dataclass(frozen=True, slots=True)
-class Signal:
-    """A run rule fired at one plotted point of one chart."""
-
-    characteristic: str
-    chart: str
-    rule: str
-    index: int
-    line: int
-    value: float
-    file: str | None = None
-    time: str | None = None
 
 
 @dataclass(frozen=True, slots=True)

@@ -27,6 +27,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from linewatch.engine.distributions import normal_cdf
 from linewatch.engine.rulebook import (
     ALTERNATE,
     BEYOND,
@@ -212,9 +213,9 @@ def _too_large(spec: RuleSpec) -> bool:
 def zone_probabilities() -> np.ndarray:
     """Probability of each zone symbol for one standard normal point (sums to 1).
 
-    Φ comes from math.erfc (no scipy import on this path); the tests compare with scipy.stats.
+    Φ is the project's own normal CDF (no scipy on this path); the tests compare with scipy.
     """
-    upper = [0.5 * math.erfc(c / math.sqrt(2.0)) for c in (0.0, 1.0, 2.0, 3.0)]  # P(Z > c)
+    upper = [normal_cdf(-c) for c in (0.0, 1.0, 2.0, 3.0)]  # P(Z > c)
     one_side = np.array([upper[0] - upper[1], upper[1] - upper[2], upper[2] - upper[3], upper[3]])
     return np.concatenate([one_side, one_side])
 

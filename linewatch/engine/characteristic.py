@@ -24,16 +24,12 @@ from linewatch.engine.limits import (
 )
 from linewatch.engine.rulebook import BEYOND, RuleSpec
 from linewatch.engine.rules import classify, evaluate_classified
-from linewatch.engine.stream import ChartLimitsState, ChartRules
+from linewatch.engine.stream import ChartLimitsState, ChartRules, lookback
 from linewatch.errors import NotEnoughData
 
 VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
 STATE_HISTORY = 500  # of those, how many are saved with the engine state
-
-
-def _lookback(specs: Iterable[RuleSpec]) -> int:
-    return max((s.lookback for s in specs), default=1)
 
 
 def _fire_chunk(
@@ -267,8 +263,8 @@ class CharacteristicEngine:
         self.loc_rules: ChartRules | None = None
         self.disp_rules: ChartRules | None = None
         # values pushed into the current rule states, enough to rebuild them after a restart
-        self.loc_fed: deque[float] = deque(maxlen=_lookback(setup.rules))
-        self.disp_fed: deque[float] = deque(maxlen=_lookback(setup.dispersion_rules))
+        self.loc_fed: deque[float] = deque(maxlen=lookback(setup.rules))
+        self.disp_fed: deque[float] = deque(maxlen=lookback(setup.dispersion_rules))
         if setup.sigma is not None and setup.center is not None:
             self._apply_limits(
                 given_limits(setup.center, setup.sigma, setup.subgroup_size, setup.dispersion)

@@ -21,6 +21,7 @@ import numpy as np
 from linewatch.engine import constants as k
 from linewatch.engine.charts import chart_names
 from linewatch.errors import NotEnoughData
+from linewatch.model import DISPERSION_CHARTS
 
 MIN_BASELINE = 2
 
@@ -38,7 +39,7 @@ class ChartLimits:
     @property
     def asymmetric(self) -> bool:
         """Dispersion charts are judged against UCL/LCL, not symmetric zones."""
-        return self.chart in ("moving-range", "range", "stdev")
+        return self.chart in DISPERSION_CHARTS
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,11 +74,6 @@ def given_limits(
     s_loc = sigma / sqrt(n)
     loc = ChartLimits(loc_name, center, center + 3 * s_loc, center - 3 * s_loc, s_loc)
     return LimitSet(loc, _dispersion_from_sigma(disp_name, n, sigma), sigma, "given")
-
-
-def needed_points(subgroup_size: int) -> int:
-    """Plotted points needed before limits can be estimated."""
-    return MIN_BASELINE
 
 
 def estimate_limits(

@@ -143,8 +143,3 @@ def resolve_rules(ids: list[str], lengths: dict[str, int] | None = None) -> list
             spec = replace(spec, length=new)
         specs.append(spec)
     return specs
-
-
-def location_and_dispersion(specs: list[RuleSpec]) -> tuple[list[RuleSpec], list[RuleSpec]]:
-    """Rules for the location chart (all) and for dispersion charts (beyond-limits only)."""
-    return specs, [s for s in specs if s.kind == BEYOND]

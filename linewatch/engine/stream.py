@@ -136,6 +136,11 @@ class ChartLimitsState:
     lcl: float | None = None
 
 
+def lookback(specs: Iterable[RuleSpec]) -> int:
+    """How many recent points rebuild the state of these rules exactly."""
+    return max((s.lookback for s in specs), default=1)
+
+
 class ChartRules:
     """All selected rules of one chart, fed point by point."""
 
@@ -147,7 +152,7 @@ class ChartRules:
     @property
     def lookback(self) -> int:
         """How many recent points rebuild the state exactly."""
-        return max((s.lookback for s in self.specs), default=1)
+        return lookback(self.specs)
 
     def push(self, x: float) -> list[str]:
         """Rule ids that fire at this new point."""

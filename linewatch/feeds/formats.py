@@ -49,7 +49,7 @@ import numpy as np
 
 from linewatch.config import FeedConfig
 from linewatch.errors import LinewatchError
-from linewatch.model import Reading, Rejected
+from linewatch.model import Rejected
 
 MAX_LINE_BYTES = 1 << 20
 FAST_BLOCK_BYTES = 32 << 10  # blocks at least this large take the whole-buffer path
@@ -159,13 +159,6 @@ class Batch:
     def points(self) -> int:
         """Values over all characteristics."""
         return sum(len(v) for v in self.values.values())
-
-    def readings(self) -> Iterator[Reading]:
-        """Every value as a `Reading`, characteristic by characteristic (for small batches)."""
-        for name, vals in self.values.items():
-            lines, times = self.lines[name], self.times[name]
-            for i, v in enumerate(np.asarray(vals, dtype=np.float64).tolist()):
-                yield Reading(name, v, self.file, int(lines[i]), times[i])
 
 
 # --------------------------------------------------------------------------- per-line path
