@@ -6,6 +6,7 @@ import math
 import time
 
 from linewatch import view
+from linewatch.engine import rulebook
 
 STATE_WORDS = {
     view.STATE_ALARM: "ALARM",
@@ -97,11 +98,31 @@ def fmt_day_clock(epoch: float) -> str:
     return time.strftime("%Y-%m-%d %H:%M:%S %z", time.localtime(epoch))
 
 
-def rule_digit(rules: str) -> str:
-    """The number that marks a signalling point: 'we2' -> '2', 'n5,n6' -> '5', '' -> ''."""
-    first = rules.split(",")[0].strip()
-    digits = "".join(ch for ch in first if ch.isdigit())
-    return digits[-1:] if digits else ("?" if first else "")
+# One letter per kind of pattern, most urgent first: it marks a signalling point on the
+# sparklines and charts (the same letter whatever the rule set, so n5 and we2 read alike).
+PATTERN_MARKS: dict[str, tuple[str, str]] = {
+    rulebook.BEYOND: ("B", "beyond a control limit"),
+    rulebook.K_OF_M: ("Z", "several points far out in one zone"),
+    rulebook.SIDE_RUN: ("S", "a run on one side of the centre line"),
+    rulebook.TREND: ("T", "a run steadily up or down"),
+    rulebook.MIXTURE: ("M", "a run avoiding the centre, both sides"),
+    rulebook.WITHIN: ("H", "a run hugging the centre line"),
+    rulebook.ALTERNATE: ("A", "a run alternating up and down"),
+}
+_URGENCY = list(PATTERN_MARKS)
+
+
+def rule_mark(rules: str) -> str:
+    """The letter that marks a signalling point with the most urgent kind of pattern among its
+    rules ('we2' -> 'Z', 'n2,n1' -> 'B'); '?' for a rule id not in the rulebook, '' for none."""
+    kinds = [rulebook.RULES[r].kind if r in rulebook.RULES else None
+             for r in (part.strip() for part in rules.split(",")) if r]
+    if not kinds:
+        return ""
+    known = [k for k in kinds if k in PATTERN_MARKS]
+    if not known:
+        return "?"
+    return PATTERN_MARKS[min(known, key=_URGENCY.index)][0]
 
 
 def fmt_span(seconds: float) -> str:

@@ -6,7 +6,7 @@ from __future__ import annotations
 from rich.console import Console
 
 from linewatch import view
-from linewatch.ui.formatting import fmt_age, rule_digit
+from linewatch.ui.formatting import fmt_age, rule_mark
 from linewatch.ui.glyphs import ASCII, UNICODE
 from linewatch.ui.widgets.box_plot import draw_box_plot
 from linewatch.ui.widgets.control_chart import LABEL_WIDTH, draw_control_chart
@@ -32,14 +32,14 @@ def row_with(lines: list[str], label: str) -> int:
     return next(i for i, line in enumerate(lines) if label in line)
 
 
-def test_points_sit_on_the_right_side_of_the_limits_and_carry_their_rule_number() -> None:
+def test_points_sit_on_the_right_side_of_the_limits_and_carry_their_pattern_mark() -> None:
     values = [0.0] * 9 + [4.0] + [-1.5]
     rules = [""] * 9 + ["we1", ""]
     lines = lines_of(draw_control_chart(chart(values, rules), 40 + LABEL_WIDTH, 15, UNICODE))
     ucl, cl, lcl = row_with(lines, "UCL 3"), row_with(lines, "CL 0"), row_with(lines, "LCL -3")
     assert ucl < cl < lcl
-    signal_row = next(i for i, line in enumerate(lines) if line[:40].count("1") == 1)
-    assert signal_row < ucl  # 4.0 is above the UCL, marked with its rule's number
+    signal_row = next(i for i, line in enumerate(lines) if line[:40].count("B") == 1)
+    assert signal_row < ucl  # 4.0 is above the UCL, marked as beyond a limit
     low_row = next(i for i, line in enumerate(lines) if "•" in line[:40] and i > cl
                    and i != cl)
     assert cl < low_row < lcl  # −1.5 lies between the centre line and the LCL
@@ -102,7 +102,7 @@ def test_spark_cell_marks_sit_under_their_points_and_the_newest_is_rightmost() -
     cell = SparkCell(values, rules, 8, ASCII)
     marks = cell.markers().plain
     assert len(marks) == 8
-    assert marks.index("5") == 8 - 5 + 3  # right-aligned: three pads, then the 4th point
+    assert marks.index("Z") == 8 - 5 + 3  # right-aligned: three pads, then the 4th point
     bars = lines_of(cell)[0]
     assert len(bars) == 8
     assert bars[:3] == "   " and bars[6] == ASCII.spark_bars[-1]  # 9.0 is the tallest bar
@@ -112,7 +112,7 @@ def test_spark_cell_marks_sit_under_their_points_and_the_newest_is_rightmost() -
 def test_spark_cell_keeps_only_the_newest_points_that_fit() -> None:
     cell = SparkCell([float(i) for i in range(50)], [""] * 49 + ["we2"], 10, UNICODE)
     assert cell.values == [float(i) for i in range(40, 50)]
-    assert cell.markers().plain == " " * 9 + "2"
+    assert cell.markers().plain == " " * 9 + "Z"
 
 
 def test_box_plot_marks_outliers_and_spec_brackets() -> None:
@@ -128,7 +128,11 @@ def test_box_plot_marks_outliers_and_spec_brackets() -> None:
 def test_small_text_helpers() -> None:
     assert [fmt_age(s) for s in (None, 4.9, 37, 61, 7300, 90000)] == [
         "-", "<10s", "30s", "1m", "2h", "1d"]
-    assert [rule_digit(r) for r in ("", "we2", "n5,n6", "spec")] == ["", "2", "5", "?"]
+    # the kinds of pattern as the rules are published (Western Electric 1956, Nelson 1984):
+    # we2 and n5 are "2 of 3 beyond 2σ" (zone), n2 is "9 in a row on one side", n1 beyond 3σ;
+    # a point with several rules shows the most urgent kind
+    assert [rule_mark(r) for r in ("", "we2", "n5,n6", "n2", "n2,n1", "n3", "n4", "n7", "n8",
+                                   "spec")] == ["", "Z", "Z", "S", "B", "T", "A", "H", "M", "?"]
 
 
 def line_rows(lines: list[str], cols: range, glyph: str) -> set[int]:

@@ -16,7 +16,7 @@ from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
 from linewatch.ui import palette
-from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_digit
+from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_mark
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.widgets.box_plot import draw_box_plot
 from linewatch.ui.widgets.chart_pane import ChartPane
@@ -219,7 +219,7 @@ class CloseUpScreen(LineScreen):
             parts = []
             for rule in fired:
                 spec = RULES.get(rule)
-                parts.append(f"{rule_digit(rule)}={rule} {spec.describe() if spec else ''}".strip())
+                parts.append(f"{rule_mark(rule)}={rule} {spec.describe() if spec else ''}".strip())
             text.append("; ".join(parts))
         return text
 

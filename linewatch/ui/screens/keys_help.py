@@ -13,6 +13,7 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
+from linewatch.ui.formatting import PATTERN_MARKS
 from linewatch.ui.palette import CPK_THRESHOLDS
 
 
@@ -85,8 +86,10 @@ class KeysHelp(ModalScreen[None]):
         marks.append("\nstates: ", "bold")
         marks.append(", ".join(f"{glyph} {state}" for state, glyph in g.state.items()))
         marks.append(
-            "\nsparklines and charts: a digit marks a signalling point with its rule's number "
-            f"(1 = n1/we1 ...); {g.phase} separates phases of limits, and each phase's points "
+            "\nsparklines and charts: a letter marks a signalling point with the kind of "
+            "pattern found there, the most urgent first: "
+            + "; ".join(f"{mark} {words}" for mark, words in PATTERN_MARKS.values())
+            + f". {g.phase} separates phases of limits, and each phase's points "
             "are drawn against that phase's own CL, UCL, LCL and zones; [ ] are LSL and USL."
             "\nspec margin: [ ] the spec limits, = the recent mean ± 3σ, "
             f"{g.mean} the mean; then the margin to the nearer limit in σ, Cpk and, after >, "

@@ -10,7 +10,7 @@ from rich.text import Text
 
 from linewatch.scales import padded_span
 from linewatch.ui import palette
-from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_digit
+from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_mark
 from linewatch.ui.glyphs import Glyphs
 from linewatch.view import ChartView
 
@@ -206,7 +206,7 @@ def draw_control_chart(
 
     rules = chart.rules[win.start : win.start + win.count] if chart.rules else []
     for j, v in enumerate(values):
-        mark = rule_digit(rules[j]) if j < len(rules) else ""
+        mark = rule_mark(rules[j]) if j < len(rules) else ""
         if mark:
             canvas.put(row_of(v), col_of(j), mark, palette.SIGNAL)
         else:

@@ -13,7 +13,7 @@ from rich.text import Text
 from textual.renderables.sparkline import Sparkline
 
 from linewatch.ui import palette
-from linewatch.ui.formatting import rule_digit
+from linewatch.ui.formatting import rule_mark
 from linewatch.ui.glyphs import Glyphs
 
 
@@ -60,7 +60,7 @@ class SparkCell:
         """The marker row on its own (also what the tests read)."""
         text = Text(" " * (self.width - len(self.values)), end="")
         for rules in self.rules:
-            mark = rule_digit(rules)
+            mark = rule_mark(rules)
             text.append(mark or " ", palette.SIGNAL if mark else "")
         return text
 
