@@ -487,9 +487,9 @@ class Monitor:
             self.store.set_meta(BASELINE_REQUEST + characteristic, request)
 
     def _serve_baseline_requests(self, now: float) -> None:
-        rows = self.store.query("SELECT key, value FROM meta WHERE key LIKE ? AND value != ''",
-                                (BASELINE_REQUEST + "%",))
-        for key, raw in rows:
+        for key, raw in self.store.meta_starting(BASELINE_REQUEST):
+            if not raw:
+                continue
             name = key[len(BASELINE_REQUEST):]
             self.store.set_meta(key, "")
             req = json.loads(raw)

@@ -157,10 +157,12 @@ def _pending_phase(store: Store, name: str, limits_hist: list[LimitsRecord]) -> 
     """Where a new phase asked for starts, while its limits are not in yet (else None)."""
     import json
 
-    from linewatch.monitor import BASELINE_REQUEST
+    from linewatch.monitor import BASELINE_REQUEST, PHASE_REQUEST
 
-    rows = store.query("SELECT key, value FROM meta WHERE key = ? OR key LIKE ?",
-                       (BASELINE_REQUEST + name, f"phase-request:{name}:%"))
+    rows = store.meta_starting(PHASE_REQUEST.format(name=name, phase=""))
+    asked = store.get_meta(BASELINE_REQUEST + name)
+    if asked is not None:
+        rows.insert(0, (BASELINE_REQUEST + name, asked))
     newest_phase = max((r.limits.phase for r in limits_hist), default=0)
     for key, value in rows:
         if not value:

@@ -155,6 +155,13 @@ class Store:
         row = self.query("SELECT value FROM meta WHERE key = ?", (key,))
         return row[0][0] if row else None
 
+    def meta_starting(self, prefix: str) -> list[tuple[str, str]]:
+        """(key, value) of the `meta` keys that begin with `prefix`, exactly (LIKE would read
+        a '_' or '%' in a characteristic's name as a wildcard, and ignore case)."""
+        rows = self.query("SELECT key, value FROM meta WHERE substr(key, 1, ?) = ? ORDER BY key",
+                          (len(prefix), prefix))
+        return [(r[0], r[1]) for r in rows]
+
     def set_meta(self, key: str, value: str) -> None:
         """Set a value of the key-value `meta` table."""
         with self.transaction() as conn:
