@@ -267,12 +267,10 @@ class Monitor:
 
     def step(self) -> bool:
         """Read and process whatever is new; True when anything was read."""
-        if self.tailer is None:
-            return False
+        if self.tailer is None or self.role != "collector":
+            return False  # (a viewer has no tailer; reading rows it would not keep loses them)
         chunks = self.tailer.poll()
         if not chunks:
-            return False
-        if self.role != "collector":
             return False
         self._process_chunks(chunks)
         self.rows_read += sum(c.batch.rows for c in chunks if c.batch is not None)

@@ -7,7 +7,6 @@ changes nothing and exits 2 with a one-line message.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from typing import TYPE_CHECKING
 
@@ -45,13 +44,14 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     import time
 
     from linewatch.alarms import iso_time, urgency
+    from linewatch.records import dumps
 
     now = time.time()
     records = sorted(book.alarms(include_closed=args.all), key=urgency)
     out = sys.stdout
     if args.format == "jsonl":
         for alarm in records:
-            out.write(json.dumps(book.list_record(alarm, now), ensure_ascii=False) + "\n")
+            out.write(dumps(book.list_record(alarm, now)) + "\n")
         return 0
     if not records:
         out.write("no alarms\n" if args.all else "no open alarms\n")

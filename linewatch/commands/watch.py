@@ -93,6 +93,7 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
     store holds for it (up to the newest 100,000), whichever instance read them, so they agree
     after a restart or a takeover; `read` is how many this instance read, `rejected` how many
     rows it rejected."""
+    from linewatch.engine.charts import chart_names
     from linewatch.engine.summary import summarize
     from linewatch.statedir import open_store
 
@@ -103,8 +104,7 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
             recs = store.history.last_points(name, 100_000)
             values = [r.value for r in recs]
             limits = store.history.current_limits(name)
-            loc = next((lim for lim in limits.values()
-                        if lim.chart in ("individuals", "xbar")), None)
+            loc = limits.get(chart_names(c.subgroup_size, c.effective_dispersion)[0])
             sigma = loc.sigma * (c.subgroup_size ** 0.5) if loc else None
             s = summarize(values, sigma_within=sigma, lsl=c.lsl, usl=c.usl).to_dict()
             rec = {"type": "summary", "characteristic": name, "points": len(values),
