@@ -221,6 +221,7 @@ class FakeSource:
     picture: view.LineSnapshot = field(default_factory=build_snapshot)
     callbacks: list[Callable[[int], None]] = field(default_factory=list)
     snapshot_calls: int = 0
+    detail_calls: int = 0
     lock: threading.Lock = field(default_factory=threading.Lock)
 
     def snapshot(self) -> view.LineSnapshot:
@@ -230,6 +231,7 @@ class FakeSource:
 
     def detail(self, characteristic: str) -> view.CharacteristicView | None:
         with self.lock:
+            self.detail_calls += 1
             for cv in self.picture.characteristics:
                 if cv.name == characteristic:
                     return cv

@@ -167,3 +167,24 @@ async def test_the_clock_and_a_new_picture_during_shutdown_draw_nothing_and_rais
     async with app.run_test(size=(80, 24)):
         assert isinstance(app.screen.query_one("#board-table"), BoardTable)
     assert fired == ["ticked"]
+
+
+async def test_the_close_up_reads_its_detail_again_only_when_its_characteristic_moved(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    """A new picture arrives whenever any characteristic gets a point; the close-up's detail
+    (a store read of its points and phases) is read again only when its own row changed."""
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("enter")  # the close-up of the first row, outer-diameter
+        await pilot.pause()
+        before = source.detail_calls
+        other = build_snapshot()
+        other.version = 2
+        other.characteristics[2] = copy.copy(other.characteristics[2])
+        other.characteristics[2].points += 1  # ovality moved, outer-diameter did not
+        source.publish(other)
+        await until(lambda: app.line.version == 2)
+        await pilot.pause()
+        assert source.detail_calls == before
+        source.publish(changed(3, value=25.5))  # outer-diameter itself moved
+        await until(lambda: source.detail_calls == before + 1)

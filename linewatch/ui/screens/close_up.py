@@ -83,6 +83,7 @@ class CloseUpScreen(LineScreen):
         self.focus_index = focus_index
         self.cursor: int | None = None  # position in location.values
         self.detail: view.CharacteristicView | None = None
+        self._detail_key: tuple[object, ...] | None = None  # the line's key when it was read
         # a new phase asked for here, and how many phases there were then (until one more comes)
         self.requested: tuple[int, int] | None = None
 
@@ -112,9 +113,27 @@ class CloseUpScreen(LineScreen):
         self.refresh_bindings()
         self.call_after_refresh(self._draw_figures)
 
+    def _line_key(self) -> tuple[object, ...] | None:
+        """What the line's picture says about this characteristic: while it stays the same, a
+        new picture (another characteristic moved) needs no new read of its detail."""
+        cv = next((c for c in self.lw.line.characteristics if c.name == self.characteristic),
+                  None)
+        if cv is None:
+            return None
+        loc = cv.location
+        limits = (len(loc.phase_limits), loc.center, loc.ucl, loc.lcl) if loc else ()
+        return (cv.points, cv.state, cv.open_alarms, cv.last_value, cv.pending_phase_start,
+                cv.stale, cv.stuck, cv.cpk, limits)
+
     def show_line(self) -> None:
+        key = self._line_key()
+        if self.detail is not None and key is not None and key == self._detail_key:
+            self._draw_top_bar(self.detail)  # the line's alarm counts may have moved
+            super().show_line()
+            return
         try:
             self.detail = self.lw.source.detail(self.characteristic)
+            self._detail_key = key
         except Exception as exc:  # keep the last picture; the next change tries again
             self.notify(f"cannot read {self.characteristic}: {exc}", severity="error")
         cv = self.detail
@@ -134,14 +153,17 @@ class CloseUpScreen(LineScreen):
         if cv is None:
             bar.show(self.lw.line, f"close-up {self.characteristic}", "gone from the line")
             return
-        unit = f" [{cv.unit}]" if cv.unit else ""
-        bar.show(self.lw.line, f"close-up {cv.name}{unit}",
-                 f"{STATE_WORDS.get(cv.state, cv.state)}, {cv.points} points")
+        self._draw_top_bar(cv)
         self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
                                                             self.cursor)
         self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
         self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
         self._draw_figures()
+
+    def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
+        unit = f" [{cv.unit}]" if cv.unit else ""
+        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}",
+                                    f"{STATE_WORDS.get(cv.state, cv.state)}, {cv.points} points")
 
     def _draw_figures(self) -> None:
         cv = self.detail
