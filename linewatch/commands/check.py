@@ -16,7 +16,7 @@ from linewatch.config import CharacteristicConfig, FeedConfig
 from linewatch.engine.characteristic import HistoryResult, analyse_history
 from linewatch.errors import LinewatchError, NotEnoughData
 from linewatch.model import Rejected
-from linewatch.records import dumps, limits_record, rejected_record, signal_record
+from linewatch.records import dumps, limits_record, rejected_record
 from linewatch.selection import (
     chart_setup,
     feed_for_log,
@@ -114,19 +114,26 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
     return out, rejected
 
 
-def _signal_lines(a: Analysis) -> list[str]:
+def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
     """Signal records as JSON text, formatted directly from the firing table: the same text
-    `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each."""
+    `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each.
+    With several logs each record also names the `file` its row came from."""
     name = json.dumps(a.config.name, ensure_ascii=False)
     t = a.result.table
+    col = a.column
     heads = [[f'{{"type":"signal","characteristic":{name},"chart":"{c}","rule":"{r}","index":'
               for r in t.rules] for c in t.charts]
-    lines = a.column.lines[t.row].tolist()
+    lines = col.lines[t.row].tolist()
+    if with_file:
+        files = [json.dumps(f, ensure_ascii=False) for f in col.files]
+        tails = [f',"file":{files[k]}}}' for k in col.file_index[t.row].tolist()]
+    else:
+        tails = ["}"] * len(lines)
     out = []
-    for i, c, r, line, v in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(), lines,
-                                t.value.tolist(), strict=True):
+    for i, c, r, line, v, tail in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
+                                      lines, t.value.tolist(), tails, strict=True):
         value = repr(v) if math.isfinite(v) else "null"
-        out.append(f'{heads[c][r]}{i},"line":{line},"value":{value}}}')
+        out.append(f'{heads[c][r]}{i},"line":{line},"value":{value}{tail}')
     return out
 
 
@@ -139,15 +146,7 @@ def run(args: argparse.Namespace) -> int:
         for a in analyses:
             for lim in (a.result.limits.location, a.result.limits.dispersion):
                 lines.append(dumps(limits_record(a.config.name, lim)))
-            col = a.column
-            if several_files:
-                for f in a.result.firings:
-                    rec = signal_record(a.config.name, f.chart, f.rule, f.index,
-                                        int(col.lines[f.row]), f.value)
-                    rec["file"] = col.files[int(col.file_index[f.row])]
-                    lines.append(dumps(rec))
-            else:
-                lines.extend(_signal_lines(a))
+            lines.extend(_signal_lines(a, several_files))
             lines.append(dumps(a.summary))
         write("\n".join(lines) + "\n")
     else:

@@ -79,7 +79,8 @@ def test_semicolon_and_decimal_comma_and_stdin(tmp_path):
     text = "time;od\n" + "".join(f"t{i};{10 + (i % 3) * 0.1:.1f}".replace(".", ",") + "\n"
                                  for i in range(20))
     res = lw("check", "-", "--format", "jsonl", stdin=text)
-    assert res.returncode in (0, 1), res.stderr
+    signals = [r for r in records(res.stdout) if r["type"] == "signal"]
+    assert res.returncode == (1 if signals else 0), res.stderr  # exit 1 exactly when signals
     summary = next(r for r in records(res.stdout) if r["type"] == "summary")
     assert summary["points"] == 20
     assert summary["mean"] == pytest.approx(np.mean([10 + (i % 3) * 0.1 for i in range(20)]))
@@ -139,7 +140,22 @@ def test_directly_formatted_signal_lines_equal_the_generic_records(tmp_path):
     assert a.result.firings
     expected = [dumps(signal_record("od", f.chart, f.rule, f.index, int(a.column.lines[f.row]),
                                     f.value)) for f in a.result.firings]
-    assert _signal_lines(a) == expected
+    assert _signal_lines(a, with_file=False) == expected
+
+
+def test_with_two_logs_each_signal_names_the_file_and_line_it_was_written_at(tmp_path):
+    # the rows go on from one log to the next; a far-out value is planted in each (test data)
+    first = [10.0, 10.2, 9.9, 10.1] * 8 + [14.0]
+    second = [10.1, 9.8, 10.0, 10.2] * 5 + [6.0]
+    a = write_log(tmp_path / "a.csv", first)
+    b = write_log(tmp_path / "b.csv", second)
+    res = lw("check", str(a), str(b), "--rules", "we1", "--baseline", "32", "--format", "jsonl")
+    assert res.returncode == 1, res.stderr
+    beyond = [r for r in records(res.stdout)
+              if r["type"] == "signal" and r["chart"] == "individuals"]
+    # line 1 is the header, so the n-th value of a file sits on line n + 1
+    assert [(Path(r["file"]).name, r["line"], r["value"]) for r in beyond] == [
+        ("a.csv", len(first) + 1, 14.0), ("b.csv", len(second) + 1, 6.0)]
 
 
 def test_json_lines_are_recognised_without_a_config(tmp_path):
@@ -148,7 +164,8 @@ def test_json_lines_are_recognised_without_a_config(tmp_path):
     log.write_text("".join(json.dumps({"time": f"t{i}", "bag": f"B{i}", "fill_g": v}) + "\n"
                            for i, v in enumerate(values)))
     res = lw("check", str(log), "--format", "jsonl")
-    assert res.returncode in (0, 1), res.stderr
+    signals = [r for r in records(res.stdout) if r["type"] == "signal"]
+    assert res.returncode == (1 if signals else 0), res.stderr  # exit 1 exactly when signals
     summary = next(r for r in records(res.stdout) if r["type"] == "summary")
     assert summary["characteristic"] == "fill_g" and summary["points"] == 30
     assert summary["mean"] == pytest.approx(np.mean(values))
