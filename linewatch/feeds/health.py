@@ -1,4 +1,4 @@
-"""Feed health: files that stopped delivering rows, gauges stuck on one value, rows per second.
+"""Feed health: files that stopped delivering rows and gauges stuck on one value.
 
 A feed is stale when no row arrived for `stale_after` seconds; rows arriving again resume it.
 A characteristic is stuck when its gauge repeats exactly the same value `stuck_repeats` times in
@@ -10,23 +10,18 @@ characteristic's name, detail says so).
 
 from __future__ import annotations
 
-from collections import deque
 from collections.abc import Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
 from linewatch.model import FeedEvent
 
-RATE_WINDOW = 10.0
-
 
 @dataclass(slots=True)
 class _FileHealth:
-    first_seen: float
     last_row: float
     stale: bool = False
-    arrivals: deque[tuple[float, int]] = field(default_factory=deque)
 
 
 @dataclass(slots=True)
@@ -56,12 +51,10 @@ class FeedHealth:
         """`n` good rows came from `file` (n = 0 just starts watching the file's clock)."""
         f = self._files.get(file)
         if f is None:
-            f = self._files[file] = _FileHealth(first_seen=now, last_row=now)
+            f = self._files[file] = _FileHealth(last_row=now)
         if n <= 0:
             return
         f.last_row = now
-        f.arrivals.append((now, n))
-        self._trim(f, now)
         if f.stale:
             f.stale = False
             self._pending.append(FeedEvent("resumed", file, f"{n} new rows"))
@@ -70,7 +63,7 @@ class FeedHealth:
         """Start a file's clock when the tailer reports it, so a file that never delivers a
         row still goes stale."""
         if event.kind in ("appeared", "waiting") and event.file not in self._files:
-            self._files[event.file] = _FileHealth(first_seen=now, last_row=now)
+            self._files[event.file] = _FileHealth(last_row=now)
 
     def values_arrived(self, characteristic: str, values: Iterable[float]) -> None:
         """The next values of one characteristic, in order."""
@@ -117,27 +110,6 @@ class FeedHealth:
                         "stale", file, f"no new row for {now - f.last_row:.0f} s"
                     ))
         return events
-
-    def forget(self, file: str) -> None:
-        """Stop watching a file (no longer followed)."""
-        self._files.pop(file, None)
-
-    def _trim(self, f: _FileHealth, now: float) -> None:
-        while f.arrivals and f.arrivals[0][0] <= now - RATE_WINDOW:
-            f.arrivals.popleft()
-
-    def rate(self, file: str, now: float) -> float:
-        """Rows per second from `file` over the last RATE_WINDOW seconds."""
-        f = self._files.get(file)
-        if f is None:
-            return 0.0
-        self._trim(f, now)
-        span = min(RATE_WINDOW, max(now - f.first_seen, 1.0))
-        return sum(n for _, n in f.arrivals) / span
-
-    def rates(self, now: float) -> dict[str, float]:
-        """Rows per second of every known file."""
-        return {file: self.rate(file, now) for file in self._files}
 
     @property
     def stale(self) -> list[str]:

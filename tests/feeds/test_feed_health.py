@@ -72,16 +72,6 @@ def test_zero_repeats_turns_the_check_off() -> None:
     assert h.tick(1.0) == [] and h.stuck == []
 
 
-def test_rows_per_second_over_the_recent_window() -> None:
-    h = FeedHealth(stale_after=600, stuck_repeats=0)
-    h.rows_arrived("od.csv", 0, now=100.0)
-    for k in range(1, 21):
-        h.rows_arrived("od.csv", 5, now=100.0 + k)  # 5 rows each second
-    assert h.rate("od.csv", now=120.0) == 5.0
-    assert h.rates(now=140.0) == {"od.csv": 0.0}
-    assert h.rate("unknown.csv", now=140.0) == 0.0
-
-
 def test_a_file_that_never_delivers_goes_stale_from_when_it_appeared() -> None:
     from linewatch.model import FeedEvent
 
