@@ -51,21 +51,11 @@ class HookRunner:
         self._threads: list[threading.Thread] = []
         self._lock = threading.Lock()
 
-    @property
-    def enabled(self) -> bool:
-        """True when a hook command is configured."""
-        return bool(self.argv)
-
-    def fire(
-        self,
-        alarm: dict[str, Any],
-        on_outcome: Callable[[HookOutcome], None] | None = None,
-    ) -> threading.Thread | None:
-        """Start the hook for `alarm` (a JSON-able dict) in the background; returns at once.
-        `on_outcome` overrides the runner's callback for this run."""
+    def fire(self, alarm: dict[str, Any]) -> threading.Thread | None:
+        """Start the hook for `alarm` (a JSON-able dict) in the background; returns at once."""
         if not self.argv:
             return None
-        report = on_outcome or self.on_outcome
+        report = self.on_outcome
         alarm_id = alarm.get("id")
         if not self._slots.acquire(blocking=False):
             message = "hook skipped: too many still running"
@@ -149,31 +139,3 @@ def _kill_group(proc: subprocess.Popen[bytes]) -> None:
     except (ProcessLookupError, PermissionError):
         proc.kill()
     proc.wait()
-
-
-_RUNNERS: dict[tuple[tuple[str, ...], float], HookRunner] = {}
-_RUNNERS_LOCK = threading.Lock()
-
-
-def run_hook(
-    argv: Sequence[str],
-    alarm: dict[str, Any],
-    timeout: float,
-    on_problem: Callable[[str], None] | None = None,
-) -> threading.Thread | None:
-    """Fire the hook `argv` for one alarm in the background (one shared runner per command, so
-    the limit on hooks running at once holds); a failure or hang is passed to `on_problem` as a
-    one-line message, from the hook's thread."""
-    if isinstance(argv, str):
-        raise TypeError("the hook is an argument list, not a shell string")
-    key = (tuple(argv), float(timeout))
-    with _RUNNERS_LOCK:
-        runner = _RUNNERS.get(key)
-        if runner is None:
-            runner = _RUNNERS[key] = HookRunner(argv, timeout)
-
-    def report(outcome: HookOutcome) -> None:
-        if not outcome.ok and on_problem is not None:
-            on_problem(outcome.message)
-
-    return runner.fire(alarm, report)

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.hooks import HookOutcome, HookRunner, run_hook
+from linewatch.hooks import HookOutcome, HookRunner
 
 ALARM = {"id": 7, "kind": "beyond-limits", "characteristic": "od", "rule": "we1"}
 
@@ -123,25 +123,22 @@ def test_hook_gets_the_alarm_record_from_the_book(tmp_path: Path) -> None:
     assert got["description"].startswith("a point outside the control limits")
 
 
-def test_run_hook_reports_problems_as_messages() -> None:
-    problems: list[str] = []
-    done = threading.Event()
-
-    def on_problem(message: str) -> None:
-        problems.append(message)
-        done.set()
+def test_a_failing_hook_is_reported_and_a_succeeding_one_as_ok() -> None:
+    outcomes: list[HookOutcome] = []
 
     code = "import sys; sys.stdin.read(); sys.exit(2)"
-    thread = run_hook([sys.executable, "-c", code], ALARM, 10, on_problem)
+    thread = HookRunner([sys.executable, "-c", code], 10, outcomes.append).fire(ALARM)
     assert thread is not None
-    assert done.wait(10)
-    assert problems == [f"hook {sys.executable} exited with 2"]
-    ok = run_hook([sys.executable, "-c", "import sys; sys.stdin.read()"], ALARM, 10, on_problem)
+    thread.join(10)
+    assert [(o.ok, o.message) for o in outcomes] == [
+        (False, f"hook {sys.executable} exited with 2")]
+    ok = HookRunner([sys.executable, "-c", "import sys; sys.stdin.read()"], 10,
+                    outcomes.append).fire(ALARM)
     assert ok is not None
     ok.join(10)
-    assert len(problems) == 1  # success is not a problem
+    assert len(outcomes) == 2 and outcomes[1].ok
 
 
 def test_no_hook_configured_does_nothing() -> None:
     runner = HookRunner([])
-    assert not runner.enabled and runner.fire(ALARM) is None
+    assert runner.fire(ALARM) is None
