@@ -346,15 +346,13 @@ def build_report(
             )
         )
 
+    period = [e for e in store.audit.entries(since) if e.at < until]  # read once
     baselines = {
-        (e.subject, round(e.at, 6)): e.actor
-        for e in store.audit.entries(since)
-        if e.action == "new-baseline" and e.at < until
+        (e.subject, round(e.at, 6)): e.actor for e in period if e.action == "new-baseline"
     }
     actors = {
         (e.subject, round(e.at, 6)): e.actor
-        for e in store.audit.entries(since)
-        if e.action in ("limits-set", "new-baseline") and e.at < until
+        for e in period if e.action in ("limits-set", "new-baseline")
     }
     limits: list[LimitsChange] = []
     for r in store.history.limits_history(since=since, until=until):
@@ -372,9 +370,8 @@ def build_report(
         for r in store.history.feed_events(since, until)
     ]
     verdict = store.audit.verify()
-    in_period = sum(1 for e in store.audit.entries(since) if e.at < until)
     return ShiftReport(
         since=since, until=until, made_at=now, state_dir=str(store.directory.resolve()),
         characteristics=parts, alarms=alarms, limits=limits, feed_events=feed,
-        audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=in_period,
+        audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=len(period),
     )
