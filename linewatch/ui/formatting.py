@@ -125,6 +125,11 @@ def rule_mark(rules: str) -> str:
     return PATTERN_MARKS[min(known, key=_URGENCY.index)][0]
 
 
+def base_name(path: str) -> str:
+    """The file's own name, without its folder (either kind of slash)."""
+    return path.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1] or path
+
+
 def fmt_span(seconds: float) -> str:
     """A rough length of time for projections: 45s, 3m, 2h10m, 3d; coarse on purpose."""
     s = max(0, round(seconds))
@@ -143,7 +148,7 @@ def alarm_subject(alarm: view.AlarmView) -> str:
     (the full path stays in the alarm's detail line)."""
     subject = alarm.characteristic
     if alarm.kind == "feed-health" and ("/" in subject or "\\" in subject):
-        return subject.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1] or subject
+        return base_name(subject)
     return subject
 
 

@@ -18,6 +18,7 @@ from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
     STATE_WORDS,
     alarm_subject,
+    base_name,
     fmt_age,
     fmt_value,
     needs_attention,
@@ -253,7 +254,7 @@ class BoardScreen(LineScreen):
         for f in line.feeds:
             mark = g.state[view.STATE_STALE] if f.stale else g.state[view.STATE_OK]
             feeds.append(f"{mark} {f.status:<9} ", "reverse" if f.stale else "")
-            feeds.append(f"{f.file.rsplit('/', 1)[-1]} {f.rows_per_second:.1f}/s")
+            feeds.append(f"{base_name(f.file)} {f.rows_per_second:.1f}/s")
             if f.rejected:
                 feeds.append(f" {f.rejected} rejected", palette.SIGNAL)
             feeds.append("\n")

@@ -10,7 +10,7 @@ from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.ui import palette
-from linewatch.ui.formatting import fmt_age
+from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
 from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
@@ -19,11 +19,6 @@ from linewatch.ui.widgets.top_bar import TopBar
 def short_path(path: str, width: int) -> str:
     """Keep the end of a long path, where the file name is."""
     return path if len(path) <= width else "..." + path[-(width - 3):]
-
-
-def base_name(path: str) -> str:
-    """The file's own name, without its folder."""
-    return path.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1] or path
 
 
 def shown_names(paths: list[str], width: int) -> dict[str, str]:
