@@ -695,15 +695,6 @@ class _FastLong(_WholeBuffer):
     plain decimal value; every other row goes through `RowParser.feed_line`, so both agree.
     """
 
-    def _span(self, j: int, starts: np.ndarray, ends: np.ndarray, base: np.ndarray,
-              pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        p = self.parser
-        assert p.header is not None
-        ncols, last = len(p.header), len(pos) - 1
-        s = starts if j == 0 else pos[np.minimum(base + j - 1, last)].astype(np.int64) + 1
-        e = ends if j == ncols - 1 else pos[np.minimum(base + j, last)].astype(np.int64)
-        return s, e
-
     def _names(self, s: np.ndarray, e: np.ndarray, ok: np.ndarray) -> np.ndarray:
         """Each row's name as fixed-width bytes (rows not `ok` get b'')."""
         lens = np.where(ok, e - s, 0)
@@ -720,10 +711,12 @@ class _FastLong(_WholeBuffer):
         starts, nl, ends, base, pos, self.slow = _line_table(self.arr, self.lo, p)
         fast = np.flatnonzero(~self.slow)
         fs, fe, fb = starts[fast], ends[fast], base[fast]
-        ns, ne = self._span(p.name_idx, fs, fe, fb, pos)
-        vs, ve = self._span(p.value_idx, fs, fe, fb, pos)
+        assert p.header is not None
+        ncols = len(p.header)
+        ns, ne = _field_span(p.name_idx, ncols, fs, fe, fb, pos)
+        vs, ve = _field_span(p.value_idx, ncols, fs, fe, fb, pos)
         if p.time_idx is not None:
-            ts, te = self._span(p.time_idx, fs, fe, fb, pos)
+            ts, te = _field_span(p.time_idx, ncols, fs, fe, fb, pos)
         else:
             ts = te = np.zeros(len(fast), dtype=np.int64)
         del pos
@@ -861,13 +854,10 @@ class _FastWide(_WholeBuffer):
         fast = np.flatnonzero(~slow)
         fbase = base[fast]
         del base
-        last = len(pos) - 1
         fstarts, fends = starts[fast], ends[fast]
-        spans: list[tuple[np.ndarray, np.ndarray]] = []
-        for j in [j for _, j in p.wanted] + ([p.time_idx] if p.time_idx is not None else []):
-            s = fstarts if j == 0 else pos[np.minimum(fbase + j - 1, last)] + 1
-            e = fends if j == ncols - 1 else pos[np.minimum(fbase + j, last)]
-            spans.append((s, e))
+        spans = [_field_span(j, ncols, fstarts, fends, fbase, pos)
+                 for j in [j for _, j in p.wanted]
+                 + ([p.time_idx] if p.time_idx is not None else [])]
         if p.time_idx is not None:
             ts, te = spans.pop()
         else:
@@ -930,6 +920,16 @@ def _line_table(
     if len(odd_pos):
         slow[np.searchsorted(starts, odd_pos, side="right") - 1] = True
     return starts, nl, ends, base, pos, slow
+
+
+def _field_span(j: int, ncols: int, starts: np.ndarray, ends: np.ndarray, base: np.ndarray,
+                pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Byte spans of field `j` of the lines given by starts, ends and `base` (see
+    `_line_table`)."""
+    last = len(pos) - 1
+    s = starts if j == 0 else pos[np.minimum(base + j - 1, last)] + 1
+    e = ends if j == ncols - 1 else pos[np.minimum(base + j, last)]
+    return s, e
 
 
 _SCAN_BLOCK = 1 << 22
