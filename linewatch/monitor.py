@@ -30,6 +30,7 @@ from linewatch.errors import LinewatchError
 from linewatch.model import FeedEvent, Limits
 from linewatch.records import limits_record, rejected_record, signal_record
 from linewatch.selection import chart_setup
+from linewatch.store.lease import RENEW_EVERY
 
 if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.engine.limits import LimitSet
@@ -40,7 +41,7 @@ if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.hooks import HookOutcome, HookRunner
 
 Emit = Callable[[dict[str, Any]], None]
-TICK_SECONDS = 0.5  # lease renewal, stale checks, shelf expiry, changes by others
+TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
 PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
 
@@ -198,7 +199,7 @@ class Monitor:
                         self._announced = True
                         self.emit({"type": "role", "role": "viewer", "instance": self.instance})
                     self._viewer_step()
-                    stop.wait(0.5)
+                    stop.wait(RENEW_EVERY)  # a viewer tries for the lease at the same pace
                     continue
                 try:
                     if now - self._last_tick >= TICK_SECONDS:

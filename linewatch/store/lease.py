@@ -18,7 +18,7 @@ from typing import TYPE_CHECKING
 if TYPE_CHECKING:
     from linewatch.store.db import Store
 
-RENEW_EVERY = 1.0  # seconds between renewals by the collector (and attempts by viewers)
+RENEW_EVERY = 0.5  # seconds between renewals by the collector (and attempts by viewers)
 EXPIRES_AFTER = 3.0  # seconds after the last renewal that the lease lapses
 
 

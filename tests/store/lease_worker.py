@@ -25,7 +25,7 @@ def main() -> None:
     signal.signal(signal.SIGTERM, stop)
     print(f"started {sys.argv[2]}", flush=True)
     while not lease.try_acquire():
-        time.sleep(RENEW_EVERY / 4)
+        time.sleep(RENEW_EVERY)
     print(f"collecting {sys.argv[2]} {time.time()}", flush=True)
     while True:
         time.sleep(RENEW_EVERY)
