@@ -150,8 +150,7 @@ class Monitor:
         # the characteristics, so every numeric column is read and the unknown ones dropped here.
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
         self.tailer = Tailer(self.plan.feeds, columns, saved)
-        patterns = [p for f in self.plan.feeds for p in f.paths]
-        self.waker = Waker(patterns, poll_seconds=self.poll_seconds or 0.0)
+        self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         mon = self.config.monitor
         self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
         states = self.store.ingest.engines()
