@@ -250,7 +250,6 @@ class CharacteristicEngine:
         self.loc_chart, self.disp_chart = setup.charts
         self.values_seen = 0
         self.pending: list[float] = []
-        self.pending_rows: list[int] = []
         self.prev_value: float | None = None
         self.phase = 0
         self.phase_start = 0
@@ -329,7 +328,6 @@ class CharacteristicEngine:
                 self.prev_value = x
             else:
                 self.pending.append(x)
-                self.pending_rows.append(row)
                 if len(self.pending) < n:
                     continue
                 mean, spread = subgroup_stats(self.pending, self.setup.dispersion)
@@ -338,7 +336,6 @@ class CharacteristicEngine:
                 disp = PlottedPoint(self.disp_chart, self.next_index, spread, row, self.phase,
                                     meta=tag)
                 self.pending = []
-                self.pending_rows = []
             self.next_index += 1
             self._plot(loc, disp, out, queue)
             rest = len(values) - k - 1
@@ -380,7 +377,6 @@ class CharacteristicEngine:
             tags = last.tolist()
             left = joined[groups * n :]
             self.pending = left.tolist()
-            self.pending_rows = list(range(self.values_seen - len(left), self.values_seen))
         count = loc_vals.shape[0]
         if count == 0:
             return
@@ -519,7 +515,6 @@ class CharacteristicEngine:
             "signature": self.signature(),
             "values_seen": self.values_seen,
             "pending": self.pending,
-            "pending_rows": self.pending_rows,
             "prev_value": self.prev_value,
             "phase": self.phase,
             "phase_start": self.phase_start,
@@ -541,7 +536,6 @@ class CharacteristicEngine:
             return engine
         engine.values_seen = state["values_seen"]
         engine.pending = list(state["pending"])
-        engine.pending_rows = list(state["pending_rows"])
         engine.prev_value = state["prev_value"]
         engine.phase = state["phase"]
         engine.phase_start = state["phase_start"]
