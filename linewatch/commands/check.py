@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 
 from linewatch.config import CharacteristicConfig, FeedConfig
-from linewatch.engine.characteristic import HistoryResult, analyse_history
+from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_history
 from linewatch.errors import LinewatchError, NotEnoughData
 from linewatch.model import Rejected
 from linewatch.records import dumps, limits_record, rejected_record
@@ -44,6 +44,7 @@ class Analysis:
     column: Column
     result: HistoryResult
     summary: dict[str, Any]
+    setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
 
 
 def _read_all(
@@ -68,8 +69,8 @@ def _read_all(
     return cols, rejected
 
 
-def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
-             rejected: int) -> dict[str, Any]:
+def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
+             result: HistoryResult, rejected: int) -> dict[str, Any]:
     from linewatch.engine.budget import average_run_length
     from linewatch.engine.summary import summarize
 
@@ -77,7 +78,7 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, result: HistoryResult,
     record = {"type": "summary", "characteristic": c.name, "points": int(values.shape[0]),
               "rejected": rejected}
     record.update({k: v for k, v in s.to_dict().items() if k != "points"})
-    budget = average_run_length(list(chart_setup(c, None).rules))
+    budget = average_run_length(list(setup.rules))
     finite = math.isfinite(budget.arl)
     record["arl0"] = budget.arl if finite else None  # no rule can fire: no run length
     record["arl0_method"] = budget.method
@@ -110,7 +111,8 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
             result = analyse_history(col.values, setup)
         except NotEnoughData as exc:
             raise LinewatchError(str(exc)) from None
-        out.append(Analysis(c, col, result, _summary(col.values, c, result, len(rejected))))
+        out.append(Analysis(c, col, result, _summary(col.values, c, setup, result,
+                                                     len(rejected)), setup))
     return out, rejected
 
 

@@ -5,8 +5,6 @@ from __future__ import annotations
 from collections import defaultdict
 from typing import TYPE_CHECKING
 
-from linewatch.engine.rulebook import RULES
-
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
     from linewatch.engine.characteristic import Firing
@@ -26,9 +24,7 @@ def _f(
 
 
 def _rule_text(analysis: Analysis, rule_id: str) -> str:
-    from linewatch.engine.rulebook import resolve_rules
-
-    spec = resolve_rules([rule_id], analysis.config.run_lengths)[0] if rule_id in RULES else None
+    spec = next((s for s in analysis.setup.rules if s.id == rule_id), None)
     return spec.describe() if spec else rule_id
 
 
