@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from linewatch.engine.charts import chart_names, plotted_series
+from linewatch.model import FeedEvent
 from linewatch.view import (
     ACKNOWLEDGED,
     SHELVED,
@@ -210,29 +211,34 @@ def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bo
 def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     """Health of every followed file, from the ingest state, points and feed events."""
     out = []
+    day = now - 86400
     files = store.ingest.files()
-    events = store.history.feed_events(since=now - 86400)
-    rows = store.query(
-        "SELECT file, COUNT(*) AS n, MAX(received_at) AS last FROM points "
-        "WHERE received_at >= ? GROUP BY file", (now - RATE_WINDOW,))
-    rate = {r["file"]: r["n"] / RATE_WINDOW for r in rows}
-    last = {r["file"]: r["last"] for r in store.query(
-        "SELECT file, MAX(received_at) AS last FROM points GROUP BY file")}
-    names = list(files) + [e.event.file for e in events if e.event.file not in files
-                           and e.event.kind not in ("stuck", "unstuck")
-                           and not _pattern_found(e.event.file, files)]
+    # every event of the day but the rejected rows, which can be many: those are counted and
+    # the last few fetched per file below, through the (file, kind, at) index
+    events = [FeedEvent(r[1], r[2], r[3]) for r in store.query(
+        "SELECT at, kind, file, detail FROM feed_events WHERE at >= ? AND kind != 'rejected' "
+        "ORDER BY at, id", (day,))]
+    names = list(files) + [e.file for e in events if e.file not in files
+                           and e.kind not in ("stuck", "unstuck")
+                           and not _pattern_found(e.file, files)]
     for path in dict.fromkeys(names):
-        mine = [e.event for e in events if e.event.file == path]
+        mine = [e for e in events if e.file == path]
         fv = FeedView(file=path)
         if path in files:  # lines read so far (header, comments and rejects included)
             fv.rows = max(0, files[path].next_line - 1)
-        fv.rows_per_second = rate.get(path, 0.0)
-        fv.last_row_age = None if path not in last else max(0.0, now - last[path])
+        newest, recent = store.query(
+            "SELECT MAX(received_at), (SELECT COUNT(*) FROM points WHERE file = ?1 "
+            "AND received_at >= ?2) FROM points WHERE file = ?1", (path, now - RATE_WINDOW))[0]
+        fv.rows_per_second = recent / RATE_WINDOW
+        fv.last_row_age = None if newest is None else max(0.0, now - newest)
         fv.rotations = sum(1 for e in mine if e.kind in ("rotated", "replaced"))
         fv.truncations = sum(1 for e in mine if e.kind == "truncated")
-        rejects = [e for e in mine if e.kind == "rejected"]
-        fv.rejected = len(rejects)
-        fv.last_rejects = [e.detail for e in rejects[-5:]]
+        fv.rejected = store.query(
+            "SELECT COUNT(*) FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ?",
+            (path, day))[0][0]
+        fv.last_rejects = [r[0] for r in reversed(store.query(
+            "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
+            "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting")]

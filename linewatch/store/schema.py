@@ -136,4 +136,10 @@ MIGRATIONS: tuple[str, ...] = (
     """
     ALTER TABLE files ADD COLUMN header TEXT;
     """,
+    # 5: the feed view asks per file for its newest point, its recent rows and its rejects;
+    # without these it scanned every point and every event at each refresh of the screen.
+    """
+    CREATE INDEX points_by_file_time ON points (file, received_at);
+    CREATE INDEX feed_events_by_file ON feed_events (file, kind, at);
+    """,
 )
