@@ -122,7 +122,9 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.seconds_per_point = _seconds_per_point(recs, n)
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
         marks: dict[str, dict[int, list[str]]] = {}
-        for a in alarms.alarms(include_closed=True) if detail else open_alarms:
+        first_plotted = int(min([*li[:1].tolist(), *di[:1].tolist()], default=0))
+        shown = store.alarms.over_points(c.name, first_plotted) if detail else open_alarms
+        for a in shown:
             if a.characteristic != c.name or a.first_index is None:
                 continue
             for i in range(a.first_index, (a.last_index or a.first_index) + 1):

@@ -144,6 +144,16 @@ class AlarmRows:
         )
         return [_record(r) for r in rows]
 
+    def over_points(self, characteristic: str, from_index: int) -> list[AlarmRecord]:
+        """Alarms of one characteristic, open or closed, that reach point `from_index` or
+        later (what a chart starting there marks), oldest first."""
+        rows = self.store.query(
+            f"{_SELECT} WHERE characteristic = ? AND first_index IS NOT NULL "
+            "AND COALESCE(last_index, first_index) >= ? ORDER BY id",
+            (characteristic, from_index),
+        )
+        return [_record(r) for r in rows]
+
     def all(self) -> list[AlarmRecord]:
         """Every alarm, oldest first."""
         return [_record(r) for r in self.store.query(f"{_SELECT} ORDER BY id")]

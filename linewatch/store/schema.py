@@ -136,10 +136,12 @@ MIGRATIONS: tuple[str, ...] = (
     """
     ALTER TABLE files ADD COLUMN header TEXT;
     """,
-    # 5: the feed view asks per file for its newest point, its recent rows and its rejects;
-    # without these it scanned every point and every event at each refresh of the screen.
+    # 5: the feed view asks per file for its newest point, its recent rows and its rejects,
+    # and a close-up for the alarms over its shown points; without these each refresh of the
+    # screen scanned every point, every event and every alarm ever raised.
     """
     CREATE INDEX points_by_file_time ON points (file, received_at);
     CREATE INDEX feed_events_by_file ON feed_events (file, kind, at);
+    CREATE INDEX alarms_by_characteristic ON alarms (characteristic, last_index);
     """,
 )

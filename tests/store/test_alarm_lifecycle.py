@@ -310,3 +310,17 @@ def test_range_outside_the_batch_is_a_programming_error(book: AlarmBook) -> None
     with pytest.raises(ValueError, match="outside"):
         book.observe_chart("od", "individuals", 5, 9, {"we1": [4]}, now=1)
     assert book.alarms(include_closed=True) == []
+
+
+def test_the_alarms_over_a_chart_s_shown_points_are_those_reaching_into_it(
+    book: AlarmBook,
+) -> None:
+    """A close-up from point 50 on marks every alarm, open or closed, of its characteristic
+    whose stretch reaches point 50 or later; the rule is interval overlap."""
+    book.observe_chart("od", "individuals", 0, 59, {"we1": [10, 49, 55]}, now=1.0)
+    book.observe_chart("od", "individuals", 60, 70, {"we4": [60, 61]}, now=2.0)
+    book.observe_chart("wall", "individuals", 0, 70, {"we1": [65]}, now=2.0)
+    over = book.store.alarms.over_points("od", 50)
+    assert [(a.characteristic, a.rule, a.first_index) for a in over] == [
+        ("od", "we1", 55), ("od", "we4", 60)]
+    assert {a.first_index for a in book.store.alarms.over_points("od", 49)} == {49, 55, 60}
