@@ -154,10 +154,8 @@ class CloseUpScreen(LineScreen):
             bar.show(self.lw.line, f"close-up {self.characteristic}", "gone from the line")
             return
         self._draw_top_bar(cv)
-        self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
-                                                            self.cursor)
+        self._draw_cursor()
         self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
-        self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
         self._draw_figures()
 
     def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
@@ -268,14 +266,23 @@ class CloseUpScreen(LineScreen):
         if not loc or not loc.values or self.cursor is None:
             return
         self.cursor = max(0, min(len(loc.values) - 1, self.cursor + step))
-        self._draw()
+        self._draw_cursor()
 
     def action_move_to(self, where: int) -> None:
         loc = self.detail.location if self.detail else None
         if not loc or not loc.values:
             return
         self.cursor = where if where >= 0 else len(loc.values) - 1
-        self._draw()
+        self._draw_cursor()
+
+    def _draw_cursor(self) -> None:
+        """A cursor move changes the location chart and the cursor line, nothing else."""
+        cv = self.detail
+        if cv is None:
+            return
+        self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
+                                                            self.cursor)
+        self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
 
     def action_back(self) -> None:
         self.dismiss()
