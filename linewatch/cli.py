@@ -177,10 +177,23 @@ _COMMANDS = {
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Entry point: parse, dispatch lazily, turn user errors into one line and exit code 2."""
+    """Entry point: parse, dispatch lazily, turn user errors into one line and exit code 2.
+
+    Everything the commands (and argparse) print passes through the one sanitiser of
+    `linewatch.safe_text`, so text from a log, a file name or a config cannot steer the
+    terminal; the screen draws through its own handle and escapes what it shows itself.
+    """
+    from linewatch.safe_text import guarded_output
+
+    with guarded_output():
+        return _main(argv)
+
+
+def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     from linewatch.errors import LinewatchError
+    from linewatch.safe_text import visible
 
     try:
         if args.command is None:
@@ -189,13 +202,12 @@ def main(argv: Sequence[str] | None = None) -> int:
             module = importlib.import_module(_COMMANDS[args.command])
         return int(module.run(args) or 0)
     except LinewatchError as exc:
-        print(f"linewatch: {exc}", file=sys.stderr)
+        print(f"linewatch: {visible(exc)}", file=sys.stderr)
         return EXIT_USAGE
     except KeyboardInterrupt:
         return 130
     except BrokenPipeError:
         return 0
-
 
 if __name__ == "__main__":
     raise SystemExit(main())

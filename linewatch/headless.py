@@ -7,9 +7,13 @@ import threading
 from typing import Any, TextIO
 
 from linewatch.records import dumps
+from linewatch.safe_text import visible
 
 
 def _text(record: dict[str, Any]) -> str:
+    """One readable line; every text field (names, files, reasons, details: all from outside)
+    is shown through `visible`, so it stays on its line and cannot steer the terminal."""
+    record = {k: visible(v) if isinstance(v, str) else v for k, v in record.items()}
     kind = record.get("type")
     if kind == "signal":
         where = f"{record.get('file') or ''}:{record.get('line')}"
@@ -50,7 +54,7 @@ def _text(record: dict[str, Any]) -> str:
                 f"{record['chart']} {record['rule']}{where}: {record['state']}{ack}")
     if kind == "role":
         return f"ROLE    this instance is the {record['role']}"
-    rest = " ".join(f"{k}={v}" for k, v in record.items() if k != "type")
+    rest = " ".join(f"{k}={visible(v)}" for k, v in record.items() if k != "type")
     return f"{str(kind).upper():<7} {rest}"
 
 

@@ -8,6 +8,7 @@ from typing import Any
 
 from linewatch.engine.limits import ChartLimits
 from linewatch.model import Rejected
+from linewatch.safe_text import json_safe
 
 
 def _num(x: float | None) -> float | None:
@@ -48,5 +49,6 @@ def rejected_record(r: Rejected) -> dict[str, Any]:
 
 
 def dumps(record: dict[str, Any]) -> str:
-    """One compact JSON line (NaN and infinities never appear: they become null)."""
-    return json.dumps(record, ensure_ascii=False, separators=(",", ":"))
+    """One compact JSON line (NaN and infinities never appear: they become null). Control
+    characters of any kind are JSON escapes, so the line is safe on a terminal."""
+    return json_safe(json.dumps(record, ensure_ascii=False, separators=(",", ":")))

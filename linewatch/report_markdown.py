@@ -12,11 +12,14 @@ from linewatch.report import (
     rules_text,
     span,
 )
+from linewatch.safe_text import visible
 
 
 def _cell(text: object) -> str:
-    """Table-safe text: pipes escaped, line breaks flattened."""
-    return str(text).replace("|", "\\|").replace("\r", " ").replace("\n", " ").strip()
+    """Table-safe text: pipes escaped, line breaks flattened, other control characters shown
+    visibly (names, files, reasons and notes come from outside)."""
+    flat = str(text).replace("|", "\\|").replace("\r", " ").replace("\n", " ").strip()
+    return visible(flat)
 
 
 def _table(header: list[str], rows: list[list[object]]) -> list[str]:
@@ -35,12 +38,12 @@ def render_markdown(report: ShiftReport) -> str:
     lines = [
         f"# Shift handover: {local_time(r.since)} to {local_time(r.until)}",
         "",
-        f"Made {local_time(r.made_at)} from the store in `{r.state_dir}`.",
+        f"Made {local_time(r.made_at)} from the store in `{visible(r.state_dir)}`.",
         "",
     ]
     audit = "intact" if r.audit_ok else "BROKEN"
     lines += [
-        f"**Audit trail: {audit}.** {r.audit_message}. "
+        f"**Audit trail: {audit}.** {visible(r.audit_message)}. "
         f"Entries written in this period: {r.audit_entries}.",
         "",
     ]

@@ -11,6 +11,7 @@ import sys
 from typing import TYPE_CHECKING
 
 from linewatch.errors import LinewatchError
+from linewatch.safe_text import visible
 
 if TYPE_CHECKING:
     from linewatch.alarms import AlarmBook
@@ -62,10 +63,9 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
         points = "" if a.first_index is None else f"{a.first_index}-{a.last_index}"
         ack = f"{a.acknowledged_by}: {a.reason}" if a.acknowledged else ""
         raised = (iso_time(a.raised_at) or "").replace("T", " ")[:19]
-        rows.append(
-            (str(a.id), str(a.priority), a.state(now), raised, a.characteristic, a.chart, a.rule,
-             points, ack)
-        )
+        rows.append(tuple(visible(cell) for cell in (  # names and reasons come from outside
+            str(a.id), str(a.priority), a.state(now), raised, a.characteristic, a.chart, a.rule,
+            points, ack)))
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
     for line in (header, *rows):
         out.write("  ".join(c.ljust(w) for c, w in zip(line, widths, strict=True)).rstrip() + "\n")
@@ -77,14 +77,15 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
         raise LinewatchError("give alarm ids or --characteristic, not both")
     if args.characteristic:
         count = book.acknowledge_characteristic(args.characteristic, args.reason, args.note)
-        print(f"acknowledged {count} alarm{'s' if count != 1 else ''} of {args.characteristic}")
+        print(f"acknowledged {count} alarm{'s' if count != 1 else ''} of "
+              f"{visible(args.characteristic)}")
         return 0
     if not args.ids:
         raise LinewatchError("give the ids of the alarms to acknowledge, or --characteristic")
     for event in book.acknowledge(args.ids, args.reason, args.note):
         a = event.alarm
         if event.action == "acknowledged":
-            print(f"alarm {a.id} acknowledged ({a.reason})")
+            print(f"alarm {a.id} acknowledged ({visible(a.reason)})")
         elif event.action == "closed":
             print(f"alarm {a.id} closed (already back to normal)")
     return 0

@@ -17,6 +17,7 @@ from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_h
 from linewatch.errors import LinewatchError, NotEnoughData
 from linewatch.model import Rejected
 from linewatch.records import dumps, limits_record, rejected_record
+from linewatch.safe_text import json_safe
 from linewatch.selection import (
     chart_setup,
     feed_for_log,
@@ -120,14 +121,14 @@ def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
     """Signal records as JSON text, formatted directly from the firing table: the same text
     `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each.
     With several logs each record also names the `file` its row came from."""
-    name = json.dumps(a.config.name, ensure_ascii=False)
+    name = json_safe(json.dumps(a.config.name, ensure_ascii=False))
     t = a.result.table
     col = a.column
     heads = [[f'{{"type":"signal","characteristic":{name},"chart":"{c}","rule":"{r}","index":'
               for r in t.rules] for c in t.charts]
     lines = col.lines[t.row].tolist()
     if with_file:
-        files = [json.dumps(f, ensure_ascii=False) for f in col.files]
+        files = [json_safe(json.dumps(f, ensure_ascii=False)) for f in col.files]
         tails = [f',"file":{files[k]}}}' for k in col.file_index[t.row].tolist()]
     else:
         tails = ["}"] * len(lines)

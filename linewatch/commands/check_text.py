@@ -1,9 +1,13 @@
-"""The readable report of `linewatch check` (plain text, no colour, fits 80 columns)."""
+"""The readable report of `linewatch check` (plain text, no colour, fits 80 columns).
+
+Names, units, file names and reasons come from the logs: each goes through `visible`."""
 
 from __future__ import annotations
 
 from collections import defaultdict
 from typing import TYPE_CHECKING
+
+from linewatch.safe_text import visible
 
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
@@ -34,8 +38,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
     w = out.append
     for a in analyses:
         c, res, s = a.config, a.result, a.summary
-        unit = f" [{c.unit}]" if c.unit else ""
-        w(f"== {c.name}{unit}: {s['points']} values, subgroup size {c.subgroup_size}")
+        unit = f" [{visible(c.unit)}]" if c.unit else ""
+        w(f"== {visible(c.name)}{unit}: {s['points']} values, subgroup size {c.subgroup_size}")
         lim = res.limits
         source = "known centre and sigma" if lim.source == "given" else (
             f"Phase I, baseline of {c.baseline or len(res.location)} plotted points")
@@ -56,7 +60,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
             for f in firings[:MAX_LISTED]:
                 where = f"line {int(a.column.lines[f.row])}"
                 if several_files:
-                    where = f"{a.column.files[int(a.column.file_index[f.row])]}:{where[5:]}"
+                    file = a.column.files[int(a.column.file_index[f.row])]
+                    where = f"{visible(file)}:{where[5:]}"
                 w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}")
             if len(firings) > MAX_LISTED:
                 w(f"      … and {len(firings) - MAX_LISTED} more")
@@ -85,7 +90,7 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
     if rejected:
         w(f"rejected rows: {len(rejected)}")
         for r in rejected[:MAX_LISTED]:
-            w(f"   {r.file}:{r.line}: {r.reason}")
+            w(f"   {visible(r.file)}:{r.line}: {visible(r.reason)}")
         if len(rejected) > MAX_LISTED:
             w(f"   … and {len(rejected) - MAX_LISTED} more")
     return "\n".join(out) + "\n"

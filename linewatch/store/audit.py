@@ -19,6 +19,7 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
+from linewatch.safe_text import json_safe
 from linewatch.store.actor import current_actor
 
 if TYPE_CHECKING:
@@ -185,5 +186,5 @@ class AuditTrail:
                     "payload": json.loads(e.payload),
                     "hash": e.hash,
                 }
-                out.write(json.dumps(record, ensure_ascii=False) + "\n")
+                out.write(json_safe(json.dumps(record, ensure_ascii=False)) + "\n")
         return out.getvalue()
