@@ -7,21 +7,25 @@ on top. With nothing arriving the timer finds the flag down and nothing redraws.
 
 from __future__ import annotations
 
+import sys
 import time
 from collections.abc import Callable
 from typing import Any, ClassVar
 
 from textual.app import App
 from textual.binding import Binding, BindingType
+from textual.notifications import SeverityLevel
 from textual.screen import Screen
 
 from linewatch import view
+from linewatch.safe_text import visible
 from linewatch.ui.glyphs import Glyphs, pick_glyphs
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.screens.board import BoardScreen
 from linewatch.ui.screens.feeds import FeedScreen
 from linewatch.ui.screens.queue import AlarmQueueScreen
 
+EXIT_CRASH = 70  # the screen died on an internal error (EX_SOFTWARE of sysexits.h)
 REFRESH_HZ = 10.0
 RETRY_AFTER = 2.0  # seconds before asking again for a snapshot that failed
 BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell
@@ -68,7 +72,7 @@ class LinewatchApp(App[int]):
         self.bell_enabled = bell
         self.clock = clock
         self.glyphs: Glyphs = pick_glyphs(ascii_only)
-        self.title = title
+        self.title = visible(title)
         self.line = view.LineSnapshot(title=title)
         self.line_taken_at = clock()
         self.bells_rung = 0
@@ -77,6 +81,7 @@ class LinewatchApp(App[int]):
         self._drawing_since = 0.0
         self._quiet_until = 0.0
         self.wanted_feed: str | None = None  # a file the feed pulse highlights when shown next
+        self.crashed_with: BaseException | None = None  # what took the screen down, if anything
 
     def get_key_display(self, binding: Binding) -> str:
         """Plain key names on the Linux console, which lacks Textual's key symbols."""
@@ -84,6 +89,28 @@ class LinewatchApp(App[int]):
         if self.glyphs.ascii and not shown.isascii():
             return binding.key.replace("_", " ").title()
         return shown
+
+    def notify(
+        self,
+        message: str,
+        *,
+        title: str = "",
+        severity: SeverityLevel = "information",
+        timeout: float | None = None,
+        markup: bool = True,
+    ) -> None:
+        """Every message on screen names things from outside (characteristics, files,
+        reasons, error texts): shown literally, never as markup, control characters
+        escaped. (`markup` is accepted for the signature and ignored.)"""
+        super().notify(visible(message), title=visible(title), severity=severity,
+                       timeout=timeout, markup=False)
+
+    def _handle_exception(self, error: Exception) -> None:
+        """A crash ends the screen with a non-zero code; the caller prints one line instead
+        of a full-screen traceback (see `run_app`)."""
+        self.crashed_with = error
+        super()._handle_exception(error)
+        self._exit_renderables.clear()
 
     def on_load(self) -> None:
         # before the terminal driver starts, so a hang-up at any later moment is handled
@@ -223,7 +250,32 @@ def run_app(
     bell: bool = True,
     title: str = "linewatch",
 ) -> int:
-    """Open the screen until the user quits; returns the exit code (0)."""
+    """Open the screen until the user quits; returns the exit code: 0, the signal's code after
+    a hang-up, or EXIT_CRASH after an internal error, told on stderr in one line (the traceback
+    goes to a file named there)."""
     app = LinewatchApp(source, actions, bell=bell, title=title)
-    code = app.run()
-    return int(code or 0)
+    return exit_code(app, app.run())
+
+
+def exit_code(app: LinewatchApp, code: int | None) -> int:
+    """The code to leave with once `app` has stopped; a crash is told in one line on stderr."""
+    if app.crashed_with is not None:
+        sys.stderr.write(f"linewatch: the screen stopped on an internal error: "
+                         f"{visible(crash_words(app.crashed_with))}\n")
+        return EXIT_CRASH
+    return int(code or app.return_code or 0)
+
+
+def crash_words(error: BaseException) -> str:
+    """`Type: message` of a crash, and where its full traceback was written for a bug report."""
+    import tempfile
+    import traceback
+
+    words = f"{type(error).__name__}: {error}"
+    try:
+        with tempfile.NamedTemporaryFile("w", prefix="linewatch-crash-", suffix=".txt",
+                                         delete=False, encoding="utf-8") as f:
+            f.write("".join(traceback.format_exception(error)))
+        return f"{words} (traceback in {f.name})"
+    except OSError:
+        return words

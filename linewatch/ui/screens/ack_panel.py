@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import ClassVar
 
+from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -13,6 +14,8 @@ from textual.events import Key
 from textual.screen import ModalScreen
 from textual.widgets import Input, OptionList, Static
 from textual.widgets.option_list import Option
+
+from linewatch.safe_text import visible
 
 
 @dataclass(frozen=True, slots=True)
@@ -44,9 +47,11 @@ class AckPanel(ModalScreen[AckChoice | None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="ack-box", classes="panel"):
-            yield Static(f"Acknowledge {self.subject}", id="ack-subject", classes="panel-title")
+            yield Static(Text(f"Acknowledge {visible(self.subject)}"), id="ack-subject",
+                         classes="panel-title")
             yield OptionList(
-                *[Option(f"{i} {r}", id=str(i)) for i, r in enumerate(self.reasons[:9], 1)],
+                *[Option(Text(f"{i} {visible(r)}"), id=str(i))
+                  for i, r in enumerate(self.reasons[:9], 1)],
                 id="ack-reasons",
             )
             yield Input(placeholder="note (optional)", id="ack-note")
@@ -77,7 +82,8 @@ class AckPanel(ModalScreen[AckChoice | None]):
         reasons = self.query_one("#ack-reasons", OptionList)
         reasons.highlighted = index
         hint = self.query_one("#ack-hint", Static)
-        hint.update(f"reason: {self.reason}   type a note or Enter to confirm   Esc: cancel")
+        hint.update(Text(f"reason: {visible(self.reason)}   type a note or Enter to confirm   "
+                         "Esc: cancel"))
         self.query_one("#ack-note", Input).focus()
 
     def action_to_note(self) -> None:

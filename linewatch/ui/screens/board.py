@@ -13,6 +13,7 @@ from textual.events import Resize
 from textual.widgets import DataTable, Input, Static
 
 from linewatch import view
+from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
@@ -208,10 +209,10 @@ class BoardScreen(LineScreen):
             state.append(f"{cv.open_alarms} open", "bold")
         elif cv.pending_phase_start is not None:  # limits are being learned again
             state.append("learning", palette.STATE_STYLE[view.STATE_LEARNING])
-        name = Text(cv.name, "bold", end="", no_wrap=True, overflow="ellipsis")
+        name = Text(visible(cv.name), "bold", end="", no_wrap=True, overflow="ellipsis")
         name.append("\n")
         value = fmt_value(cv.last_value)
-        name.append(f"{value} {cv.unit}".rstrip())
+        name.append(f"{value} {visible(cv.unit)}".rstrip())
         if cv.subgroup_size > 1:
             name.append(f" n={cv.subgroup_size}", palette.LABEL)
         loc = cv.location
@@ -243,7 +244,7 @@ class BoardScreen(LineScreen):
             alarms.append(f"P{a.priority} ", "bold" if a.priority <= 2 else "")
             alarms.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9} ",
                           "reverse" if a.state == view.UNACKNOWLEDGED else "")
-            alarms.append(f"{alarm_subject(a)} {a.rule}\n")
+            alarms.append(f"{visible(alarm_subject(a))} {visible(a.rule)}\n")
         if not open_:
             alarms.append("none\n", palette.LABEL)
         elif len(open_) > 12:
@@ -254,7 +255,7 @@ class BoardScreen(LineScreen):
         for f in line.feeds:
             mark = g.state[view.STATE_STALE] if f.stale else g.state[view.STATE_OK]
             feeds.append(f"{mark} {f.status:<9} ", "reverse" if f.stale else "")
-            feeds.append(f"{base_name(f.file)} {f.rows_per_second:.1f}/s")
+            feeds.append(f"{visible(base_name(f.file))} {f.rows_per_second:.1f}/s")
             if f.rejected:
                 feeds.append(f" {f.rejected} rejected", palette.SIGNAL)
             feeds.append("\n")

@@ -15,6 +15,7 @@ from textual.widgets import Static
 from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
+from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_mark
 from linewatch.ui.screens.base import LineScreen
@@ -201,7 +202,7 @@ class CloseUpScreen(LineScreen):
             text.append(f"P{a.priority} {fmt_clock(a.raised_at)} ")
             text.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9}",
                         "bold reverse" if a.state == view.UNACKNOWLEDGED else "")
-            text.append(f" {a.description or a.rule}\n")
+            text.append(f" {visible(a.description or a.rule)}\n")
         if not mine:
             text.append("none", palette.LABEL)
         return text
@@ -251,7 +252,7 @@ class CloseUpScreen(LineScreen):
         if fit.slope is None or fit.r2 is None or fit.adj_r2 is None or fit.p_value is None:
             text.append("too few points, or no spread", palette.LABEL)
             return text
-        text.append(f"slope {fit.slope:+.4g} {cv.unit}/point   R² {fit.r2:.2f}   "
+        text.append(f"slope {fit.slope:+.4g} {visible(cv.unit)}/point   R² {fit.r2:.2f}   "
                     f"adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
         if fit.points_to_spec is None:
             text.append("no significant trend towards a spec limit (p < 0.05 needed)",

@@ -9,6 +9,7 @@ from textual.app import ComposeResult
 from textual.widgets import DataTable, Static
 
 from linewatch import view
+from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
@@ -103,8 +104,9 @@ class FeedScreen(TableScreen):
         bad = f.stale or f.status in ("missing", "unreadable", "stale")
         mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
         return [
-            Text(f"{mark} {f.status}", "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
-            name,
+            Text(f"{mark} {visible(f.status)}",
+                 "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
+            Text(visible(name)),  # a file name: never markup
             f"{f.rows:,}",
             f"{f.rows_per_second:.1f}",
             Text(f"{f.rejected:,}", palette.SIGNAL if f.rejected else ""),
@@ -124,11 +126,11 @@ class FeedScreen(TableScreen):
             text.append("no file followed yet", palette.LABEL)
         elif 0 <= row < len(feeds):
             f = feeds[row]
-            text.append(f"{f.file}\n", "bold")
+            text.append(f"{visible(f.file)}\n", "bold")
             if f.last_rejects:
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:
-                    text.append(f"  {reason}\n", palette.SIGNAL)
+                    text.append(f"  {visible(reason)}\n", palette.SIGNAL)
             else:
                 text.append("no rejected row", palette.LABEL)
         self.query_one("#feed-rejects", Static).update(text)

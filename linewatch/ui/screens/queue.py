@@ -11,6 +11,7 @@ from textual.binding import Binding, BindingType
 from textual.widgets import DataTable, Static
 
 from linewatch import view
+from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
@@ -115,15 +116,15 @@ class AlarmQueueScreen(TableScreen):
         loud = "bold" if a.priority <= 2 else ""
         what = Text(f"{KIND_WORDS.get(a.kind, a.kind)}: ", loud, no_wrap=True,
                     overflow="ellipsis", end="")
-        words = a.description or a.rule
+        words = visible(a.description or a.rule)
         if a.rule and a.kind in ("run-rule", "beyond-limits"):
             if words.endswith(")"):  # "... (xbar chart)": one bracket, "(xbar chart, we1)"
                 what.append(words[:-1])
-                what.append(f", {a.rule}", palette.LABEL)
+                what.append(f", {visible(a.rule)}", palette.LABEL)
                 what.append(")")
             else:
                 what.append(words)
-                what.append(f" ({a.rule})", palette.LABEL)
+                what.append(f" ({visible(a.rule)})", palette.LABEL)
         else:
             what.append(words)
         state_style = {view.UNACKNOWLEDGED: "bold reverse",
@@ -131,7 +132,7 @@ class AlarmQueueScreen(TableScreen):
         return [
             Text(str(a.priority), loud),
             fmt_clock(a.raised_at),
-            Text(alarm_subject(a), no_wrap=True, overflow="ellipsis"),
+            Text(visible(alarm_subject(a)), no_wrap=True, overflow="ellipsis"),
             what,
             Text(ALARM_STATE_WORDS.get(a.state, a.state), state_style),
         ]
@@ -161,8 +162,8 @@ class AlarmQueueScreen(TableScreen):
         if a is None:
             text.append("No alarm. Nothing to do.", palette.LABEL)
         else:
-            text.append(f"#{a.id} {a.characteristic}", "bold")
-            where = f" {a.chart}" if a.chart else ""
+            text.append(f"#{a.id} {visible(a.characteristic)}", "bold")
+            where = f" {visible(a.chart)}" if a.chart else ""
             if a.first_index is not None:
                 span = (f"point {a.first_index}" if a.first_index == a.last_index
                         else f"points {a.first_index}-{a.last_index}")
@@ -170,16 +171,17 @@ class AlarmQueueScreen(TableScreen):
             text.append(f"{where} | raised {fmt_day_clock(a.raised_at)}\n")
             if a.acknowledged_by:
                 when = fmt_clock(a.acknowledged_at) if a.acknowledged_at else ""
-                text.append(f"acknowledged by {a.acknowledged_by} {when}: {a.reason or ''}")
+                text.append(f"acknowledged by {visible(a.acknowledged_by)} {when}: "
+                            f"{visible(a.reason or '')}")
                 if a.note:
-                    text.append(f" - {a.note}")
+                    text.append(f" - {visible(a.note)}")
                 text.append("\n")
             if a.state == view.SHELVED and a.shelved_until:
-                why = f": {a.reason}" if a.reason else ""
+                why = f": {visible(a.reason)}" if a.reason else ""
                 text.append(f"shelved until {fmt_clock(a.shelved_until)}{why}\n")
             text.append("reaction plan: ", "bold")
-            text.append(a.reaction_plan or "none given in the config", "" if a.reaction_plan
-                        else palette.LABEL)
+            text.append(visible(a.reaction_plan or "none given in the config"),
+                        "" if a.reaction_plan else palette.LABEL)
         self.query_one("#queue-plan", Static).update(text)
 
     def action_acknowledge(self) -> None:

@@ -5,12 +5,15 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import ClassVar
 
+from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Static
+
+from linewatch.safe_text import visible
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,9 +39,9 @@ class RestartPanel(ModalScreen[RestartChoice | None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="restart-box", classes="panel"):
-            yield Static(
-                f"New baseline for {self.characteristic}: limits are estimated again from the "
-                "points from here on; the old limits stay on the history.",
+            yield Static(Text(
+                f"New baseline for {visible(self.characteristic)}: limits are estimated again "
+                "from the points from here on; the old limits stay on the history."),
                 classes="panel-title",
             )
             yield Static(f"first point of the new phase (0-{self.last_index}), then the reason:",
@@ -84,7 +87,7 @@ class RestartPanel(ModalScreen[RestartChoice | None]):
         return index
 
     def _say(self, problem: str) -> None:
-        self.query_one("#restart-hint", Static).update(f"{problem}   Esc: cancel")
+        self.query_one("#restart-hint", Static).update(Text(f"{visible(problem)}   Esc: cancel"))
 
     def action_cancel(self) -> None:
         self.dismiss(None)

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import ClassVar
 
+from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -13,6 +14,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
 from linewatch.durations import parse_duration
+from linewatch.safe_text import visible
 
 DEFAULT_SHELF = "30m"
 LONGEST_SHELF = 24 * 3600.0  # a shelf longer than a day is a config change, not a shelf
@@ -40,7 +42,7 @@ class ShelvePanel(ModalScreen[ShelveChoice | None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="shelve-box", classes="panel"):
-            yield Static(f"Shelve {self.subject}", classes="panel-title")
+            yield Static(Text(f"Shelve {visible(self.subject)}"), classes="panel-title")
             yield Input(DEFAULT_SHELF, placeholder="for how long, e.g. 30m or 1h30m",
                         id="shelve-for")
             yield Input(placeholder="reason (required)", id="shelve-reason")
@@ -83,7 +85,7 @@ class ShelvePanel(ModalScreen[ShelveChoice | None]):
         return seconds
 
     def _say(self, problem: str) -> None:
-        self.query_one("#shelve-hint", Static).update(f"{problem}   Esc: cancel")
+        self.query_one("#shelve-hint", Static).update(Text(f"{visible(problem)}   Esc: cancel"))
 
     def action_cancel(self) -> None:
         self.dismiss(None)

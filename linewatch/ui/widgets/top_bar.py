@@ -7,6 +7,7 @@ from textual.events import Resize
 from textual.widgets import Static
 
 from linewatch import view
+from linewatch.safe_text import visible
 from linewatch.ui.formatting import to_acknowledge
 
 
@@ -53,7 +54,8 @@ class TopBar(Static):
             if not width or sum(len(p) + 3 for p, _ in parts) <= width:
                 break
         text = Text(no_wrap=True, overflow="ellipsis", end="")
-        for k, (part, style) in enumerate(parts):
+        for k, (raw, style) in enumerate(parts):
+            part = visible(raw)  # the title, names and messages come from outside
             if k == 0:
                 text.append(f" {part} ", style)
             else:
