@@ -186,7 +186,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     from linewatch.safe_text import guarded_output
 
     with guarded_output():
-        return _main(argv)
+        try:
+            return _main(argv)
+        except Exception:  # a bug: its traceback may quote a name or a file, so print it here
+            import traceback
+
+            traceback.print_exc()
+            return EXIT_SIGNALS  # the interpreter's own code for an uncaught exception
 
 
 def _main(argv: Sequence[str] | None) -> int:

@@ -140,3 +140,19 @@ def test_one_line_errors_show_file_names_and_config_keys_escaped(tmp_path: Path)
     assert usage.returncode == 2
     assert_clean(usage)
     assert "\\x1b]0;ARG\\x07" in usage.stderr
+
+
+def test_an_unexpected_error_keeps_its_traceback_but_escaped(
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from linewatch import cli
+    from linewatch.commands import check
+
+    def planted_fault(args: object) -> int:
+        raise RuntimeError(f"cannot read {HOSTILE_FILE}")
+
+    monkeypatch.setattr(check, "run", planted_fault)
+    assert cli.main(["check", "x.csv"]) == 1  # as an uncaught exception would
+    err = capsys.readouterr().err
+    assert "Traceback" in err and f"RuntimeError: cannot read {SHOWN_FILE}" in err
+    assert control_chars(err) == []
