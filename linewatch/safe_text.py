@@ -33,6 +33,11 @@ _LINES_UNSAFE = re.compile(
     "\r(?!\n)|[\x00-\x08\x0b-\x0c\x0e-\x1f\x7f-\x9f\u061c\u200e\u200f\u2028\u2029"
     "\u202a-\u202e\u2066-\u2069]"
 )
+# Any character that may need it, CR included: one plain scan finds that a big output needs
+# nothing (three times quicker than the pattern above with its look-ahead).
+_LINES_SUSPECT = re.compile(
+    "[\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200e\u200f\u2028\u2029\u202a-\u202e\u2066-\u2069]"
+)
 
 
 def _escape(match: re.Match[str]) -> str:
@@ -52,7 +57,7 @@ def visible(text: object) -> str:
 def visible_lines(text: str) -> str:
     """A whole document with its line breaks (LF, CR LF) and tabs kept and every other control
     character shown as an escape."""
-    if text.isprintable():
+    if text.isprintable() or _LINES_SUSPECT.search(text) is None:
         return text
     return _LINES_UNSAFE.sub(_escape, text)
 
