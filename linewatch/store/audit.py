@@ -126,10 +126,13 @@ class AuditTrail:
 
     def verify(self) -> Verdict:
         """Walk the whole chain; name the first entry that was edited, removed or moved."""
+        with self.store.snapshot():  # entries and head from one commit, whoever writes now
+            entries = self.entries()
+            head = self.store.get_meta(_HEAD_KEY)
         prev = GENESIS
         expected_seq = 1
         count = 0
-        for e in self.entries():
+        for e in entries:
             count += 1
             if e.seq != expected_seq:
                 return Verdict(
@@ -145,7 +148,6 @@ class AuditTrail:
                 return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
             prev = e.hash
             expected_seq += 1
-        head = self.store.get_meta(_HEAD_KEY)
         if head is not None:
             head_seq, _, head_hash = head.partition(":")
             if int(head_seq) != count or head_hash != prev:

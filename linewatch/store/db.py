@@ -122,6 +122,23 @@ class Store:
                 self._conn.execute("COMMIT")
                 self._commits += 1
 
+    @contextmanager
+    def snapshot(self) -> Iterator[sqlite3.Connection]:
+        """A read transaction: every query inside sees the same commit, whatever other
+        processes write meanwhile (WAL readers keep their snapshot until the end). Inside
+        `transaction()` it simply joins it."""
+        with self._lock:
+            if self._depth > 0:
+                yield self._conn
+                return
+            self._conn.execute("BEGIN DEFERRED")
+            self._depth += 1
+            try:
+                yield self._conn
+            finally:
+                self._depth -= 1
+                self._conn.execute("COMMIT")
+
     @property
     def in_transaction(self) -> bool:
         """True inside `transaction()` (on this store object)."""

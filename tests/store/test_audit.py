@@ -176,3 +176,25 @@ def test_processes_appending_at_once_keep_one_chain(tmp_path: Path) -> None:
         entries = s.audit.entries()
         assert len(entries) == 200 and s.audit.verify().ok
         assert {e.subject for e in entries} == {"a", "b"}
+
+
+def test_verify_while_another_process_writes_never_reports_a_false_break(store: Store) -> None:
+    """The entries and the head record must be read in one snapshot: a writer committing between
+    the two reads used to look like "entries removed from the end"."""
+    import subprocess
+    import sys
+
+    fill(store, 3)
+    writer = subprocess.Popen(
+        [sys.executable, str(Path(__file__).with_name("audit_writer.py")), str(store.directory)],
+        stdout=subprocess.PIPE, text=True,
+    )
+    try:
+        assert writer.stdout is not None and writer.stdout.readline().strip() == "writing"
+        verdicts = [store.audit.verify() for _ in range(40)]
+    finally:
+        writer.terminate()
+        writer.wait(timeout=10)
+    assert len(store.audit.entries()) > 3  # the writer did write meanwhile
+    broken = [v.message for v in verdicts if not v.ok]
+    assert broken == []
