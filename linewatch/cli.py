@@ -195,6 +195,27 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except Exception as exc:
+        damage = _store_damage(exc)
+        if damage is None:
+            raise
+        print(f"linewatch: {damage}", file=sys.stderr)
+        return EXIT_USAGE
+
+
+def _store_damage(exc: BaseException) -> str | None:
+    """One line for a store file damaged or replaced while linewatch had it open (SQLite's
+    "file is not a database", "disk image is malformed"), or None for any other error. Full
+    disks and locks are OperationalErrors: those are retried where they happen, not here."""
+    import sqlite3
+
+    if not isinstance(exc, sqlite3.DatabaseError) or isinstance(exc, sqlite3.OperationalError):
+        return None
+    return (
+        f"the store's database file is damaged or was replaced while in use ({exc}); "
+        "nothing more was collected. Keep the damaged state directory for inspection, "
+        "move it aside, and start again: the logs are read afresh"
+    )
 
 
 if __name__ == "__main__":
