@@ -136,6 +136,12 @@ def build_parser() -> argparse.ArgumentParser:
     audit = sub.add_parser("audit", help="verify or export the tamper-evident audit trail")
     usub = audit.add_subparsers(dest="audit_command", metavar="ACTION", required=True)
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
+    u.add_argument("--anchor", action="append", default=[], metavar="FILE",
+                   help="an anchor file or a shift report holding the trail's head, to check "
+                        "the trail still holds what it held then (repeatable)")
+    u.add_argument("--key", metavar="FILE",
+                   help="the audit key file, to check the entries signed with it (default: "
+                        "the config's monitor.audit_key_file)")
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")

@@ -20,9 +20,14 @@ import re
 from dataclasses import dataclass
 from datetime import datetime
 from pathlib import Path
+from typing import TYPE_CHECKING
 from urllib.parse import quote, unquote
 
 from linewatch.errors import LinewatchError
+
+if TYPE_CHECKING:
+    from linewatch.config import MonitorConfig
+    from linewatch.store.db import Store
 
 MARK = "linewatch-audit-anchor v1"
 _LINE = re.compile(
@@ -90,3 +95,61 @@ def outside(directory: str | Path, path: str | Path) -> bool:
     d = Path(directory).expanduser().resolve()
     p = Path(path).expanduser().resolve()
     return d != p and d not in p.parents
+
+
+def configure_audit(store: Store, monitor: MonitorConfig, source: str = "config") -> (
+    Anchorer | None
+):
+    """Apply the config's audit settings to an open store: the key (when `audit_key_file` is
+    set) signs new entries; the returned Anchorer (when `audit_anchor_file` is set) writes
+    anchors. Both files must lie outside the state directory (ConfigError otherwise)."""
+    from linewatch.errors import ConfigError
+    from linewatch.store.audit import load_key
+
+    for key, path in (("audit_key_file", monitor.audit_key_file),
+                      ("audit_anchor_file", monitor.audit_anchor_file)):
+        if path and not outside(store.directory, path):
+            raise ConfigError(
+                source or "config", f"monitor.{key}",
+                f"{path} is inside the state directory {store.directory}; keep it elsewhere, "
+                "or it is lost or rewritten along with the store",
+            )
+    if monitor.audit_key_file:
+        store.audit.use_key(load_key(monitor.audit_key_file))
+    if monitor.audit_anchor_file:
+        return Anchorer(store, monitor.audit_anchor_file, monitor.audit_anchor_every)
+    return None
+
+
+class Anchorer:
+    """Writes the trail's head to the anchor file: on request (a report, a stop) and whenever
+    `every` entries have been added since the last anchor it wrote."""
+
+    def __init__(self, store: Store, path: str, every: int) -> None:
+        self.store = store
+        self.path = path
+        self.every = every
+        self._last: int | None = None
+
+    def write(self, why: str, head: tuple[int, str] | None = None) -> str | None:
+        """Append an anchor of `head` (default: the trail's head now); returns a problem to
+        report (the file cannot be written) or None. Never raises for the file."""
+        import time
+
+        entries, digest = head if head is not None else self.store.audit.head()
+        line = anchor_line(self.store.directory, entries, digest, time.time(), why)
+        try:
+            append_anchor(self.path, line)
+        except OSError as exc:
+            return f"cannot write the audit anchor to {self.path}: {exc.strerror or exc}"
+        self._last = entries
+        return None
+
+    def maybe(self) -> str | None:
+        """Write an anchor if `every` entries were added since the last one (0: never)."""
+        if not self.every:
+            return None
+        head = self.store.audit.head()
+        if head[0] - (self._last or 0) < self.every:
+            return None
+        return self.write("every", head)
