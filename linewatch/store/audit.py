@@ -47,7 +47,7 @@ ACTIONS = (
     "config-loaded",
 )
 _HEAD_KEY = "audit_head"
-EXPORT_FIELDS = ("seq", "at", "time", "actor", "action", "subject", "payload", "hash")
+EXPORT_FIELDS = ("seq", "at", "time", "actor", "action", "subject", "payload", "hash", "key_id")
 
 
 @dataclass(frozen=True, slots=True)
@@ -234,6 +234,13 @@ class AuditTrail:
                     if not hmac.compare_digest(entry_mac(self._key, *fields), e.hash):
                         return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
                     with_key += 1
+                elif self._key is not None:
+                    return Verdict(
+                        False, e.seq,
+                        f"entry {e.seq} is signed with another key (id {e.key_id}) than the one "
+                        f"given (id {self.key_id}): a wrong key file, or the trail was re-signed "
+                        "by someone else",
+                    )
                 else:
                     foreign.add(e.key_id)
                     unchecked += 1
@@ -251,7 +258,7 @@ class AuditTrail:
                 )
         elif count:
             return Verdict(False, count, "the record of the newest entry is missing")
-        if self._key is not None and count and not with_key and not foreign:
+        if self._key is not None and count and not with_key:
             # a collector started with the key signs its first entry at once; a trail with
             # none signed has never seen the key or was re-hashed without it
             return Verdict(
@@ -332,7 +339,8 @@ class AuditTrail:
             stamp = datetime.fromtimestamp(e.at).astimezone().isoformat(timespec="seconds")
             if writer:
                 writer.writerow(
-                    [e.seq, repr(e.at), stamp, e.actor, e.action, e.subject, e.payload, e.hash]
+                    [e.seq, repr(e.at), stamp, e.actor, e.action, e.subject, e.payload, e.hash,
+                     e.key_id or ""]
                 )
             else:
                 record = {
@@ -344,6 +352,7 @@ class AuditTrail:
                     "subject": e.subject,
                     "payload": json.loads(e.payload),
                     "hash": e.hash,
+                    "key_id": e.key_id,  # null: plain SHA-256, else the key of its HMAC
                 }
                 out.write(json.dumps(record, ensure_ascii=False) + "\n")
         return out.getvalue()

@@ -338,3 +338,27 @@ def test_a_keyed_trail_refuses_keyless_appends(store: Store) -> None:
     with pytest.raises(LinewatchError, match="signed with a key"):
         fill(store, 1)
     assert len(store.audit.entries()) == 1
+
+
+def test_export_says_which_entries_are_signed(store: Store) -> None:
+    from linewatch.store.audit import key_id_of
+
+    fill(store, 1)
+    store.audit.use_key(b"k" * 32)
+    fill(store, 1)
+    records = [json.loads(x) for x in store.audit.export().splitlines()]
+    assert [r["key_id"] for r in records] == [None, key_id_of(b"k" * 32)]
+    rows = list(csv.DictReader(io.StringIO(store.audit.export(fmt="csv"))))
+    assert [r["key_id"] for r in rows] == ["", key_id_of(b"k" * 32)]
+
+
+def test_a_trail_re_signed_with_another_key_is_a_break_for_the_key_holder(store: Store) -> None:
+    store.audit.use_key(b"the-plant-key-32-bytes-long-....")
+    fill(store, 3)
+    raw = sqlite3.connect(store.path)
+    raw.execute("DROP TRIGGER audit_no_update")
+    raw.execute("UPDATE audit SET key_id = 'ffffffffffffffff' WHERE seq >= 2")  # marker only
+    raw.commit()
+    raw.close()
+    ok, first, message = store.audit.verify()
+    assert (ok, first) == (False, 2) and "signed with another key" in message
