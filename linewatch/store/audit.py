@@ -130,6 +130,12 @@ class AuditTrail:
         self._key: bytes | None = None
         self.key_id: str | None = None
 
+    @property
+    def key(self) -> bytes | None:
+        """The key new entries are signed with (None: keyless), to share with another
+        connection of the same process."""
+        return self._key
+
     def use_key(self, key: bytes | None) -> None:
         """MAC new entries (and check keyed ones) with `key`; None: keyless."""
         self._key = key

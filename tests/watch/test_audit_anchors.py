@@ -44,3 +44,40 @@ def test_collector_anchors_every_n_entries_and_at_stop(tmp_path: Path) -> None:
         capture_output=True, text=True, timeout=60,
     )
     assert verify.returncode == 0 and "chain + anchors" in verify.stdout, verify.stdout
+
+
+def test_the_screens_acknowledgements_are_signed_with_the_configured_key(tmp_path: Path) -> None:
+    """The screen acts through a store connection of its own: it must sign as the collector
+    does, or every acknowledgement on a keyed line is refused."""
+    import threading
+
+    from linewatch.config import parse_config
+    from linewatch.face import MonitorFace
+    from linewatch.monitor import Monitor, WatchPlan
+    from linewatch.store.audit import key_id_of
+
+    log = tmp_path / "od.csv"
+    log.write_text(HEADER + "".join(rows_text(process_series(200, seed=5))))
+    key = tmp_path / "audit.key"
+    key.write_text("a-key-of-at-least-16-bytes\n")
+    config = parse_config(f'[monitor]\naudit_key_file = "{key}"\n[[feed]]\npaths = ["{log}"]\n')
+    plan = WatchPlan(config=config, feeds=config.feeds, characteristics=[], columns=None,
+                     baseline=20)
+    monitor = Monitor(plan, tmp_path / "state")
+    stop_event = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop_event,), daemon=True)
+    worker.start()
+    face = MonitorFace(monitor)
+    try:
+        deadline = time.monotonic() + 20
+        while time.monotonic() < deadline and not face.store.alarms.open():
+            time.sleep(0.05)
+        first = face.store.alarms.open()[0]
+        face.acknowledge([first.id], "tool wear")
+    finally:
+        stop_event.set()
+        worker.join(timeout=10)
+        face.close()
+    with Store(tmp_path / "state", create=False) as store:
+        acks = [e for e in store.audit.entries() if e.action == "acknowledged"]
+    assert acks and acks[0].key_id == key_id_of(b"a-key-of-at-least-16-bytes")
