@@ -136,6 +136,12 @@ def build_parser() -> argparse.ArgumentParser:
     audit = sub.add_parser("audit", help="verify or export the tamper-evident audit trail")
     usub = audit.add_subparsers(dest="audit_command", metavar="ACTION", required=True)
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
+    u.add_argument("--anchor", action="append", default=[], metavar="FILE",
+                   help="an anchor file or a shift report holding the trail's head, to check "
+                        "the trail still holds what it held then (repeatable)")
+    u.add_argument("--key", metavar="FILE",
+                   help="the audit key file, to check the entries signed with it (default: "
+                        "the config's monitor.audit_key_file)")
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
@@ -214,6 +220,27 @@ def _main(argv: Sequence[str] | None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except Exception as exc:
+        damage = _store_damage(exc)
+        if damage is None:
+            raise
+        print(f"linewatch: {damage}", file=sys.stderr)
+        return EXIT_USAGE
+
+
+def _store_damage(exc: BaseException) -> str | None:
+    """One line for a store file damaged or replaced while linewatch had it open (SQLite's
+    "file is not a database", "disk image is malformed"), or None for any other error. Full
+    disks and locks are OperationalErrors: those are retried where they happen, not here."""
+    import sqlite3
+
+    if not isinstance(exc, sqlite3.DatabaseError) or isinstance(exc, sqlite3.OperationalError):
+        return None
+    return (
+        f"the store's database file is damaged or was replaced while in use ({exc}); "
+        "nothing more was collected. Keep the damaged state directory for inspection, "
+        "move it aside, and start again: the logs are read afresh"
+    )
 
 if __name__ == "__main__":
     raise SystemExit(main())

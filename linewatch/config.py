@@ -3,7 +3,7 @@
 Layout of a config file (all tables optional; see config/*.toml for commented examples):
 
     [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline,
-                       shared_group
+                       shared_group, audit_anchor_file, audit_anchor_every, audit_key_file
     [alarms]           priorities, hook, hook_timeout, reasons
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
@@ -50,6 +50,7 @@ DISPERSIONS = ("range", "stdev")
 DEFAULT_WATCH_BASELINE = 25
 DEFAULT_STALE_AFTER = 600.0
 DEFAULT_STUCK_REPEATS = 10
+DEFAULT_ANCHOR_EVERY = 100
 
 
 @dataclass(slots=True)
@@ -122,6 +123,9 @@ class MonitorConfig:
     bell: bool = True
     baseline: int = DEFAULT_WATCH_BASELINE
     shared_group: bool = False
+    audit_anchor_file: str | None = None  # append the trail's head here (outside the store)
+    audit_anchor_every: int = DEFAULT_ANCHOR_EVERY  # ... also every N entries (0: report/stop)
+    audit_key_file: str | None = None  # HMAC key for new audit entries (outside the store)
 
 
 @dataclass(slots=True)
@@ -228,7 +232,7 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
     r = _Reader(path, "monitor", table)
     r.check_known(
         {"state_dir", "poll_seconds", "stale_after", "stuck_repeats", "bell", "baseline",
-         "shared_group"}
+         "shared_group", "audit_anchor_file", "audit_anchor_every", "audit_key_file"}
     )
     poll = r.duration("poll_seconds", 0.0)
     return MonitorConfig(
@@ -240,6 +244,10 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
         baseline=r.integer("baseline", DEFAULT_WATCH_BASELINE, 2, 10_000_000)
         or DEFAULT_WATCH_BASELINE,
         shared_group=r.boolean("shared_group", False),
+        audit_anchor_file=r.string("audit_anchor_file") or None,
+        audit_anchor_every=r.integer("audit_anchor_every", DEFAULT_ANCHOR_EVERY, 0, 10_000_000)
+        or 0,
+        audit_key_file=r.string("audit_key_file") or None,
     )
 
 
@@ -401,6 +409,11 @@ def load_config(path: str | Path) -> Config:
     base = p.resolve().parent
     for feed in config.feeds:
         feed.paths = [q if Path(q).is_absolute() else str(base / q) for q in feed.paths]
-    if config.monitor.state_dir and not Path(config.monitor.state_dir).is_absolute():
-        config.monitor.state_dir = str(base / config.monitor.state_dir)
+    mon = config.monitor
+    if mon.state_dir and not Path(mon.state_dir).is_absolute():
+        mon.state_dir = str(base / mon.state_dir)
+    if mon.audit_anchor_file and not Path(mon.audit_anchor_file).expanduser().is_absolute():
+        mon.audit_anchor_file = str(base / mon.audit_anchor_file)
+    if mon.audit_key_file and not Path(mon.audit_key_file).expanduser().is_absolute():
+        mon.audit_key_file = str(base / mon.audit_key_file)
     return config

@@ -24,6 +24,7 @@ class MonitorFace:
         self.monitor = monitor
         self.store = open_store(monitor.state_dir, create=True,
                                 shared_group=monitor.config.monitor.shared_group)
+        self.store.audit.use_key(monitor.store.audit.key)  # sign actions as the monitor does
         self.alarms = AlarmBook(self.store, monitor.config)
         self._lock = threading.Lock()
 

@@ -39,6 +39,7 @@ if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.feeds.tailer import TailChunk, Tailer
     from linewatch.feeds.watcher import Waker
     from linewatch.hooks import HookOutcome, HookRunner
+    from linewatch.store.anchors import Anchorer
 
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
@@ -80,6 +81,7 @@ class Monitor:
         self.state_dir = Path(state_dir)
         self.store = open_store(self.state_dir, create=True,
                                 shared_group=plan.config.monitor.shared_group)
+        self.anchorer = self._configure_audit()
         self.alarms = AlarmBook(self.store, plan.config)
         self.instance = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
         self.lease = Lease(self.store, self.instance)
@@ -108,6 +110,25 @@ class Monitor:
         self._seen_data_version: int | None = None
         self._announced = False
         self.alarms.load_config(plan.config)
+
+    def _configure_audit(self) -> Anchorer | None:
+        """The audit key and anchor file of the config (the store is closed on a bad one)."""
+        from linewatch.store.anchors import configure_audit
+
+        try:
+            return configure_audit(self.store, self.config.monitor, self.config.source)
+        except BaseException:
+            self.store.close()
+            raise
+
+    def _anchor(self, why: str | None = None) -> None:
+        """Write an audit anchor now (`why`) or when enough entries were added; a file that
+        cannot be written is reported, never fatal."""
+        if self.anchorer is None:
+            return
+        problem = self.anchorer.write(why) if why else self.anchorer.maybe()
+        if problem:
+            self.emit({"type": "error", "problem": problem})
 
     @property
     def title(self) -> str:
@@ -230,6 +251,8 @@ class Monitor:
             self.tailer.close()
         if self.role == "collector":
             with contextlib.suppress(Exception):  # best effort on the way out
+                self._anchor("stop")
+            with contextlib.suppress(Exception):  # best effort on the way out
                 self.lease.release()
         self.store.close()
 
@@ -259,6 +282,7 @@ class Monitor:
         for rec in records:
             self.emit(rec)
         self._run_hooks(raised)
+        self._anchor()
         version = self.store.data_version()
         if events or raised or version != self._seen_data_version:
             self._seen_data_version = version

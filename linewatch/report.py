@@ -18,6 +18,7 @@ from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, Limits
 if TYPE_CHECKING:
     from linewatch.config import Config
     from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.audit import Verdict
     from linewatch.store.db import Store
 
 
@@ -178,6 +179,7 @@ class ShiftReport:
     audit_ok: bool
     audit_message: str
     audit_entries: int  # entries written in the period
+    audit_anchor: str = ""  # the trail's head as an anchor line (see store/anchors.py)
 
     def alarm_tally(self) -> str:
         """One sentence: how many alarms, how many acknowledged and how fast, how many not."""
@@ -369,9 +371,28 @@ def build_report(
         FeedLine(r.at, r.event.kind, r.event.file, r.event.detail)
         for r in store.history.feed_events(since, until)
     ]
-    verdict = store.audit.verify()
+    verdict, anchor = _audit_state(store, now)
     return ShiftReport(
         since=since, until=until, made_at=now, state_dir=str(store.directory.resolve()),
         characteristics=parts, alarms=alarms, limits=limits, feed_events=feed,
         audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=len(period),
+        audit_anchor=anchor,
     )
+
+
+def _audit_state(store: Store, now: float) -> tuple[Verdict, str]:
+    """The trail's verdict and its head as an anchor line, read from one commit: the report
+    is itself an anchor kept outside the store (`audit verify --anchor REPORT`)."""
+    from linewatch.store.anchors import anchor_line
+
+    with store.snapshot():
+        verdict = store.audit.verify()
+        entries, head = store.audit.head()
+    return verdict, anchor_line(store.directory, entries, head, now, "report")
+
+
+def anchor_sentence() -> str:
+    """What the report's anchor line is for, in one sentence (all formats)."""
+    return ("Audit anchor (file a copy of this report away from the line PC; "
+            "`linewatch audit verify --anchor REPORT` checks the trail still holds what "
+            "it held now):")

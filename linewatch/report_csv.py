@@ -22,6 +22,9 @@ def render_csv(report: ShiftReport) -> str:
     w.writerow(["period", local_time(r.since), local_time(r.until), local_time(r.made_at),
                 "ok" if r.audit_ok else "broken", r.audit_message, r.audit_entries])
     w.writerow([])
+    w.writerow(["section", "anchor"])  # the trail's head, for `audit verify --anchor`
+    w.writerow(["audit-anchor", r.audit_anchor])
+    w.writerow([])
     w.writerow(["section", "characteristic", "unit", "lsl", "usl", "n", "mean", "sd",
                 "ci95_low", "ci95_high", "cp", "cp_ci95_low", "cp_ci95_high", "cpk",
                 "cpk_ci95_low", "cpk_ci95_high", "ppm_out", "alarms_by_rule"])

@@ -7,6 +7,7 @@ from html import escape
 
 from linewatch.report import (
     ShiftReport,
+    anchor_sentence,
     clock_time,
     interval,
     local_time,
@@ -79,6 +80,14 @@ def _table(
     return f"{table}<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
 
 
+def _anchor_html(r: ShiftReport) -> list[str]:
+    """The trail's head as an anchor line (its own small paragraph, after the verdict)."""
+    if not r.audit_anchor:
+        return []
+    return [f'<p class="meta">{escape(anchor_sentence())}<br><code>{escape(r.audit_anchor)}'
+            "</code></p>"]
+
+
 def render_html(report: ShiftReport) -> str:
     """The whole report as one HTML document."""
     r = report
@@ -102,6 +111,7 @@ def render_html(report: ShiftReport) -> str:
         f'<p><span class="verdict {verdict}">{label}</span> {escape(r.audit_message)}. '
         f"Entries written in this period: {r.audit_entries}.</p>"
     )
+    out += _anchor_html(r)
     if r.empty:
         out.append(
             f'<p class="empty">Nothing was recorded between {escape(local_time(r.since))} and '

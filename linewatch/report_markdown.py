@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from linewatch.report import (
     ShiftReport,
+    anchor_sentence,
     clock_time,
     interval,
     local_time,
@@ -28,6 +29,13 @@ def _table(header: list[str], rows: list[list[object]]) -> list[str]:
     return out
 
 
+def _anchor_lines(r: ShiftReport) -> list[str]:
+    """The trail's head as an anchor line (its own small section, after the verdict)."""
+    if not r.audit_anchor:
+        return []
+    return [anchor_sentence(), "", f"`{r.audit_anchor}`", ""]
+
+
 def render_markdown(report: ShiftReport) -> str:
     """The whole report as one Markdown document."""
     r = report
@@ -47,6 +55,7 @@ def render_markdown(report: ShiftReport) -> str:
         f"Entries written in this period: {r.audit_entries}.",
         "",
     ]
+    lines += _anchor_lines(r)
     if r.empty:
         lines += [
             f"Nothing was recorded between {local_time(r.since)} and {local_time(r.until)}: "

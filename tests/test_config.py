@@ -86,6 +86,9 @@ def test_a_good_config_is_read_with_its_defaults(tmp_path):
         ("[alarms]\nhook = 'rm -rf /'\n", "alarms.hook", "never a shell command line"),
         ("[alarms.priorities]\nout-of-spec = 0\n", "alarms.priorities.out-of-spec",
          "between 1 and 99"),
+        ("[monitor]\naudit_anchor_every = -1\n", "monitor.audit_anchor_every",
+         "between 0 and"),
+        ("[monitor]\naudit_key_file = 42\n", "monitor.audit_key_file", "must be a string"),
         ("this is = = not toml", "(syntax)", ""),
     ],
 )
@@ -108,3 +111,13 @@ def test_the_command_line_reports_a_bad_config_in_one_line_with_exit_2(tmp_path)
     assert res.stderr.strip().splitlines() == [
         f"linewatch: {cfg}: characteristic.od.lsl: must be below usl (2.0 >= 1.0)"
     ]
+
+
+def test_audit_files_are_taken_from_the_config_folder(tmp_path):
+    (tmp_path / "line.toml").write_text(
+        '[monitor]\naudit_anchor_file = "trail/anchors.log"\naudit_key_file = "/etc/lw.key"\n'
+    )
+    mon = load_config(tmp_path / "line.toml").monitor
+    assert mon.audit_anchor_file == str(tmp_path.resolve() / "trail" / "anchors.log")
+    assert mon.audit_key_file == "/etc/lw.key"
+    assert mon.audit_anchor_every == 100  # the default

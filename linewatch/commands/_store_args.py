@@ -20,4 +20,13 @@ def open_existing(args: argparse.Namespace) -> tuple[Store, Config | None]:
 
         config = load_config(args.config)
     directory = resolve_state_dir(getattr(args, "state_dir", None), config)
-    return open_store(directory, create=False), config
+    store = open_store(directory, create=False)
+    if config is not None:  # its audit key signs what this command writes
+        from linewatch.store.anchors import configure_audit
+
+        try:
+            configure_audit(store, config.monitor, config.source)
+        except BaseException:
+            store.close()
+            raise
+    return store, config

@@ -7,8 +7,13 @@ import sys
 import time
 from datetime import datetime
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from linewatch.errors import LinewatchError
+
+if TYPE_CHECKING:
+    from linewatch.config import Config
+    from linewatch.store.db import Store
 
 DEFAULT_SPAN = "8h"
 
@@ -44,6 +49,20 @@ def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
     return since, until
 
 
+def _write_anchor(store: Store, config: Config | None, line: str) -> None:
+    """Append the report's anchor to the config's anchor file (if any); a failure is told on
+    stderr and does not stop the report."""
+    if config is None or not config.monitor.audit_anchor_file:
+        return
+    from linewatch.store.anchors import append_anchor
+
+    try:
+        append_anchor(config.monitor.audit_anchor_file, line)
+    except OSError as exc:
+        print(f"linewatch: cannot write the audit anchor to {config.monitor.audit_anchor_file}: "
+              f"{exc.strerror or exc}", file=sys.stderr)
+
+
 def run(args: argparse.Namespace) -> int:
     """Write the report to -o FILE or standard output; exit 0 (an empty period included)."""
     from linewatch.commands._store_args import open_existing
@@ -54,6 +73,7 @@ def run(args: argparse.Namespace) -> int:
     store, config = open_existing(args)
     try:
         report = build_report(store, since, until, config, now)
+        _write_anchor(store, config, report.audit_anchor)
     finally:
         store.close()
     if args.format == "html":

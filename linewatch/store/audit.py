@@ -5,24 +5,34 @@ breaks the chain from that point on.
 The newest sequence number and hash are also kept in `meta`, so removing entries from the end
 (which a chain alone cannot reveal) is detected too. Triggers refuse UPDATE and DELETE on the
 table; the chain is what catches someone who removes the triggers first.
+
+A keyless chain can be recomputed by anyone who can write the file. Two defences reach further:
+anchors (the head written outside the store, see `anchors.py`) reveal a trail shortened or
+rewritten after the anchor, and a key held outside the state directory (`use_key`) turns each
+new entry's hash into an HMAC-SHA256 that cannot be recomputed without it. Each entry records
+the id of the key it was made with (NULL: keyless), so older keyless entries stay verifiable;
+once an entry is keyed, a later keyless one is a break.
 """
 
 from __future__ import annotations
 
 import csv
 import hashlib
+import hmac
 import io
 import json
 import time
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
+from linewatch.errors import LinewatchError
 from linewatch.safe_text import json_safe
 from linewatch.store.actor import current_actor
 
 if TYPE_CHECKING:
+    from linewatch.store.anchors import Anchor
     from linewatch.store.db import Store
 
 GENESIS = "0" * 64
@@ -38,7 +48,7 @@ ACTIONS = (
     "config-loaded",
 )
 _HEAD_KEY = "audit_head"
-EXPORT_FIELDS = ("seq", "at", "time", "actor", "action", "subject", "payload", "hash")
+EXPORT_FIELDS = ("seq", "at", "time", "actor", "action", "subject", "payload", "hash", "key_id")
 
 
 @dataclass(frozen=True, slots=True)
@@ -53,15 +63,18 @@ class AuditEntry:
     payload: str
     prev_hash: str
     hash: str
+    key_id: str | None = None  # the key its hash is an HMAC with; None: plain SHA-256
 
 
 @dataclass(frozen=True, slots=True)
 class Verdict:
-    """The outcome of `verify()`: ok, the first broken sequence number (or None), a message."""
+    """The outcome of `verify()`: ok, the first broken sequence number (or None), a message,
+    and which checks could be made ("chain only", "chain + anchors", "chain + key", ...)."""
 
     ok: bool
     first_broken: int | None
     message: str
+    checks: str = "chain only"
 
     def __iter__(self) -> Iterator[Any]:  # allows `ok, seq, message = trail.verify()`
         return iter((self.ok, self.first_broken, self.message))
@@ -80,11 +93,65 @@ def entry_hash(
     return hashlib.sha256((prev_hash + content).encode("utf-8")).hexdigest()
 
 
+def key_id_of(key: bytes) -> str:
+    """A short public name of a key (16 hex), telling which key made an entry's MAC."""
+    return hashlib.sha256(b"linewatch audit key id\0" + key).hexdigest()[:16]
+
+
+def entry_mac(
+    key: bytes, prev_hash: str, seq: int, at: float, actor: str, action: str, subject: str,
+    payload: str,
+) -> str:
+    """HMAC-SHA256 with `key` over the same bytes `entry_hash` hashes."""
+    content = canonical_json([seq, at, actor, action, subject, payload])
+    return hmac.new(key, (prev_hash + content).encode("utf-8"), hashlib.sha256).hexdigest()
+
+
+def load_key(path: str) -> bytes:
+    """The audit key from its file (surrounding white space dropped; at least 16 bytes)."""
+    from pathlib import Path
+
+    try:
+        key = Path(path).expanduser().read_bytes().strip()
+    except OSError as exc:
+        raise LinewatchError(f"audit key file {path}: cannot read: {exc.strerror or exc}") from None
+    if len(key) < 16:
+        raise LinewatchError(
+            f"audit key file {path}: holds {len(key)} bytes; use at least 16 random bytes "
+            "(e.g. `head -c 32 /dev/urandom | base64 > FILE`)"
+        )
+    return key
+
+
 class AuditTrail:
     """Append, verify and export the audit chain."""
 
     def __init__(self, store: Store) -> None:
         self.store = store
+        self._key: bytes | None = None
+        self.key_id: str | None = None
+
+    @property
+    def key(self) -> bytes | None:
+        """The key new entries are signed with (None: keyless), to share with another
+        connection of the same process."""
+        return self._key
+
+    def use_key(self, key: bytes | None) -> None:
+        """MAC new entries (and check keyed ones) with `key`; None: keyless."""
+        self._key = key
+        self.key_id = key_id_of(key) if key is not None else None
+
+    def _digest(self, prev: str, seq: int, at: float, actor: str, action: str, subject: str,
+                body: str) -> str:
+        if self._key is None:
+            return entry_hash(prev, seq, at, actor, action, subject, body)
+        return entry_mac(self._key, prev, seq, at, actor, action, subject, body)
+
+    def head(self) -> tuple[int, str]:
+        """(number of entries, hash of the newest) as the table holds them now."""
+        row = self.store.query("SELECT seq, hash FROM audit ORDER BY seq DESC LIMIT 1")
+        return (int(row[0][0]), str(row[0][1])) if row else (0, GENESIS)
 
     def append(
         self,
@@ -101,36 +168,52 @@ class AuditTrail:
         actor = actor or current_actor()
         body = canonical_json(payload or {})
         with self.store.transaction() as conn:
-            last = conn.execute("SELECT seq, hash FROM audit ORDER BY seq DESC LIMIT 1").fetchone()
+            last = conn.execute(
+                "SELECT seq, hash, key_id FROM audit ORDER BY seq DESC LIMIT 1"
+            ).fetchone()
+            if last is not None and last[2] is not None and self._key is None:
+                raise LinewatchError(
+                    "this store's audit trail is signed with a key: use the config that names "
+                    "it (monitor.audit_key_file), so this change is signed too"
+                )
             seq, prev = (last[0] + 1, last[1]) if last else (1, GENESIS)
-            digest = entry_hash(prev, seq, at, actor, action, subject, body)
+            digest = self._digest(prev, seq, at, actor, action, subject, body)
             conn.execute(
-                "INSERT INTO audit (seq, at, actor, action, subject, payload, prev_hash, hash) "
-                "VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                (seq, at, actor, action, subject, body, prev, digest),
+                "INSERT INTO audit (seq, at, actor, action, subject, payload, prev_hash, hash, "
+                "key_id) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (seq, at, actor, action, subject, body, prev, digest, self.key_id),
             )
             conn.execute(
                 "INSERT INTO meta (key, value) VALUES (?, ?) "
                 "ON CONFLICT (key) DO UPDATE SET value = excluded.value",
                 (_HEAD_KEY, f"{seq}:{digest}"),
             )
-        return AuditEntry(seq, at, actor, action, subject, body, prev, digest)
+        return AuditEntry(seq, at, actor, action, subject, body, prev, digest, self.key_id)
 
     def entries(self, since: float | None = None) -> list[AuditEntry]:
         """Entries with `at` >= since (all by default), in chain order."""
         rows = self.store.query(
-            "SELECT seq, at, actor, action, subject, payload, prev_hash, hash FROM audit "
+            "SELECT seq, at, actor, action, subject, payload, prev_hash, hash, key_id FROM audit "
             "WHERE at >= ? ORDER BY seq",
             (-1e300 if since is None else since,),
         )
         return [AuditEntry(*tuple(r)) for r in rows]
 
-    def verify(self) -> Verdict:
-        """Walk the whole chain; name the first entry that was edited, removed or moved."""
+    def verify(self, anchors: Sequence[Anchor] | None = None) -> Verdict:
+        """Walk the whole chain; name the first entry that was edited, removed or moved. With
+        `anchors` (heads recorded outside the store) also detect a trail shortened, emptied or
+        rewritten after an anchor was made. The verdict says which checks could be made."""
+        with self.store.snapshot():  # entries and head from one commit, whoever writes now
+            entries = self.entries()
+            head = self.store.get_meta(_HEAD_KEY)
         prev = GENESIS
         expected_seq = 1
         count = 0
-        for e in self.entries():
+        keyed_from: int | None = None
+        with_key = 0  # keyed entries whose MAC was recomputed
+        foreign: set[str] = set()  # ids of keys we do not hold
+        unchecked = 0  # keyed entries whose MAC we cannot recompute (links still checked)
+        for e in entries:
             count += 1
             if e.seq != expected_seq:
                 return Verdict(
@@ -142,11 +225,34 @@ class AuditTrail:
                 return Verdict(
                     False, e.seq, f"entry {e.seq} does not follow entry {e.seq - 1} (link broken)"
                 )
-            if entry_hash(prev, e.seq, e.at, e.actor, e.action, e.subject, e.payload) != e.hash:
-                return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
+            fields = (prev, e.seq, e.at, e.actor, e.action, e.subject, e.payload)
+            if e.key_id is None:
+                if keyed_from is not None:
+                    return Verdict(
+                        False, e.seq,
+                        f"entry {e.seq} carries no key although entries from {keyed_from} on "
+                        "were signed with one (re-hashed without the key)",
+                    )
+                if entry_hash(*fields) != e.hash:
+                    return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
+            else:
+                keyed_from = e.seq if keyed_from is None else keyed_from
+                if self._key is not None and e.key_id == self.key_id:
+                    if not hmac.compare_digest(entry_mac(self._key, *fields), e.hash):
+                        return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
+                    with_key += 1
+                elif self._key is not None:
+                    return Verdict(
+                        False, e.seq,
+                        f"entry {e.seq} is signed with another key (id {e.key_id}) than the one "
+                        f"given (id {self.key_id}): a wrong key file, or the trail was re-signed "
+                        "by someone else",
+                    )
+                else:
+                    foreign.add(e.key_id)
+                    unchecked += 1
             prev = e.hash
             expected_seq += 1
-        head = self.store.get_meta(_HEAD_KEY)
         if head is not None:
             head_seq, _, head_hash = head.partition(":")
             if int(head_seq) != count or head_hash != prev:
@@ -159,7 +265,74 @@ class AuditTrail:
                 )
         elif count:
             return Verdict(False, count, "the record of the newest entry is missing")
-        return Verdict(True, None, f"{count} entries, chain intact")
+        if self._key is not None and count and not with_key:
+            # a collector started with the key signs its first entry at once; a trail with
+            # none signed has never seen the key or was re-hashed without it
+            return Verdict(
+                False, None,
+                f"none of the {count} entries is signed with the key given: the trail was "
+                "re-hashed without the key, or the key was never used on this store",
+            )
+        message = f"{count} entries, chain intact"
+        checks = ["chain"]
+        if with_key:
+            checks.append("key")
+            message += f"; {with_key} entries signed with the key check out"
+        if foreign:
+            message += (
+                f"; {unchecked} signed entries could not be checked without their key "
+                f"(id {', '.join(sorted(foreign))}): only their links were"
+            )
+        if anchors is not None:
+            broken = self._against_anchors(entries, anchors)
+            if broken is not None:
+                return broken
+            mine = self._anchors_for_me(anchors)
+            newest = max(mine, key=lambda a: a.entries)
+            checks.append("anchors")
+            message += (
+                f"; agrees with {len(mine)} anchor{'s' if len(mine) != 1 else ''} "
+                f"(the largest: {newest.entries} entries at {newest.at})"
+            )
+        label = " + ".join(checks) if len(checks) > 1 else "chain only"
+        return Verdict(True, None, message, label)
+
+    def _anchors_for_me(self, anchors: Sequence[Anchor]) -> list[Anchor]:
+        from linewatch.store.anchors import store_key
+
+        me = store_key(self.store.directory)
+        return [a for a in anchors if a.store == me]
+
+    def _against_anchors(self, entries: list[AuditEntry], anchors: Sequence[Anchor]) -> (
+        Verdict | None
+    ):
+        """The first disagreement between the trail and the anchors of this store, or None."""
+        mine = self._anchors_for_me(anchors)
+        if not mine:
+            named = sorted({a.store for a in anchors})
+            return Verdict(
+                False, None,
+                (f"none of the {len(anchors)} anchors given is for this state directory "
+                 f"(they name {', '.join(named)}): the store was moved or replaced, or the "
+                 "wrong anchor file was given") if anchors else
+                "no anchor was found in the files given",
+            )
+        count = len(entries)
+        for a in sorted(mine, key=lambda a: a.entries):
+            where = f"the anchor of {a.at} ({a.why}{', ' + a.source if a.source else ''})"
+            if a.entries > count:
+                return Verdict(
+                    False, count + 1,
+                    f"{where} records {a.entries} entries but the trail holds {count}: "
+                    "entries were removed or the store was replaced",
+                )
+            if a.entries and entries[a.entries - 1].hash != a.head:
+                return Verdict(
+                    False, a.entries,
+                    f"entry {a.entries} is not the one {where} records: the trail was "
+                    "rewritten up to there",
+                )
+        return None
 
     def export(self, since: float | None = None, fmt: str = "jsonl") -> str:
         """The entries since `since` as CSV (with a header) or JSON lines."""
@@ -173,7 +346,8 @@ class AuditTrail:
             stamp = datetime.fromtimestamp(e.at).astimezone().isoformat(timespec="seconds")
             if writer:
                 writer.writerow(
-                    [e.seq, repr(e.at), stamp, e.actor, e.action, e.subject, e.payload, e.hash]
+                    [e.seq, repr(e.at), stamp, e.actor, e.action, e.subject, e.payload, e.hash,
+                     e.key_id or ""]
                 )
             else:
                 record = {
@@ -185,6 +359,7 @@ class AuditTrail:
                     "subject": e.subject,
                     "payload": json.loads(e.payload),
                     "hash": e.hash,
+                    "key_id": e.key_id,  # null: plain SHA-256, else the key of its HMAC
                 }
                 out.write(json_safe(json.dumps(record, ensure_ascii=False)) + "\n")
         return out.getvalue()

@@ -15,6 +15,7 @@ from __future__ import annotations
 import os
 import sqlite3
 import threading
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from functools import cached_property
@@ -45,8 +46,13 @@ def _prepare(directory: Path, shared_group: bool) -> Path:
     dir_mode, file_mode = SHARED_MODES if shared_group else PRIVATE_MODES
     try:
         if not directory.exists():
-            directory.mkdir(mode=dir_mode, parents=True)
-            os.chmod(directory, dir_mode)  # mkdir's mode is filtered by the umask
+            try:
+                directory.mkdir(mode=dir_mode, parents=True)
+            except FileExistsError:  # another instance created it at the same moment
+                if not directory.is_dir():
+                    raise
+            else:
+                os.chmod(directory, dir_mode)  # mkdir's mode is filtered by the umask
         db = directory / DB_NAME
         if not db.exists():
             fd = os.open(db, os.O_CREAT | os.O_WRONLY, file_mode)
@@ -75,18 +81,35 @@ class Store:
         self._lock = threading.RLock()
         self._depth = 0
         self._commits = 0
-        try:
-            self._conn = sqlite3.connect(
-                db, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False
-            )
-            self._conn.row_factory = sqlite3.Row
-            self._conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-            self._conn.execute("PRAGMA journal_mode = WAL")
-            self._conn.execute("PRAGMA synchronous = FULL")
-            self._conn.execute("PRAGMA foreign_keys = ON")
-            self._migrate()
-        except sqlite3.DatabaseError as exc:
-            raise StoreError(f"{db}: not a usable linewatch store ({exc})") from None
+        deadline = time.monotonic() + BUSY_TIMEOUT_MS / 1000
+        while True:
+            try:
+                self._open(db)
+                break
+            except sqlite3.OperationalError as exc:
+                # Two instances opening a new file at the same moment: while one switches it
+                # to WAL and migrates, SQLite answers the other "locked" at once, without
+                # waiting (it would risk a deadlock). Start again from the connect.
+                self._conn.close()
+                if not _is_busy(exc) or time.monotonic() > deadline:
+                    raise StoreError(f"{db}: not a usable linewatch store ({exc})") from None
+                time.sleep(0.05)
+            except sqlite3.DatabaseError as exc:
+                self._conn.close()
+                raise StoreError(f"{db}: not a usable linewatch store ({exc})") from None
+
+    def _open(self, db: Path) -> None:
+        """Connect, set the durability pragmas and bring the schema forward."""
+        self._conn = sqlite3.connect(
+            db, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False
+        )
+        self._conn.row_factory = sqlite3.Row
+        self._conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        self._conn.execute("PRAGMA journal_mode = WAL")
+        self._conn.execute("PRAGMA synchronous = FULL")
+        self._conn.execute("PRAGMA foreign_keys = ON")
+        self._depth = 0
+        self._migrate()
 
     # -- lifecycle --------------------------------------------------------------------------
 
@@ -121,6 +144,23 @@ class Store:
             if self._depth == 0:
                 self._conn.execute("COMMIT")
                 self._commits += 1
+
+    @contextmanager
+    def snapshot(self) -> Iterator[sqlite3.Connection]:
+        """A read transaction: every query inside sees the same commit, whatever other
+        processes write meanwhile (WAL readers keep their snapshot until the end). Inside
+        `transaction()` it simply joins it."""
+        with self._lock:
+            if self._depth > 0:
+                yield self._conn
+                return
+            self._conn.execute("BEGIN DEFERRED")
+            self._depth += 1
+            try:
+                yield self._conn
+            finally:
+                self._depth -= 1
+                self._conn.execute("COMMIT")
 
     @property
     def in_transaction(self) -> bool:
@@ -223,6 +263,12 @@ class Store:
         from linewatch.store.audit import AuditTrail
 
         return AuditTrail(self)
+
+
+def _is_busy(exc: sqlite3.OperationalError) -> bool:
+    """True for SQLite's "database is locked" / "busy" answers (another connection writes)."""
+    text = str(exc).lower()
+    return "locked" in text or "busy" in text
 
 
 def _split_sql(script: str) -> list[str]:

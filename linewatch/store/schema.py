@@ -144,4 +144,9 @@ MIGRATIONS: tuple[str, ...] = (
     CREATE INDEX feed_events_by_file ON feed_events (file, kind, at);
     CREATE INDEX alarms_by_characteristic ON alarms (characteristic, last_index);
     """,
+    # 6: which key (if any) an audit entry's hash is an HMAC with, so keyless entries written
+    # before a key was configured stay verifiable beside keyed ones.
+    """
+    ALTER TABLE audit ADD COLUMN key_id TEXT;
+    """,
 )

@@ -83,3 +83,87 @@ def test_parse_since_forms() -> None:
     ).timestamp()
     with pytest.raises(LinewatchError):
         parse_since("last tuesday")
+
+
+# -- anchors and the key, as a user runs them ---------------------------------------------------
+
+def emptied(state: Path) -> None:
+    """The store truncated to 0 bytes while nothing runs (WAL side files gone with it)."""
+    (state / DB_NAME).write_bytes(b"")
+    for extra in ("-wal", "-shm"):
+        (state / (DB_NAME + extra)).unlink(missing_ok=True)
+
+
+def test_verify_says_which_check_it_made(state: Path) -> None:
+    out = linewatch("audit", "verify", "--state-dir", str(state))
+    assert out.returncode == 0 and "checked: chain only" in out.stdout
+
+
+@pytest.mark.parametrize("fmt", ["markdown", "html", "csv"])
+def test_a_shift_report_is_an_anchor_that_reveals_an_emptied_store(
+    state: Path, tmp_path: Path, fmt: str
+) -> None:
+    report = tmp_path / f"shift.{fmt}"
+    made = linewatch("report", "--format", fmt, "-o", str(report), "--state-dir", str(state))
+    assert made.returncode == 0, made.stderr
+    same = linewatch("audit", "verify", "--anchor", str(report), "--state-dir", str(state))
+    assert same.returncode == 0, same.stdout
+    assert "checked: chain + anchors" in same.stdout
+    emptied(state)
+    chain_only = linewatch("audit", "verify", "--state-dir", str(state))
+    assert chain_only.returncode == 0  # what a chain alone cannot see
+    anchored = linewatch("audit", "verify", "--anchor", str(report), "--state-dir", str(state))
+    assert anchored.returncode == 1
+    assert "BROKEN at entry 1" in anchored.stdout and "the trail holds 0" in anchored.stdout
+
+
+def test_an_anchor_argument_without_anchors_is_a_user_error(state: Path, tmp_path: Path) -> None:
+    other = tmp_path / "notes.txt"
+    other.write_text("nothing here\n")
+    out = linewatch("audit", "verify", "--anchor", str(other), "--state-dir", str(state))
+    assert out.returncode == 2 and "holds no audit anchor" in out.stderr
+    out = linewatch("audit", "verify", "--anchor", str(tmp_path / "nosuch"),
+                    "--state-dir", str(state))
+    assert out.returncode == 2 and "cannot read" in out.stderr
+
+
+def keyed_line(tmp_path: Path) -> Path:
+    """A config whose anchor file and key lie outside the state directory."""
+    (tmp_path / "keys").mkdir()
+    (tmp_path / "keys" / "audit.key").write_text("a-key-of-at-least-16-bytes\n")
+    config = tmp_path / "line.toml"
+    config.write_text(
+        '[monitor]\nstate_dir = "state"\naudit_anchor_file = "anchors.log"\n'
+        'audit_anchor_every = 0\naudit_key_file = "keys/audit.key"\n'
+    )
+    return config
+
+
+def test_with_a_key_acknowledgements_are_signed_and_a_keyless_one_is_refused(
+    tmp_path: Path,
+) -> None:
+    config = keyed_line(tmp_path)
+    line_with_alarms(tmp_path / "state")  # keyless entries: verifiable beside signed ones
+    ok = linewatch("alarms", "ack", "2", "--reason", "tool wear", "-c", str(config))
+    assert ok.returncode == 0, ok.stderr
+    refused = linewatch("alarms", "ack", "3", "--reason", "tool wear",
+                        "--state-dir", str(tmp_path / "state"))
+    assert refused.returncode == 2 and "signed with a key" in refused.stderr
+    keyed = linewatch("audit", "verify", "-c", str(config))
+    assert keyed.returncode == 0 and "checked: chain + key" in keyed.stdout
+    report = linewatch("report", "-c", str(config), "-o", str(tmp_path / "r.md"))
+    assert report.returncode == 0, report.stderr
+    anchors = (tmp_path / "anchors.log").read_text()
+    assert anchors.count("linewatch-audit-anchor v1") == 1 and "why=report" in anchors
+    full = linewatch("audit", "verify", "-c", str(config),
+                     "--anchor", str(tmp_path / "anchors.log"))
+    assert full.returncode == 0 and "checked: chain + key + anchors" in full.stdout
+
+
+def test_an_anchor_file_inside_the_state_directory_is_refused(tmp_path: Path) -> None:
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\naudit_anchor_file = "state/a.log"\n')
+    Store(tmp_path / "state").close()
+    out = linewatch("audit", "verify", "-c", str(config))
+    assert out.returncode == 2
+    assert "monitor.audit_anchor_file" in out.stderr and "inside the state directory" in out.stderr

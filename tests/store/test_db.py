@@ -148,3 +148,42 @@ def test_meta_keys_by_prefix_are_matched_exactly(tmp_path: Path) -> None:
             store.set_meta(key, "x")
         assert [k for k, _ in store.meta_starting("phase-request:od_1:")] == [
             "phase-request:od_1:1", "phase-request:od_1:2"]
+
+
+_OPEN_AT = """
+import sys, time
+from linewatch.store.db import Store
+go = float(sys.argv[2])
+while time.time() < go:
+    pass
+try:
+    Store(sys.argv[1]).close()
+except Exception as exc:
+    print(f"{type(exc).__name__}: {exc}")
+    sys.exit(1)
+"""
+
+
+def test_instances_creating_one_state_directory_at_the_same_moment_all_open_it(
+    tmp_path: Path,
+) -> None:
+    """Two or three instances started together on a new state directory used to fail with
+    "File exists" (the mkdir race) or "database is locked" (the WAL switch and migration)."""
+    import time
+
+    failures: list[str] = []
+    for round_ in range(12):
+        directory = tmp_path / f"line{round_}" / "state"
+        go = time.time() + 1.0  # after the imports, so the opens really coincide
+        procs = [
+            subprocess.Popen([sys.executable, "-c", _OPEN_AT, str(directory), repr(go)],
+                             stdout=subprocess.PIPE, text=True)
+            for _ in range(3)
+        ]
+        for p in procs:
+            out, _ = p.communicate(timeout=60)
+            if p.returncode:
+                failures.append(out.strip())
+        with Store(directory, create=False) as store:
+            assert store.schema_version == len(MIGRATIONS)
+    assert failures == []
