@@ -109,6 +109,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--format", choices=("text", "jsonl"), default="text")
     p.add_argument("--no-bell", action="store_true", help="no terminal bell on new alarms")
+    p.add_argument("--clear-after", type=int, metavar="N",
+                   help="quiet plotted points after which an alarm episode returns to normal "
+                        "(default 8; 1: at the first quiet point)")
 
     alarms = sub.add_parser("alarms", help="list, acknowledge and shelve alarms from the shell")
     asub = alarms.add_subparsers(dest="alarms_command", metavar="ACTION", required=True)
@@ -124,9 +127,14 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--reason", required=True, metavar="TEXT")
     a.add_argument("--note", default="", metavar="TEXT")
     _add_state_dir(a)
-    a = asub.add_parser("shelve", help="hide an alarm for a while (it is still recorded)")
-    a.add_argument("id", type=int, metavar="ID")
-    a.add_argument("--for", dest="duration", required=True, metavar="DURATION", help="e.g. 30m, 2h")
+    a = asub.add_parser(
+        "shelve", help="take an alarm out of annunciation for a while (still counted and audited)"
+    )
+    a.add_argument("id", type=int, nargs="?", metavar="ID")
+    a.add_argument("--characteristic", metavar="NAME",
+                   help="every alarm of this characteristic, and those it raises meanwhile")
+    a.add_argument("--for", dest="duration", required=True, metavar="DURATION",
+                   help="with a unit, e.g. 30m, 2h (at most alarms.shelve_max, default 12h)")
     a.add_argument("--reason", required=True, metavar="TEXT")
     _add_state_dir(a)
     a = asub.add_parser("unshelve", help="bring a shelved alarm back")

@@ -4,11 +4,13 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
 
     [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline,
                        shared_group, audit_anchor_file, audit_anchor_every, audit_key_file
-    [alarms]           priorities, hook, hook_timeout, reasons
+    [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
+                       shelve_max
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
-                       center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans
+                       center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
+                       clear_after
 """
 
 from __future__ import annotations
@@ -21,6 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from linewatch.durations import parse_duration
+from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
 from linewatch.engine.rulebook import (
     DEFAULT_RULES,
     RULES,
@@ -50,6 +53,9 @@ DISPERSIONS = ("range", "stdev")
 DEFAULT_WATCH_BASELINE = 25
 DEFAULT_STALE_AFTER = 600.0
 DEFAULT_STUCK_REPEATS = 10
+DEFAULT_FLOOD_ALARMS = 10  # more than this many alarms in the flood window is a flood
+DEFAULT_FLOOD_WINDOW = 600.0  # (ISA-18.2 guidance: about 10 alarms in 10 minutes, from memory)
+DEFAULT_SHELVE_MAX = 12 * 3600.0
 DEFAULT_ANCHOR_EVERY = 100
 
 
@@ -73,6 +79,7 @@ class CharacteristicConfig:
     reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
+    clear_after: int = DEFAULT_CLEAR_AFTER
 
     @property
     def effective_dispersion(self) -> str:
@@ -110,6 +117,9 @@ class AlarmConfig:
     hook: list[str] = field(default_factory=list)
     hook_timeout: float = 5.0
     reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    flood_alarms: int = DEFAULT_FLOOD_ALARMS
+    flood_window: float = DEFAULT_FLOOD_WINDOW
+    shelve_max: float = DEFAULT_SHELVE_MAX
 
 
 @dataclass(slots=True)
@@ -253,7 +263,8 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
 
 def _read_alarms(path: str, table: Any) -> AlarmConfig:
     r = _Reader(path, "alarms", table)
-    r.check_known({"priorities", "hook", "hook_timeout", "reasons"})
+    r.check_known({"priorities", "hook", "hook_timeout", "reasons", "flood_alarms",
+                   "flood_window", "shelve_max"})
     prio = dict(DEFAULT_PRIORITIES)
     pr = _Reader(path, "alarms.priorities", r.sub_table("priorities"))
     pr.check_known(set(ALARM_KINDS))
@@ -270,8 +281,17 @@ def _read_alarms(path: str, table: Any) -> AlarmConfig:
     if isinstance(r.table.get("hook"), str):
         raise r.fail("hook", "must be a list of arguments, e.g. [\"/usr/bin/light\", \"red\"] "
                              "(never a shell command line)")
+    window = r.duration("flood_window", DEFAULT_FLOOD_WINDOW)
+    if window <= 0:
+        raise r.fail("flood_window", "must be more than 0 seconds")
+    shelve_max = r.duration("shelve_max", DEFAULT_SHELVE_MAX)
+    if shelve_max <= 0:
+        raise r.fail("shelve_max", "must be more than 0 seconds")
     return AlarmConfig(
-        priorities=prio, hook=r.string_list("hook"), hook_timeout=timeout, reasons=reasons
+        priorities=prio, hook=r.string_list("hook"), hook_timeout=timeout, reasons=reasons,
+        flood_alarms=r.integer("flood_alarms", DEFAULT_FLOOD_ALARMS, 1, 100_000)
+        or DEFAULT_FLOOD_ALARMS,
+        flood_window=window, shelve_max=shelve_max,
     )
 
 
@@ -311,7 +331,7 @@ def _read_characteristic(
     r.check_known(
         {"name", "column", "unit", "lsl", "usl", "target", "subgroup_size", "dispersion",
          "baseline", "center", "sigma", "rules", "run_lengths", "reasons", "reaction_plan",
-         "reaction_plans"}
+         "reaction_plans", "clear_after"}
     )
     name = r.string("name")
     if not name:
@@ -362,6 +382,8 @@ def _read_characteristic(
         reasons=reasons,
         reaction_plan=r.string("reaction_plan", "") or "",
         reaction_plans=plans,
+        clear_after=r.integer("clear_after", DEFAULT_CLEAR_AFTER, 1, 100_000)
+        or DEFAULT_CLEAR_AFTER,
     )
 
 

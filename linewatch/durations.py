@@ -8,10 +8,13 @@ _PART = re.compile(r"(\d+(?:\.\d+)?)\s*([smhdw])", re.IGNORECASE)
 _UNIT = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0, "w": 604800.0}
 
 
-def parse_duration(text: str | int | float) -> float:
-    """Seconds in `text`; a bare number is seconds. Raises ValueError with a readable message."""
+def parse_duration(text: str | int | float, need_unit: bool = False) -> float:
+    """Seconds in `text`; a bare number is seconds unless `need_unit` (where "30" could mean
+    minutes to one reader and seconds to another). Raises ValueError with a readable message."""
     if isinstance(text, bool):
         raise ValueError(f"not a duration: {text!r}")
+    if need_unit and (isinstance(text, int | float) or _is_number(str(text))):
+        raise ValueError(f"a duration needs a unit: {str(text).strip()!r} (e.g. 30m, 2h)")
     if isinstance(text, int | float):
         if text < 0:
             raise ValueError(f"a duration cannot be negative: {text}")
@@ -37,6 +40,14 @@ def parse_duration(text: str | int | float) -> float:
     if value < 0:
         raise ValueError(f"a duration cannot be negative: {s}")
     return value
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def format_duration(seconds: float) -> str:

@@ -48,6 +48,7 @@ class MonitorFace:
                 stale_after=self.monitor.config.monitor.stale_after,
             )
         snap.catching_up = self.monitor.catching_up
+        snap.problem = self.monitor.problem
         return snap
 
     def detail(self, characteristic: str) -> CharacteristicView | None:

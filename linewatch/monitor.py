@@ -45,6 +45,9 @@ Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
 PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
+ANNOUNCED = ("raised", "re-raised", "escalated")  # alarm events that reach the hook
+FAILURES_BEFORE_ALARM = 3  # failed passes in a row before "monitoring stopped" is raised
+MAX_BACKOFF = 30.0  # seconds between retries after repeated failures, at most
 
 
 @dataclass(slots=True)
@@ -109,6 +112,8 @@ class Monitor:
         self._alarm_states: dict[int, tuple[str, str | None, int | None]] = {}
         self._seen_data_version: int | None = None
         self._announced = False
+        self.failures = 0  # failed passes in a row
+        self.problem = ""  # the last failure, while the collector keeps failing
         self.alarms.load_config(plan.config)
 
     def _configure_audit(self) -> Anchorer | None:
@@ -204,40 +209,79 @@ class Monitor:
 
     # -- the loop --
     def run(self, stop: threading.Event) -> None:
-        """Collect (or watch as a viewer) until `stop` is set; then finish what was read."""
+        """Collect (or watch as a viewer) until `stop` is set; then finish what was read.
+
+        Never silent: any failure of a pass (a store error, a bug) is an internal-error
+        condition. It is emitted at once (`{"type": "error"}`) and shown by the faces
+        (`problem`); what the pass read is rolled back and read again (nothing lost, nothing
+        doubled) after a back-off; after three failures in a row a priority-1 alarm
+        "monitoring stopped" is raised and reaches the hook."""
         due = True  # read at once; later only when the waker says something may have changed
         try:
             while not stop.is_set():
                 now = self.clock()
-                if self.role == "viewer":
-                    if self.lease.try_acquire(now):
-                        self._become_collector()
-                        self._changed()
-                        due = True
-                        continue
-                    if not self._announced:
-                        self._announced = True
-                        self.emit({"type": "role", "role": "viewer", "instance": self.instance})
-                    self._viewer_step()
-                    stop.wait(RENEW_EVERY)  # a viewer tries for the lease at the same pace
-                    continue
                 try:
+                    if self.role == "viewer":
+                        if self.lease.try_acquire(now):
+                            self._become_collector()
+                            self._changed()
+                            due = True
+                            continue
+                        if not self._announced:
+                            self._announced = True
+                            self.emit({"type": "role", "role": "viewer",
+                                       "instance": self.instance})
+                        self._viewer_step()
+                        self._recovered()
+                        stop.wait(RENEW_EVERY)  # a viewer tries for the lease at this pace
+                        continue
                     if now - self._last_tick >= TICK_SECONDS:
                         self._tick(now)
                     worked = self.step() if due or self.waker is None else False
+                    self._recovered()
                 except Exception as exc:  # keep monitoring; resume from what the store holds
                     self._step_down()
-                    self.emit({"type": "error", "problem": f"{type(exc).__name__}: {exc}"})
-                    stop.wait(1.0)
+                    self._failed(exc)
+                    stop.wait(min(MAX_BACKOFF, 2.0 ** (self.failures - 1)))
                     due = True
                     continue
                 # an idle line costs a wait, not a stat of every file twice a second: the
                 # waker returns True on a file-system event and on its slow safety beat
                 due = worked or self.waker is None or self.waker.wait(TICK_SECONDS)
             if self.role == "collector":
-                self.step()
+                with contextlib.suppress(Exception):  # its failure was reported already
+                    self.step()
         finally:
             self.close()
+
+    def _failed(self, exc: Exception) -> None:
+        """One more failed pass: say so at once; after a few in a row, raise the alarm."""
+        self.failures += 1
+        self.problem = f"{type(exc).__name__}: {exc}"
+        self.emit({"type": "error", "problem": self.problem, "failures": self.failures})
+        self._changed()
+        if self.failures != FAILURES_BEFORE_ALARM:
+            return
+        try:
+            events = self.alarms.monitoring_failed(self.problem, self.clock())
+        except Exception:  # the store itself fails: the hook still hears of it
+            events = []
+            if self.config.alarms.hook:
+                self._run_hooks([])  # (starts the runner)
+                assert self._hooks is not None
+                self._hooks.fire(_stopped_payload(self.problem, self.clock()))
+        self._run_hooks(events)
+
+    def _recovered(self) -> None:
+        """A pass succeeded: the internal-error condition is over."""
+        if not self.failures:
+            return
+        self.failures = 0
+        self.problem = ""
+        self.emit({"type": "error", "problem": "", "resolved": True})
+        if self.role == "collector":
+            self._run_hooks(self.alarms.monitoring_resumed(self.clock()))
+        self._changed()
 
     def close(self) -> None:
         """Let running alarm hooks finish or reach their time limit (so their outcome is
@@ -278,7 +322,8 @@ class Monitor:
             for ev in events:
                 records.append(self._record_feed_event(ev, now, raised))
             raised += self.alarms.tick(now)
-            self._serve_baseline_requests(now)
+            self._serve_baseline_requests(now, raised)
+            raised += self.alarms.check_flood(now)
         for rec in records:
             self.emit(rec)
         self._run_hooks(raised)
@@ -386,17 +431,26 @@ class Monitor:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)
                            for lim in (out.limits.location, out.limits.dispersion))
-        fired: dict[str, dict[str, list[int]]] = {}
-        for f in out.firings:
-            fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
-            records.append(_signal_record(name, f))
-        for chart, (lo, hi) in out.judged.items():
-            raised += self.alarms.observe_chart(name, chart, lo, hi, fired.get(chart, {}), now)
+        records.extend(_signal_record(name, f) for f in out.firings)
+        raised += self._observe_judged(name, out, now)
         if c.lsl is not None or c.usl is not None:
-            raised += self.alarms.observe_spec(name, first, values, c.lsl, c.usl, now)
+            raised += self.alarms.observe_spec(name, first, values, c.lsl, c.usl, now,
+                                               clear_after=c.clear_after)
         assert self.health is not None
         self.health.values_arrived(name, values)
         return records
+
+    def _observe_judged(self, name: str, out: LiveOutput, now: float) -> list[AlarmEvent]:
+        """Feed the points an engine judged (and where they fired) to the chart alarms."""
+        fired: dict[str, dict[str, list[int]]] = {}
+        for f in out.firings:
+            fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
+        clear_after = self.char_configs[name].clear_after
+        events: list[AlarmEvent] = []
+        for chart, (lo, hi) in out.judged.items():
+            events += self.alarms.observe_chart(name, chart, lo, hi, fired.get(chart, {}), now,
+                                                clear_after=clear_after)
+        return events
 
     def _report_progress(self, behind: bool) -> None:
         """While reading a large history (more than a second of it), say how far it got."""
@@ -465,6 +519,11 @@ class Monitor:
         self._announced = False
 
     def _run_hooks(self, events: list[AlarmEvent]) -> None:
+        for ev in events:
+            if ev.alarm is None:  # about all alarms: a flood began or ended
+                flood = self.alarms.flood()
+                self.emit({"type": "flood", "event": ev.action,
+                           "count": flood.count if flood else None})
         if not self.config.alarms.hook:
             return
         if self._hooks is None:
@@ -473,8 +532,8 @@ class Monitor:
             self._hooks = HookRunner(self.config.alarms.hook, self.config.alarms.hook_timeout,
                                      on_outcome=self._hook_outcome)
         for ev in events:
-            if ev.action == "raised":
-                self._hooks.fire(self.alarms.hook_payload(ev.alarm))
+            if ev.action in ANNOUNCED and ev.alarm is not None:
+                self._hooks.fire({**self.alarms.hook_payload(ev.alarm), "action": ev.action})
 
     def _hook_outcome(self, outcome: HookOutcome) -> None:
         if not outcome.ok:
@@ -508,7 +567,7 @@ class Monitor:
         with self.store.transaction():
             self.store.set_meta(BASELINE_REQUEST + characteristic, request)
 
-    def _serve_baseline_requests(self, now: float) -> None:
+    def _serve_baseline_requests(self, now: float, raised: list[AlarmEvent]) -> None:
         for key, raw in self.store.meta_starting(BASELINE_REQUEST):
             if not raw:
                 continue
@@ -534,6 +593,9 @@ class Monitor:
             out = eng.settle()  # the new phase may already hold enough points for limits
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)
+            raised += self._observe_judged(name, out, now)
+            for f in out.firings:
+                self.emit(_signal_record(name, f))
             self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
             self.emit({"type": "baseline", "characteristic": name, "start_index": eng.phase_start,
                        "reason": req["reason"]})
@@ -550,6 +612,17 @@ def _signal_record(name: str, f: Firing) -> dict[str, Any]:
     if when:
         rec["time"] = when
     return rec
+
+
+def _stopped_payload(problem: str, now: float) -> dict[str, Any]:
+    """What the hook receives about a "monitoring stopped" alarm that could not be stored."""
+    from linewatch.alarms import FEED_CHART, FEED_HEALTH, MONITOR_SUBJECT, STOPPED_RULE, iso_time
+
+    return {"id": None, "kind": FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
+            "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": 1, "state": "unacknowledged",
+            "raised_at": iso_time(now), "action": "raised",
+            "description": f"monitoring stopped: {problem}", "detail": problem,
+            "reaction_plan": "", "stored": False}
 
 
 def _actor() -> str:

@@ -35,6 +35,9 @@ def validate_chart_options(args: argparse.Namespace) -> None:
         raise LinewatchError("--baseline needs at least 2 plotted points")
     if args.dispersion is not None and args.dispersion not in DISPERSIONS:
         raise LinewatchError(f"--dispersion must be one of {', '.join(DISPERSIONS)}")
+    clear_after = getattr(args, "clear_after", None)
+    if clear_after is not None and clear_after < 1:
+        raise LinewatchError("--clear-after needs at least 1 quiet point")
     if args.rules:
         try:
             parse_rule_list(args.rules)
@@ -124,6 +127,8 @@ def apply_overrides(c: CharacteristicConfig, args: argparse.Namespace) -> Charac
         c.lsl = args.lsl
     if args.usl is not None:
         c.usl = args.usl
+    if getattr(args, "clear_after", None) is not None:
+        c.clear_after = args.clear_after
     if c.lsl is not None and c.usl is not None and c.lsl >= c.usl:
         raise LinewatchError(f"{c.name}: LSL must be below USL ({c.lsl} >= {c.usl})")
     return c

@@ -151,7 +151,8 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
-    v.stuck = any(a.rule == "stuck" for a in open_alarms)
+    # the label follows the condition (the gauge recovered), not the unacknowledged alarm
+    v.stuck = any(a.rule == "stuck" and a.active for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)
     return v
 
@@ -267,8 +268,11 @@ def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicCo
                                  open_now=open_now) for c in chars]
     alarm_views: list[AlarmView] = alarms.views(now=now)
     alarm_views.sort(key=lambda a: (a.state == SHELVED, a.priority, -a.raised_at))
+    flood = alarms.flood()
     return LineSnapshot(version=version, title=title, role=role, characteristics=views,
-                        alarms=alarm_views, feeds=feed_views(store, now, stale_after))
+                        alarms=alarm_views, feeds=feed_views(store, now, stale_after),
+                        flood=flood.count if flood else None,
+                        flood_since=flood.since if flood else None)
 
 
 __all__ = ["STATE_LEARNING", "build_snapshot", "characteristic_view", "feed_views"]

@@ -115,6 +115,12 @@ class AlarmView:
     shelved_until: float | None = None
     reaction_plan: str = ""
     reasons: list[str] = field(default_factory=list)
+    signals: int = 0  # signalling points over all episodes
+    episodes: int = 1
+    counts: str = ""  # per-rule counts in a few words ("we2 ×44 we3 ×37")
+    active: bool = True  # the condition is present now
+    below_lsl: int | None = None
+    above_usl: int | None = None
 
 
 @dataclass(slots=True)
@@ -145,6 +151,9 @@ class LineSnapshot:
     feeds: list[FeedView] = field(default_factory=list)
     catching_up: float | None = None  # fraction done while reading history, else None
     message: str = ""
+    flood: int | None = None  # alarms annunciated in the flood window while in a flood
+    flood_since: float | None = None
+    problem: str = ""  # the collector's internal error, while it lasts ("" when none)
 
 
 class LineActions(Protocol):

@@ -57,7 +57,10 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     if not records:
         out.write("no alarms\n" if args.all else "no open alarms\n")
         return 0
-    header = ("ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART", "RULE", "POINTS", "ACK")
+    from linewatch.alarms import rule_summary
+
+    header = ("ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART", "FIRST", "POINTS",
+              "EPISODES", "SIGNALS", "ACK")
     rows = []
     for a in records:
         points = "" if a.first_index is None else f"{a.first_index}-{a.last_index}"
@@ -65,7 +68,7 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
         raised = (iso_time(a.raised_at) or "").replace("T", " ")[:19]
         rows.append(tuple(visible(cell) for cell in (  # names and reasons come from outside
             str(a.id), str(a.priority), a.state(now), raised, a.characteristic, a.chart, a.rule,
-            points, ack)))
+            points, str(a.episodes), rule_summary(a), ack)))
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
     for line in (header, *rows):
         out.write("  ".join(c.ljust(w) for c, w in zip(line, widths, strict=True)).rstrip() + "\n")
@@ -96,10 +99,27 @@ def _shelve(book: AlarmBook, args: argparse.Namespace) -> int:
     from linewatch.durations import parse_duration
 
     try:
-        seconds = parse_duration(args.duration)
+        seconds = parse_duration(args.duration, need_unit=True)
     except ValueError as exc:
         raise LinewatchError(f"--for: {exc}") from None
+    if (args.id is None) == (not args.characteristic):
+        raise LinewatchError("give one alarm id or --characteristic NAME")
+    if args.characteristic:
+        name = _known_characteristic(book, args.characteristic)
+        count = book.shelve_characteristic(name, seconds, args.reason)
+        print(f"{visible(name)} shelved for {args.duration} "
+              f"({count} open alarm{'s' if count != 1 else ''}, and any it raises meanwhile)")
+        return 0
     events = book.shelve(args.id, seconds, args.reason)
-    shelved = [e.alarm for e in events if e.action == "shelved"]
+    shelved = [e.alarm for e in events if e.action == "shelved" and e.alarm is not None]
     print(f"alarm {args.id} shelved until {iso_time(shelved[-1].shelved_until)}")
     return 0
+
+
+def _known_characteristic(book: AlarmBook, name: str) -> str:
+    """`name` when the store knows such a characteristic; else an error listing the known."""
+    known = book.known_characteristics()
+    if name not in known:
+        listed = ", ".join(visible(k) for k in known) or "none yet"
+        raise LinewatchError(f"no characteristic {visible(name)!s} (known: {listed})")
+    return name

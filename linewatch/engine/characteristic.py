@@ -436,12 +436,16 @@ class CharacteristicEngine:
         if not queue:
             return
         assert self.loc_rules is not None and self.disp_rules is not None
+        # points a new baseline reached back to were judged in their own phase already: they
+        # keep those signals and are neither judged again nor reported again
+        fresh: list[PlottedPoint] = []
         for which, rules, fed in ((0, self.loc_rules, self.loc_fed),
                                   (1, self.disp_rules, self.disp_fed)):
             points = [point for pair in queue
                       if (point := pair[which]) is not None and not point.judged]
             if not points:
                 continue
+            fresh.extend(points)
             if len(points) >= VECTOR_MIN:
                 _judge_vectorised(points, rules, fed)
             else:
@@ -453,13 +457,10 @@ class CharacteristicEngine:
             chart = points[0].chart
             lo, _ = out.judged.get(chart, (points[0].index, points[0].index))
             out.judged[chart] = (lo, points[-1].index)
-        for pair in queue:
-            for point in pair:
-                if point is None:
-                    continue
-                for rule_id in point.rules:
-                    out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
-                                              point.value, point.meta))
+        for point in sorted(fresh, key=lambda p: (p.index, p.chart != self.loc_chart)):
+            for rule_id in point.rules:
+                out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
+                                          point.value, point.meta))
 
     # -- phases -------------------------------------------------------------------------------
     def new_baseline(self, start_index: int, baseline: int | None = None) -> None:

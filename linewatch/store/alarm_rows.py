@@ -41,6 +41,13 @@ class AlarmRecord:
     closed_at: float | None = None
     file: str | None = None
     detail: str = ""
+    signals: int = 0  # distinct firing points (measurements, for out-of-spec) of all episodes
+    episodes: int = 1
+    rules: str = "{}"  # JSON object: rule id -> signalling points
+    below_lsl: int | None = None  # out-of-spec: parts below LSL (None for other kinds)
+    above_usl: int | None = None
+    escalated_at: float | None = None
+    episode_first: int | None = None  # first firing of the current (latest) episode
 
     def state(self, now: float) -> str:
         """shelved while shelved_until lies ahead; otherwise from (active, acknowledged)."""
@@ -55,9 +62,27 @@ class AlarmRecord:
         """Not yet closed (closed = returned to normal and acknowledged)."""
         return self.closed_at is None
 
+    @property
+    def rule_counts(self) -> dict[str, int]:
+        """Signalling points per rule over every episode."""
+        import json
+
+        counts: dict[str, int] = json.loads(self.rules or "{}")
+        return counts
+
     def as_dict(self) -> dict[str, Any]:
         """All stored fields, for JSON (the hook, exports)."""
         return {f.name: getattr(self, f.name) for f in fields(self)}
+
+
+@dataclass(frozen=True, slots=True)
+class Shelf:
+    """A characteristic shelved as a whole until `until`."""
+
+    characteristic: str
+    until: float
+    actor: str
+    reason: str
 
 
 _COLUMNS = tuple(f.name for f in fields(AlarmRecord))
@@ -126,14 +151,53 @@ class AlarmRows:
         )
         return _record(rows[0]) if rows else None
 
-    def active_on_chart(self, characteristic: str, chart: str) -> list[AlarmRecord]:
-        """Every active alarm of one chart of one characteristic."""
+    def open_on_chart(
+        self, characteristic: str, chart: str, kinds: tuple[str, ...]
+    ) -> AlarmRecord | None:
+        """The open alarm of one condition (one chart, alarms of `kinds`): there is at most one."""
+        marks = ", ".join("?" * len(kinds))
         rows = self.store.query(
-            f"{_SELECT} WHERE closed_at IS NULL AND active = 1 AND characteristic = ? "
-            "AND chart = ? ORDER BY id",
-            (characteristic, chart),
+            f"{_SELECT} WHERE closed_at IS NULL AND characteristic = ? AND chart = ? "
+            f"AND kind IN ({marks}) ORDER BY id DESC LIMIT 1",
+            (characteristic, chart, *kinds),
         )
-        return [_record(r) for r in rows]
+        return _record(rows[0]) if rows else None
+
+    def raised_since(self, since: float) -> int:
+        """How many alarms were raised or re-raised (annunciated) since `since`."""
+        rows = self.store.query(
+            "SELECT COUNT(*) FROM audit WHERE at >= ? AND action IN ('raised', 're-raised') "
+            "AND payload NOT LIKE '%\"shelved\":true%'",
+            (since,),
+        )
+        return int(rows[0][0])
+
+    def set_shelf(self, characteristic: str, until: float, actor: str, reason: str) -> None:
+        """Shelve a characteristic as a whole until `until` (replacing an earlier shelf)."""
+        with self.store.transaction() as conn:
+            conn.execute(
+                "INSERT INTO shelves (characteristic, until, actor, reason) VALUES (?, ?, ?, ?) "
+                "ON CONFLICT (characteristic) DO UPDATE SET until = excluded.until, "
+                "actor = excluded.actor, reason = excluded.reason",
+                (characteristic, until, actor, reason),
+            )
+
+    def shelf(self, characteristic: str, now: float) -> Shelf | None:
+        """The characteristic's shelf, while it lasts."""
+        rows = self.store.query(
+            "SELECT characteristic, until, actor, reason FROM shelves "
+            "WHERE characteristic = ? AND until > ?",
+            (characteristic, now),
+        )
+        return Shelf(*tuple(rows[0])) if rows else None
+
+    def end_shelves(self, now: float) -> list[str]:
+        """Remove characteristic shelves whose time is over; returns their characteristics."""
+        rows = self.store.query("SELECT characteristic FROM shelves WHERE until <= ?", (now,))
+        if rows:
+            with self.store.transaction() as conn:
+                conn.execute("DELETE FROM shelves WHERE until <= ?", (now,))
+        return [str(r[0]) for r in rows]
 
     def shelf_expired(self, now: float) -> list[AlarmRecord]:
         """Alarms whose shelving time has passed but that still carry it."""

@@ -46,6 +46,10 @@ ACTIONS = (
     "limits-set",
     "new-baseline",
     "config-loaded",
+    "re-raised",
+    "escalated",
+    "flood-started",
+    "flood-ended",
 )
 _HEAD_KEY = "audit_head"
 EXPORT_FIELDS = ("seq", "at", "time", "actor", "action", "subject", "payload", "hash", "key_id")

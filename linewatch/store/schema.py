@@ -149,4 +149,23 @@ MIGRATIONS: tuple[str, ...] = (
     """
     ALTER TABLE audit ADD COLUMN key_id TEXT;
     """,
+    # 7: one alarm per condition: an alarm gathers the episodes of one chart (or of one
+    # characteristic's nonconforming measurements) and counts what it saw; a flood of alarms
+    # and characteristic-wide shelves are remembered across restarts.
+    """
+    ALTER TABLE alarms ADD COLUMN signals INTEGER NOT NULL DEFAULT 0;
+    ALTER TABLE alarms ADD COLUMN episodes INTEGER NOT NULL DEFAULT 1;
+    ALTER TABLE alarms ADD COLUMN rules TEXT NOT NULL DEFAULT '{}';
+    ALTER TABLE alarms ADD COLUMN below_lsl INTEGER;
+    ALTER TABLE alarms ADD COLUMN above_usl INTEGER;
+    ALTER TABLE alarms ADD COLUMN escalated_at REAL;
+    ALTER TABLE alarms ADD COLUMN episode_first INTEGER;
+    CREATE INDEX alarms_by_chart ON alarms (characteristic, chart, closed_at);
+    CREATE TABLE shelves (
+        characteristic TEXT PRIMARY KEY,
+        until          REAL NOT NULL,
+        actor          TEXT NOT NULL,
+        reason         TEXT NOT NULL
+    );
+    """,
 )
