@@ -87,3 +87,40 @@ def test_every_instance_sees_a_new_phase_waiting_for_its_limits(tmp_path):
     detail = face.detail("od")
     assert [p[0] for p in detail.location.phase_limits] == [0, 40]
     face.close()
+
+
+def test_a_new_baseline_while_rows_arrive_never_stops_collection(tmp_path):
+    """The stall once seen by a user: a new phase that reaches back over a point which fired
+    under the old limits re-reported that firing when the new limits formed, outside the points
+    being judged, and every later pass failed. Collection must go on and the old firing must be
+    counted once."""
+    log = tmp_path / "line.csv"
+    base = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 5  # 50 points
+    base[45] = 14.0  # beyond the first phase's limits; inside the new baseline window
+    log.write_text(HEADER + "".join(rows_text(base)))
+    face, stop, worker = _collect(log, tmp_path / "state")
+    records: list[dict] = []
+    face.monitor.emit = records.append
+    try:
+        _wait(lambda: len(face.store.history.points("od")) == 50)
+        face.new_baseline("od", 40, "new die fitted")  # 10 of the 20 points are there
+        _wait(lambda: face.detail("od").pending_phase_start == 40)
+        more = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 3
+        for k in range(0, 30, 5):  # rows keep arriving, a few at a time
+            with log.open("a") as f:
+                f.writelines(rows_text(more[k:k + 5], start=50 + k))
+            time.sleep(0.2)
+        _wait(lambda: len(face.store.history.points("od")) == 80)
+        _wait(lambda: face.detail("od").pending_phase_start is None)
+        time.sleep(1.5)  # a few more passes, in which the stall showed
+    finally:
+        stop.set()
+        worker.join(timeout=10)
+    assert [r for r in records if r.get("type") == "error"] == []
+    assert face.monitor.failures == 0
+    raised = [json.loads(e.payload) for e in face.store.audit.entries()
+              if e.action in ("raised", "re-raised")]
+    at_45 = [p for p in raised if p.get("first_index", p.get("index")) == 45
+             and p["chart"] == "individuals"]
+    assert len(at_45) == 1  # judged once, in its own phase
+    face.close()
