@@ -141,6 +141,16 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("id", type=int, metavar="ID")
     _add_state_dir(a)
 
+    p = sub.add_parser(
+        "baseline", help="start a new phase of limits from a point (carried out by the collector)"
+    )
+    p.add_argument("characteristic", metavar="CHARACTERISTIC")
+    at = p.add_mutually_exclusive_group(required=True)
+    at.add_argument("--at", type=int, metavar="INDEX", help="the plotted point the phase starts at")
+    at.add_argument("--now", action="store_true", help="from the next plotted point on")
+    p.add_argument("--reason", required=True, metavar="TEXT", help="why (kept in the audit trail)")
+    _add_state_dir(p)
+
     audit = sub.add_parser("audit", help="verify or export the tamper-evident audit trail")
     usub = audit.add_subparsers(dest="audit_command", metavar="ACTION", required=True)
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
@@ -187,6 +197,7 @@ _COMMANDS = {
     "report": "linewatch.commands.report",
     "simulate": "linewatch.commands.simulate",
     "demo": "linewatch.commands.demo",
+    "baseline": "linewatch.commands.baseline",
 }
 
 

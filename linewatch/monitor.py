@@ -40,6 +40,7 @@ if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.feeds.watcher import Waker
     from linewatch.hooks import HookOutcome, HookRunner
     from linewatch.store.anchors import Anchorer
+    from linewatch.store.db import Store
 
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
@@ -560,12 +561,7 @@ class Monitor:
     # -- baselines --
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
         """Start a new phase of limits (any instance may ask; the collector carries it out)."""
-        if not reason.strip():
-            raise LinewatchError("a reason is required for a new baseline")
-        request = json.dumps({"start": int(start_index), "reason": reason.strip(),
-                              "actor": _actor()})
-        with self.store.transaction():
-            self.store.set_meta(BASELINE_REQUEST + characteristic, request)
+        request_new_baseline(self.store, characteristic, start_index, reason)
 
     def _serve_baseline_requests(self, now: float, raised: list[AlarmEvent]) -> None:
         for key, raw in self.store.meta_starting(BASELINE_REQUEST):
@@ -593,6 +589,8 @@ class Monitor:
             out = eng.settle()  # the new phase may already hold enough points for limits
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)
+                for lim in (out.limits.location, out.limits.dispersion):
+                    self.emit(limits_record(name, lim))
             raised += self._observe_judged(name, out, now)
             for f in out.firings:
                 self.emit(_signal_record(name, f))
@@ -612,6 +610,18 @@ def _signal_record(name: str, f: Firing) -> dict[str, Any]:
     if when:
         rec["time"] = when
     return rec
+
+
+def request_new_baseline(store: Store, characteristic: str, start_index: int,
+                         reason: str) -> None:
+    """Ask the collector (whichever instance holds the lease) for a new phase of limits from
+    `start_index`; the screen's close-up and `linewatch baseline` both ask this way."""
+    if not reason.strip():
+        raise LinewatchError("a reason is required for a new baseline")
+    request = json.dumps({"start": int(start_index), "reason": reason.strip(),
+                          "actor": _actor()})
+    with store.transaction():
+        store.set_meta(BASELINE_REQUEST + characteristic, request)
 
 
 def _stopped_payload(problem: str, now: float) -> dict[str, Any]:

@@ -7,7 +7,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from linewatch.engine.characteristic import ChartSetup, CharacteristicEngine
+from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
 
 
