@@ -34,7 +34,7 @@ def test_a_new_phase_asked_from_the_shell_is_carried_out_and_audited(tmp_path):
         _, lim = reader.wait_for(lambda r: r.get("type") == "limits"
                                  and r["chart"] == "individuals" and r["center"] > 11)
     finally:
-        out, _ = stop(proc)
+        stop(proc)
     assert rec["start_index"] == 30 and rec["reason"] == "die changed"
     assert lim["center"] == pytest.approx(np.mean(first[:20] + 2.0))
     audit = subprocess.run(
