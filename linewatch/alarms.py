@@ -327,9 +327,8 @@ class AlarmBook:
         """Compare the alarms annunciated in the last flood window with the flood threshold;
         the start and end of a flood are audited and remembered in the store (`flood()`)."""
         now = time.time() if now is None else now
-        alarms_cfg = self.config.alarms if self.config is not None else None
-        window = alarms_cfg.flood_window if alarms_cfg else DEFAULT_FLOOD_WINDOW
-        limit = alarms_cfg.flood_alarms if alarms_cfg else DEFAULT_FLOOD_ALARMS
+        window = self.flood_window()
+        limit = self.config.alarms.flood_alarms if self.config else DEFAULT_FLOOD_ALARMS
         events: list[AlarmEvent] = []
         with self.store.transaction():
             count = self.store.alarms.raised_since(now - window)
@@ -351,6 +350,10 @@ class AlarmBook:
                 self.store.set_meta(FLOOD_KEY, json.dumps(
                     {"since": state.since, "count": count, "peak": max(count, state.peak)}))
         return events
+
+    def flood_window(self) -> float:
+        """Seconds over which annunciated alarms are counted for a flood."""
+        return self.config.alarms.flood_window if self.config else DEFAULT_FLOOD_WINDOW
 
     def flood(self) -> Flood | None:
         """The flood going on now (as the collector last judged it), or None."""

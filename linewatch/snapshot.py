@@ -272,7 +272,8 @@ def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicCo
     return LineSnapshot(version=version, title=title, role=role, characteristics=views,
                         alarms=alarm_views, feeds=feed_views(store, now, stale_after),
                         flood=flood.count if flood else None,
-                        flood_since=flood.since if flood else None)
+                        flood_since=flood.since if flood else None,
+                        flood_window=alarms.flood_window())
 
 
 __all__ = ["STATE_LEARNING", "build_snapshot", "characteristic_view", "feed_views"]

@@ -153,6 +153,7 @@ class LineSnapshot:
     message: str = ""
     flood: int | None = None  # alarms annunciated in the flood window while in a flood
     flood_since: float | None = None
+    flood_window: float = 600.0  # seconds the flood count is taken over
     problem: str = ""  # the collector's internal error, while it lasts ("" when none)
 
 

@@ -87,6 +87,8 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
         raise LinewatchError("give the ids of the alarms to acknowledge, or --characteristic")
     for event in book.acknowledge(args.ids, args.reason, args.note):
         a = event.alarm
+        if a is None:
+            continue
         if event.action == "acknowledged":
             print(f"alarm {a.id} acknowledged ({visible(a.reason)})")
         elif event.action == "closed":

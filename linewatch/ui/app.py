@@ -77,7 +77,9 @@ class LinewatchApp(App[int]):
         self.line_taken_at = clock()
         self.bells_rung = 0
         self._changed = True
-        self._alarms_seen: set[int] | None = None
+        # alarm id -> (episodes, priority) in the last picture; None before the first
+        self._alarms_seen: dict[int, tuple[int, int]] | None = None
+        self._flooding = False
         self._drawing_since = 0.0
         self._quiet_until = 0.0
         self.wanted_feed: str | None = None  # a file the feed pulse highlights when shown next
@@ -181,18 +183,23 @@ class LinewatchApp(App[int]):
         self._quiet_until = now + (now - self._drawing_since)
 
     def _ring_for_new_alarms(self, line: view.LineSnapshot) -> None:
-        ids = {a.id for a in line.alarms}
+        """Ring for an urgent alarm raised, re-raised (a new episode) or escalated since the
+        last picture; during a flood, ring once when it begins and not for each alarm."""
+        seen = {a.id: (a.episodes, a.priority) for a in line.alarms}
+        flooding = line.flood is not None
         if self._alarms_seen is not None and self.bell_enabled:
-            new_loud = [
-                a for a in line.alarms
-                if a.id not in self._alarms_seen
-                and a.priority in BELL_PRIORITIES
-                and a.state == view.UNACKNOWLEDGED
-            ]
-            if new_loud:
+            def news(a: view.AlarmView) -> bool:
+                before = self._alarms_seen.get(a.id) if self._alarms_seen else None
+                return before is None or a.episodes > before[0] or a.priority < before[1]
+
+            loud = [a for a in line.alarms
+                    if a.priority in BELL_PRIORITIES and a.state == view.UNACKNOWLEDGED
+                    and news(a)]
+            if (flooding and not self._flooding) or (loud and not flooding):
                 self.bells_rung += 1
                 self.bell()
-        self._alarms_seen = (self._alarms_seen or set()) | ids
+        self._flooding = flooding
+        self._alarms_seen = {**(self._alarms_seen or {}), **seen}
 
     def _tick_clock(self) -> None:
         top = self.top_line_screen()

@@ -143,6 +143,20 @@ def fmt_span(seconds: float) -> str:
     return f"{round(s / 86400)}d"
 
 
+def alarm_counts(alarm: view.AlarmView) -> str:
+    """What one alarm gathered, in a few words: the chart and its per-rule counts for a chart
+    alarm ("individuals: we2 ×44 we3 ×37, 4 episodes"), the parts to quarantine for an
+    out-of-spec alarm ("5 above USL, 2 below LSL"), the condition for feed health."""
+    episodes = f", {alarm.episodes} episodes" if alarm.episodes > 1 else ""
+    if alarm.kind == "out-of-spec":
+        parts = [f"{n} {side}" for n, side in ((alarm.above_usl, "above USL"),
+                                                (alarm.below_lsl, "below LSL")) if n]
+        return (", ".join(parts) or "outside the specification") + episodes
+    if alarm.kind == "feed-health":
+        return (alarm.description or alarm.rule) + episodes
+    return f"{alarm.chart}: {alarm.counts or alarm.rule}{episodes}"
+
+
 def alarm_subject(alarm: view.AlarmView) -> str:
     """What an alarm is about, short: a feed-health alarm on a file shows the file's base name
     (the full path stays in the alarm's detail line)."""

@@ -18,6 +18,7 @@ from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
     STATE_WORDS,
+    alarm_counts,
     alarm_subject,
     base_name,
     fmt_age,
@@ -244,7 +245,7 @@ class BoardScreen(LineScreen):
             alarms.append(f"P{a.priority} ", "bold" if a.priority <= 2 else "")
             alarms.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9} ",
                           "reverse" if a.state == view.UNACKNOWLEDGED else "")
-            alarms.append(f"{visible(alarm_subject(a))} {visible(a.rule)}\n")
+            alarms.append(f"{visible(alarm_subject(a))} {visible(alarm_counts(a))}\n")
         if not open_:
             alarms.append("none\n", palette.LABEL)
         elif len(open_) > 12:

@@ -15,6 +15,7 @@ from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
+    alarm_counts,
     alarm_subject,
     fmt_clock,
     fmt_day_clock,
@@ -114,19 +115,10 @@ class AlarmQueueScreen(TableScreen):
 
     def _cells(self, a: view.AlarmView) -> list[object]:
         loud = "bold" if a.priority <= 2 else ""
-        what = Text(f"{KIND_WORDS.get(a.kind, a.kind)}: ", loud, no_wrap=True,
-                    overflow="ellipsis", end="")
-        words = visible(a.description or a.rule)
-        if a.rule and a.kind in ("run-rule", "beyond-limits"):
-            if words.endswith(")"):  # "... (xbar chart)": one bracket, "(xbar chart, we1)"
-                what.append(words[:-1])
-                what.append(f", {visible(a.rule)}", palette.LABEL)
-                what.append(")")
-            else:
-                what.append(words)
-                what.append(f" ({visible(a.rule)})", palette.LABEL)
-        else:
-            what.append(words)
+        what = Text(no_wrap=True, overflow="ellipsis", end="")
+        if a.kind in ("out-of-spec", "feed-health"):
+            what.append(f"{KIND_WORDS[a.kind]}: ", loud)
+        what.append(visible(alarm_counts(a)))  # the chart comes first: seen at 80 columns
         state_style = {view.UNACKNOWLEDGED: "bold reverse",
                        view.RETURNED_UNACKNOWLEDGED: "bold"}.get(a.state, "")
         return [
@@ -169,6 +161,14 @@ class AlarmQueueScreen(TableScreen):
                         else f"points {a.first_index}-{a.last_index}")
                 where += f" {span}"
             text.append(f"{where} | raised {fmt_day_clock(a.raised_at)}\n")
+            text.append("first: ", palette.LABEL)
+            text.append(visible(a.description or a.rule))
+            if a.kind in ("run-rule", "beyond-limits", "out-of-spec"):
+                episodes = "episode" if a.episodes == 1 else "episodes"
+                text.append(f" | {a.signals} signalling, {a.episodes} {episodes}: ",
+                            palette.LABEL)
+                text.append(visible(a.counts))
+            text.append("\n")
             if a.acknowledged_by:
                 when = fmt_clock(a.acknowledged_at) if a.acknowledged_at else ""
                 text.append(f"acknowledged by {visible(a.acknowledged_by)} {when}: "

@@ -7,6 +7,7 @@ from textual.events import Resize
 from textual.widgets import Static
 
 from linewatch import view
+from linewatch.durations import format_duration
 from linewatch.safe_text import visible
 from linewatch.ui.formatting import to_acknowledge
 
@@ -40,6 +41,13 @@ class TopBar(Static):
         head: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
         if line.role == "viewer":
             head.append(("viewing", ""))
+        # what must never be missed comes before the alarm count, and stays at every width
+        alerts: list[tuple[str, str]] = []
+        if line.problem:
+            alerts.append((f"MONITORING FAILING: {line.problem}", "bold reverse"))
+        if line.flood is not None:
+            window = format_duration(line.flood_window)
+            alerts.append((f"ALARM FLOOD: {line.flood} in {window}", "bold reverse"))
         tail: list[tuple[str, str]] = []
         if line.catching_up is not None:
             tail.append((f"catching up {line.catching_up:.0%}", "italic"))
@@ -50,7 +58,8 @@ class TopBar(Static):
         width = self.size.width or (self.app.size.width if self.is_attached else 0)
         # narrower and narrower: first without the title, then with the alarm count in short
         for drop, short in ((0, False), (1, False), (1, True)):
-            parts = [*head[drop:], (acknowledge_words(line.alarms, short), loud), *tail]
+            parts = [*head[drop:], *alerts, (acknowledge_words(line.alarms, short), loud),
+                     *tail]
             if not width or sum(len(p) + 3 for p, _ in parts) <= width:
                 break
         text = Text(no_wrap=True, overflow="ellipsis", end="")
