@@ -176,7 +176,7 @@ class AlarmQueueScreen(TableScreen):
                 table.scroll_to(y=row - screen_row, animate=False, force=True, immediate=True)
         count = f"{len(alarms)} alarms"
         if len(shown) < len(alarms):
-            count += f", {start + 1}-{start + len(shown)} built"
+            count += f", {start + 1}-{start + len(shown)} loaded"
         self.query_one(TopBar).show(self.lw.line, "alarm queue", count)
 
     def reach(self, step: int) -> None:
