@@ -29,6 +29,7 @@ from typing import Any
 MAX_RUNNING = 4  # hooks running at once; further calls wait in the queue
 MAX_QUEUED = 64  # calls waiting; beyond this, priority 3 and lower give way
 PROTECTED_PRIORITY = 2  # calls of this priority or more urgent are never dropped
+BURST_SETTLE = 0.02  # a new worker waits this long, so a burst is ordered as a whole
 TAIL_BYTES = 4096  # how much of a hook's stderr is kept for its outcome message
 _READ_CHUNK = 65536
 _DRAIN_SECONDS = 0.2  # after the hook exits, how long to read what a grandchild still writes
@@ -75,6 +76,7 @@ class HookRunner:
         *,
         max_running: int = MAX_RUNNING,
         max_queued: int = MAX_QUEUED,
+        settle: float = BURST_SETTLE,
     ) -> None:
         if isinstance(argv, str):
             raise TypeError("the hook is an argument list, not a shell string")
@@ -83,6 +85,7 @@ class HookRunner:
         self.on_outcome = on_outcome
         self.max_running = max(1, max_running)
         self.max_queued = max(0, max_queued)
+        self.settle = settle
         self.dropped = 0  # calls dropped from a full queue since the start
         self._queue: list[_Call] = []  # a heap
         self._seq = 0
@@ -173,7 +176,10 @@ class HookRunner:
         self._report(HookOutcome(None, False, message, 0.0, dropped=len(ids)))
 
     def _work(self) -> None:
-        """Run queued calls, most urgent first, until the queue is empty."""
+        """Run queued calls, most urgent first, until the queue is empty. The first pick
+        waits `settle` seconds: the alarms of one row are fired one after another, and the
+        most urgent of them should start first, not whichever came first."""
+        time.sleep(self.settle)
         while True:
             self._report_drops()
             with self._cond:

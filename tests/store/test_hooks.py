@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.hooks import HookOutcome, HookRunner
+from linewatch.hooks import MAX_RUNNING, HookOutcome, HookRunner
 from tests.watch.small_disk import mount_small_disk
 
 ALARM = {"id": 7, "kind": "beyond-limits", "characteristic": "od", "rule": "we1"}
@@ -233,3 +233,19 @@ def test_a_hook_writing_100_mb_to_stderr_leaves_memory_and_disk_bounded(tmp_path
     # its last words survive 100 MB of chatter; memory grows by far less than 100 MB
     assert got["message"].endswith("exited with 4: stack light offline")
     assert got["grew_kib"] < 20 * 1024
+
+
+def test_the_most_urgent_calls_of_a_burst_start_first(tmp_path: Path) -> None:
+    # The burst is fired in a loop, least urgent first; the first calls to start are the
+    # most urgent ones, not the first fired. (A long settle keeps a busy machine out of it.)
+    log = tmp_path / "started.txt"
+    runner = HookRunner(_logging_hook(log, 0.2), 10, settle=1.0)
+    burst = sorted(_burst(12), key=lambda a: -a["priority"])
+    for alarm in burst:
+        runner.fire(alarm)
+    runner.wait(60)
+    started = [int(line) for line in log.read_text().split()]
+    priority = {a["id"]: a["priority"] for a in burst}
+    first_wave = sorted(priority[i] for i in started[:MAX_RUNNING])  # start together
+    assert first_wave == sorted(priority.values())[:MAX_RUNNING] == [1, 1, 1, 2]
+    assert sorted(started) == sorted(priority)
