@@ -233,9 +233,10 @@ def _feed_and_watch(
     that keeps stderr open cannot hang us: reading stops shortly after the hook exits."""
     assert proc.stdin is not None and proc.stderr is not None
     err_fd = proc.stderr.fileno()
-    in_fd: int | None = proc.stdin.fileno()
+    stdin_fd = proc.stdin.fileno()
     os.set_blocking(err_fd, False)
-    os.set_blocking(in_fd, False)
+    os.set_blocking(stdin_fd, False)
+    in_fd: int | None = stdin_fd  # None once the payload is written
     tail = bytearray()
     pending = memoryview(payload)
     exited_at: float | None = None

@@ -125,6 +125,10 @@ class AlarmQueueScreen(TableScreen):
         yield Static(id="queue-plan")
         yield KeyFooter()
 
+    @property
+    def queue_table(self) -> QueueTable:
+        return self.query_one(f"#{self.TABLE_ID}", QueueTable)
+
     def _add_columns(self, width: int) -> None:
         """Fixed columns, and what happened gets the rest, so state is never cut off."""
         self._columns_for = width
@@ -148,7 +152,7 @@ class AlarmQueueScreen(TableScreen):
             (i for i, a in enumerate(alarms) if a.id == keep.id), None)
         start = self._start
         if where is not None and not start <= where < start + size:
-            start = where - self.table.page_rows()
+            start = where - self.queue_table.page_rows()
         self._fill(start, where)
         self._show_plan()
         super().show_line()
@@ -156,7 +160,7 @@ class AlarmQueueScreen(TableScreen):
     def _window_size(self) -> int:
         """How many rows to build: a few screenfuls, so opening and redrawing stay quick
         however long the queue is."""
-        return max(MIN_WINDOW, WINDOW_PAGES * self.table.page_rows())
+        return max(MIN_WINDOW, WINDOW_PAGES * self.queue_table.page_rows())
 
     def _fill(self, start: int, cursor_at: int | None, screen_row: int | None = None) -> None:
         """Build the rows of the queue from position `start` (clamped), put the cursor on
@@ -191,7 +195,7 @@ class AlarmQueueScreen(TableScreen):
         target = max(0, min(here + step, len(alarms) - 1))
         if self._start <= target < self._start + len(self._ids):
             return
-        size, page = self._window_size(), table.page_rows()
+        size, page = self._window_size(), self.queue_table.page_rows()
         wanted = here - page if step > 0 else here - (size - page - 1)
         start = min(max(wanted, target - size + 1), target)
         self._fill(start, here, screen_row=row - round(table.scroll_y))
