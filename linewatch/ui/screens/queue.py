@@ -51,10 +51,50 @@ def reasons_for(alarm: view.AlarmView) -> list[str]:
     return list(alarm.reasons) or list(DEFAULT_REASONS)
 
 
+WINDOW_PAGES = 3  # rows built at once: this many screenfuls (at least MIN_WINDOW rows)
+MIN_WINDOW = 30
+
+
 class QueueTable(DataTable[object]):
-    """The queue's table: Enter acknowledges, and the footer says so."""
+    """The queue's table: Enter acknowledges, and the footer says so. It holds a window of the
+    queue; a cursor key that would leave the window first moves the window (see `_reach`)."""
 
     BINDINGS: ClassVar[list[BindingType]] = [Binding("enter", "select_cursor", "Acknowledge")]
+
+    def _reach(self, step: int) -> None:
+        screen = self.screen
+        if isinstance(screen, AlarmQueueScreen):
+            screen.reach(step)
+
+    def action_cursor_down(self) -> None:
+        self._reach(1)
+        super().action_cursor_down()
+
+    def action_cursor_up(self) -> None:
+        self._reach(-1)
+        super().action_cursor_up()
+
+    def action_page_down(self) -> None:
+        self._reach(self.page_rows())
+        super().action_page_down()
+
+    def action_page_up(self) -> None:
+        self._reach(-self.page_rows())
+        super().action_page_up()
+
+    def action_scroll_top(self) -> None:
+        self._reach(-(1 << 62))
+        super().action_scroll_top()
+
+    def action_scroll_bottom(self) -> None:
+        self._reach(1 << 62)
+        super().action_scroll_bottom()
+
+    def page_rows(self) -> int:
+        """Rows one screenful of the table shows (a guess from the terminal before layout)."""
+        height = self.scrollable_content_region.height - (
+            self.header_height if self.show_header else 0)
+        return height if height > 0 else max(1, self.app.size.height - 4)
 
 
 class AlarmQueueScreen(TableScreen):
@@ -76,7 +116,9 @@ class AlarmQueueScreen(TableScreen):
 
     def __init__(self) -> None:
         super().__init__()
-        self._ids: list[int] = []
+        self._ids: list[int] = []  # the alarms of the rows built, in order
+        self._alarms: list[view.AlarmView] = []  # the whole queue, in order
+        self._start = 0  # the queue position of the first row built
         self._columns_for = 0
 
     def compose(self) -> ComposeResult:
@@ -84,6 +126,10 @@ class AlarmQueueScreen(TableScreen):
         yield QueueTable(id="queue-table", cursor_type="row")
         yield Static(id="queue-plan")
         yield KeyFooter()
+
+    @property
+    def queue_table(self) -> QueueTable:
+        return self.query_one(f"#{self.TABLE_ID}", QueueTable)
 
     def _add_columns(self, width: int) -> None:
         """Fixed columns, and what happened gets the rest, so state is never cut off."""
@@ -102,16 +148,59 @@ class AlarmQueueScreen(TableScreen):
         line = self.lw.line
         alarms = sorted_alarms(line.alarms)
         keep = self.highlighted()
-        table = self.table
-        table.clear()
-        for a in alarms:
-            table.add_row(*self._cells(a), key=str(a.id))
-        self._ids = [a.id for a in alarms]
-        if keep is not None and keep.id in self._ids:
-            table.move_cursor(row=self._ids.index(keep.id))
-        self.query_one(TopBar).show(line, "alarm queue", f"{len(alarms)} alarms")
+        self._alarms = alarms
+        size = self._window_size()
+        where = None if keep is None else next(
+            (i for i, a in enumerate(alarms) if a.id == keep.id), None)
+        start = self._start
+        if where is not None and not start <= where < start + size:
+            start = where - self.queue_table.page_rows()
+        self._fill(start, where)
         self._show_plan()
         super().show_line()
+
+    def _window_size(self) -> int:
+        """How many rows to build: a few screenfuls, so opening and redrawing stay quick
+        however long the queue is."""
+        return max(MIN_WINDOW, WINDOW_PAGES * self.queue_table.page_rows())
+
+    def _fill(self, start: int, cursor_at: int | None, screen_row: int | None = None) -> None:
+        """Build the rows of the queue from position `start` (clamped), put the cursor on
+        queue position `cursor_at` when it is among them, `screen_row` lines below the top."""
+        alarms, size, table = self._alarms, self._window_size(), self.table
+        start = max(0, min(start, len(alarms) - size))
+        shown = alarms[start:start + size]
+        table.clear()
+        for a in shown:
+            table.add_row(*self._cells(a), key=str(a.id))
+        self._start = start
+        self._ids = [a.id for a in shown]
+        if cursor_at is not None and start <= cursor_at < start + len(shown):
+            row = cursor_at - start
+            table.move_cursor(row=row, scroll=screen_row is None)
+            if screen_row is not None:
+                table.scroll_to(y=row - screen_row, animate=False, force=True, immediate=True)
+        count = f"{len(alarms)} alarms"
+        if len(shown) < len(alarms):
+            count += f", {start + 1}-{start + len(shown)} loaded"
+        self.query_one(TopBar).show(self.lw.line, "alarm queue", count)
+
+    def reach(self, step: int) -> None:
+        """Before the cursor moves `step` rows (PgDn: a page, End: all the way), move the
+        window of built rows so the target is among them, with a page to spare, keeping the
+        cursor's alarm on the same screen line."""
+        table, alarms = self.table, self._alarms
+        if len(self._ids) >= len(alarms) or not self._ids:
+            return
+        row = table.cursor_row
+        here = self._start + row
+        target = max(0, min(here + step, len(alarms) - 1))
+        if self._start <= target < self._start + len(self._ids):
+            return
+        size, page = self._window_size(), self.queue_table.page_rows()
+        wanted = here - page if step > 0 else here - (size - page - 1)
+        start = min(max(wanted, target - size + 1), target)
+        self._fill(start, here, screen_row=row - round(table.scroll_y))
 
     def _cells(self, a: view.AlarmView) -> list[object]:
         loud = "bold" if a.priority <= 2 else ""
