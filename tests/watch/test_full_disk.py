@@ -32,7 +32,6 @@ def _stored_rows(state_dir: Path) -> tuple[int, int]:
         con.close()
 
 
-@pytest.mark.xfail(strict=True, reason="collector store errors: alarm-model work")
 def test_a_full_disk_is_reported_and_collection_resumes_when_space_returns(
     tmp_path: Path, small_disk: SmallDisk  # noqa: F811
 ) -> None:
