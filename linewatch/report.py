@@ -59,10 +59,10 @@ def num(x: float | None, digits: int = 6) -> str:
 
 
 def ppm(x: float | None) -> str:
-    """Parts per million: whole numbers from 100 on, else 3 significant digits."""
-    if x is None or not math.isfinite(x):
-        return ""
-    return f"{x:,.0f}" if x >= 100 else num(x, 3)
+    """Parts per million in plain digits ('' when missing); see figures.fmt_ppm."""
+    from linewatch.figures import fmt_ppm
+
+    return fmt_ppm(x)
 
 
 def interval(pair: tuple[float, float] | None, digits: int = 4) -> str:

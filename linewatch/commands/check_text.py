@@ -5,6 +5,8 @@ from __future__ import annotations
 from collections import defaultdict
 from typing import TYPE_CHECKING
 
+from linewatch.figures import fmt_ppm
+
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
     from linewatch.engine.characteristic import Firing
@@ -69,7 +71,7 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
               f"(95% {_f(s.get('cp_ci95'), 3)})  Cpk {_f(s.get('cpk'), 3)} "
               f"(95% {_f(s.get('cpk_ci95'), 3)})")
             w(f"   Pp {_f(s.get('pp'), 3)}  Ppk {_f(s.get('ppk'), 3)}  expected out of spec "
-              f"{_f(s.get('ppm_out'), 4)} ppm")
+              f"{fmt_ppm(s.get('ppm_out'), '—')} ppm")
         if s.get("trend_slope") is not None:
             w(f"   trend: slope {_f(s.get('trend_slope'))} per point, R² "
               f"{_f(s.get('trend_r2'), 3)}, p {_f(s.get('trend_p'), 3)}")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from rich.table import Table
 
+from linewatch.figures import fmt_ppm
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_fixed, fmt_scaled, fmt_value
 from linewatch.view import PhaseStats
@@ -20,7 +21,7 @@ def phase_table(phases: list[PhaseStats]) -> Table:
         sd = p.stdev
         ci = f"{fmt_scaled(p.ci95[0], sd)}..{fmt_scaled(p.ci95[1], sd)}" if p.ci95 else "-"
         cpk_ci = f"{fmt_fixed(p.cpk_ci95[0])}..{fmt_fixed(p.cpk_ci95[1])}" if p.cpk_ci95 else "-"
-        ppm = "-" if p.ppm_out is None else f"{p.ppm_out:,.0f}"
+        ppm = fmt_ppm(p.ppm_out, "-")
         table.add_row(
             str(p.phase), str(p.start_index), str(p.n), fmt_scaled(p.mean, sd),
             fmt_value(p.stdev, 3), ci, fmt_fixed(p.cp),

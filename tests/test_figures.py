@@ -1,0 +1,49 @@
+"""Figures written for people: ppm in plain digits."""
+
+from __future__ import annotations
+
+import pytest
+
+from linewatch.figures import fmt_ppm
+
+
+@pytest.mark.parametrize(("value", "shown"), [
+    (18550.3, "18,550"),  # was 1.855e+04
+    (1.077e-15, "< 0.001"),  # was 1.077e-15
+    (1030.4, "1,030"),
+    (123.4, "123"),
+    (99.96, "100"),
+    (12.345, "12.3"),
+    (1.5, "1.50"),
+    (0.04567, "0.0457"),
+    (0.001, "0.00100"),
+    (0.0, "< 0.001"),  # an underflowed normal tail
+    (1e6, "1,000,000"),
+])
+def test_ppm_is_plain_digits_with_sensible_rounding(value: float, shown: str) -> None:
+    assert fmt_ppm(value) == shown
+    assert "e" not in fmt_ppm(value)
+
+
+def test_missing_ppm_shows_the_callers_mark() -> None:
+    assert fmt_ppm(None) == ""
+    assert fmt_ppm(float("nan"), "-") == "-"
+
+
+def test_the_phase_table_shows_a_tiny_tail_as_below_a_thousandth() -> None:
+    from rich.console import Console
+
+    from linewatch.ui.widgets.phase_table import phase_table
+    from linewatch.view import PhaseStats
+
+    console = Console(width=200, color_system=None, file=None)
+    with console.capture() as cap:
+        console.print(phase_table([PhaseStats(1, 0, 50, 12.0, 0.01, (11.99, 12.01), 1.7, 1.6,
+                                              (1.4, 1.8), 1.077e-15)]))
+    assert "< 0.001" in cap.get() and "e-15" not in cap.get()
+
+
+def test_the_reports_write_ppm_with_the_same_function() -> None:
+    from linewatch.report import ppm
+
+    assert ppm(18550.3) == "18,550" and ppm(1.077e-15) == "< 0.001" and ppm(None) == ""
