@@ -8,7 +8,8 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
-                       center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans
+                       center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
+                       decimals
 """
 
 from __future__ import annotations
@@ -72,6 +73,7 @@ class CharacteristicConfig:
     reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
+    decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
 
     @property
     def effective_dispersion(self) -> str:
@@ -303,7 +305,7 @@ def _read_characteristic(
     r.check_known(
         {"name", "column", "unit", "lsl", "usl", "target", "subgroup_size", "dispersion",
          "baseline", "center", "sigma", "rules", "run_lengths", "reasons", "reaction_plan",
-         "reaction_plans"}
+         "reaction_plans", "decimals"}
     )
     name = r.string("name")
     if not name:
@@ -354,6 +356,7 @@ def _read_characteristic(
         reasons=reasons,
         reaction_plan=r.string("reaction_plan", "") or "",
         reaction_plans=plans,
+        decimals=r.integer("decimals", None, 0, 10),
     )
 
 

@@ -23,3 +23,34 @@ def fmt_ppm(x: float | None, missing: str = "") -> str:
     if float(text) >= 100:  # 99.96 rounds up to the next decade
         return f"{x:,.0f}"
     return text
+
+
+def reading_decimals(decimals: int | None, lsl: float | None, usl: float | None,
+                     sigma: float | None) -> int | None:
+    """How many decimals a characteristic's readings and limits are shown with: the configured
+    `decimals` when set; else enough to resolve a hundredth of the tolerance (a ±0.05 mm
+    tolerance shows 3 decimals, ten times finer than the 10:1 gauge rule of common practice);
+    else a tenth of σ; None when nothing is known yet (then 4 significant digits)."""
+    if decimals is not None:
+        return decimals
+    if lsl is not None and usl is not None and usl > lsl:
+        step = (usl - lsl) / 100
+    elif sigma is not None and math.isfinite(sigma) and sigma > 0:
+        step = sigma / 10
+    else:
+        return None
+    if not math.isfinite(step) or step <= 0:
+        return None
+    return min(8, max(0, math.ceil(-math.log10(step) - 1e-9)))
+
+
+def fmt_reading(value: float | None, decimals: int | None, missing: str = "-") -> str:
+    """A reading (or a limit on the readings' scale) with the characteristic's decimals;
+    4 significant digits when the decimals are not known."""
+    if value is None or not math.isfinite(value):
+        return missing
+    if decimals is None:
+        if value == 0:
+            return "0"
+        decimals = max(0, 3 - math.floor(math.log10(abs(value))))
+    return f"{value:.{decimals}f}"

@@ -65,6 +65,14 @@ def ppm(x: float | None) -> str:
     return fmt_ppm(x)
 
 
+def reading(x: float | None, decimals: int | None) -> str:
+    """A reading or a limit on the readings' scale with the characteristic's decimals, as the
+    screen shows it ('' when missing; 6 significant digits when the decimals are unknown)."""
+    from linewatch.figures import fmt_reading
+
+    return num(x) if decimals is None else fmt_reading(x, decimals, "")
+
+
 def interval(pair: tuple[float, float] | None, digits: int = 4) -> str:
     """'lo – hi', or '' when there is no interval."""
     if pair is None:
@@ -111,6 +119,7 @@ class CharacteristicPart:
     ppm_out: float | None
     alarms_by_rule: dict[str, int]
     trace: ChartTrace
+    decimals: int | None = None  # how its readings are shown (figures.reading_decimals)
 
 
 @dataclass(slots=True)
@@ -309,6 +318,8 @@ def build_report(
     for name in sorted(store.history.characteristics_with_points()):
         if name not in names:
             names.append(name)
+    from linewatch.figures import reading_decimals
+
     parts: list[CharacteristicPart] = []
     for name in names:
         settings = store.history.settings(name)
@@ -343,6 +354,7 @@ def build_report(
                 name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
                 mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
                 cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,
+                decimals=reading_decimals(cfg.decimals if cfg else None, lsl, usl, sigma_within),
             )
         )
 

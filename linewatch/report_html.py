@@ -12,6 +12,7 @@ from linewatch.report import (
     local_time,
     num,
     ppm,
+    reading,
     rules_text,
     span,
 )
@@ -115,7 +116,7 @@ def render_html(report: ShiftReport) -> str:
     for c in r.characteristics:
         unit = f" [{c.unit}]" if c.unit else ""
         rows.append([
-            (c.name + unit, False), (str(c.n), True), (num(c.mean), True),
+            (c.name + unit, False), (str(c.n), True), (reading(c.mean, c.decimals), True),
             (num(c.stdev, 4), True), (interval(c.ci95, 6), True), (num(c.cp, 3), True),
             (interval(c.cp_ci95, 3), True), (num(c.cpk, 3), True),
             (interval(c.cpk_ci95, 3), True), (ppm(c.ppm_out), True),
@@ -136,7 +137,8 @@ def render_html(report: ShiftReport) -> str:
             continue
         spec = ""
         if c.lsl is not None or c.usl is not None:
-            spec = f" · spec {num(c.lsl)} … {num(c.usl)} {c.unit}"
+            spec = (f" · spec {reading(c.lsl, c.decimals)} … {reading(c.usl, c.decimals)} "
+                    f"{c.unit}")
         kind = f"X̄ of {c.subgroup_size}" if c.subgroup_size > 1 else "individuals"
         out.append(
             f'<section class="char"><h3>{escape(c.name)}</h3><p class="figures">{escape(kind)} '

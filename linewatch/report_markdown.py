@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from linewatch.model import CHART_INDIVIDUALS, CHART_XBAR
 from linewatch.report import (
     ShiftReport,
     clock_time,
@@ -9,9 +10,12 @@ from linewatch.report import (
     local_time,
     num,
     ppm,
+    reading,
     rules_text,
     span,
 )
+
+LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # on the readings' scale
 
 
 def _cell(text: object) -> str:
@@ -56,9 +60,11 @@ def render_markdown(report: ShiftReport) -> str:
     rows = []
     for c in r.characteristics:
         unit = f" [{c.unit}]" if c.unit else ""
-        spec = f"{num(c.lsl)} … {num(c.usl)}" if c.lsl is not None or c.usl is not None else ""
+        d = c.decimals
+        spec = (f"{reading(c.lsl, d)} … {reading(c.usl, d)}"
+                if c.lsl is not None or c.usl is not None else "")
         rows.append([
-            f"{c.name}{unit}", c.n, num(c.mean), num(c.stdev, 4), interval(c.ci95, 6), spec,
+            f"{c.name}{unit}", c.n, reading(c.mean, d), num(c.stdev, 4), interval(c.ci95, 6), spec,
             num(c.cp, 3), interval(c.cp_ci95, 3), num(c.cpk, 3), interval(c.cpk_ci95, 3),
             ppm(c.ppm_out), rules_text(c.alarms_by_rule) or "none",
         ])
@@ -86,13 +92,15 @@ def render_markdown(report: ShiftReport) -> str:
         lines.append("")
 
     lines += ["## Limits and baselines", ""]
+    decimals = {c.name: c.decimals for c in r.characteristics}
     if r.limits:
         lines += _table(
             ["set at", "characteristic", "chart", "phase", "from point", "CL", "UCL", "LCL",
              "kind", "reason", "by"],
             [
                 [at(x.at), x.characteristic, x.chart, x.phase, x.start_index,
-                 num(x.center), num(x.ucl), num(x.lcl),
+                 *(reading(v, decimals.get(x.characteristic)) if x.chart in LOCATION_CHARTS
+                   else num(v) for v in (x.center, x.ucl, x.lcl)),
                  "new baseline" if x.new_baseline else "limits set", x.reason, x.actor]
                 for x in r.limits
             ],

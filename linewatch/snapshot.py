@@ -148,6 +148,9 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
             v.phases = _phase_stats(values, first, limits_hist, c, n)
             v.recent_values = values[-RECENT_VALUES:].tolist()
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
+    from linewatch.figures import reading_decimals
+
+    v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma)
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))

@@ -70,6 +70,7 @@ class CharacteristicView:
     unit: str = ""
     state: str = STATE_LEARNING
     last_value: float | None = None
+    decimals: int | None = None  # how readings are shown (figures.reading_decimals)
     last_row_age: float | None = None  # seconds since the newest row arrived
     lsl: float | None = None
     usl: float | None = None

@@ -86,6 +86,10 @@ def test_a_good_config_is_read_with_its_defaults(tmp_path):
         ("[alarms]\nhook = 'rm -rf /'\n", "alarms.hook", "never a shell command line"),
         ("[alarms.priorities]\nout-of-spec = 0\n", "alarms.priorities.out-of-spec",
          "between 1 and 99"),
+        ("[[characteristic]]\nname = 'x'\ndecimals = 2.5\n", "characteristic.x.decimals",
+         "whole number"),
+        ("[[characteristic]]\nname = 'x'\ndecimals = 12\n", "characteristic.x.decimals",
+         "between 0 and 10"),
         ("this is = = not toml", "(syntax)", ""),
     ],
 )

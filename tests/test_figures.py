@@ -47,3 +47,26 @@ def test_the_reports_write_ppm_with_the_same_function() -> None:
     from linewatch.report import ppm
 
     assert ppm(18550.3) == "18,550" and ppm(1.077e-15) == "< 0.001" and ppm(None) == ""
+
+
+@pytest.mark.parametrize(("setting", "lsl", "usl", "sigma", "decimals"), [
+    (None, 11.95, 12.05, 0.012, 3),  # ±0.05 mm: 12.012, not 12.01
+    (None, 495.0, 515.0, 2.6, 1),
+    (None, 1.45, 1.55, None, 3),
+    (None, None, 1.5, 0.12, 2),  # one-sided: from σ
+    (None, None, None, None, None),
+    (2, 11.95, 12.05, 0.012, 2),  # the config's `decimals` wins
+])
+def test_one_function_decides_the_decimals(setting, lsl, usl, sigma, decimals) -> None:
+    from linewatch.figures import reading_decimals
+
+    assert reading_decimals(setting, lsl, usl, sigma) == decimals
+
+
+def test_a_reading_is_written_with_its_decimals() -> None:
+    from linewatch.figures import fmt_reading
+
+    assert fmt_reading(12.0123, 3) == "12.012"
+    assert fmt_reading(12.0, 3) == "12.000"
+    assert fmt_reading(12.0123, None) == "12.01"
+    assert fmt_reading(None, 3) == "-"

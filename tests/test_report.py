@@ -433,3 +433,36 @@ def test_a_long_shift_keeps_the_chart_small_and_still_shows_its_extremes() -> No
     # downwards; the marker is a 7-px square centred on the point).
     assert min(ys) == pytest.approx(flag_y + 3.5, abs=0.06)
     assert sorted(ys)[1] > min(ys) + 20  # and it stands well clear of the rest
+
+
+def test_readings_have_the_same_decimals_in_the_report_and_on_the_screen(shift_store) -> None:
+    """±0.05 mm: a reading needs 3 decimals (12.012), not 4 significant digits (12.01)."""
+    from linewatch.snapshot import characteristic_view
+
+    store, values = shift_store
+    md = render_markdown(_report(store))
+    row = next(line for line in md.splitlines() if line.startswith("| outer-diameter"))
+    assert f"| {values.mean():.3f} |" in row and "| 11.950 … 12.050 |" in row
+    limits_row = next(line for line in md.splitlines() if "new die fitted" in line)
+    assert "| 12.001 | 12.036 | 11.964 |" in limits_row
+    cv = characteristic_view(store, AlarmBook(store, CONFIG), CONFIG.characteristics[0],
+                             now=T0 + SHIFT)
+    assert cv.decimals == 3
+    with_two = parse_config(CONFIG_TEXT_WITH_DECIMALS)
+    assert _report_with(store, with_two).characteristics[0].decimals == 2
+    assert characteristic_view(store, AlarmBook(store, with_two), with_two.characteristics[0],
+                               now=T0 + SHIFT).decimals == 2
+
+
+CONFIG_TEXT_WITH_DECIMALS = """
+[[characteristic]]
+name = "outer-diameter"
+unit = "mm"
+lsl = 11.95
+usl = 12.05
+decimals = 2
+"""
+
+
+def _report_with(store: Store, config):
+    return build_report(store, T0, T0 + SHIFT, config, now=T0 + SHIFT + 60)

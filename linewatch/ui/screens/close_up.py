@@ -15,8 +15,9 @@ from textual.widgets import Static
 from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
+from linewatch.figures import fmt_reading
 from linewatch.ui import palette
-from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_mark
+from linewatch.ui.formatting import STATE_WORDS, fmt_span, rule_mark
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.widgets.box_plot import draw_box_plot
 from linewatch.ui.widgets.chart_pane import ChartPane
@@ -29,16 +30,16 @@ WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the ch
 
 
 def projection_words(slope: float, points: int, lsl: float | None, usl: float | None,
-                     seconds_per_point: float | None) -> str:
+                     seconds_per_point: float | None, decimals: int | None = None) -> str:
     """Where a significant trend leads: the spec limit it heads for, in points and, when the
     pace of the line is known, in time."""
     name, limit = ("USL", usl) if slope > 0 else ("LSL", lsl)
     if points <= 0:
-        return f"the fitted line is already past {name} {fmt_value(limit)}"
+        return f"the fitted line is already past {name} {fmt_reading(limit, decimals)}"
     when = f"about {points} points"
     if seconds_per_point:
         when += f", ~{fmt_span(points * seconds_per_point)} at the current pace"
-    return f"reaches {name} {fmt_value(limit)} in {when} if it goes on"
+    return f"reaches {name} {fmt_reading(limit, decimals)} in {when} if it goes on"
 
 
 class CloseUpBody(VerticalScroll):
@@ -176,7 +177,7 @@ class CloseUpScreen(LineScreen):
             values = loc.values if loc else []
             what = "points" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
-        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs)
+        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs, cv.decimals)
         box.end = "\n"  # Textual counts newlines to size a Group
         self.query_one("#closeup-box", Static).update(Group(
             Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
@@ -226,7 +227,8 @@ class CloseUpScreen(LineScreen):
         if loc and self.cursor is not None and loc.values:
             i = self.cursor
             idx = loc.indices[i] if i < len(loc.indices) else i
-            text.append(f"cursor: point {idx} = {fmt_value(loc.values[i])}", "bold")
+            text.append(f"cursor: point {idx} = {fmt_reading(loc.values[i], cv.decimals)}",
+                        "bold")
             rules = loc.rules[i] if i < len(loc.rules) else ""
             if rules:
                 text.append(f"  signals {rules}", palette.SIGNAL)
@@ -258,7 +260,7 @@ class CloseUpScreen(LineScreen):
                         palette.LABEL)
         else:
             text.append(projection_words(fit.slope, fit.points_to_spec, cv.lsl, cv.usl,
-                                         cv.seconds_per_point), palette.SIGNAL)
+                                         cv.seconds_per_point, cv.decimals), palette.SIGNAL)
         return text
 
     def action_move(self, step: int) -> None:
@@ -281,7 +283,7 @@ class CloseUpScreen(LineScreen):
         if cv is None:
             return
         self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
-                                                            self.cursor)
+                                                            self.cursor, cv.decimals)
         self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
 
     def action_back(self) -> None:

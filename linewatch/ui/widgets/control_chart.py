@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 from rich.text import Text
 
+from linewatch.figures import fmt_reading
 from linewatch.scales import padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_mark
@@ -102,13 +103,15 @@ def draw_control_chart(
     lsl: float | None = None,
     usl: float | None = None,
     cursor: int | None = None,
+    decimals: int | None = None,
 ) -> Text:
     """Render `chart` in `width` x `height` cells (labels take LABEL_WIDTH more on the right).
 
     Each point is drawn against its own phase's CL, UCL, LCL and zones, so old limits stay on
     the history; the labels name the limits of the newest phase shown. `cursor` is a position in
     chart.values to highlight; spec limits far outside the control band are named in the label
-    column instead of squashing the chart.
+    column instead of squashing the chart. `decimals`: the readings' (figures.reading_decimals),
+    for a chart on the readings' scale; without it the limits show what the chart's σ resolves.
     """
     plot_w = max(5, width - LABEL_WIDTH)
     height = max(5, height)
@@ -156,7 +159,7 @@ def draw_control_chart(
             specs[name] = spec
             span_values.append(spec)
         else:
-            off_chart.append(f"{name} {fmt_value(spec)}")
+            off_chart.append(f"{name} {fmt_reading(spec, decimals)}")
     lo, hi = padded_span(span_values, 0.04)
     # a spec limit named instead of drawn gets the edge row to itself, beyond every drawn value,
     # so its label can never sit between lines it lies outside of
@@ -180,7 +183,10 @@ def draw_control_chart(
             return
         if any((r < row) != (v > value) for r, v in label_values.items()):
             return
-        shown_value = fmt_scaled(value, scale) if scale else fmt_value(value)
+        if decimals is not None:
+            shown_value = fmt_reading(value, decimals)
+        else:
+            shown_value = fmt_scaled(value, scale) if scale else fmt_value(value)
         labels[row] = Text(f"{name} {shown_value}"[:LABEL_WIDTH - 1], style)
         label_values[row] = value
 
