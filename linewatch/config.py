@@ -397,9 +397,9 @@ def load_config(path: str | Path) -> Config:
     try:
         text = p.read_text(encoding="utf-8")
     except FileNotFoundError:
-        raise ConfigError(str(p), "(file)", "no such file") from None
+        raise ConfigError(str(p), "", "no such config file") from None
     except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(str(p), "(file)", f"cannot read: {exc}") from None
+        raise ConfigError(str(p), "", f"cannot read this config file: {exc}") from None
     config = parse_config(text, str(p))
     base = p.resolve().parent
     for feed in config.feeds:

@@ -6,6 +6,7 @@ from collections import defaultdict
 from typing import TYPE_CHECKING
 
 from linewatch.figures import fmt_ppm
+from linewatch.words import count
 
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
@@ -54,7 +55,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
         if not by_rule:
             w("   signals: none")
         for (chart, rule), firings in by_rule.items():
-            w(f"   signal {rule} on {chart}: {_rule_text(a, rule)} — {len(firings)} point(s)")
+            w(f"   signal {rule} on {chart}: {_rule_text(a, rule)} — "
+              f"{count(len(firings), 'point')}")
             for f in firings[:MAX_LISTED]:
                 where = f"line {int(a.column.lines[f.row])}"
                 if several_files:
