@@ -93,7 +93,7 @@ def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsR
         d = describe(seg)
         cap = capability(seg, sigma_loc * np.sqrt(n), c.lsl, c.usl)
         out.append(PhaseStats(phase, start, d.points, d.mean, d.stdev, d.ci95, cap.cp, cap.cpk,
-                              cap.cpk_ci95, cap.ppm_out))
+                              cap.cpk_ci95, cap.ppm_out, cap.pp, cap.ppk))
     return out
 
 

@@ -59,7 +59,9 @@ class PhaseStats:
     cp: float | None
     cpk: float | None
     cpk_ci95: tuple[float, float] | None
-    ppm_out: float | None
+    ppm_out: float | None  # from the overall SD, like Pp and Ppk
+    pp: float | None = None
+    ppk: float | None = None
 
 
 @dataclass(slots=True)

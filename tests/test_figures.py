@@ -70,3 +70,21 @@ def test_a_reading_is_written_with_its_decimals() -> None:
     assert fmt_reading(12.0, 3) == "12.000"
     assert fmt_reading(12.0123, None) == "12.01"
     assert fmt_reading(None, 3) == "-"
+
+
+def test_the_phase_table_puts_ppm_beside_pp_and_ppk_and_says_which_sigma() -> None:
+    from rich.console import Console
+
+    from linewatch.ui.widgets.phase_table import phase_table
+    from linewatch.view import PhaseStats
+
+    console = Console(width=80, color_system=None, file=None)
+    with console.capture() as cap:
+        console.print(phase_table([PhaseStats(1, 0, 50, 12.0, 0.01, (11.99, 12.01), 1.45, 1.31,
+                                              (1.1, 1.5), 1030.0, 1.10, 0.99)]))
+    lines = cap.get().splitlines()
+    header = next(line for line in lines if "ppm" in line).split()
+    assert header[-3:] == ["Pp", "Ppk", "ppm"]  # the ppm sits with the overall-SD indices
+    row = lines[lines.index(next(line for line in lines if "ppm" in line)) + 1].split()
+    assert row[-3:] == ["1.10", "0.99", "1,030"]
+    assert any("σ within" in line and "overall SD" in line for line in lines)

@@ -466,3 +466,20 @@ decimals = 2
 
 def _report_with(store: Store, config):
     return build_report(store, T0, T0 + SHIFT, config, now=T0 + SHIFT + 60)
+
+
+def test_the_close_up_phases_give_pp_and_ppk_from_the_overall_sd(shift_store) -> None:
+    """The ppm beside them is from the overall SD too; Pp = (USL − LSL) / 6s, Ppk the nearer
+    side over 3s, s the sample SD (numpy, ddof=1), per phase of limits."""
+    from linewatch.snapshot import characteristic_view
+
+    store, _values = shift_store
+    cv = characteristic_view(store, AlarmBook(store, CONFIG), CONFIG.characteristics[0],
+                             now=T0 + SHIFT, points=1000, detail=True)
+    stored = np.array([12.5] * 20 + _values.tolist())
+    for phase, (lo, hi) in zip(cv.phases, [(0, 150), (150, None)], strict=True):
+        seg = stored[lo:hi]
+        s = seg.std(ddof=1)
+        assert phase.pp == pytest.approx((USL - LSL) / (6 * s), rel=1e-9)
+        assert phase.ppk == pytest.approx(min(USL - seg.mean(), seg.mean() - LSL) / (3 * s),
+                                          rel=1e-9)
