@@ -18,9 +18,21 @@ from linewatch.report import (
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # on the readings' scale
 
 
+# Markdown that text from outside could use: HTML (<script>), links and images ([..](..)),
+# code and emphasis, and the pipe that ends a table cell. Each is backslash-escaped, which
+# CommonMark defines for any ASCII punctuation, so it shows as itself and does nothing.
+_ACTIVE = set("\\`*_[]<>|!&")
+
+
+def _text(text: object) -> str:
+    """Inline-safe text: Markdown and HTML characters escaped, line breaks flattened."""
+    flat = str(text).replace("\r", " ").replace("\n", " ")
+    return "".join("\\" + ch if ch in _ACTIVE else ch for ch in flat)
+
+
 def _cell(text: object) -> str:
-    """Table-safe text: pipes escaped, line breaks flattened."""
-    return str(text).replace("|", "\\|").replace("\r", " ").replace("\n", " ").strip()
+    """Table-safe text (see `_text`; the pipe is among the escaped characters)."""
+    return _text(str(text).strip())
 
 
 def _table(header: list[str], rows: list[list[object]]) -> list[str]:
@@ -39,12 +51,12 @@ def render_markdown(report: ShiftReport) -> str:
     lines = [
         f"# Shift handover: {local_time(r.since)} to {local_time(r.until)}",
         "",
-        f"Made {local_time(r.made_at)} from the store in `{r.state_dir}`.",
+        f"Made {local_time(r.made_at)} from the store in {_text(r.state_dir)}.",
         "",
     ]
     audit = "intact" if r.audit_ok else "BROKEN"
     lines += [
-        f"**Audit trail: {audit}.** {r.audit_message}. "
+        f"**Audit trail: {audit}.** {_text(r.audit_message)}. "
         f"Entries written in this period: {r.audit_entries}.",
         "",
     ]

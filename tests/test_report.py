@@ -483,3 +483,43 @@ def test_the_close_up_phases_give_pp_and_ppk_from_the_overall_sd(shift_store) ->
         assert phase.pp == pytest.approx((USL - LSL) / (6 * s), rel=1e-9)
         assert phase.ppk == pytest.approx(min(USL - seg.mean(), seg.mean() - LSL) / (3 * s),
                                           rel=1e-9)
+
+
+HOSTILE_NOTE = "<script>alert(1)</script> | =cmd|' /C calc'!A0 [x](javascript:alert(2)) `"
+
+
+@pytest.fixture()
+def hostile_store(shift_store):
+    """The shift plus text from outside that tries to break out: a note with HTML, a pipe, a
+    formula and a link; a feed file and detail that are formulas; a limit with a real negative
+    centre line and a formula as its reason."""
+    store, values = shift_store
+    book = AlarmBook(store, CONFIG)
+    second = [a for a in store.alarms.all() if not a.acknowledged][0]
+    book.acknowledge([second.id], "no cause found", HOSTILE_NOTE, now=T0 + 4000,
+                     actor=Actor("=maria", "10.0.0.7"))
+    store.history.add_feed_event(FeedEvent("rotated", "@SUM(A1).csv", "-2+3"), at=T0 + 950)
+    store.history.record_limits(Limits("offset", "individuals", -0.5, 0.1, -1.1, 0.2),
+                                reason="+1+1", now=T0 + 100)
+    return store, values
+
+
+def test_markdown_cells_stay_cells_and_html_stays_text(hostile_store) -> None:
+    """Rendered with markdown-it-py (CommonMark with GFM tables, raw HTML allowed as on many
+    viewers): no element comes from the data, every row keeps its cells, the note reads as
+    written."""
+    from html import unescape
+
+    from markdown_it import MarkdownIt
+
+    store, _ = hostile_store
+    html = MarkdownIt("commonmark", {"html": True}).enable("table").render(
+        render_markdown(_report(store)))
+    assert "<script" not in html and "<a " not in html and "<code>" not in html
+    for table in re.findall(r"<table>(.*?)</table>", html, re.S):
+        header = len(re.findall(r"<th[ >]", table))
+        rows = re.findall(r"<tr>(.*?)</tr>", table, re.S)[1:]
+        assert rows and all(len(re.findall(r"<td[ >]", row)) == header for row in rows)
+    cells = [unescape(c) for c in re.findall(r"<td[^>]*>(.*?)</td>", html, re.S)]
+    assert HOSTILE_NOTE.strip() in cells
+
