@@ -523,3 +523,17 @@ def test_markdown_cells_stay_cells_and_html_stays_text(hostile_store) -> None:
     cells = [unescape(c) for c in re.findall(r"<td[^>]*>(.*?)</td>", html, re.S)]
     assert HOSTILE_NOTE.strip() in cells
 
+
+def test_csv_text_cells_cannot_start_a_formula_but_numbers_stay_numbers(hostile_store) -> None:
+    """Formula injection (OWASP 'CSV injection'): a cell starting with = + - @ is run by a
+    spreadsheet; text cells get a leading quote, real numbers are left as they are."""
+    store, _ = hostile_store
+    rows = list(csv.reader(io.StringIO(render_csv(_report(store)))))
+    cells = [cell for row in rows for cell in row]
+    for cell in cells:
+        if cell[:1] in ("=", "+", "-", "@"):
+            float(cell)  # only a real number may start so
+    assert HOSTILE_NOTE in cells and "'=maria" in cells  # only a leading = is run
+    assert "'@SUM(A1).csv" in cells and "'-2+3" in cells and "'+1+1" in cells
+    offset = next(row for row in rows if row[:1] == ["limits"] and "offset" in row)
+    assert "-0.5" in offset and "-1.1" in offset
