@@ -495,7 +495,7 @@ def hostile_store(shift_store):
     centre line and a formula as its reason."""
     store, values = shift_store
     book = AlarmBook(store, CONFIG)
-    second = [a for a in store.alarms.all() if not a.acknowledged][0]
+    second = next(a for a in store.alarms.all() if not a.acknowledged)
     book.acknowledge([second.id], "no cause found", HOSTILE_NOTE, now=T0 + 4000,
                      actor=Actor("=maria", "10.0.0.7"))
     store.history.add_feed_event(FeedEvent("rotated", "@SUM(A1).csv", "-2+3"), at=T0 + 950)
