@@ -34,3 +34,14 @@ def test_a_missing_config_file_is_named_without_a_pseudo_key(tmp_path: Path) -> 
     assert res.returncode == 2
     assert res.stderr.strip() == f"linewatch: {tmp_path / 'nosuch.toml'}: no such config file"
 
+
+
+def test_the_readme_states_the_python_that_the_package_requires() -> None:
+    import re
+    import tomllib
+
+    root = Path(__file__).resolve().parents[1]
+    needs = tomllib.loads((root / "pyproject.toml").read_text())["project"]["requires-python"]
+    minimum = needs.removeprefix(">=")
+    assert re.search(rf"needs Python {re.escape(minimum)} or newer",
+                     (root / "README.md").read_text())
