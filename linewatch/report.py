@@ -354,7 +354,8 @@ def build_report(
                 name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
                 mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
                 cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,
-                decimals=reading_decimals(cfg.decimals if cfg else None, lsl, usl, sigma_within),
+                decimals=reading_decimals(cfg.decimals if cfg else None, lsl, usl, sigma_within,
+                                          values[-200:]),
             )
         )
 

@@ -97,6 +97,9 @@ def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsR
     return out
 
 
+RESOLUTION_READINGS = 200  # recent readings that show the gauge's resolution
+
+
 def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
                         points: int = OVERVIEW_POINTS, detail: bool = False,
                         stale_after: float = 600.0,
@@ -150,7 +153,8 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
     from linewatch.figures import reading_decimals
 
-    v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma)
+    v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
+                                  [r.value for r in recs[-RESOLUTION_READINGS:]])
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))

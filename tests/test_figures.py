@@ -88,3 +88,26 @@ def test_the_phase_table_puts_ppm_beside_pp_and_ppk_and_says_which_sigma() -> No
     row = lines[lines.index(next(line for line in lines if "ppm" in line)) + 1].split()
     assert row[-3:] == ["1.10", "0.99", "1,030"]
     assert any("σ within" in line and "overall SD" in line for line in lines)
+
+
+@pytest.mark.parametrize(("values", "decimals"), [
+    ([1.501, 1.49, 1.5], 3),  # the wall station writes 3 decimals
+    ([500.4, 499.0], 1),
+    ([12.0, 13.0], 0),
+    ([], None),
+])
+def test_the_gauges_resolution_is_read_from_its_values(values, decimals) -> None:
+    from linewatch.figures import resolution_decimals
+
+    assert resolution_decimals(values) == decimals
+
+
+def test_no_more_decimals_than_the_gauge_writes() -> None:
+    from linewatch.figures import reading_decimals
+
+    # the tolerance 1.46..1.54 alone asks for 4 decimals; the gauge writes 3 (1.5010 -> 1.501)
+    assert reading_decimals(None, 1.46, 1.54, 0.01) == 4
+    assert reading_decimals(None, 1.46, 1.54, 0.01, [1.501, 1.499]) == 3
+    assert reading_decimals(None, 496.0, 505.0, 1.2, [500.4, 499.9]) == 1
+    assert reading_decimals(None, None, None, None, [500.4]) == 1
+    assert reading_decimals(2, 1.46, 1.54, 0.01, [1.501]) == 2  # the config still wins
