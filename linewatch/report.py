@@ -13,7 +13,9 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import TYPE_CHECKING
 
-from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, Limits
+from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHART_XBAR, Limits
+
+LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
     from linewatch.config import Config

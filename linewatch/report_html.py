@@ -6,6 +6,8 @@ from __future__ import annotations
 from html import escape
 
 from linewatch.report import (
+    LOCATION_CHARTS,
+    LimitsChange,
     ShiftReport,
     clock_time,
     interval,
@@ -163,14 +165,20 @@ def render_html(report: ShiftReport) -> str:
         ))
 
     out.append("<h2>Limits and baselines</h2>")
+    decimals = {c.name: c.decimals for c in r.characteristics}
+
+    def limit(x: LimitsChange, v: float | None) -> str:
+        """A limit on the readings' scale with their decimals; dispersion limits as before."""
+        return reading(v, decimals.get(x.characteristic)) if x.chart in LOCATION_CHARTS else num(v)
+
     if r.limits:
         out.append(_table(
             ["set at", "characteristic", "chart", "phase", "from point", "CL", "UCL", "LCL",
              "kind", "reason", "by"],
             [
                 [(at(x.at), False), (x.characteristic, False), (x.chart, False),
-                 (str(x.phase), True), (str(x.start_index), True), (num(x.center), True),
-                 (num(x.ucl), True), (num(x.lcl), True),
+                 (str(x.phase), True), (str(x.start_index), True), (limit(x, x.center), True),
+                 (limit(x, x.ucl), True), (limit(x, x.lcl), True),
                  ("new baseline" if x.new_baseline else "limits set", False), (x.reason, False),
                  (x.actor, False)]
                 for x in r.limits

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from linewatch.model import CHART_INDIVIDUALS, CHART_XBAR
 from linewatch.report import (
+    LOCATION_CHARTS,
     ShiftReport,
     clock_time,
     interval,
@@ -14,9 +14,6 @@ from linewatch.report import (
     rules_text,
     span,
 )
-
-LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # on the readings' scale
-
 
 # Markdown that text from outside could use: HTML (<script>), links and images ([..](..)),
 # code and emphasis, and the pipe that ends a table cell. Each is backslash-escaped, which

@@ -537,3 +537,11 @@ def test_csv_text_cells_cannot_start_a_formula_but_numbers_stay_numbers(hostile_
     assert "'@SUM(A1).csv" in cells and "'-2+3" in cells and "'+1+1" in cells
     offset = next(row for row in rows if row[:1] == ["limits"] and "offset" in row)
     assert "-0.5" in offset and "-1.1" in offset
+
+
+def test_the_html_limits_have_the_readings_decimals(shift_store) -> None:
+    store, _ = shift_store
+    text = render_html(_report(store))
+    row = next(r for r in re.findall(r"<tr[^>]*>(.*?)</tr>", text, re.S) if "new die fitted" in r)
+    cells = [re.sub(r"<[^>]+>", "", c) for c in re.findall(r"<td[^>]*>.*?</td>", row, re.S)]
+    assert ["12.001", "12.036", "11.964"] == cells[5:8]
