@@ -542,6 +542,9 @@ def test_csv_text_cells_cannot_start_a_formula_but_numbers_stay_numbers(hostile_
 def test_the_html_limits_have_the_readings_decimals(shift_store) -> None:
     store, _ = shift_store
     text = render_html(_report(store))
-    row = next(r for r in re.findall(r"<tr[^>]*>(.*?)</tr>", text, re.S) if "new die fitted" in r)
-    cells = [re.sub(r"<[^>]+>", "", c) for c in re.findall(r"<td[^>]*>.*?</td>", row, re.S)]
-    assert ["12.001", "12.036", "11.964"] == cells[5:8]
+    rows = [[re.sub(r"<[^>]+>", "", c) for c in re.findall(r"<td[^>]*>.*?</td>", r, re.S)]
+            for r in re.findall(r"<tr[^>]*>(.*?)</tr>", text, re.S)]
+    first = next(r for r in rows if "baseline" in r and "individuals" in r)
+    assert first[5:8] == ["12.000", "12.036", "11.964"]  # CL 12, not "12": ±0.05 mm, 3 decimals
+    moving_range = next(r for r in rows if "baseline" in r and "moving-range" in r)
+    assert moving_range[7] == "0"  # a dispersion limit is not on the readings' scale
