@@ -23,6 +23,8 @@ def _f(
         return "—"
     if isinstance(x, list | tuple):
         return f"{_f(x[0], digits)} … {_f(x[1], digits)}"
+    if abs(x) >= 10**digits and abs(x) < 1e15:  # whole digits, not 1.13e+03
+        return f"{x:.0f}"
     return f"{x:.{digits}g}" if abs(x) < 1e5 else f"{x:.6g}"
 
 

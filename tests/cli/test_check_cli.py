@@ -189,3 +189,15 @@ def test_ppm_out_of_spec_is_written_in_plain_digits(tmp_path, lsl, usl):
     else:
         assert "e" not in shown
         assert float(shown.split()[0].replace(",", "")) == pytest.approx(out, rel=0.01)
+
+
+def test_a_large_capability_index_is_written_in_plain_digits(tmp_path):
+    rng = np.random.default_rng(7)
+    x = np.round(10 + 0.01 * rng.standard_normal(60), 4)
+    log = write_log(tmp_path / "a.csv", x)
+    res = lw("check", str(log), "--baseline", "30", "--lsl", "-1000", "--usl", "1000")
+    line = next(s for s in res.stdout.splitlines() if s.strip().startswith("Pp "))
+    assert "e+" not in line
+    pp = float(line.split()[1])
+    # Pp = (USL - LSL) / 6s with the sample SD (numpy, ddof=1)
+    assert pp == pytest.approx(2000 / (6 * x.std(ddof=1)), rel=1e-3)
