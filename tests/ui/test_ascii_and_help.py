@@ -46,3 +46,17 @@ async def test_the_phase_glyph_never_ends_a_help_line(size: tuple[int, int],
     for line in lines:
         stripped = line.strip()
         assert not stripped.endswith(phase) and not stripped.startswith(phase), line
+
+
+async def test_the_ascii_help_writes_sigma_as_the_board_does() -> None:
+    app = LinewatchApp(FakeSource(), FakeActions(), bell=False, title="line", clock=fixed_clock,
+                       ascii_only=True)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await pilot.press("question_mark")
+        await pilot.pause()
+        help_text = app.screen.query_one("#help-text", Static)
+        console = Console(width=100, file=io.StringIO(), color_system=None)
+        console.print(help_text.content)
+        shown = console.file.getvalue()  # type: ignore[attr-defined]
+    margin = shown[shown.index("spec margin"):]
+    assert "3sd" in margin and "σ" not in margin[:200]

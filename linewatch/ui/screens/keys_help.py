@@ -93,7 +93,8 @@ class KeysHelp(ModalScreen[None]):
             # line end where it would read as the panel's border
             + f". A vertical line ({g.phase}) separates phases of limits, and each phase's points "
             "are drawn against that phase's own CL, UCL, LCL and zones; [ ] are LSL and USL."
-            "\nspec margin: [ ] the spec limits, = the recent mean ± 3σ, "
+            f"\nspec margin: [ ] the spec limits, {g.band} the recent mean "
+            f"{'+/-' if g.ascii else '±'} 3{g.sigma}, "
             f"{g.mean} the mean; then the margin to the nearer limit in {g.sigma} (standard "
             "deviations), Cpk and, after >, "
             "its 95% lower bound."
