@@ -86,7 +86,8 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("logs", nargs="+", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
     _add_chart_options(p)
-    p.add_argument("--format", choices=("text", "jsonl"), default="text")
+    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="text for people (default) or one JSON record a line")
 
     p = sub.add_parser(
         "watch",
@@ -107,7 +108,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument(
         "--no-ui", action="store_true", help="print events instead of opening the screen"
     )
-    p.add_argument("--format", choices=("text", "jsonl"), default="text")
+    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="text for people (default) or one JSON record a line")
     p.add_argument("--no-bell", action="store_true", help="no terminal bell on new alarms")
     p.add_argument("--clear-after", type=int, metavar="N",
                    help="quiet plotted points after which an alarm episode returns to normal "
@@ -117,15 +119,18 @@ def build_parser() -> argparse.ArgumentParser:
     asub = alarms.add_subparsers(dest="alarms_command", metavar="ACTION", required=True)
     a = asub.add_parser("list", help="open alarms (all with --all)")
     a.add_argument("--all", action="store_true", help="include closed alarms")
-    a.add_argument("--format", choices=("text", "jsonl"), default="text")
+    a.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="a table for people (default) or one JSON record a line")
     _add_state_dir(a)
     a = asub.add_parser("ack", help="acknowledge alarms with a reason")
     a.add_argument("ids", nargs="*", type=int, metavar="ID")
     a.add_argument(
         "--characteristic", metavar="NAME", help="every open alarm of this characteristic"
     )
-    a.add_argument("--reason", required=True, metavar="TEXT")
-    a.add_argument("--note", default="", metavar="TEXT")
+    a.add_argument("--reason", required=True, metavar="TEXT",
+                   help="why it happened: one of the reasons, or its number in the list")
+    a.add_argument("--note", default="", metavar="TEXT",
+                   help="what was seen or done (optional)")
     _add_state_dir(a)
     a = asub.add_parser(
         "shelve", help="take an alarm out of annunciation for a while (still counted and audited)"
@@ -135,7 +140,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="every alarm of this characteristic, and those it raises meanwhile")
     a.add_argument("--for", dest="duration", required=True, metavar="DURATION",
                    help="with a unit, e.g. 30m, 2h (at most alarms.shelve_max, default 12h)")
-    a.add_argument("--reason", required=True, metavar="TEXT")
+    a.add_argument("--reason", required=True, metavar="TEXT", help="why it is shelved (required)")
     _add_state_dir(a)
     a = asub.add_parser("unshelve", help="bring a shelved alarm back")
     a.add_argument("id", type=int, metavar="ID")
@@ -163,7 +168,8 @@ def build_parser() -> argparse.ArgumentParser:
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
-    u.add_argument("--format", choices=("csv", "jsonl"), default="jsonl")
+    u.add_argument("--format", choices=("csv", "jsonl"), default="jsonl",
+                   help="JSON lines (default) or CSV")
     _add_state_dir(u)
 
     p = sub.add_parser("report", help="shift handover report from the store")
@@ -171,21 +177,28 @@ def build_parser() -> argparse.ArgumentParser:
     when.add_argument("--since", metavar="DURATION", help="the last DURATION (default 8h)")
     when.add_argument("--from", dest="from_", metavar="WHEN", help="start (ISO date/time)")
     p.add_argument("--to", metavar="WHEN", help="end (ISO date/time; default now)")
-    p.add_argument("--format", choices=("markdown", "html", "csv"), default="markdown")
+    p.add_argument("--format", choices=("markdown", "html", "csv"), default="markdown",
+                   help="Markdown (default), one HTML file with charts, or CSV")
     p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
     _add_state_dir(p)
 
     p = sub.add_parser("simulate", help="write invented measurement logs with special causes")
-    p.add_argument("--out", required=True, metavar="DIR")
-    p.add_argument("--rate", type=float, default=5.0, metavar="ROWS_PER_S")
-    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR")
-    p.add_argument("--seed", type=int, default=1, metavar="N")
+    p.add_argument("--out", required=True, metavar="DIR",
+                   help="folder for the logs (made if missing; logs already there are continued)")
+    p.add_argument("--rate", type=float, default=5.0, metavar="ROWS_PER_S",
+                   help="rows per second of the fastest gauge (default 5)")
+    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+                   help="run the line's clock this many times faster than real time (default 1)")
+    p.add_argument("--seed", type=int, default=1, metavar="N",
+                   help="random seed: the same seed writes the same values (default 1)")
     p.add_argument("--duration", metavar="DURATION", help="stop after this long (default: forever)")
 
     p = sub.add_parser("demo", help="open the screen on a simulated line (no setup needed)")
     p.add_argument("--keep", action="store_true", help="keep the temporary folder on exit")
-    p.add_argument("--seed", type=int, default=1, metavar="N")
-    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR")
+    p.add_argument("--seed", type=int, default=1, metavar="N",
+                   help="random seed of the simulated line (default 1)")
+    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+                   help="run the simulated line this many times faster than real time (default 1)")
     return parser
 
 

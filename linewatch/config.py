@@ -10,7 +10,7 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
-                       clear_after
+                       clear_after, decimals
 """
 
 from __future__ import annotations
@@ -80,6 +80,7 @@ class CharacteristicConfig:
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
+    decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
 
     @property
     def effective_dispersion(self) -> str:
@@ -331,7 +332,7 @@ def _read_characteristic(
     r.check_known(
         {"name", "column", "unit", "lsl", "usl", "target", "subgroup_size", "dispersion",
          "baseline", "center", "sigma", "rules", "run_lengths", "reasons", "reaction_plan",
-         "reaction_plans", "clear_after"}
+         "reaction_plans", "clear_after", "decimals"}
     )
     name = r.string("name")
     if not name:
@@ -384,6 +385,7 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", DEFAULT_CLEAR_AFTER, 1, 100_000)
         or DEFAULT_CLEAR_AFTER,
+        decimals=r.integer("decimals", None, 0, 10),
     )
 
 
@@ -424,9 +426,9 @@ def load_config(path: str | Path) -> Config:
     try:
         text = p.read_text(encoding="utf-8")
     except FileNotFoundError:
-        raise ConfigError(str(p), "(file)", "no such file") from None
+        raise ConfigError(str(p), "", "no such config file") from None
     except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(str(p), "(file)", f"cannot read: {exc}") from None
+        raise ConfigError(str(p), "", f"cannot read this config file: {exc}") from None
     config = parse_config(text, str(p))
     base = p.resolve().parent
     for feed in config.feeds:

@@ -6,10 +6,11 @@ class LinewatchError(Exception):
 
 
 class ConfigError(LinewatchError):
-    """A configuration file is invalid; the message names the file, the key and the problem."""
+    """A configuration file is invalid; the message names the file, the key and the problem
+    (no key when the file itself cannot be read)."""
 
     def __init__(self, path: str, key: str, problem: str) -> None:
-        super().__init__(f"{path}: {key}: {problem}")
+        super().__init__(f"{path}: {key}: {problem}" if key else f"{path}: {problem}")
         self.path = path
         self.key = key
         self.problem = problem

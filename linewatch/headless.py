@@ -8,6 +8,7 @@ from typing import Any, TextIO
 
 from linewatch.records import dumps
 from linewatch.safe_text import visible
+from linewatch.words import count
 
 
 def _text(record: dict[str, Any]) -> str:
@@ -37,8 +38,8 @@ def _text(record: dict[str, Any]) -> str:
         figures += "" if cpk is None else f" Cpk {cpk:.3g}"
         read = record.get("read")
         here = "" if read is None or read == record["points"] else f" ({read} read by this run)"
-        return (f"SUMMARY {record['characteristic']}: {record['points']} points{here}, "
-                f"{record['rejected']} rejected rows{figures}")
+        return (f"SUMMARY {record['characteristic']}: {count(record['points'], 'point')}{here}, "
+                f"{count(record['rejected'], 'rejected row')}{figures}")
     if kind == "progress":
         return (f"READING {record['done'] * 100:.0f}% of history, "
                 f"{record['rows_per_second']:.0f} rows/s")

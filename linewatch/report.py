@@ -13,7 +13,9 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import TYPE_CHECKING
 
-from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, Limits
+from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHART_XBAR, Limits
+
+LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
     from linewatch.config import Config
@@ -60,10 +62,18 @@ def num(x: float | None, digits: int = 6) -> str:
 
 
 def ppm(x: float | None) -> str:
-    """Parts per million: whole numbers from 100 on, else 3 significant digits."""
-    if x is None or not math.isfinite(x):
-        return ""
-    return f"{x:,.0f}" if x >= 100 else num(x, 3)
+    """Parts per million in plain digits ('' when missing); see figures.fmt_ppm."""
+    from linewatch.figures import fmt_ppm
+
+    return fmt_ppm(x)
+
+
+def reading(x: float | None, decimals: int | None) -> str:
+    """A reading or a limit on the readings' scale with the characteristic's decimals, as the
+    screen shows it ('' when missing; 6 significant digits when the decimals are unknown)."""
+    from linewatch.figures import fmt_reading
+
+    return num(x) if decimals is None else fmt_reading(x, decimals, "")
 
 
 def interval(pair: tuple[float, float] | None, digits: int = 4) -> str:
@@ -112,6 +122,7 @@ class CharacteristicPart:
     ppm_out: float | None
     alarms_by_rule: dict[str, int]
     trace: ChartTrace
+    decimals: int | None = None  # how its readings are shown (figures.reading_decimals)
 
 
 @dataclass(slots=True)
@@ -311,6 +322,8 @@ def build_report(
     for name in sorted(store.history.characteristics_with_points()):
         if name not in names:
             names.append(name)
+    from linewatch.figures import reading_decimals
+
     parts: list[CharacteristicPart] = []
     for name in names:
         settings = store.history.settings(name)
@@ -345,6 +358,8 @@ def build_report(
                 name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
                 mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
                 cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,
+                decimals=reading_decimals(cfg.decimals if cfg else None, lsl, usl, sigma_within,
+                                          values[-200:]),
             )
         )
 

@@ -1,23 +1,54 @@
 """The shift handover report as CSV for spreadsheets: one block per section, each with its own
-header row, separated by a blank line; the first column names the section."""
+header row, separated by a blank line; the first column names the section. Text from outside
+(names, notes, reasons, file names) cannot start a formula in the spreadsheet that opens it."""
 
 from __future__ import annotations
 
 import csv
 import io
+import math
+from collections.abc import Iterable
 
 from linewatch.report import ShiftReport, local_time
+
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")  # a spreadsheet may run such a cell
 
 
 def _f(x: float | None) -> str:
     return "" if x is None else repr(float(x))
 
 
+def _is_number(text: str) -> bool:
+    try:
+        return math.isfinite(float(text))
+    except ValueError:
+        return False
+
+
+def safe_cell(cell: object) -> object:
+    """A text cell that a spreadsheet would read as a formula (=, +, -, @, tab, CR first) gets
+    a leading single quote, so it is shown as text and never run; a real number such as -0.5
+    stays a number."""
+    if isinstance(cell, str) and cell.startswith(FORMULA_STARTS) and not _is_number(cell):
+        return "'" + cell
+    return cell
+
+
+class _SafeWriter:
+    """csv.writer whose every row goes through `safe_cell`."""
+
+    def __init__(self, out: io.StringIO) -> None:
+        self._w = csv.writer(out, lineterminator="\n")
+
+    def writerow(self, row: Iterable[object]) -> None:
+        self._w.writerow([safe_cell(c) for c in row])
+
+
 def render_csv(report: ShiftReport) -> str:
     """The whole report as CSV text (full precision numbers, local times with offset)."""
     r = report
     out = io.StringIO()
-    w = csv.writer(out, lineterminator="\n")
+    w = _SafeWriter(out)
     w.writerow(["section", "from", "to", "made", "audit", "audit_message", "audit_entries"])
     w.writerow(["period", local_time(r.since), local_time(r.until), local_time(r.made_at),
                 "ok" if r.audit_ok else "broken", r.audit_message, r.audit_entries])

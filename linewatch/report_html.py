@@ -6,6 +6,8 @@ from __future__ import annotations
 from html import escape
 
 from linewatch.report import (
+    LOCATION_CHARTS,
+    LimitsChange,
     ShiftReport,
     anchor_sentence,
     clock_time,
@@ -13,6 +15,7 @@ from linewatch.report import (
     local_time,
     num,
     ppm,
+    reading,
     rules_text,
     span,
 )
@@ -125,7 +128,7 @@ def render_html(report: ShiftReport) -> str:
     for c in r.characteristics:
         unit = f" [{c.unit}]" if c.unit else ""
         rows.append([
-            (c.name + unit, False), (str(c.n), True), (num(c.mean), True),
+            (c.name + unit, False), (str(c.n), True), (reading(c.mean, c.decimals), True),
             (num(c.stdev, 4), True), (interval(c.ci95, 6), True), (num(c.cp, 3), True),
             (interval(c.cp_ci95, 3), True), (num(c.cpk, 3), True),
             (interval(c.cpk_ci95, 3), True), (ppm(c.ppm_out), True),
@@ -146,7 +149,8 @@ def render_html(report: ShiftReport) -> str:
             continue
         spec = ""
         if c.lsl is not None or c.usl is not None:
-            spec = f" · spec {num(c.lsl)} … {num(c.usl)} {c.unit}"
+            spec = (f" · spec {reading(c.lsl, c.decimals)} … {reading(c.usl, c.decimals)} "
+                    f"{c.unit}")
         kind = f"X̄ of {c.subgroup_size}" if c.subgroup_size > 1 else "individuals"
         out.append(
             f'<section class="char"><h3>{escape(c.name)}</h3><p class="figures">{escape(kind)} '
@@ -171,14 +175,20 @@ def render_html(report: ShiftReport) -> str:
         ))
 
     out.append("<h2>Limits and baselines</h2>")
+    decimals = {c.name: c.decimals for c in r.characteristics}
+
+    def limit(x: LimitsChange, v: float | None) -> str:
+        """A limit on the readings' scale with their decimals; dispersion limits as before."""
+        return reading(v, decimals.get(x.characteristic)) if x.chart in LOCATION_CHARTS else num(v)
+
     if r.limits:
         out.append(_table(
             ["set at", "characteristic", "chart", "phase", "from point", "CL", "UCL", "LCL",
              "kind", "reason", "by"],
             [
                 [(at(x.at), False), (x.characteristic, False), (x.chart, False),
-                 (str(x.phase), True), (str(x.start_index), True), (num(x.center), True),
-                 (num(x.ucl), True), (num(x.lcl), True),
+                 (str(x.phase), True), (str(x.start_index), True), (limit(x, x.center), True),
+                 (limit(x, x.ucl), True), (limit(x, x.lcl), True),
                  ("new baseline" if x.new_baseline else "limits set", False), (x.reason, False),
                  (x.actor, False)]
                 for x in r.limits

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from linewatch.report import (
+    LOCATION_CHARTS,
     ShiftReport,
     anchor_sentence,
     clock_time,
@@ -10,17 +11,27 @@ from linewatch.report import (
     local_time,
     num,
     ppm,
+    reading,
     rules_text,
     span,
 )
 from linewatch.safe_text import visible
 
+# Markdown that text from outside could use: HTML (<script>), links and images ([..](..)),
+# code and emphasis, and the pipe that ends a table cell. Each is backslash-escaped, which
+# CommonMark defines for any ASCII punctuation, so it shows as itself and does nothing.
+_ACTIVE = set("\\`*_[]<>|!&")
+
+
+def _text(text: object) -> str:
+    """Inline-safe text: Markdown and HTML characters escaped, line breaks flattened."""
+    flat = str(text).replace("\r", " ").replace("\n", " ")
+    return visible("".join("\\" + ch if ch in _ACTIVE else ch for ch in flat))
+
 
 def _cell(text: object) -> str:
-    """Table-safe text: pipes escaped, line breaks flattened, other control characters shown
-    visibly (names, files, reasons and notes come from outside)."""
-    flat = str(text).replace("|", "\\|").replace("\r", " ").replace("\n", " ").strip()
-    return visible(flat)
+    """Table-safe text (see `_text`; the pipe is among the escaped characters)."""
+    return _text(str(text).strip())
 
 
 def _table(header: list[str], rows: list[list[object]]) -> list[str]:
@@ -46,12 +57,12 @@ def render_markdown(report: ShiftReport) -> str:
     lines = [
         f"# Shift handover: {local_time(r.since)} to {local_time(r.until)}",
         "",
-        f"Made {local_time(r.made_at)} from the store in `{visible(r.state_dir)}`.",
+        f"Made {local_time(r.made_at)} from the store in {_text(r.state_dir)}.",
         "",
     ]
     audit = "intact" if r.audit_ok else "BROKEN"
     lines += [
-        f"**Audit trail: {audit}.** {visible(r.audit_message)}. "
+        f"**Audit trail: {audit}.** {_text(r.audit_message)}. "
         f"Entries written in this period: {r.audit_entries}.",
         "",
     ]
@@ -68,9 +79,11 @@ def render_markdown(report: ShiftReport) -> str:
     rows = []
     for c in r.characteristics:
         unit = f" [{c.unit}]" if c.unit else ""
-        spec = f"{num(c.lsl)} … {num(c.usl)}" if c.lsl is not None or c.usl is not None else ""
+        d = c.decimals
+        spec = (f"{reading(c.lsl, d)} … {reading(c.usl, d)}"
+                if c.lsl is not None or c.usl is not None else "")
         rows.append([
-            f"{c.name}{unit}", c.n, num(c.mean), num(c.stdev, 4), interval(c.ci95, 6), spec,
+            f"{c.name}{unit}", c.n, reading(c.mean, d), num(c.stdev, 4), interval(c.ci95, 6), spec,
             num(c.cp, 3), interval(c.cp_ci95, 3), num(c.cpk, 3), interval(c.cpk_ci95, 3),
             ppm(c.ppm_out), rules_text(c.alarms_by_rule) or "none",
         ])
@@ -98,13 +111,15 @@ def render_markdown(report: ShiftReport) -> str:
         lines.append("")
 
     lines += ["## Limits and baselines", ""]
+    decimals = {c.name: c.decimals for c in r.characteristics}
     if r.limits:
         lines += _table(
             ["set at", "characteristic", "chart", "phase", "from point", "CL", "UCL", "LCL",
              "kind", "reason", "by"],
             [
                 [at(x.at), x.characteristic, x.chart, x.phase, x.start_index,
-                 num(x.center), num(x.ucl), num(x.lcl),
+                 *(reading(v, decimals.get(x.characteristic)) if x.chart in LOCATION_CHARTS
+                   else num(v) for v in (x.center, x.ucl, x.lcl)),
                  "new baseline" if x.new_baseline else "limits set", x.reason, x.actor]
                 for x in r.limits
             ],

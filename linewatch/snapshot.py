@@ -93,8 +93,11 @@ def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsR
         d = describe(seg)
         cap = capability(seg, sigma_loc * np.sqrt(n), c.lsl, c.usl)
         out.append(PhaseStats(phase, start, d.points, d.mean, d.stdev, d.ci95, cap.cp, cap.cpk,
-                              cap.cpk_ci95, cap.ppm_out))
+                              cap.cpk_ci95, cap.ppm_out, cap.pp, cap.ppk))
     return out
+
+
+RESOLUTION_READINGS = 200  # recent readings that show the gauge's resolution
 
 
 def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
@@ -148,6 +151,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
             v.phases = _phase_stats(values, first, limits_hist, c, n)
             v.recent_values = values[-RECENT_VALUES:].tolist()
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
+    from linewatch.figures import reading_decimals
+
+    v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
+                                  [r.value for r in recs[-RESOLUTION_READINGS:]])
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
     if not limits_hist:
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))

@@ -59,7 +59,9 @@ class PhaseStats:
     cp: float | None
     cpk: float | None
     cpk_ci95: tuple[float, float] | None
-    ppm_out: float | None
+    ppm_out: float | None  # from the overall SD, like Pp and Ppk
+    pp: float | None = None
+    ppk: float | None = None
 
 
 @dataclass(slots=True)
@@ -70,6 +72,7 @@ class CharacteristicView:
     unit: str = ""
     state: str = STATE_LEARNING
     last_value: float | None = None
+    decimals: int | None = None  # how readings are shown (figures.reading_decimals)
     last_row_age: float | None = None  # seconds since the newest row arrived
     lsl: float | None = None
     usl: float | None = None

@@ -89,6 +89,10 @@ def test_a_good_config_is_read_with_its_defaults(tmp_path):
         ("[monitor]\naudit_anchor_every = -1\n", "monitor.audit_anchor_every",
          "between 0 and"),
         ("[monitor]\naudit_key_file = 42\n", "monitor.audit_key_file", "must be a string"),
+        ("[[characteristic]]\nname = 'x'\ndecimals = 2.5\n", "characteristic.x.decimals",
+         "whole number"),
+        ("[[characteristic]]\nname = 'x'\ndecimals = 12\n", "characteristic.x.decimals",
+         "between 0 and 10"),
         ("this is = = not toml", "(syntax)", ""),
     ],
 )

@@ -433,3 +433,118 @@ def test_a_long_shift_keeps_the_chart_small_and_still_shows_its_extremes() -> No
     # downwards; the marker is a 7-px square centred on the point).
     assert min(ys) == pytest.approx(flag_y + 3.5, abs=0.06)
     assert sorted(ys)[1] > min(ys) + 20  # and it stands well clear of the rest
+
+
+def test_readings_have_the_same_decimals_in_the_report_and_on_the_screen(shift_store) -> None:
+    """±0.05 mm: a reading needs 3 decimals (12.012), not 4 significant digits (12.01)."""
+    from linewatch.snapshot import characteristic_view
+
+    store, values = shift_store
+    md = render_markdown(_report(store))
+    row = next(line for line in md.splitlines() if line.startswith("| outer-diameter"))
+    assert f"| {values.mean():.3f} |" in row and "| 11.950 … 12.050 |" in row
+    limits_row = next(line for line in md.splitlines() if "new die fitted" in line)
+    assert "| 12.001 | 12.036 | 11.964 |" in limits_row
+    cv = characteristic_view(store, AlarmBook(store, CONFIG), CONFIG.characteristics[0],
+                             now=T0 + SHIFT)
+    assert cv.decimals == 3
+    with_two = parse_config(CONFIG_TEXT_WITH_DECIMALS)
+    assert _report_with(store, with_two).characteristics[0].decimals == 2
+    assert characteristic_view(store, AlarmBook(store, with_two), with_two.characteristics[0],
+                               now=T0 + SHIFT).decimals == 2
+
+
+CONFIG_TEXT_WITH_DECIMALS = """
+[[characteristic]]
+name = "outer-diameter"
+unit = "mm"
+lsl = 11.95
+usl = 12.05
+decimals = 2
+"""
+
+
+def _report_with(store: Store, config):
+    return build_report(store, T0, T0 + SHIFT, config, now=T0 + SHIFT + 60)
+
+
+def test_the_close_up_phases_give_pp_and_ppk_from_the_overall_sd(shift_store) -> None:
+    """The ppm beside them is from the overall SD too; Pp = (USL − LSL) / 6s, Ppk the nearer
+    side over 3s, s the sample SD (numpy, ddof=1), per phase of limits."""
+    from linewatch.snapshot import characteristic_view
+
+    store, _values = shift_store
+    cv = characteristic_view(store, AlarmBook(store, CONFIG), CONFIG.characteristics[0],
+                             now=T0 + SHIFT, points=1000, detail=True)
+    stored = np.array([12.5] * 20 + _values.tolist())
+    for phase, (lo, hi) in zip(cv.phases, [(0, 150), (150, None)], strict=True):
+        seg = stored[lo:hi]
+        s = seg.std(ddof=1)
+        assert phase.pp == pytest.approx((USL - LSL) / (6 * s), rel=1e-9)
+        assert phase.ppk == pytest.approx(min(USL - seg.mean(), seg.mean() - LSL) / (3 * s),
+                                          rel=1e-9)
+
+
+HOSTILE_NOTE = "<script>alert(1)</script> | =cmd|' /C calc'!A0 [x](javascript:alert(2)) `"
+
+
+@pytest.fixture()
+def hostile_store(shift_store):
+    """The shift plus text from outside that tries to break out: a note with HTML, a pipe, a
+    formula and a link; a feed file and detail that are formulas; a limit with a real negative
+    centre line and a formula as its reason."""
+    store, values = shift_store
+    book = AlarmBook(store, CONFIG)
+    second = next(a for a in store.alarms.all() if not a.acknowledged)
+    book.acknowledge([second.id], "no cause found", HOSTILE_NOTE, now=T0 + 4000,
+                     actor=Actor("=maria", "10.0.0.7"))
+    store.history.add_feed_event(FeedEvent("rotated", "@SUM(A1).csv", "-2+3"), at=T0 + 950)
+    store.history.record_limits(Limits("offset", "individuals", -0.5, 0.1, -1.1, 0.2),
+                                reason="+1+1", now=T0 + 100)
+    return store, values
+
+
+def test_markdown_cells_stay_cells_and_html_stays_text(hostile_store) -> None:
+    """Rendered with markdown-it-py (CommonMark with GFM tables, raw HTML allowed as on many
+    viewers): no element comes from the data, every row keeps its cells, the note reads as
+    written."""
+    from html import unescape
+
+    from markdown_it import MarkdownIt
+
+    store, _ = hostile_store
+    html = MarkdownIt("commonmark", {"html": True}).enable("table").render(
+        render_markdown(_report(store)))
+    assert "<script" not in html and "<a " not in html and "<code>" not in html
+    for table in re.findall(r"<table>(.*?)</table>", html, re.S):
+        header = len(re.findall(r"<th[ >]", table))
+        rows = re.findall(r"<tr>(.*?)</tr>", table, re.S)[1:]
+        assert rows and all(len(re.findall(r"<td[ >]", row)) == header for row in rows)
+    cells = [unescape(c) for c in re.findall(r"<td[^>]*>(.*?)</td>", html, re.S)]
+    assert HOSTILE_NOTE.strip() in cells
+
+
+def test_csv_text_cells_cannot_start_a_formula_but_numbers_stay_numbers(hostile_store) -> None:
+    """Formula injection (OWASP 'CSV injection'): a cell starting with = + - @ is run by a
+    spreadsheet; text cells get a leading quote, real numbers are left as they are."""
+    store, _ = hostile_store
+    rows = list(csv.reader(io.StringIO(render_csv(_report(store)))))
+    cells = [cell for row in rows for cell in row]
+    for cell in cells:
+        if cell[:1] in ("=", "+", "-", "@"):
+            float(cell)  # only a real number may start so
+    assert HOSTILE_NOTE in cells and "'=maria" in cells  # only a leading = is run
+    assert "'@SUM(A1).csv" in cells and "'-2+3" in cells and "'+1+1" in cells
+    offset = next(row for row in rows if row[:1] == ["limits"] and "offset" in row)
+    assert "-0.5" in offset and "-1.1" in offset
+
+
+def test_the_html_limits_have_the_readings_decimals(shift_store) -> None:
+    store, _ = shift_store
+    text = render_html(_report(store))
+    rows = [[re.sub(r"<[^>]+>", "", c) for c in re.findall(r"<td[^>]*>.*?</td>", r, re.S)]
+            for r in re.findall(r"<tr[^>]*>(.*?)</tr>", text, re.S)]
+    first = next(r for r in rows if "baseline" in r and "individuals" in r)
+    assert first[5:8] == ["12.000", "12.036", "11.964"]  # CL 12, not "12": ±0.05 mm, 3 decimals
+    moving_range = next(r for r in rows if "baseline" in r and "moving-range" in r)
+    assert moving_range[7] == "0"  # a dispersion limit is not on the readings' scale

@@ -412,3 +412,24 @@ def test_a_second_run_continues_the_logs_without_going_back_in_time(tmp_path: Pa
         if line[:1] == b"2"
     ]
     assert stamps == sorted(stamps)
+
+
+def test_each_demo_characteristic_offers_reasons_that_fit_it() -> None:
+    """The demo's reason list per characteristic names the special causes the simulator gives
+    that characteristic, and none that belong to another machine (no die wear at the scale)."""
+    from linewatch.config import load_config
+    from linewatch.simulate import DRIFT, HUG, SHIFT, SPREAD, STUCK
+
+    demo = load_config(Path(__file__).parents[1] / "linewatch" / "demo" / "line.toml")
+    gauge_of = {g.column: g.key for g in EXTRUSION_LINE.gauges}
+    lists = {c.name: c.reasons for c in demo.characteristics}
+    assert len({tuple(r) for r in lists.values()}) == len(lists)  # each has its own list
+    for c in demo.characteristics:
+        words = " ".join(c.reasons).lower()
+        for cause in EXTRUSION_LINE.causes:
+            if cause.gauge == gauge_of[c.column] and cause.kind in (SHIFT, DRIFT, SPREAD, STUCK,
+                                                                    HUG):
+                label = cause.label.split(":")[0]
+                assert label in words, (c.name, label)
+    fill = " ".join(lists["fill-weight"]).lower()
+    assert not any(word in fill for word in ("die", "lens", "puller", "wall"))

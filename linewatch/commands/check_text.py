@@ -7,7 +7,9 @@ from __future__ import annotations
 from collections import defaultdict
 from typing import TYPE_CHECKING
 
+from linewatch.figures import fmt_ppm
 from linewatch.safe_text import visible
+from linewatch.words import count
 
 if TYPE_CHECKING:
     from linewatch.commands.check import Analysis
@@ -24,6 +26,8 @@ def _f(
         return "—"
     if isinstance(x, list | tuple):
         return f"{_f(x[0], digits)} … {_f(x[1], digits)}"
+    if abs(x) >= 10**digits and abs(x) < 1e15:  # whole digits, not 1.13e+03
+        return f"{x:.0f}"
     return f"{x:.{digits}g}" if abs(x) < 1e5 else f"{x:.6g}"
 
 
@@ -56,7 +60,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
         if not by_rule:
             w("   signals: none")
         for (chart, rule), firings in by_rule.items():
-            w(f"   signal {rule} on {chart}: {_rule_text(a, rule)} — {len(firings)} point(s)")
+            w(f"   signal {rule} on {chart}: {_rule_text(a, rule)} — "
+              f"{count(len(firings), 'point')}")
             for f in firings[:MAX_LISTED]:
                 where = f"line {int(a.column.lines[f.row])}"
                 if several_files:
@@ -74,7 +79,7 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
               f"(95% {_f(s.get('cp_ci95'), 3)})  Cpk {_f(s.get('cpk'), 3)} "
               f"(95% {_f(s.get('cpk_ci95'), 3)})")
             w(f"   Pp {_f(s.get('pp'), 3)}  Ppk {_f(s.get('ppk'), 3)}  expected out of spec "
-              f"{_f(s.get('ppm_out'), 4)} ppm")
+              f"{fmt_ppm(s.get('ppm_out'), '—')} ppm")
         if s.get("trend_slope") is not None:
             w(f"   trend: slope {_f(s.get('trend_slope'))} per point, R² "
               f"{_f(s.get('trend_r2'), 3)}, p {_f(s.get('trend_p'), 3)}")

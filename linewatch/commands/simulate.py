@@ -15,6 +15,7 @@ from pathlib import Path
 from types import FrameType
 
 from linewatch.errors import LinewatchError
+from linewatch.words import count
 
 
 def run(args: argparse.Namespace) -> int:
@@ -82,8 +83,8 @@ def run(args: argparse.Namespace) -> int:
     rows = sum(stats.rows.values())
     junk = sum(stats.junk.values())
     print(
-        f"wrote {rows} rows and {junk} junk rows in {format_duration(stats.seconds)}"
-        f" ({stats.rotations} rotations)",
+        f"wrote {count(rows, 'row')} and {count(junk, 'junk row')} in "
+        f"{format_duration(stats.seconds)} ({count(stats.rotations, 'rotation')})",
         file=sys.stdout,
         flush=True,
     )

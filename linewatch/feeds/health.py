@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from linewatch.model import FeedEvent
+from linewatch.words import count
 
 
 @dataclass(slots=True)
@@ -57,7 +58,7 @@ class FeedHealth:
         f.last_row = now
         if f.stale:
             f.stale = False
-            self._pending.append(FeedEvent("resumed", file, f"{n} new rows"))
+            self._pending.append(FeedEvent("resumed", file, count(n, "new row")))
 
     def file_event(self, event: FeedEvent, now: float) -> None:
         """Start a file's clock when the tailer reports it, so a file that never delivers a

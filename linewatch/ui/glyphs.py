@@ -26,7 +26,7 @@ class Glyphs:
     zone: str
     spec: str
     phase: str
-    sigma: str
+    sigma: str  # one or two cells
     box_edge: str
     box_fill: str
     whisker: str
@@ -82,7 +82,7 @@ ASCII = Glyphs(
     zone=".",
     spec="=",
     phase="|",
-    sigma="s",
+    sigma="sd",  # not "s": beside the age column that reads as seconds
     box_edge="|",
     box_fill="#",
     whisker="-",

@@ -106,6 +106,8 @@ def audit_size(state: Path) -> int:
         (["alarms", "shelve", "2", "--for", "30m", "--reason", ""], "reason is required"),
         (["alarms", "shelve", "1", "--for", "30m", "--reason", "x"], "alarm 1 is closed"),
         (["alarms", "unshelve", "2"], "alarm 2 is not shelved"),
+        (["alarms", "ack", "--characteristic", "bor", "--reason", "1"],
+         "no characteristic named 'bor'; known: "),
     ],
 )
 def test_bad_input_is_one_line_exit_2_and_changes_nothing(
@@ -156,3 +158,12 @@ def test_state_dir_from_the_config(tmp_path: Path) -> None:
     result = linewatch("alarms", "ack", "2", "--reason", "die wear", "-c",
                        str(tmp_path / "line.toml"))
     assert result.returncode == 0, result.stderr
+
+
+def test_an_unknown_characteristic_lists_the_known_ones(state: Path) -> None:
+    result = linewatch("alarms", "ack", "--characteristic", "bor", "--reason", "1",
+                       "--state-dir", str(state))
+    assert result.returncode == 2 and "acknowledged" not in result.stdout
+    with Store(state, create=False) as store:
+        names = {a.characteristic for a in store.alarms.all()}
+    assert names and all(name in result.stderr for name in names)

@@ -169,3 +169,35 @@ def test_json_lines_are_recognised_without_a_config(tmp_path):
     summary = next(r for r in records(res.stdout) if r["type"] == "summary")
     assert summary["characteristic"] == "fill_g" and summary["points"] == 30
     assert summary["mean"] == pytest.approx(np.mean(values))
+
+
+@pytest.mark.parametrize(("lsl", "usl"), [("0", "20"), ("9.5", "10.5")])
+def test_ppm_out_of_spec_is_written_in_plain_digits(tmp_path, lsl, usl):
+    from scipy import stats
+
+    rng = np.random.default_rng(7)
+    x = np.round(10 + 0.2 * rng.standard_normal(60), 3)
+    log = write_log(tmp_path / "a.csv", x)
+    res = lw("check", str(log), "--baseline", "30", "--lsl", lsl, "--usl", usl)
+    line = next(s for s in res.stdout.splitlines() if "expected out of spec" in s)
+    shown = line.split("expected out of spec")[1].strip()
+    # the normal-model tail with the overall SD (scipy.stats.norm), as the summary defines it
+    sd = float(np.std(x, ddof=1))
+    out = 1e6 * (stats.norm.cdf(float(lsl), x.mean(), sd) + stats.norm.sf(float(usl), x.mean(), sd))
+    if out < 0.001:
+        assert shown == "< 0.001 ppm"
+    else:
+        assert "e" not in shown
+        assert float(shown.split()[0].replace(",", "")) == pytest.approx(out, rel=0.01)
+
+
+def test_a_large_capability_index_is_written_in_plain_digits(tmp_path):
+    rng = np.random.default_rng(7)
+    x = np.round(10 + 0.01 * rng.standard_normal(60), 4)
+    log = write_log(tmp_path / "a.csv", x)
+    res = lw("check", str(log), "--baseline", "30", "--lsl", "-1000", "--usl", "1000")
+    line = next(s for s in res.stdout.splitlines() if s.strip().startswith("Pp "))
+    assert "e+" not in line
+    pp = float(line.split()[1])
+    # Pp = (USL - LSL) / 6s with the sample SD (numpy, ddof=1)
+    assert pp == pytest.approx(2000 / (6 * x.std(ddof=1)), rel=1e-3)

@@ -43,3 +43,25 @@ def test_the_console_script_is_installed():
     assert exe is not None
     res = subprocess.run([exe, "--version"], capture_output=True, text=True, timeout=60)
     assert res.returncode == 0 and res.stdout.startswith("linewatch ")
+
+
+def _subparsers(parser):
+    import argparse
+
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            for name, sub in action.choices.items():
+                yield name, sub
+                for inner, deeper in _subparsers(sub):
+                    yield f"{name} {inner}", deeper
+
+
+def test_every_option_of_every_subcommand_says_what_it_does():
+    from linewatch.cli import build_parser
+
+    bare = []
+    for name, sub in _subparsers(build_parser()):
+        for action in sub._actions:
+            if action.option_strings and action.dest != "help" and not action.help:
+                bare.append(f"{name} {action.option_strings[-1]}")
+    assert bare == []

@@ -104,7 +104,7 @@ async def test_a_close_up_top_bar_fits_80_columns_with_the_alarm_count_in_short(
         plain = getattr(text, "plain", str(text))
         assert len(plain.rstrip()) <= 80
         assert f"{waiting} to ack, {active} active" in plain
-        assert plain.rstrip().endswith("points")  # the close-up's own words are not cut off
+        assert plain.rstrip().endswith("readings")  # the close-up's own words are not cut off
 
 
 async def test_a_shelved_alarm_without_a_reason_reads_cleanly(

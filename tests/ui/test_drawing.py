@@ -178,6 +178,6 @@ def test_a_far_lower_spec_limit_is_named_at_the_bottom_edge_not_inside_the_band(
     lcl = row_with(lines, "LCL -3")
     lsl = row_with(lines, "LSLv -40")
     usl = row_with(lines, "USL^ 40")
-    # at the bottom edge: the last row, or right above it when the LCL's label holds that row
-    assert lsl == len(lines) - 1 or (lcl == len(lines) - 1 and lsl == lcl - 1)
-    assert usl == 0 or (row_with(lines, "UCL 3") == 0 and usl == 1)
+    # at the edge row of its side, beyond every limit drawn: never inside the control band
+    assert lsl == len(lines) - 1 and lcl < lsl
+    assert usl == 0 and row_with(lines, "UCL 3") > usl

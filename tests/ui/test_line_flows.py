@@ -82,7 +82,7 @@ async def test_alarm_queue_opens_the_close_up_at_the_alarm(app: LinewatchApp) ->
         screen = app.screen
         assert isinstance(screen, CloseUpScreen)
         assert screen.characteristic == "outer-diameter"
-        assert "point 47 =" in str(screen.query_one("#closeup-cursor", Static).render())
+        assert "subgroup 47 =" in str(screen.query_one("#closeup-cursor", Static).render())
 
 
 async def test_filter_by_name_then_clear(app: LinewatchApp) -> None:

@@ -13,6 +13,7 @@ from textual.events import Resize
 from textual.widgets import DataTable, Input, Static
 
 from linewatch import view
+from linewatch.figures import fmt_reading
 from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
@@ -22,7 +23,6 @@ from linewatch.ui.formatting import (
     alarm_subject,
     base_name,
     fmt_age,
-    fmt_value,
     needs_attention,
 )
 from linewatch.ui.screens.base import LineScreen
@@ -190,7 +190,8 @@ class BoardScreen(LineScreen):
         loc = cv.location
         width = self._widths["recent"]
         tail = (len(loc.values), loc.values[-1:], loc.rules[-width:]) if loc else ()
-        return (cv.state, cv.last_value, cv.points, cv.open_alarms, cv.cpk, cv.cpk_lower95,
+        return (cv.state, cv.last_value, cv.decimals, cv.points, cv.open_alarms, cv.cpk,
+                cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
                 cv.pending_phase_start, tail,
                 fmt_age(self.lw.age_now(cv.last_row_age)))
@@ -212,7 +213,7 @@ class BoardScreen(LineScreen):
             state.append("learning", palette.STATE_STYLE[view.STATE_LEARNING])
         name = Text(visible(cv.name), "bold", end="", no_wrap=True, overflow="ellipsis")
         name.append("\n")
-        value = fmt_value(cv.last_value)
+        value = fmt_reading(cv.last_value, cv.decimals)
         name.append(f"{value} {visible(cv.unit)}".rstrip())
         if cv.subgroup_size > 1:
             name.append(f" n={cv.subgroup_size}", palette.LABEL)

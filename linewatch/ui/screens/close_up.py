@@ -15,31 +15,40 @@ from textual.widgets import Static
 from linewatch import view
 from linewatch.engine.rulebook import RULES
 from linewatch.engine.summary import trend
+from linewatch.figures import fmt_reading
 from linewatch.safe_text import visible
 from linewatch.ui import palette
-from linewatch.ui.formatting import STATE_WORDS, fmt_span, fmt_value, rule_mark
+from linewatch.ui.formatting import STATE_WORDS, fmt_span, rule_mark
 from linewatch.ui.screens.base import LineScreen
 from linewatch.ui.widgets.box_plot import draw_box_plot
 from linewatch.ui.widgets.chart_pane import ChartPane
 from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.phase_table import phase_table
 from linewatch.ui.widgets.top_bar import TopBar
+from linewatch.words import count
 
 TREND_WINDOW = 30  # points in the trend fit
 WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the charts
 
 
+def point_word(cv: view.CharacteristicView) -> str:
+    """What one plotted point of the close-up is: a reading's point, or a subgroup. (Readings
+    are single measurements; a chart of subgroups plots one point per subgroup.)"""
+    return "subgroup" if cv.subgroup_size > 1 else "point"
+
+
 def projection_words(slope: float, points: int, lsl: float | None, usl: float | None,
-                     seconds_per_point: float | None) -> str:
-    """Where a significant trend leads: the spec limit it heads for, in points and, when the
-    pace of the line is known, in time."""
+                     seconds_per_point: float | None, decimals: int | None = None,
+                     word: str = "point") -> str:
+    """Where a significant trend leads: the spec limit it heads for, in plotted points (`word`:
+    point or subgroup) and, when the pace of the line is known, in time."""
     name, limit = ("USL", usl) if slope > 0 else ("LSL", lsl)
     if points <= 0:
-        return f"the fitted line is already past {name} {fmt_value(limit)}"
-    when = f"about {points} points"
+        return f"the fitted line is already past {name} {fmt_reading(limit, decimals)}"
+    when = f"about {count(points, word)}"
     if seconds_per_point:
         when += f", ~{fmt_span(points * seconds_per_point)} at the current pace"
-    return f"reaches {name} {fmt_value(limit)} in {when} if it goes on"
+    return f"reaches {name} {fmt_reading(limit, decimals)} in {when} if it goes on"
 
 
 class CloseUpBody(VerticalScroll):
@@ -162,7 +171,8 @@ class CloseUpScreen(LineScreen):
     def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
         unit = f" [{cv.unit}]" if cv.unit else ""
         self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}",
-                                    f"{STATE_WORDS.get(cv.state, cv.state)}, {cv.points} points")
+                                    f"{STATE_WORDS.get(cv.state, cv.state)}, "
+                                    f"{count(cv.points, 'reading')}")
 
     def _draw_figures(self) -> None:
         cv = self.detail
@@ -175,9 +185,9 @@ class CloseUpScreen(LineScreen):
             values, what = cv.recent_values, "readings"
         else:
             values = loc.values if loc else []
-            what = "points" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
+            what = "readings" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
-        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs)
+        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs, cv.decimals)
         box.end = "\n"  # Textual counts newlines to size a Group
         self.query_one("#closeup-box", Static).update(Group(
             Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
@@ -211,7 +221,8 @@ class CloseUpScreen(LineScreen):
         loc = cv.location
         text = Text(end="")
         if cv.baseline_needed:
-            text.append(f"learning: {cv.baseline_needed} more points before limits exist\n",
+            text.append(f"learning: {count(cv.baseline_needed, point_word(cv))} more before "
+                        "limits exist\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])
         pending = cv.pending_phase_start  # known to every instance through the store
         if pending is None and self.requested is not None and loc is not None:
@@ -221,13 +232,15 @@ class CloseUpScreen(LineScreen):
             else:
                 pending = start
         if pending is not None:
-            text.append(f"new phase from point {pending} asked for: its limits come once "
-                        "enough points have arrived\n",
+            text.append(f"new phase from {point_word(cv)} {pending} asked for: its limits come "
+                        f"once enough {point_word(cv)}s have arrived\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])
         if loc and self.cursor is not None and loc.values:
             i = self.cursor
             idx = loc.indices[i] if i < len(loc.indices) else i
-            text.append(f"cursor: point {idx} = {fmt_value(loc.values[i])}", "bold")
+            mean_of = f" (mean of {cv.subgroup_size})" if cv.subgroup_size > 1 else ""
+            text.append(f"cursor: {point_word(cv)} {idx} = "
+                        f"{fmt_reading(loc.values[i], cv.decimals)}{mean_of}", "bold")
             rules = loc.rules[i] if i < len(loc.rules) else ""
             if rules:
                 text.append(f"  signals {rules}", palette.SIGNAL)
@@ -247,19 +260,20 @@ class CloseUpScreen(LineScreen):
     def _trend_text(self, cv: view.CharacteristicView) -> Text:
         values = cv.location.values[-TREND_WINDOW:] if cv.location else []
         text = Text(end="")
-        text.append(f"trend over the last {len(values)} points\n", "bold")
+        text.append(f"trend over the last {count(len(values), point_word(cv))}\n", "bold")
         fit = trend(values, cv.lsl, cv.usl)
         if fit.slope is None or fit.r2 is None or fit.adj_r2 is None or fit.p_value is None:
-            text.append("too few points, or no spread", palette.LABEL)
+            text.append(f"too few {point_word(cv)}s, or no spread", palette.LABEL)
             return text
-        text.append(f"slope {fit.slope:+.4g} {visible(cv.unit)}/point   R² {fit.r2:.2f}   "
-                    f"adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
+        text.append(f"slope {fit.slope:+.4g} {visible(cv.unit)}/{point_word(cv)}   "
+                    f"R² {fit.r2:.2f}   adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
         if fit.points_to_spec is None:
             text.append("no significant trend towards a spec limit (p < 0.05 needed)",
                         palette.LABEL)
         else:
             text.append(projection_words(fit.slope, fit.points_to_spec, cv.lsl, cv.usl,
-                                         cv.seconds_per_point), palette.SIGNAL)
+                                         cv.seconds_per_point, cv.decimals, point_word(cv)),
+                        palette.SIGNAL)
         return text
 
     def action_move(self, step: int) -> None:
@@ -282,7 +296,7 @@ class CloseUpScreen(LineScreen):
         if cv is None:
             return
         self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
-                                                            self.cursor)
+                                                            self.cursor, cv.decimals)
         self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
 
     def action_back(self) -> None:
@@ -302,7 +316,8 @@ class CloseUpScreen(LineScreen):
 
         def done(choice: RestartChoice | None) -> None:
             if choice and self.ask("new_baseline", cv.name, choice.start_index, choice.reason)[0]:
-                self.notify(f"new baseline for {cv.name} from point {choice.start_index}")
+                self.notify(f"new baseline for {cv.name} from {point_word(cv)} "
+                            f"{choice.start_index}")
                 self.requested = (choice.start_index, phases_now)
                 self._draw()
 

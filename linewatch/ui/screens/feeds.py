@@ -15,6 +15,7 @@ from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
 from linewatch.ui.widgets.key_footer import KeyFooter
 from linewatch.ui.widgets.top_bar import TopBar
+from linewatch.words import count
 
 
 def short_path(path: str, width: int) -> str:
@@ -74,7 +75,8 @@ class FeedScreen(TableScreen):
         stale = sum(1 for f in line.feeds if f.stale)
         rejected = sum(f.rejected for f in line.feeds)
         self.query_one(TopBar).show(line, "feed pulse",
-                                    f"{len(line.feeds)} files, {stale} stale, {rejected} rejected")
+                                    f"{count(len(line.feeds), 'file')}, {stale} stale, "
+                                    f"{rejected} rejected")
         self._show_rejects()
         super().show_line()
 

@@ -89,10 +89,14 @@ class KeysHelp(ModalScreen[None]):
             "\nsparklines and charts: a letter marks a signalling point with the kind of "
             "pattern found there, the most urgent first: "
             + "; ".join(f"{mark} {words}" for mark, words in PATTERN_MARKS.values())
-            + f". {g.phase} separates phases of limits, and each phase's points "
+            # the glyph inside words and brackets, so a line break never leaves it alone at a
+            # line end where it would read as the panel's border
+            + f". A vertical line ({g.phase}) separates phases of limits, and each phase's points "
             "are drawn against that phase's own CL, UCL, LCL and zones; [ ] are LSL and USL."
-            "\nspec margin: [ ] the spec limits, = the recent mean ± 3σ, "
-            f"{g.mean} the mean; then the margin to the nearer limit in σ, Cpk and, after >, "
+            f"\nspec margin: [ ] the spec limits, {g.band} the recent mean "
+            f"{'+/-' if g.ascii else '±'} 3{g.sigma}, "
+            f"{g.mean} the mean; then the margin to the nearer limit in {g.sigma} (standard "
+            "deviations), Cpk and, after >, "
             "its 95% lower bound."
             f"\nCpk colours: below {CPK_THRESHOLDS[0]:.2f} poor, below {CPK_THRESHOLDS[1]:.2f} "
             "thin, else good - thresholds of common practice, not of this program."

@@ -5,6 +5,7 @@ from __future__ import annotations
 from rich.text import Text
 
 from linewatch.engine.summary import Description, describe
+from linewatch.figures import fmt_reading
 from linewatch.scales import cell_of, padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value
@@ -12,11 +13,12 @@ from linewatch.ui.glyphs import Glyphs
 
 
 def draw_box_plot(
-    values: list[float], lsl: float | None, usl: float | None, width: int, glyphs: Glyphs
+    values: list[float], lsl: float | None, usl: float | None, width: int, glyphs: Glyphs,
+    decimals: int | None = None,
 ) -> Text:
     """Line 1: whiskers, box, median, outliers, `[` LSL and `]` USL. Line 2: the scale's ends and
     the limits. Line 3: the figures in words. Figures from the engine's `describe` (Tukey's
-    1.5·IQR whiskers)."""
+    1.5·IQR whiskers). `decimals`: the characteristic's (figures.reading_decimals), when known."""
     fig = describe(values)
     if fig.q1 is None or fig.q3 is None or fig.median is None or fig.whisker_low is None \
             or fig.whisker_high is None:
@@ -48,24 +50,28 @@ def draw_box_plot(
     for ch, st in cells:
         out.append(ch, st)
     out.append("\n")
-    out.append_text(_scale_line(lo, hi, lsl, usl, width))
+    out.append_text(_scale_line(lo, hi, lsl, usl, width, decimals))
     out.append("\n")
-    out.append_text(_figures_line(fig, outliers))
+    out.append_text(_figures_line(fig, outliers, decimals))
     return out
 
 
-def _scale_line(lo: float, hi: float, lsl: float | None, usl: float | None, width: int) -> Text:
-    left = f"LSL {fmt_value(lsl)}" if lsl is not None else fmt_value(lo)
-    right = f"USL {fmt_value(usl)}" if usl is not None else fmt_value(hi)
+def _scale_line(lo: float, hi: float, lsl: float | None, usl: float | None, width: int,
+                decimals: int | None) -> Text:
+    def f(v: float) -> str:
+        return fmt_value(v) if decimals is None else fmt_reading(v, decimals)
+
+    left = f"LSL {f(lsl)}" if lsl is not None else f(lo)
+    right = f"USL {f(usl)}" if usl is not None else f(hi)
     gap = max(1, width - len(left) - len(right))
     return Text(f"{left}{' ' * gap}{right}", palette.LABEL)
 
 
-def _figures_line(fig: Description, outliers: list[float]) -> Text:
+def _figures_line(fig: Description, outliers: list[float], decimals: int | None) -> Text:
     spread = fig.stdev or ((fig.q3 or 0.0) - (fig.q1 or 0.0)) or None
 
     def f(v: float | None) -> str:
-        return fmt_scaled(v, spread)
+        return fmt_scaled(v, spread) if decimals is None else fmt_reading(v, decimals)
 
     out = Text(
         f"Q1 {f(fig.q1)}  median {f(fig.median)}  Q3 {f(fig.q3)}  "

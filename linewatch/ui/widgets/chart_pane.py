@@ -20,14 +20,16 @@ class ChartPane(Widget):
         self.lsl: float | None = None
         self.usl: float | None = None
         self.cursor: int | None = None
+        self.decimals: int | None = None
 
     def show(self, chart: ChartView | None, lsl: float | None = None, usl: float | None = None,
-             cursor: int | None = None) -> None:
+             cursor: int | None = None, decimals: int | None = None) -> None:
         self.chart, self.lsl, self.usl, self.cursor = chart, lsl, usl, cursor
+        self.decimals = decimals
         self.refresh()
 
     def render(self) -> Text:
         if self.chart is None:
             return Text("no chart yet")
         return draw_control_chart(self.chart, self.size.width, self.size.height, self.glyphs,
-                                  self.lsl, self.usl, self.cursor)
+                                  self.lsl, self.usl, self.cursor, self.decimals)

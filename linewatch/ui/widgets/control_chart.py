@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 from rich.text import Text
 
+from linewatch.figures import fmt_reading
 from linewatch.scales import padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_mark
@@ -102,13 +103,15 @@ def draw_control_chart(
     lsl: float | None = None,
     usl: float | None = None,
     cursor: int | None = None,
+    decimals: int | None = None,
 ) -> Text:
     """Render `chart` in `width` x `height` cells (labels take LABEL_WIDTH more on the right).
 
     Each point is drawn against its own phase's CL, UCL, LCL and zones, so old limits stay on
     the history; the labels name the limits of the newest phase shown. `cursor` is a position in
     chart.values to highlight; spec limits far outside the control band are named in the label
-    column instead of squashing the chart.
+    column instead of squashing the chart. `decimals`: the readings' (figures.reading_decimals),
+    for a chart on the readings' scale; without it the limits show what the chart's σ resolves.
     """
     plot_w = max(5, width - LABEL_WIDTH)
     height = max(5, height)
@@ -156,19 +159,36 @@ def draw_control_chart(
             specs[name] = spec
             span_values.append(spec)
         else:
-            off_chart.append(f"{name} {fmt_value(spec)}")
+            off_chart.append(f"{name} {fmt_reading(spec, decimals)}")
     lo, hi = padded_span(span_values, 0.04)
+    # a spec limit named instead of drawn gets the edge row to itself, beyond every drawn value,
+    # so its label can never sit between lines it lies outside of
+    top = 1 if any(note.startswith("USL") for note in off_chart) else 0
+    bottom = height - 1 - (1 if any(note.startswith("LSL") for note in off_chart) else 0)
 
     def row_of(v: float) -> int:
-        return round((hi - v) / (hi - lo) * (height - 1))
+        return top + round((hi - v) / (hi - lo) * (bottom - top))
 
     labels: dict[int, Text] = {}
     scale = newest.sigma if newest else chart.sigma
 
+    label_values: dict[int, float] = {}
+
     def label(row: int, name: str, value: float, style: str) -> None:
-        if 0 <= row < height and row not in labels:
+        """Name a limit on its line's row; when another limit's name holds that row (both lines
+        fall in one row), on the next row towards its side, but never out of value order."""
+        if row in labels:
+            row += 1 if value < label_values[row] else -1
+        if not 0 <= row < height or row in labels:
+            return
+        if any((r < row) != (v > value) for r, v in label_values.items()):
+            return
+        if decimals is not None:
+            shown_value = fmt_reading(value, decimals)
+        else:
             shown_value = fmt_scaled(value, scale) if scale else fmt_value(value)
-            labels[row] = Text(f"{name} {shown_value}"[:LABEL_WIDTH - 1], style)
+        labels[row] = Text(f"{name} {shown_value}"[:LABEL_WIDTH - 1], style)
+        label_values[row] = value
 
     for col, p in enumerate(col_phase):
         if p is None or p.center is None or not p.sigma or col % 2:
@@ -221,9 +241,6 @@ def draw_control_chart(
 
     for note in off_chart:
         above = note.startswith("USL")
-        rows = range(height) if above else range(height - 1, -1, -1)
-        row = next((r for r in rows if r not in labels), None)  # nearest free row to its edge
-        if row is not None:
-            labels[row] = Text(f"{note[:3]}{'^' if above else 'v'}{note[3:]}"[:LABEL_WIDTH - 1],
-                               palette.SPEC)
+        labels[0 if above else height - 1] = Text(
+            f"{note[:3]}{'^' if above else 'v'}{note[3:]}"[:LABEL_WIDTH - 1], palette.SPEC)
     return canvas.text(labels)

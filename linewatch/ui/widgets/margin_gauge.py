@@ -55,8 +55,15 @@ def gauge_bar(
 
 
 def margin_text(cv: CharacteristicView, glyphs: Glyphs) -> str:
-    """Distance of the recent mean to the nearer spec limit, in σ, five cells wide."""
-    return "    -" if cv.margin_sigma is None else f"{cv.margin_sigma:>4.1f}{glyphs.sigma}"
+    """Distance of the recent mean to the nearer spec limit, in σ, five cells wide (a two-cell
+    ASCII σ leaves the number three, so a wide margin drops its decimal)."""
+    if cv.margin_sigma is None:
+        return "    -"
+    room = 5 - len(glyphs.sigma)
+    number = f"{cv.margin_sigma:>{room}.1f}"
+    if len(number) > room:
+        number = f"{cv.margin_sigma:>{room}.0f}"
+    return f"{number}{glyphs.sigma}"
 
 
 def cpk_figures(cv: CharacteristicView, wide: bool) -> Text:
