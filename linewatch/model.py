@@ -15,6 +15,14 @@ CHART_RANGE = "range"
 CHART_STDEV = "stdev"
 DISPERSION_CHARTS = (CHART_MOVING_RANGE, CHART_RANGE, CHART_STDEV)
 
+# The largest magnitude a reading (or a configured centre, sigma or spec limit) may have.
+# Squares of differences of two such values stay below 4e200, so sums of squares over any
+# realistic count of points stay far below the float64 maximum of 1.8e308, and so do the
+# products the drawing code forms (a value times a screen size); every real measurement, in
+# any unit, is many orders of magnitude smaller. Past about 1.3e154 a square overflows to
+# infinity and control limits become NaN: such a value is "out of range".
+MAX_MAGNITUDE = 1e100
+
 
 @dataclass(frozen=True, slots=True)
 class Rejected:

@@ -358,6 +358,8 @@ class Monitor:
         self.counts[name] = self.counts.get(name, 0) + len(values)
         self.store.history.add_points(name, first, values, lines, batch.file, times, written)
         records: list[dict[str, Any]] = []
+        if out.problem is not None:  # this characteristic has no limits; the others go on
+            records.append({"type": "error", "characteristic": name, "problem": out.problem})
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)

@@ -16,7 +16,9 @@ The row conventions, for every layout:
   or bytes that are not valid in the feed's encoding is rejected with its reason.
 - Numbers: surrounding blanks ignored; a decimal comma is read when the feed says
   ``decimal = ","`` or the delimiter is ``;``. Empty, non-numeric, ``nan`` and infinite values are
-  rejected, and so is ``_`` inside a number.
+  rejected, and so is ``_`` inside a number. A finite value beyond ±`MAX_MAGNITUDE` (1e100) is
+  rejected as out of range: no gauge reads such a number, and the statistics square values and
+  their differences, which overflow to infinity (and limits to NaN) past about 1.3e154.
 - Wide CSV: the first row is the header (delimiter detected from it among ``,`` ``;`` tab unless
   configured); the same header repeated later (a writer restarted) is skipped. A row with the
   wrong number of fields, or with a bad value in any wanted column, is rejected as a whole:
@@ -49,7 +51,7 @@ import numpy as np
 
 from linewatch.config import FeedConfig
 from linewatch.errors import LinewatchError
-from linewatch.model import Rejected
+from linewatch.model import MAX_MAGNITUDE, Rejected
 
 MAX_LINE_BYTES = 1 << 20
 FAST_BLOCK_BYTES = 32 << 10  # blocks at least this large take the whole-buffer path
@@ -164,27 +166,45 @@ class Batch:
 # --------------------------------------------------------------------------- per-line path
 
 
-def parse_number(text: str, decimal_comma: bool) -> float | None:
-    """The one definition of a readable number: None when `text` is not a finite number."""
+def _float_of(text: str, decimal_comma: bool) -> float | None:
+    """`text` as a float (any magnitude, inf and nan included), None when it is no number."""
     t = text.strip()
     if not t or "_" in t:
         return None
     if decimal_comma:
         t = t.replace(",", ".")
     try:
-        v = float(t)
+        return float(t)
     except ValueError:
         return None
-    return v if math.isfinite(v) else None
+
+
+def in_range(v: float) -> bool:
+    """A finite value whose magnitude is at most MAX_MAGNITUDE (see there for why)."""
+    return -MAX_MAGNITUDE <= v <= MAX_MAGNITUDE
+
+
+def parse_number(text: str, decimal_comma: bool) -> float | None:
+    """The one definition of a readable number: None when `text` is not a finite number within
+    ±MAX_MAGNITUDE."""
+    v = _float_of(text, decimal_comma)
+    return v if v is not None and in_range(v) else None
 
 
 def _shown(text: str) -> str:
     return repr(text if len(text) <= _SHOWN else text[:_SHOWN] + "…")
 
 
-def _value_problem(text: str, column: str) -> str:
+def _out_of_range(shown: str, where: str) -> str:
+    return f"{shown} in {where} is out of range (more than {MAX_MAGNITUDE:g} in magnitude)"
+
+
+def _value_problem(text: str, column: str, decimal_comma: bool) -> str:
     if not text.strip():
         return f"empty value in column '{column}'"
+    v = _float_of(text, decimal_comma)
+    if v is not None and math.isfinite(v):
+        return _out_of_range(_shown(text.strip()), f"column '{column}'")
     return f"{_shown(text.strip())} in column '{column}' is not a number"
 
 
@@ -437,7 +457,8 @@ class RowParser:
             if j == self.time_idx or name in seen:
                 continue
             seen.add(name)
-            if parse_number(fields[j], self.decimal_comma) is not None:
+            v = _float_of(fields[j], self.decimal_comma)
+            if v is not None and math.isfinite(v):  # out of range still makes a numeric column
                 wanted.append((name, j))
         if wanted:
             self.wanted = wanted
@@ -459,7 +480,7 @@ class RowParser:
         for name, j in self.wanted:
             v = parse_number(fields[j], self.decimal_comma)
             if v is None:
-                out.reject(line_no, _value_problem(fields[j], name))
+                out.reject(line_no, _value_problem(fields[j], name, self.decimal_comma))
                 return
             got.append(v)
         if not got:
@@ -481,7 +502,8 @@ class RowParser:
             return
         v = parse_number(fields[self.value_idx], self.decimal_comma)
         if v is None:
-            out.reject(line_no, _value_problem(fields[self.value_idx], self.feed.value_column))
+            out.reject(line_no, _value_problem(fields[self.value_idx], self.feed.value_column,
+                                                self.decimal_comma))
             return
         out.add(name, v, line_no, self._time_of(fields))
         out.rows += 1
@@ -494,7 +516,7 @@ class RowParser:
                 f = float(v)
             except OverflowError:
                 return None
-            return f if math.isfinite(f) else None
+            return f if in_range(f) else None
         if isinstance(v, str):
             return parse_number(v, self.decimal_comma)
         return None
@@ -526,7 +548,7 @@ class RowParser:
             raw = obj.get(self.feed.value_column)
             v = self._json_number(raw)
             if v is None:
-                out.reject(line_no, _json_problem(raw, self.feed.value_column))
+                out.reject(line_no, _json_problem(raw, self.feed.value_column, self.decimal_comma))
                 return
             out.add(name, v, line_no, time)
             out.rows += 1
@@ -537,7 +559,7 @@ class RowParser:
             keys = [
                 k for k, v in obj.items()
                 if k != self.time_key and not isinstance(v, bool) and isinstance(v, int | float)
-                and self._json_number(v) is not None
+                and _finite_json(v)
             ]
             if not keys:
                 out.reject(line_no, "no number in any key")
@@ -547,7 +569,7 @@ class RowParser:
         for k in keys:
             v = self._json_number(obj.get(k))
             if v is None:
-                out.reject(line_no, _json_problem(obj.get(k, _MISSING), k))
+                out.reject(line_no, _json_problem(obj.get(k, _MISSING), k, self.decimal_comma))
                 return
             got.append(v)
         for k, v in zip(keys, got, strict=True):
@@ -559,13 +581,32 @@ class RowParser:
 _MISSING = object()
 
 
-def _json_problem(raw: Any, key: str) -> str:
+def _finite_json(v: int | float) -> bool:
+    """A JSON number that is finite as a float (out of range still makes a numeric key)."""
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:
+        return False
+
+
+def _json_problem(raw: Any, key: str, decimal_comma: bool = False) -> str:
     if raw is _MISSING:
         return f"no key '{key}'"
     if raw is None or raw == "":
         return f"empty value in key '{key}'"
-    return f"{_shown(json.dumps(raw) if not isinstance(raw, str) else raw)} in key '{key}' " \
-        "is not a number"
+    shown = _shown(json.dumps(raw) if not isinstance(raw, str) else raw)
+    if isinstance(raw, str):
+        big = _float_of(raw, decimal_comma)
+    elif isinstance(raw, int | float) and not isinstance(raw, bool):
+        try:
+            big = float(raw)
+        except OverflowError:
+            big = None
+    else:
+        big = None
+    if big is not None and math.isfinite(big):
+        return _out_of_range(shown, f"key '{key}'")
+    return f"{shown} in key '{key}' is not a number"
 
 
 # --------------------------------------------------------------------------- whole file, fast
@@ -998,7 +1039,7 @@ def _convert(
         np.add(mant, d, out=mant, where=isd, casting="unsafe")
         frac += isd & seen_dot
         ndig += isd
-    good &= (ndig >= 1) & (ndig <= 15)
+    good &= (ndig >= 1) & (ndig <= 15)  # so |value| < 1e15, always within MAX_MAGNITUDE
     vals = mant.astype(np.float64)
     vals /= _POW10[frac]
     np.negative(vals, out=vals, where=neg)

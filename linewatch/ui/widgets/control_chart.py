@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 from rich.text import Text
 
-from linewatch.scales import padded_span
+from linewatch.scales import fraction_of, padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_mark
 from linewatch.ui.glyphs import Glyphs
@@ -160,7 +160,7 @@ def draw_control_chart(
     lo, hi = padded_span(span_values, 0.04)
 
     def row_of(v: float) -> int:
-        return round((hi - v) / (hi - lo) * (height - 1))
+        return round((1.0 - fraction_of(v, lo, hi)) * (height - 1))
 
     labels: dict[int, Text] = {}
     scale = newest.sigma if newest else chart.sigma
