@@ -34,6 +34,16 @@ class Rejected:
 
 
 @dataclass(frozen=True, slots=True)
+class Notice:
+    """Something about a file the user should know though no row is lost (a duplicate column
+    name, a file with no header): file, 1-based line and the text, said once per file."""
+
+    file: str
+    line: int
+    text: str
+
+
+@dataclass(frozen=True, slots=True)
 class Limits:
     """Control limits of one chart; `sigma` is the standard deviation of the plotted statistic."""
 

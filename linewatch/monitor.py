@@ -320,6 +320,9 @@ class Monitor:
             records.append(self._record_feed_event(ev, now, raised))
         batch = chunk.batch
         if batch is not None:
+            for n in batch.notices:  # e.g. a duplicate column name: said once per file
+                records.append(self._record_feed_event(
+                    FeedEvent("warning", n.file, f"line {n.line}: {n.text}"), now, raised))
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(

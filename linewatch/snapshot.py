@@ -241,6 +241,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
+        fv.notes = [e.detail for e in mine if e.kind == "warning"][-3:]
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting")]

@@ -131,6 +131,7 @@ class FeedView:
     stale: bool = False
     status: str = "following"  # following | waiting | missing | unreadable | stale
     last_rejects: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)  # the last warnings about the file
 
 
 @dataclass(slots=True)

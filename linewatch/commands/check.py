@@ -67,6 +67,8 @@ def _read_all(
         cols[name] = Column(np.concatenate(vals), np.concatenate(lines), files,
                             np.concatenate(fidx))
     rejected: list[Rejected] = [r for b in batches for r in b.rejected]
+    for n in (n for b in batches for n in b.notices):  # nothing lost, but worth knowing
+        sys.stderr.write(f"linewatch: warning: {n.file}: line {n.line}: {n.text}\n")
     return cols, rejected
 
 

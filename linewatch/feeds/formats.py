@@ -51,7 +51,7 @@ import numpy as np
 
 from linewatch.config import FeedConfig
 from linewatch.errors import LinewatchError
-from linewatch.model import MAX_MAGNITUDE, Rejected
+from linewatch.model import MAX_MAGNITUDE, Notice, Rejected
 
 MAX_LINE_BYTES = 1 << 20
 FAST_BLOCK_BYTES = 32 << 10  # blocks at least this large take the whole-buffer path
@@ -151,6 +151,7 @@ class Batch:
     times: dict[str, Any] = field(default_factory=dict)  # list[str | None] | TimeColumn
     rejected: list[Rejected] = field(default_factory=list)
     rows: int = 0
+    notices: list[Notice] = field(default_factory=list)  # said once per file, nothing lost
 
     @property
     def characteristics(self) -> list[str]:
@@ -254,6 +255,7 @@ class _Rows:
         self.times: dict[str, list[str | None]] = {}
         self.rejected: list[Rejected] = []
         self.rows = 0
+        self.notices: list[Notice] = []
 
     def add(self, name: str, value: float, line: int, time: str | None) -> None:
         vals = self.values.get(name)
@@ -269,7 +271,8 @@ class _Rows:
         self.rejected.append(Rejected(self.file, line, reason))
 
     def batch(self) -> Batch:
-        return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows)
+        return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows,
+                     self.notices)
 
 
 class RowParser:
@@ -422,6 +425,12 @@ class RowParser:
         return False
 
     def _use_header(self, names: list[str], line_no: int, out: _Rows) -> None:
+        twice = [n for n in dict.fromkeys(names) if n and names.count(n) > 1]
+        for name in twice:  # said once per file: the header is read once per file
+            where = ", ".join(str(j + 1) for j, n in enumerate(names) if n == name)
+            out.notices.append(Notice(self.file, line_no, (
+                f"column '{name}' appears {names.count(name)} times in the header (fields "
+                f"{where}); only the first is read")))
         self.header = tuple(names)
         self.previous_header = self.header
         self.time_idx = _time_index(names, self.feed.time_column)
@@ -803,7 +812,8 @@ class _FastLong(_WholeBuffer):
         """Per name: prefix rows, then fast rows with the line-by-line rows put back in order."""
         p = self.parser
         wanted = None if p.columns is None else set(p.columns)
-        batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+        batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
+                      notices=prefix.notices + rest.notices)
         batch.rows = prefix.rows + rest.rows
         groups = np.argsort(inverse, kind="stable")
         bounds = np.searchsorted(inverse[groups], np.arange(len(decoded) + 1))
@@ -1062,7 +1072,8 @@ def _merge(
     one set of lines and one TimeColumn.
     """
     assert p.wanted is not None
-    batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+    batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
+                  notices=prefix.notices + rest.notices)
     batch.rows = prefix.rows + rest.rows + len(fast_lines)
     key = p.wanted[0][0]
     pre_l = prefix.lines.get(key, [])

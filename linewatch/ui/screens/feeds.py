@@ -125,6 +125,8 @@ class FeedScreen(TableScreen):
         elif 0 <= row < len(feeds):
             f = feeds[row]
             text.append(f"{f.file}\n", "bold")
+            for note in f.notes:
+                text.append(f"warning: {note}\n", palette.SPEC)
             if f.last_rejects:
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:
