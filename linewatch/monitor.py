@@ -44,6 +44,7 @@ Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
 PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
+TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
 
 
 @dataclass(slots=True)
@@ -341,8 +342,35 @@ class Monitor:
                 records.extend(self._process_values(name, batch, column, now, written, raised))
             if batch.rows:
                 self.health.rows_arrived(batch.file, batch.rows, written)
+                self._count_times(batch)
         if chunk.state is not None:
             self.store.ingest.save_file(chunk.state, now)
+
+    def _count_times(self, batch: Batch) -> None:
+        """Count the batch's time stamps that go backwards or cannot be read (the rows are
+        kept); the counts are saved with the offsets, so a restart neither loses nor repeats
+        them."""
+        assert self.health is not None
+        columns = [(batch.lines[c], batch.times[c]) for c in batch.times if batch.times[c]]
+        if not columns:
+            return
+        lines0, times0 = columns[0]
+        if all(len(ln) == len(lines0) and list(ln) == list(lines0) for ln, _ in columns[1:]):
+            times = list(times0)  # wide rows: every column has the same rows
+        else:  # long rows: each name has its own rows; put them back in file order
+            by_line: dict[int, str | None] = {}
+            for ln, tm in columns:
+                by_line.update(zip(ln, tm, strict=True))
+            times = [by_line[k] for k in sorted(by_line)]
+        key = TIME_COUNTS.format(file=batch.file)
+        before = self.health.time_counts(batch.file)
+        if before == (0, 0) and (raw := self.store.get_meta(key)):
+            start = tuple(int(x) for x in raw.split(","))
+            before = (start[0], start[1])
+        self.health.times_arrived(batch.file, times, before)
+        after = self.health.time_counts(batch.file)
+        if after != before:
+            self.store.set_meta(key, f"{after[0]},{after[1]}")
 
     def _process_values(
         self, name: str, batch: Batch, column: str, now: float, written: float,
@@ -428,7 +456,10 @@ class Monitor:
         events = self.alarms.observe_feed(ev, now, characteristic=ev.file if stuck else None)
         if raised is not None:
             raised += events
-        return {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
+        record = {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
+        if ev.kind == "times" and self.health is not None:
+            record["backwards"], record["unreadable"] = self.health.time_counts(ev.file)
+        return record
 
     def _step_down(self) -> None:
         """Drop everything held in memory and become a viewer; whoever collects next (maybe

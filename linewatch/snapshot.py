@@ -242,6 +242,9 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
         fv.notes = [e.detail for e in mine if e.kind == "warning"][-3:]
+        counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
+        if counts:
+            fv.times_backwards, fv.times_unreadable = (int(x) for x in counts.split(","))
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting")]

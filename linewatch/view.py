@@ -132,6 +132,8 @@ class FeedView:
     status: str = "following"  # following | waiting | missing | unreadable | stale
     last_rejects: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)  # the last warnings about the file
+    times_backwards: int = 0  # time stamps earlier than the row before (rows kept)
+    times_unreadable: int = 0  # time stamps that cannot be read as a time (rows kept)
 
 
 @dataclass(slots=True)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from datetime import UTC
 from pathlib import Path
 
 from linewatch.config import FeedConfig
@@ -51,3 +52,60 @@ def test_watch_says_once_which_column_of_which_file_is_doubled(tmp_path: Path) -
     out, _ = stop(proc)
     warn = [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
     assert len(warn) == 1 and warn[0]["file"] == str(p) and "'od'" in warn[0]["detail"]
+
+
+TIMES = ("time,od\n2026-03-02T06:00:00,12.0\n2026-03-02T06:00:05,12.1\n"
+         "2026-03-02T05:59:00,12.0\nsoon,12.05\n2026-03-02T06:01:00+01:00,12.02\n,12.01\n"
+         "06:30:00,12.0\n1772431200.5,12.0\n")
+
+
+def test_time_stamps_are_ordered_as_the_standard_library_reads_them() -> None:
+    from datetime import datetime
+
+    from linewatch.feeds.health import FeedHealth, time_key
+
+    # reference: datetime.fromisoformat / timestamp of the standard library
+    a, b = "2026-03-02T06:00:00+00:00", "2026-03-02T07:30:00+02:00"
+    assert time_key(b) - time_key(a) == (datetime.fromisoformat(b)
+                                         - datetime.fromisoformat(a)).total_seconds()
+    assert time_key("2026-03-02T06:00:00Z") == datetime(2026, 3, 2, 6,
+                                                         tzinfo=UTC).timestamp()
+    assert time_key("06:30:15") == 6 * 3600 + 30 * 60 + 15
+    assert time_key("1772431200.5") == 1772431200.5
+    assert time_key("soon") is None and time_key("nan") is None
+    h = FeedHealth(0, 0)
+    h.times_arrived("f", ["2026-03-02T06:00:00", "2026-03-02T05:00:00", "x", None,
+                          "2026-03-02T05:30:00"])
+    assert h.time_counts("f") == (1, 1)
+    (ev,) = h.tick(0.0)
+    assert ev.kind == "times" and ev.file == "f" and "1 earlier" in ev.detail
+    assert h.tick(1.0) == []  # nothing new: said once
+
+
+def test_watch_counts_time_stamps_going_backwards_or_unreadable_and_keeps_the_rows(
+        tmp_path: Path) -> None:
+    from linewatch.snapshot import feed_views
+    from linewatch.store.db import Store
+
+    p = tmp_path / "t.csv"
+    p.write_text(TIMES)
+    state = tmp_path / "state"
+    proc = start_watch([str(p)], state)
+    wait_caught_up(state, p)
+    import time as _time
+
+    _time.sleep(1.5)  # the counts go out on the next health tick (about once a second)
+    out, _ = stop(proc)
+    recs = records(out)
+    (ev,) = [r for r in recs if r["type"] == "feed" and r["event"] == "times"]
+    # back: 05:59 after 06:00:05; 06:01+01:00 (05:01 UTC) after 05:59; a bare time of day
+    # after a full date and time. "soon" cannot be read; the empty one has no time at all
+    assert (ev["backwards"], ev["unreadable"]) == (3, 1)
+    summary = next(r for r in recs if r["type"] == "summary")
+    assert summary["points"] == 8 and summary["rejected"] == 0
+    store = Store(state, create=False)
+    try:
+        (fv,) = feed_views(store, _time.time(), 0)
+    finally:
+        store.close()
+    assert (fv.times_backwards, fv.times_unreadable) == (ev["backwards"], ev["unreadable"])

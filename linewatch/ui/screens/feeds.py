@@ -9,6 +9,7 @@ from textual.app import ComposeResult
 from textual.widgets import DataTable, Static
 
 from linewatch import view
+from linewatch.feeds.health import times_text
 from linewatch.ui import palette
 from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
@@ -127,6 +128,9 @@ class FeedScreen(TableScreen):
             text.append(f"{f.file}\n", "bold")
             for note in f.notes:
                 text.append(f"warning: {note}\n", palette.SPEC)
+            if f.times_backwards or f.times_unreadable:
+                text.append(times_text(f.times_backwards, f.times_unreadable) + "\n",
+                            palette.SPEC)
             if f.last_rejects:
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:
