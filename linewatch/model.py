@@ -41,6 +41,7 @@ class Notice:
     file: str
     line: int
     text: str
+    kind: str = "warning"  # or "no-header": the file's lines cannot be read
 
 
 @dataclass(frozen=True, slots=True)

@@ -44,6 +44,7 @@ Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
 BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
 PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
+UNREAD_LINES = "unread-lines:{file}"  # meta key: lines of a file with no header to go by
 TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
 
 
@@ -322,8 +323,16 @@ class Monitor:
         batch = chunk.batch
         if batch is not None:
             for n in batch.notices:  # e.g. a duplicate column name: said once per file
+                detail = f"line {n.line}: {n.text}"
+                if n.kind == "no-header":
+                    detail = f"{batch.unread:,} lines from line {n.line} on not read: {n.text}"
                 records.append(self._record_feed_event(
-                    FeedEvent("warning", n.file, f"line {n.line}: {n.text}"), now, raised))
+                    FeedEvent(n.kind, n.file, detail), now, raised))
+            if batch.unread:  # lines of a file without a header: counted, said once above
+                self.rejected += batch.unread
+                key = UNREAD_LINES.format(file=batch.file)
+                total = int(self.store.get_meta(key) or 0) + batch.unread
+                self.store.set_meta(key, str(total))
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(

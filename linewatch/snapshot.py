@@ -241,7 +241,9 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
-        fv.notes = [e.detail for e in mine if e.kind == "warning"][-3:]
+        fv.notes = [e.detail for e in mine if e.kind in ("warning", "no-header")][-3:]
+        fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
+        fv.rejected += fv.unread
         counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
         if counts:
             fv.times_backwards, fv.times_unreadable = (int(x) for x in counts.split(","))
@@ -252,6 +254,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.stale = latest == "stale"
         fv.status = {"stale": "stale", "vanished": "missing", "unreadable": "unreadable",
                      "waiting": "waiting"}.get(latest, "following")
+        if fv.unread and fv.status == "following":
+            fv.status = "no header"  # its lines cannot be read until it has one
         out.append(fv)
     return out
 

@@ -151,7 +151,8 @@ class Batch:
     times: dict[str, Any] = field(default_factory=dict)  # list[str | None] | TimeColumn
     rejected: list[Rejected] = field(default_factory=list)
     rows: int = 0
-    notices: list[Notice] = field(default_factory=list)  # said once per file, nothing lost
+    notices: list[Notice] = field(default_factory=list)  # said once per file
+    unread: int = 0  # lines not read for want of a header (said once, in a notice)
 
     @property
     def characteristics(self) -> list[str]:
@@ -256,6 +257,7 @@ class _Rows:
         self.rejected: list[Rejected] = []
         self.rows = 0
         self.notices: list[Notice] = []
+        self.unread = 0
 
     def add(self, name: str, value: float, line: int, time: str | None) -> None:
         vals = self.values.get(name)
@@ -272,7 +274,7 @@ class _Rows:
 
     def batch(self) -> Batch:
         return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows,
-                     self.notices)
+                     self.notices, self.unread)
 
 
 class RowParser:
@@ -312,6 +314,7 @@ class RowParser:
         self.name_idx = -1
         self.value_idx = -1
         self.usable = True
+        self.headerless = False  # began with data and no header to go by (said once)
         self.names_seen: dict[str, None] = {}  # long rows and JSON keys, in order of appearance
 
     @property
@@ -419,7 +422,15 @@ class RowParser:
             problem = "first line holds numbers and times, not a header of column names"
             if self.require_columns:
                 raise LinewatchError(f"{self.file}: line {line_no}: {problem}")
-            out.reject(line_no, problem)
+            # a live feed: said once for the file, with what to do, and the lines counted
+            if not self.headerless:
+                self.headerless = True
+                out.notices.append(Notice(self.file, line_no, (
+                    f"{problem}, and no earlier file on this path had a header: its lines are "
+                    "not read. Have the logger write a line of column names first (e.g. "
+                    "time,od,wall), or add one at the top: the file is then read from the "
+                    "start"), kind="no-header"))
+            out.unread += 1
             return False
         self._use_header(names, line_no, out)
         return False
@@ -456,7 +467,9 @@ class RowParser:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:
                 raise LinewatchError(f"{self.file}: {message}")
-            out.reject(line_no, f"header: {message}")
+            if not self.usable:
+                message += "; nothing is read from this file"
+            out.notices.append(Notice(self.file, line_no, message))  # no row is lost
 
     def _decide_columns(self, fields: list[str]) -> bool:
         assert self.header is not None
@@ -813,7 +826,7 @@ class _FastLong(_WholeBuffer):
         p = self.parser
         wanted = None if p.columns is None else set(p.columns)
         batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
-                      notices=prefix.notices + rest.notices)
+                      notices=prefix.notices + rest.notices, unread=prefix.unread + rest.unread)
         batch.rows = prefix.rows + rest.rows
         groups = np.argsort(inverse, kind="stable")
         bounds = np.searchsorted(inverse[groups], np.arange(len(decoded) + 1))
@@ -1073,7 +1086,7 @@ def _merge(
     """
     assert p.wanted is not None
     batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
-                  notices=prefix.notices + rest.notices)
+                  notices=prefix.notices + rest.notices, unread=prefix.unread + rest.unread)
     batch.rows = prefix.rows + rest.rows + len(fast_lines)
     key = p.wanted[0][0]
     pre_l = prefix.lines.get(key, [])

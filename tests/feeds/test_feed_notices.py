@@ -109,3 +109,39 @@ def test_watch_counts_time_stamps_going_backwards_or_unreadable_and_keeps_the_ro
     finally:
         store.close()
     assert (fv.times_backwards, fv.times_unreadable) == (ev["backwards"], ev["unreadable"])
+
+
+def test_a_file_with_no_header_is_reported_once_with_the_count_and_what_to_do(
+        tmp_path: Path) -> None:
+    import time as _time
+
+    from linewatch.snapshot import feed_views
+    from linewatch.store.db import Store
+
+    p = tmp_path / "nh.csv"
+    p.write_text("".join(f"2026-03-02T06:{k // 60:02d}:{k % 60:02d},{12 + k / 1000}\n"
+                         for k in range(276)))
+    state = tmp_path / "state"
+    proc = start_watch([str(p)], state)
+    wait_caught_up(state, p)
+    out, _ = stop(proc)
+    recs = records(out)
+    assert not [r for r in recs if r["type"] == "rejected"]  # not 276 identical lines
+    (ev,) = [r for r in recs if r["type"] == "feed" and r["event"] == "no-header"]
+    assert ev["file"] == str(p) and "276 lines" in ev["detail"]
+    assert "column names" in ev["detail"]  # what to do
+    with Store(state, create=False) as store:
+        (fv,) = feed_views(store, _time.time(), 0)
+    assert fv.unread == 276 and fv.rejected == 276 and fv.status == "no header"
+
+
+def test_watch_says_a_wanted_column_is_missing_and_lists_the_columns_there(
+        tmp_path: Path) -> None:
+    p = tmp_path / "b.csv"
+    p.write_text("time,x\n" + "".join(f"t{k},{5 + k / 10}\n" for k in range(5)))
+    state = tmp_path / "state"
+    proc = start_watch([str(p)], state, "--column", "nosuch")
+    wait_caught_up(state, p)
+    out, _ = stop(proc)
+    (ev,) = [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
+    assert "'nosuch'" in ev["detail"] and "time, x" in ev["detail"]

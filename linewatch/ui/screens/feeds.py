@@ -101,7 +101,7 @@ class FeedScreen(TableScreen):
 
     def _cells(self, f: view.FeedView, name: str) -> list[object]:
         g = self.lw.glyphs
-        bad = f.stale or f.status in ("missing", "unreadable", "stale")
+        bad = f.stale or f.status in ("missing", "unreadable", "stale", "no header")
         mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
         return [
             Text(f"{mark} {f.status}", "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
@@ -126,6 +126,8 @@ class FeedScreen(TableScreen):
         elif 0 <= row < len(feeds):
             f = feeds[row]
             text.append(f"{f.file}\n", "bold")
+            if f.unread:
+                text.append(f"no header: {f.unread:,} lines not read\n", palette.SIGNAL)
             for note in f.notes:
                 text.append(f"warning: {note}\n", palette.SPEC)
             if f.times_backwards or f.times_unreadable:
@@ -135,6 +137,6 @@ class FeedScreen(TableScreen):
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:
                     text.append(f"  {reason}\n", palette.SIGNAL)
-            else:
+            elif not f.unread:
                 text.append("no rejected row", palette.LABEL)
         self.query_one("#feed-rejects", Static).update(text)
