@@ -109,6 +109,7 @@ class Monitor:
         self._alarm_states: dict[int, tuple[str, str | None, int | None]] = {}
         self._seen_data_version: int | None = None
         self._announced = False
+        self._stop: threading.Event | None = None
         self.alarms.load_config(plan.config)
 
     @property
@@ -151,7 +152,9 @@ class Monitor:
         # One column list serves every feed; with several feeds each file holds only some of
         # the characteristics, so every numeric column is read and the unknown ones dropped here.
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
-        self.tailer = Tailer(self.plan.feeds, columns, saved)
+        stop = self._stop
+        self.tailer = Tailer(self.plan.feeds, columns, saved,
+                             should_stop=None if stop is None else stop.is_set)
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         mon = self.config.monitor
         self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
@@ -186,6 +189,7 @@ class Monitor:
     # -- the loop --
     def run(self, stop: threading.Event) -> None:
         """Collect (or watch as a viewer) until `stop` is set; then finish what was read."""
+        self._stop = stop  # also asked while a pattern is expanded (SIGTERM during a walk)
         due = True  # read at once; later only when the waker says something may have changed
         try:
             while not stop.is_set():

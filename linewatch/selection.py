@@ -55,7 +55,7 @@ def looks_like_json_lines(path: str) -> bool:
     """A log is JSON lines by its name, or when its first non-blank byte opens an object."""
     if path.lower().endswith(JSON_SUFFIXES):
         return True
-    if path == "-":
+    if path == "-" or not os.path.isfile(path):  # a FIFO would block here: read_log says so
         return False
     try:
         with open(path, "rb") as f:

@@ -222,7 +222,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         "ORDER BY at, id", (day,))]
     names = list(files) + [e.file for e in events if e.file not in files
                            and e.kind not in ("stuck", "unstuck")
-                           and not _pattern_found(e.file, files)]
+                           and (e.kind == "bounded" or not _pattern_found(e.file, files))]
     for path in dict.fromkeys(names):
         mine = [e for e in events if e.file == path]
         fv = FeedView(file=path)
@@ -241,7 +241,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
-        fv.notes = [e.detail for e in mine if e.kind in ("warning", "no-header")][-3:]
+        fv.notes = [e.detail for e in mine
+                    if e.kind in ("warning", "no-header", "skipped", "bounded")][-3:]
         fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
         fv.rejected += fv.unread
         counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
@@ -249,11 +250,12 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
             fv.times_backwards, fv.times_unreadable = (int(x) for x in counts.split(","))
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
-                         "waiting")]
+                         "waiting", "skipped", "bounded")]
         latest = state_events[-1] if state_events else "following"
         fv.stale = latest == "stale"
         fv.status = {"stale": "stale", "vanished": "missing", "unreadable": "unreadable",
-                     "waiting": "waiting"}.get(latest, "following")
+                     "waiting": "waiting", "skipped": "not a file",
+                     "bounded": "bounded"}.get(latest, "following")
         if fv.unread and fv.status == "following":
             fv.status = "no header"  # its lines cannot be read until it has one
         out.append(fv)

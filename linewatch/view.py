@@ -129,7 +129,8 @@ class FeedView:
     rotations: int = 0
     truncations: int = 0
     stale: bool = False
-    status: str = "following"  # following | waiting | missing | unreadable | stale | no header
+    # following | waiting | missing | unreadable | stale | no header | not a file | bounded
+    status: str = "following"
     last_rejects: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)  # the last warnings about the file
     unread: int = 0  # lines not read: the file has no header to go by (also in `rejected`)

@@ -41,6 +41,7 @@ import csv
 import json
 import math
 import re
+import stat
 import sys
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
@@ -640,6 +641,14 @@ def read_bytes(source: str) -> tuple[str, bytes]:
         return "<stdin>", sys.stdin.buffer.read()
     p = Path(source)
     try:
+        mode = p.stat().st_mode
+        if not stat.S_ISREG(mode) and not stat.S_ISDIR(mode):
+            # a FIFO would block until a writer comes, a device may never end
+            from linewatch.feeds.tailer import _kind_of
+
+            raise LinewatchError(
+                f"{source}: is {_kind_of(mode)}, not a regular file; to read it anyway, "
+                f"give it on standard input: linewatch check - < {source}")
         return source, p.read_bytes()
     except FileNotFoundError:
         raise LinewatchError(f"{source}: no such file") from None
