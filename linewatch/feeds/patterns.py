@@ -8,7 +8,8 @@ for any depth; names starting with ``.`` only by a pattern part that starts with
 - visits at most `MAX_VISITED` directory entries and returns at most `MAX_MATCHES` paths per
   pattern and expansion;
 - never enters the pseudo file systems (`PSEUDO_ROOTS`: /proc, /sys, /dev), whose entries are
-  no log files and whose trees are endless (/proc/self/root loops back to /);
+  no log files and whose trees are endless (/proc/self/root loops back to /) — a path named
+  exactly, without a wildcard, is taken wherever it is;
 - does not follow symbolic links to folders while expanding ``**`` (a link loop cannot trap it);
 - stops as soon as `should_stop()` says so (SIGTERM during expansion).
 
@@ -79,11 +80,8 @@ def expand(pattern: str, should_stop: Callable[[], bool] | None = None) -> Expan
     sorted), within the bounds above."""
     out = Expansion()
     full = os.path.abspath(os.path.expanduser(pattern))
-    if not glob.has_magic(full):
-        root = in_pseudo_fs(full)
-        if root is not None:
-            out.pseudo.add(root)
-        elif os.path.lexists(full):
+    if not glob.has_magic(full):  # one path named exactly: read wherever it is
+        if os.path.lexists(full):
             out.paths.append(full)
         return out
     parts = full.split(os.sep)[1:]
