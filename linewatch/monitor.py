@@ -469,7 +469,8 @@ class Monitor:
         events = self.alarms.observe_feed(ev, now, characteristic=ev.file if stuck else None)
         if raised is not None:
             raised += events
-        record = {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
+        record: dict[str, Any] = {"type": "feed", "event": ev.kind, "file": ev.file,
+                                  "detail": ev.detail}
         if ev.kind == "times" and self.health is not None:
             record["backwards"], record["unreadable"] = self.health.time_counts(ev.file)
         return record
