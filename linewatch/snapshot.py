@@ -252,9 +252,11 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting", "skipped", "bounded")]
         latest = state_events[-1] if state_events else "following"
+        if latest == "waiting" and "bounded" in state_events:
+            latest = "bounded"  # what was left out matters more than "no match yet"
         fv.stale = latest == "stale"
         fv.status = {"stale": "stale", "vanished": "missing", "unreadable": "unreadable",
-                     "waiting": "waiting", "skipped": "not a file",
+                     "waiting": "waiting", "skipped": "skipped",
                      "bounded": "bounded"}.get(latest, "following")
         if fv.unread and fv.status == "following":
             fv.status = "no header"  # its lines cannot be read until it has one

@@ -136,3 +136,20 @@ def test_sigterm_during_the_first_walk_ends_the_watch(tmp_path: Path) -> None:
         time.sleep(0.02)
     time.sleep(0.2)  # the walk starts right after the role line
     assert _term_and_wait(proc, 10) < 5
+
+
+def test_the_feeds_view_shows_skipped_paths_and_bounded_patterns(tmp_path: Path) -> None:
+    from linewatch.model import FeedEvent
+    from linewatch.snapshot import feed_views
+    from linewatch.store.db import Store
+
+    with Store(tmp_path / "state") as store:
+        now = time.time()
+        store.history.add_feed_event(
+            FeedEvent("skipped", "/x/fifo.csv", "is a named pipe (FIFO), not a log file"), now)
+        store.history.add_feed_event(
+            FeedEvent("bounded", "/proc/**", "pseudo file systems not read: /proc"), now)
+        store.history.add_feed_event(FeedEvent("waiting", "/proc/**", "no file matches"), now)
+        views = {f.file: f for f in feed_views(store, now + 1, 0)}
+    assert views["/x/fifo.csv"].status == "skipped" and "FIFO" in views["/x/fifo.csv"].notes[0]
+    assert views["/proc/**"].status == "bounded" and "/proc" in views["/proc/**"].notes[0]

@@ -102,7 +102,7 @@ class FeedScreen(TableScreen):
     def _cells(self, f: view.FeedView, name: str) -> list[object]:
         g = self.lw.glyphs
         bad = f.stale or f.status in ("missing", "unreadable", "stale", "no header",
-                                      "not a file", "bounded")
+                                      "skipped", "bounded")
         mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
         return [
             Text(f"{mark} {f.status}", "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
