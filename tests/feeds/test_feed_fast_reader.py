@@ -37,7 +37,8 @@ def log_files(draw: st.DrawFn) -> tuple[bytes, str]:
     delim = draw(st.sampled_from([",", ";", "\t"]))
     ncols = draw(st.integers(1, 4))
     names = draw(st.sampled_from([["time", "od", "wall", "part"], ["t", "a", "b", "c"],
-                                  ["Zeit", "Ø", "wall", "id"]]))[:ncols]
+                                  ["Zeit", "Ø", "wall", "id"],
+                                  ["time", "od", "od", "wall"]]))[:ncols]
     header = delim.join(names)
     eol = draw(st.sampled_from(["\n", "\r\n"]))
     out: list[bytes] = []
@@ -80,6 +81,7 @@ def per_line(data: bytes, feed: FeedConfig, columns: list[str] | None) -> Batch:
 def assert_same(fast: Batch, slow: Batch) -> None:
     assert fast.rows == slow.rows
     assert fast.rejected == slow.rejected
+    assert fast.notices == slow.notices and fast.unread == slow.unread
     assert list(fast.values) == list(slow.values)
     for c in slow.values:
         assert np.array_equal(np.asarray(fast.values[c]), np.asarray(slow.values[c], dtype=float))
