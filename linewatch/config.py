@@ -32,6 +32,7 @@ from linewatch.engine.rulebook import (
     resolve_rules,
 )
 from linewatch.errors import ConfigError
+from linewatch.model import MAX_MAGNITUDE
 
 DEFAULT_REASONS: tuple[str, ...] = (
     "tool wear",
@@ -193,6 +194,8 @@ class _Reader:
             raise self.fail(name, f"must be a number, got {v!r}")
         if not math.isfinite(float(v)):
             raise self.fail(name, "must be a finite number")
+        if abs(float(v)) > MAX_MAGNITUDE:
+            raise self.fail(name, f"out of range (more than {MAX_MAGNITUDE:g} in magnitude)")
         return float(v)
 
     def integer(self, name: str, default: int | None, lo: int, hi: int) -> int | None:

@@ -18,3 +18,8 @@ class ConfigError(LinewatchError):
 
 class NotEnoughData(LinewatchError):
     """Too few points to estimate control limits."""
+
+
+class BadLimits(LinewatchError):
+    """Control limits that are not finite numbers (values too extreme to chart); such limits
+    never reach the store."""

@@ -15,6 +15,14 @@ CHART_RANGE = "range"
 CHART_STDEV = "stdev"
 DISPERSION_CHARTS = (CHART_MOVING_RANGE, CHART_RANGE, CHART_STDEV)
 
+# The largest magnitude a reading (or a configured centre, sigma or spec limit) may have.
+# Squares of differences of two such values stay below 4e200, so sums of squares over any
+# realistic count of points stay far below the float64 maximum of 1.8e308, and so do the
+# products the drawing code forms (a value times a screen size); every real measurement, in
+# any unit, is many orders of magnitude smaller. Past about 1.3e154 a square overflows to
+# infinity and control limits become NaN: such a value is "out of range".
+MAX_MAGNITUDE = 1e100
+
 
 @dataclass(frozen=True, slots=True)
 class Rejected:
@@ -23,6 +31,17 @@ class Rejected:
     file: str
     line: int
     reason: str
+
+
+@dataclass(frozen=True, slots=True)
+class Notice:
+    """Something about a file the user should know though no row is lost (a duplicate column
+    name, a file with no header): file, 1-based line and the text, said once per file."""
+
+    file: str
+    line: int
+    text: str
+    kind: str = "warning"  # or "no-header": the file's lines cannot be read
 
 
 @dataclass(frozen=True, slots=True)

@@ -49,6 +49,8 @@ PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phas
 ANNOUNCED = ("raised", "re-raised", "escalated")  # alarm events that reach the hook
 FAILURES_BEFORE_ALARM = 3  # failed passes in a row before "monitoring stopped" is raised
 MAX_BACKOFF = 30.0  # seconds between retries after repeated failures, at most
+UNREAD_LINES = "unread-lines:{file}"  # meta key: lines of a file with no header to go by
+TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
 
 
 @dataclass(slots=True)
@@ -115,6 +117,7 @@ class Monitor:
         self._announced = False
         self.failures = 0  # failed passes in a row
         self.problem = ""  # the last failure, while the collector keeps failing
+        self._stop: threading.Event | None = None
         self.alarms.load_config(plan.config)
 
     def _configure_audit(self) -> Anchorer | None:
@@ -176,7 +179,9 @@ class Monitor:
         # One column list serves every feed; with several feeds each file holds only some of
         # the characteristics, so every numeric column is read and the unknown ones dropped here.
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
-        self.tailer = Tailer(self.plan.feeds, columns, saved)
+        stop = self._stop
+        self.tailer = Tailer(self.plan.feeds, columns, saved,
+                             should_stop=None if stop is None else stop.is_set)
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         mon = self.config.monitor
         self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
@@ -217,6 +222,7 @@ class Monitor:
         (`problem`); what the pass read is rolled back and read again (nothing lost, nothing
         doubled) after a back-off; after three failures in a row a priority-1 alarm
         "monitoring stopped" is raised and reaches the hook."""
+        self._stop = stop  # also asked while a pattern is expanded (SIGTERM during a walk)
         due = True  # read at once; later only when the waker says something may have changed
         try:
             while not stop.is_set():
@@ -390,6 +396,17 @@ class Monitor:
             records.append(self._record_feed_event(ev, now, raised))
         batch = chunk.batch
         if batch is not None:
+            for n in batch.notices:  # e.g. a duplicate column name: said once per file
+                detail = f"line {n.line}: {n.text}"
+                if n.kind == "no-header":
+                    detail = f"{batch.unread:,} lines from line {n.line} on not read: {n.text}"
+                records.append(self._record_feed_event(
+                    FeedEvent(n.kind, n.file, detail), now, raised))
+            if batch.unread:  # lines of a file without a header: counted, said once above
+                self.rejected += batch.unread
+                key = UNREAD_LINES.format(file=batch.file)
+                total = int(self.store.get_meta(key) or 0) + batch.unread
+                self.store.set_meta(key, str(total))
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(
@@ -408,8 +425,35 @@ class Monitor:
                 records.extend(self._process_values(name, batch, column, now, written, raised))
             if batch.rows:
                 self.health.rows_arrived(batch.file, batch.rows, written)
+                self._count_times(batch)
         if chunk.state is not None:
             self.store.ingest.save_file(chunk.state, now)
+
+    def _count_times(self, batch: Batch) -> None:
+        """Count the batch's time stamps that go backwards or cannot be read (the rows are
+        kept); the counts are saved with the offsets, so a restart neither loses nor repeats
+        them."""
+        assert self.health is not None
+        columns = [(batch.lines[c], batch.times[c]) for c in batch.times if batch.times[c]]
+        if not columns:
+            return
+        lines0, times0 = columns[0]
+        if all(len(ln) == len(lines0) and list(ln) == list(lines0) for ln, _ in columns[1:]):
+            times = list(times0)  # wide rows: every column has the same rows
+        else:  # long rows: each name has its own rows; put them back in file order
+            by_line: dict[int, str | None] = {}
+            for ln, tm in columns:
+                by_line.update(zip(ln, tm, strict=True))
+            times = [by_line[k] for k in sorted(by_line)]
+        key = TIME_COUNTS.format(file=batch.file)
+        before = self.health.time_counts(batch.file)
+        if before == (0, 0) and (raw := self.store.get_meta(key)):
+            start = tuple(int(x) for x in raw.split(","))
+            before = (start[0], start[1])
+        self.health.times_arrived(batch.file, times, before)
+        after = self.health.time_counts(batch.file)
+        if after != before:
+            self.store.set_meta(key, f"{after[0]},{after[1]}")
 
     def _process_values(
         self, name: str, batch: Batch, column: str, now: float, written: float,
@@ -428,6 +472,8 @@ class Monitor:
         self.counts[name] = self.counts.get(name, 0) + len(values)
         self.store.history.add_points(name, first, values, lines, batch.file, times, written)
         records: list[dict[str, Any]] = []
+        if out.problem is not None:  # this characteristic has no limits; the others go on
+            records.append({"type": "error", "characteristic": name, "problem": out.problem})
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)
@@ -502,7 +548,11 @@ class Monitor:
         events = self.alarms.observe_feed(ev, now, characteristic=ev.file if stuck else None)
         if raised is not None:
             raised += events
-        return {"type": "feed", "event": ev.kind, "file": ev.file, "detail": ev.detail}
+        record: dict[str, Any] = {"type": "feed", "event": ev.kind, "file": ev.file,
+                                  "detail": ev.detail}
+        if ev.kind == "times" and self.health is not None:
+            record["backwards"], record["unreadable"] = self.health.time_counts(ev.file)
+        return record
 
     def _step_down(self) -> None:
         """Drop everything held in memory and become a viewer; whoever collects next (maybe

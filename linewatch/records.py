@@ -30,6 +30,12 @@ def limits_record(characteristic: str, lim: ChartLimits) -> dict[str, Any]:
     }
 
 
+def not_charted_record(characteristic: str, values: int, problem: str) -> dict[str, Any]:
+    """A characteristic `check` could not chart (the others are charted)."""
+    return {"type": "not-charted", "characteristic": characteristic, "values": values,
+            "problem": problem}
+
+
 def signal_record(
     characteristic: str, chart: str, rule: str, index: int, line: int, value: float
 ) -> dict[str, Any]:

@@ -8,7 +8,7 @@ from collections.abc import Callable
 from html import escape
 
 from linewatch.report import ChartTrace, num
-from linewatch.scales import padded_span
+from linewatch.scales import fraction_of, padded_span
 
 WIDTH, HEIGHT = 680, 180
 LEFT, RIGHT, TOP, BOTTOM = 8, 86, 10, 22
@@ -81,7 +81,7 @@ def control_chart_svg(
         return LEFT + (plot_w * (k + 0.5) / count)
 
     def y_of(v: float) -> float:
-        return TOP + plot_h * (hi - v) / (hi - lo)
+        return TOP + plot_h * (1.0 - fraction_of(v, lo, hi))
 
     xs = [x_of(k) for k in range(count)]
     labels: list[tuple[float, str, str]] = []  # (y, text, css class), placed apart at the end

@@ -14,6 +14,7 @@ from linewatch.config import DISPERSIONS, CharacteristicConfig, Config, FeedConf
 from linewatch.engine.characteristic import ChartSetup
 from linewatch.engine.rulebook import RuleListError, parse_rule_list, resolve_rules
 from linewatch.errors import LinewatchError
+from linewatch.model import MAX_MAGNITUDE
 
 
 def load_optional_config(path: str | None) -> Config:
@@ -23,6 +24,11 @@ def load_optional_config(path: str | None) -> Config:
 
 def validate_chart_options(args: argparse.Namespace) -> None:
     """Reject contradictory or impossible chart options with a one-line reason."""
+    for option in ("center", "sigma", "lsl", "usl"):
+        value = getattr(args, option, None)
+        if value is not None and not -MAX_MAGNITUDE <= value <= MAX_MAGNITUDE:
+            raise LinewatchError(
+                f"--{option} {value:g} is out of range (more than {MAX_MAGNITUDE:g} in magnitude)")
     if (args.center is None) != (args.sigma is None):
         raise LinewatchError("--center and --sigma go together")
     if args.sigma is not None and not args.sigma > 0:
@@ -52,7 +58,7 @@ def looks_like_json_lines(path: str) -> bool:
     """A log is JSON lines by its name, or when its first non-blank byte opens an object."""
     if path.lower().endswith(JSON_SUFFIXES):
         return True
-    if path == "-":
+    if path == "-" or not os.path.isfile(path):  # a FIFO would block here: read_log says so
         return False
     try:
         with open(path, "rb") as f:

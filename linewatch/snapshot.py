@@ -230,7 +230,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         "ORDER BY at, id", (day,))]
     names = list(files) + [e.file for e in events if e.file not in files
                            and e.kind not in ("stuck", "unstuck")
-                           and not _pattern_found(e.file, files)]
+                           and (e.kind == "bounded" or not _pattern_found(e.file, files))]
     for path in dict.fromkeys(names):
         mine = [e for e in events if e.file == path]
         fv = FeedView(file=path)
@@ -249,13 +249,25 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
+        fv.notes = [e.detail for e in mine
+                    if e.kind in ("warning", "no-header", "skipped", "bounded")][-3:]
+        fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
+        fv.rejected += fv.unread
+        counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
+        if counts:
+            fv.times_backwards, fv.times_unreadable = (int(x) for x in counts.split(","))
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
-                         "waiting")]
+                         "waiting", "skipped", "bounded")]
         latest = state_events[-1] if state_events else "following"
+        if latest == "waiting" and "bounded" in state_events:
+            latest = "bounded"  # what was left out matters more than "no match yet"
         fv.stale = latest == "stale"
         fv.status = {"stale": "stale", "vanished": "missing", "unreadable": "unreadable",
-                     "waiting": "waiting"}.get(latest, "following")
+                     "waiting": "waiting", "skipped": "skipped",
+                     "bounded": "bounded"}.get(latest, "following")
+        if fv.unread and fv.status == "following":
+            fv.status = "no header"  # its lines cannot be read until it has one
         out.append(fv)
     return out
 

@@ -138,8 +138,13 @@ class FeedView:
     rotations: int = 0
     truncations: int = 0
     stale: bool = False
-    status: str = "following"  # following | waiting | missing | unreadable | stale
+    # following | waiting | missing | unreadable | stale | no header | skipped | bounded
+    status: str = "following"
     last_rejects: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)  # the last warnings about the file
+    unread: int = 0  # lines not read: the file has no header to go by (also in `rejected`)
+    times_backwards: int = 0  # time stamps earlier than the row before (rows kept)
+    times_unreadable: int = 0  # time stamps that cannot be read as a time (rows kept)
 
 
 @dataclass(slots=True)

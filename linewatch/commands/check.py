@@ -1,5 +1,6 @@
 """`linewatch check`: chart finished logs, report limits, signals, capability and the false-alarm
-budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors."""
+budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors (also when a
+characteristic could not be charted: the others are still reported)."""
 
 from __future__ import annotations
 
@@ -14,9 +15,9 @@ import numpy as np
 
 from linewatch.config import CharacteristicConfig, FeedConfig
 from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_history
-from linewatch.errors import LinewatchError, NotEnoughData
+from linewatch.errors import BadLimits, LinewatchError, NotEnoughData
 from linewatch.model import Rejected
-from linewatch.records import dumps, limits_record, rejected_record
+from linewatch.records import dumps, limits_record, not_charted_record, rejected_record
 from linewatch.safe_text import json_safe
 from linewatch.selection import (
     chart_setup,
@@ -67,6 +68,8 @@ def _read_all(
         cols[name] = Column(np.concatenate(vals), np.concatenate(lines), files,
                             np.concatenate(fidx))
     rejected: list[Rejected] = [r for b in batches for r in b.rejected]
+    for n in (n for b in batches for n in b.notices):  # nothing lost, but worth knowing
+        sys.stderr.write(f"linewatch: warning: {n.file}: line {n.line}: {n.text}\n")
     return cols, rejected
 
 
@@ -90,8 +93,21 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
     return record
 
 
-def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
-    """Read the logs named in `args` and chart every selected characteristic."""
+@dataclass(frozen=True, slots=True)
+class NotCharted:
+    """A characteristic that could not be charted (too few values, σ̂ = 0, limits not finite),
+    with the reason; the others are charted all the same."""
+
+    characteristic: str
+    values: int
+    problem: str
+
+
+def analyse(
+    args: argparse.Namespace,
+) -> tuple[list[Analysis], list[Rejected], list[NotCharted]]:
+    """Read the logs named in `args` and chart every selected characteristic; those that
+    cannot be charted are returned with the reason instead of stopping the others."""
     validate_chart_options(args)
     config = load_optional_config(args.config)
     feeds = [feed_for_log(config, p, args) for p in args.logs]
@@ -105,16 +121,21 @@ def analyse(args: argparse.Namespace) -> tuple[list[Analysis], list[Rejected]]:
     if not chars:
         raise LinewatchError("no numeric column to chart (name one with --column)")
     out: list[Analysis] = []
+    skipped: list[NotCharted] = []
     for c in chars:
         col = cols[c.column]
         setup = chart_setup(c, None)
         try:
             result = analyse_history(col.values, setup)
-        except NotEnoughData as exc:
-            raise LinewatchError(str(exc)) from None
+        except (NotEnoughData, BadLimits) as exc:
+            skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+            continue
         out.append(Analysis(c, col, result, _summary(col.values, c, setup, result,
                                                      len(rejected)), setup))
-    return out, rejected
+    if not out and skipped:  # nothing could be charted: the one-line error, as before
+        raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
+            f"{n.characteristic}: {n.problem}" for n in skipped))
+    return out, rejected, skipped
 
 
 def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
@@ -141,11 +162,13 @@ def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
 
 
 def run(args: argparse.Namespace) -> int:
-    analyses, rejected = analyse(args)
+    analyses, rejected, skipped = analyse(args)
     several_files = len(args.logs) > 1
     write = sys.stdout.write
     if args.format == "jsonl":
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
+        lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
+                  for n in skipped]
         for a in analyses:
             for lim in (a.result.limits.location, a.result.limits.dispersion):
                 lines.append(dumps(limits_record(a.config.name, lim)))
@@ -155,5 +178,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         from linewatch.commands.check_text import render_text
 
-        write(render_text(analyses, rejected, several_files))
+        write(render_text(analyses, rejected, several_files, skipped))
+    if skipped:  # an input problem, as when no characteristic can be charted at all
+        return 2
     return 1 if any(len(a.result.table) for a in analyses) else 0

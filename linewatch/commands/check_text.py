@@ -12,7 +12,7 @@ from linewatch.safe_text import visible
 from linewatch.words import count
 
 if TYPE_CHECKING:
-    from linewatch.commands.check import Analysis
+    from linewatch.commands.check import Analysis, NotCharted
     from linewatch.engine.characteristic import Firing
     from linewatch.model import Rejected
 
@@ -36,8 +36,10 @@ def _rule_text(analysis: Analysis, rule_id: str) -> str:
     return spec.describe() if spec else rule_id
 
 
-def render_text(analyses: list[Analysis], rejected: list[Rejected], several_files: bool) -> str:
-    """The whole report as one string."""
+def render_text(analyses: list[Analysis], rejected: list[Rejected], several_files: bool,
+                skipped: list[NotCharted] | None = None) -> str:
+    """The whole report as one string; each characteristic that could not be charted gets
+    one line with the reason."""
     out: list[str] = []
     w = out.append
     for a in analyses:
@@ -91,6 +93,10 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
                                                                          "seeded simulation"))
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
               f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+        w("")
+    for n in skipped or []:
+        w(f"== {n.characteristic}: {n.values} values, not charted: {n.problem}")
+    if skipped:
         w("")
     if rejected:
         w(f"rejected rows: {len(rejected)}")

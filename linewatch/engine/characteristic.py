@@ -25,7 +25,7 @@ from linewatch.engine.limits import (
 from linewatch.engine.rulebook import BEYOND, RuleSpec
 from linewatch.engine.rules import classify, evaluate_classified
 from linewatch.engine.stream import ChartLimitsState, ChartRules, lookback
-from linewatch.errors import NotEnoughData
+from linewatch.errors import BadLimits, NotEnoughData
 
 VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
@@ -238,6 +238,7 @@ class LiveOutput:
     firings: list[Firing] = field(default_factory=list)
     limits: LimitSet | None = None  # set when new limits took effect in this push
     judged: dict[str, tuple[int, int]] = field(default_factory=dict)  # chart -> index range
+    problem: str | None = None  # limits could not be formed (said once, when first met)
 
 
 class CharacteristicEngine:
@@ -259,6 +260,7 @@ class CharacteristicEngine:
         self.disp_history: deque[PlottedPoint] = deque(maxlen=HISTORY_KEEP)
         self.waiting: list[tuple[PlottedPoint, PlottedPoint | None]] = []
         self.phase_baseline = setup.baseline or 0
+        self.problem: str | None = None  # why limits could not be formed, once reported
         self.loc_rules: ChartRules | None = None
         self.disp_rules: ChartRules | None = None
         # values pushed into the current rule states, enough to rebuild them after a restart
@@ -284,7 +286,7 @@ class CharacteristicEngine:
             return 0
         return max(0, max(self.phase_baseline, MIN_BASELINE) - len(self.waiting))
 
-    def _try_estimate(self) -> LimitSet | None:
+    def _try_estimate(self, out: LiveOutput) -> LimitSet | None:
         need = max(self.phase_baseline, MIN_BASELINE)
         if len(self.waiting) < need:
             return None
@@ -296,6 +298,12 @@ class CharacteristicEngine:
             disp = np.array([d.value for _, d in base if d is not None])
         try:
             return estimate_limits(loc, disp, self.setup.subgroup_size, self.setup.dispersion)
+        except BadLimits as exc:
+            # not finite (values too extreme): never applied or stored; said once, and the
+            # other characteristics go on
+            if self.problem is None:
+                self.problem = out.problem = str(exc)
+            return None
         except NotEnoughData:
             return None  # σ̂ = 0 so far: keep collecting, the baseline grows
 
@@ -418,7 +426,7 @@ class CharacteristicEngine:
             out.points.append(disp)
         if self.limits is None:
             self.waiting.append((loc, disp))
-            limits = self._try_estimate()
+            limits = self._try_estimate(out)
             if limits is None:
                 return
             self._apply_limits(limits)
@@ -492,7 +500,7 @@ class CharacteristicEngine:
         out = LiveOutput()
         if self.limits is not None or not self.waiting:
             return out
-        limits = self._try_estimate()
+        limits = self._try_estimate(out)
         if limits is None:
             return out
         self._apply_limits(limits)

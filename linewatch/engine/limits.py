@@ -14,13 +14,13 @@ UCL = (c4 + 3√(1−c4²))·S, LCL = max(0, c4 − 3√(1−c4²))·S.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from math import sqrt
+from math import isfinite, sqrt
 
 import numpy as np
 
 from linewatch.engine import constants as k
 from linewatch.engine.charts import chart_names
-from linewatch.errors import NotEnoughData
+from linewatch.errors import BadLimits, NotEnoughData
 from linewatch.model import DISPERSION_CHARTS
 
 MIN_BASELINE = 2
@@ -73,7 +73,7 @@ def given_limits(
     n = subgroup_size
     s_loc = sigma / sqrt(n)
     loc = ChartLimits(loc_name, center, center + 3 * s_loc, center - 3 * s_loc, s_loc)
-    return LimitSet(loc, _dispersion_from_sigma(disp_name, n, sigma), sigma, "given")
+    return _finite(LimitSet(loc, _dispersion_from_sigma(disp_name, n, sigma), sigma, "given"))
 
 
 def estimate_limits(
@@ -107,11 +107,25 @@ def estimate_limits(
         sigma = disp_bar / k.d2(m)
         disp = ChartLimits(disp_name, disp_bar, k.d4_upper(m) * disp_bar,
                            k.d3_lower(m) * disp_bar, k.d3(m) * sigma)
-    if not sigma > 0:
+    if isfinite(sigma) and not sigma > 0:  # (a NaN or infinite σ̂ is for _finite to report)
         raise NotEnoughData(
             "sigma estimated as 0 from the baseline (every baseline value is the same); "
             "more varied data or --center/--sigma is needed"
         )
     s_loc = sigma / sqrt(n)
     loc = ChartLimits(loc_name, center, center + 3 * s_loc, center - 3 * s_loc, s_loc)
-    return LimitSet(loc, disp, sigma, "baseline")
+    return _finite(LimitSet(loc, disp, sigma, "baseline"))
+
+
+def _finite(limits: LimitSet) -> LimitSet:
+    """`limits` when every figure is a finite number; else BadLimits (an overflow from extreme
+    values must never become a NaN or infinite limit in the store or on a chart)."""
+    figures = [limits.sigma_within]
+    for c in (limits.location, limits.dispersion):
+        figures += [c.center, c.ucl, c.lcl, c.sigma]
+    if all(isfinite(f) for f in figures):
+        return limits
+    raise BadLimits(
+        f"limits are not finite numbers (sigma within {limits.sigma_within:g}, centre "
+        f"{limits.location.center:g}): values too extreme to chart"
+    )

@@ -16,7 +16,9 @@ The row conventions, for every layout:
   or bytes that are not valid in the feed's encoding is rejected with its reason.
 - Numbers: surrounding blanks ignored; a decimal comma is read when the feed says
   ``decimal = ","`` or the delimiter is ``;``. Empty, non-numeric, ``nan`` and infinite values are
-  rejected, and so is ``_`` inside a number.
+  rejected, and so is ``_`` inside a number. A finite value beyond ±`MAX_MAGNITUDE` (1e100) is
+  rejected as out of range: no gauge reads such a number, and the statistics square values and
+  their differences, which overflow to infinity (and limits to NaN) past about 1.3e154.
 - Wide CSV: the first row is the header (delimiter detected from it among ``,`` ``;`` tab unless
   configured); the same header repeated later (a writer restarted) is skipped. A row with the
   wrong number of fields, or with a bad value in any wanted column, is rejected as a whole:
@@ -39,6 +41,7 @@ import csv
 import json
 import math
 import re
+import stat
 import sys
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
@@ -49,7 +52,7 @@ import numpy as np
 
 from linewatch.config import FeedConfig
 from linewatch.errors import LinewatchError
-from linewatch.model import Rejected
+from linewatch.model import MAX_MAGNITUDE, Notice, Rejected
 
 MAX_LINE_BYTES = 1 << 20
 FAST_BLOCK_BYTES = 32 << 10  # blocks at least this large take the whole-buffer path
@@ -149,6 +152,8 @@ class Batch:
     times: dict[str, Any] = field(default_factory=dict)  # list[str | None] | TimeColumn
     rejected: list[Rejected] = field(default_factory=list)
     rows: int = 0
+    notices: list[Notice] = field(default_factory=list)  # said once per file
+    unread: int = 0  # lines not read for want of a header (said once, in a notice)
 
     @property
     def characteristics(self) -> list[str]:
@@ -164,27 +169,45 @@ class Batch:
 # --------------------------------------------------------------------------- per-line path
 
 
-def parse_number(text: str, decimal_comma: bool) -> float | None:
-    """The one definition of a readable number: None when `text` is not a finite number."""
+def _float_of(text: str, decimal_comma: bool) -> float | None:
+    """`text` as a float (any magnitude, inf and nan included), None when it is no number."""
     t = text.strip()
     if not t or "_" in t:
         return None
     if decimal_comma:
         t = t.replace(",", ".")
     try:
-        v = float(t)
+        return float(t)
     except ValueError:
         return None
-    return v if math.isfinite(v) else None
+
+
+def in_range(v: float) -> bool:
+    """A finite value whose magnitude is at most MAX_MAGNITUDE (see there for why)."""
+    return -MAX_MAGNITUDE <= v <= MAX_MAGNITUDE
+
+
+def parse_number(text: str, decimal_comma: bool) -> float | None:
+    """The one definition of a readable number: None when `text` is not a finite number within
+    ±MAX_MAGNITUDE."""
+    v = _float_of(text, decimal_comma)
+    return v if v is not None and in_range(v) else None
 
 
 def _shown(text: str) -> str:
     return repr(text if len(text) <= _SHOWN else text[:_SHOWN] + "…")
 
 
-def _value_problem(text: str, column: str) -> str:
+def _out_of_range(shown: str, where: str) -> str:
+    return f"{shown} in {where} is out of range (more than {MAX_MAGNITUDE:g} in magnitude)"
+
+
+def _value_problem(text: str, column: str, decimal_comma: bool) -> str:
     if not text.strip():
         return f"empty value in column '{column}'"
+    v = _float_of(text, decimal_comma)
+    if v is not None and math.isfinite(v):
+        return _out_of_range(_shown(text.strip()), f"column '{column}'")
     return f"{_shown(text.strip())} in column '{column}' is not a number"
 
 
@@ -234,6 +257,8 @@ class _Rows:
         self.times: dict[str, list[str | None]] = {}
         self.rejected: list[Rejected] = []
         self.rows = 0
+        self.notices: list[Notice] = []
+        self.unread = 0
 
     def add(self, name: str, value: float, line: int, time: str | None) -> None:
         vals = self.values.get(name)
@@ -249,7 +274,8 @@ class _Rows:
         self.rejected.append(Rejected(self.file, line, reason))
 
     def batch(self) -> Batch:
-        return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows)
+        return Batch(self.file, self.values, self.lines, self.times, self.rejected, self.rows,
+                     self.notices, self.unread)
 
 
 class RowParser:
@@ -289,6 +315,7 @@ class RowParser:
         self.name_idx = -1
         self.value_idx = -1
         self.usable = True
+        self.headerless = False  # began with data and no header to go by (said once)
         self.names_seen: dict[str, None] = {}  # long rows and JSON keys, in order of appearance
 
     @property
@@ -396,12 +423,26 @@ class RowParser:
             problem = "first line holds numbers and times, not a header of column names"
             if self.require_columns:
                 raise LinewatchError(f"{self.file}: line {line_no}: {problem}")
-            out.reject(line_no, problem)
+            # a live feed: said once for the file, with what to do, and the lines counted
+            if not self.headerless:
+                self.headerless = True
+                out.notices.append(Notice(self.file, line_no, (
+                    f"{problem}, and no earlier file on this path had a header: its lines are "
+                    "not read. Have the logger write a line of column names first (e.g. "
+                    "time,od,wall), or add one at the top: the file is then read from the "
+                    "start"), kind="no-header"))
+            out.unread += 1
             return False
         self._use_header(names, line_no, out)
         return False
 
     def _use_header(self, names: list[str], line_no: int, out: _Rows) -> None:
+        twice = [n for n in dict.fromkeys(names) if n and names.count(n) > 1]
+        for name in twice:  # said once per file: the header is read once per file
+            where = ", ".join(str(j + 1) for j, n in enumerate(names) if n == name)
+            out.notices.append(Notice(self.file, line_no, (
+                f"column '{name}' appears {names.count(name)} times in the header (fields "
+                f"{where}); only the first is read")))
         self.header = tuple(names)
         self.previous_header = self.header
         self.time_idx = _time_index(names, self.feed.time_column)
@@ -427,7 +468,9 @@ class RowParser:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:
                 raise LinewatchError(f"{self.file}: {message}")
-            out.reject(line_no, f"header: {message}")
+            if not self.usable:
+                message += "; nothing is read from this file"
+            out.notices.append(Notice(self.file, line_no, message))  # no row is lost
 
     def _decide_columns(self, fields: list[str]) -> bool:
         assert self.header is not None
@@ -437,7 +480,8 @@ class RowParser:
             if j == self.time_idx or name in seen:
                 continue
             seen.add(name)
-            if parse_number(fields[j], self.decimal_comma) is not None:
+            v = _float_of(fields[j], self.decimal_comma)
+            if v is not None and math.isfinite(v):  # out of range still makes a numeric column
                 wanted.append((name, j))
         if wanted:
             self.wanted = wanted
@@ -459,7 +503,7 @@ class RowParser:
         for name, j in self.wanted:
             v = parse_number(fields[j], self.decimal_comma)
             if v is None:
-                out.reject(line_no, _value_problem(fields[j], name))
+                out.reject(line_no, _value_problem(fields[j], name, self.decimal_comma))
                 return
             got.append(v)
         if not got:
@@ -481,7 +525,8 @@ class RowParser:
             return
         v = parse_number(fields[self.value_idx], self.decimal_comma)
         if v is None:
-            out.reject(line_no, _value_problem(fields[self.value_idx], self.feed.value_column))
+            out.reject(line_no, _value_problem(fields[self.value_idx], self.feed.value_column,
+                                                self.decimal_comma))
             return
         out.add(name, v, line_no, self._time_of(fields))
         out.rows += 1
@@ -494,7 +539,7 @@ class RowParser:
                 f = float(v)
             except OverflowError:
                 return None
-            return f if math.isfinite(f) else None
+            return f if in_range(f) else None
         if isinstance(v, str):
             return parse_number(v, self.decimal_comma)
         return None
@@ -526,7 +571,7 @@ class RowParser:
             raw = obj.get(self.feed.value_column)
             v = self._json_number(raw)
             if v is None:
-                out.reject(line_no, _json_problem(raw, self.feed.value_column))
+                out.reject(line_no, _json_problem(raw, self.feed.value_column, self.decimal_comma))
                 return
             out.add(name, v, line_no, time)
             out.rows += 1
@@ -537,7 +582,7 @@ class RowParser:
             keys = [
                 k for k, v in obj.items()
                 if k != self.time_key and not isinstance(v, bool) and isinstance(v, int | float)
-                and self._json_number(v) is not None
+                and _finite_json(v)
             ]
             if not keys:
                 out.reject(line_no, "no number in any key")
@@ -547,7 +592,7 @@ class RowParser:
         for k in keys:
             v = self._json_number(obj.get(k))
             if v is None:
-                out.reject(line_no, _json_problem(obj.get(k, _MISSING), k))
+                out.reject(line_no, _json_problem(obj.get(k, _MISSING), k, self.decimal_comma))
                 return
             got.append(v)
         for k, v in zip(keys, got, strict=True):
@@ -559,13 +604,32 @@ class RowParser:
 _MISSING = object()
 
 
-def _json_problem(raw: Any, key: str) -> str:
+def _finite_json(v: int | float) -> bool:
+    """A JSON number that is finite as a float (out of range still makes a numeric key)."""
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:
+        return False
+
+
+def _json_problem(raw: Any, key: str, decimal_comma: bool = False) -> str:
     if raw is _MISSING:
         return f"no key '{key}'"
     if raw is None or raw == "":
         return f"empty value in key '{key}'"
-    return f"{_shown(json.dumps(raw) if not isinstance(raw, str) else raw)} in key '{key}' " \
-        "is not a number"
+    shown = _shown(json.dumps(raw) if not isinstance(raw, str) else raw)
+    if isinstance(raw, str):
+        big = _float_of(raw, decimal_comma)
+    elif isinstance(raw, int | float) and not isinstance(raw, bool):
+        try:
+            big = float(raw)
+        except OverflowError:
+            big = None
+    else:
+        big = None
+    if big is not None and math.isfinite(big):
+        return _out_of_range(shown, f"key '{key}'")
+    return f"{shown} in key '{key}' is not a number"
 
 
 # --------------------------------------------------------------------------- whole file, fast
@@ -577,6 +641,14 @@ def read_bytes(source: str) -> tuple[str, bytes]:
         return "<stdin>", sys.stdin.buffer.read()
     p = Path(source)
     try:
+        mode = p.stat().st_mode
+        if not stat.S_ISREG(mode) and not stat.S_ISDIR(mode):
+            # a FIFO would block until a writer comes, a device may never end
+            from linewatch.feeds.tailer import _kind_of
+
+            raise LinewatchError(
+                f"{source}: is {_kind_of(mode)}, not a regular file; to read it anyway, "
+                f"give it on standard input: linewatch check - < {source}")
         return source, p.read_bytes()
     except FileNotFoundError:
         raise LinewatchError(f"{source}: no such file") from None
@@ -762,7 +834,8 @@ class _FastLong(_WholeBuffer):
         """Per name: prefix rows, then fast rows with the line-by-line rows put back in order."""
         p = self.parser
         wanted = None if p.columns is None else set(p.columns)
-        batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+        batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
+                      notices=prefix.notices + rest.notices, unread=prefix.unread + rest.unread)
         batch.rows = prefix.rows + rest.rows
         groups = np.argsort(inverse, kind="stable")
         bounds = np.searchsorted(inverse[groups], np.arange(len(decoded) + 1))
@@ -998,7 +1071,7 @@ def _convert(
         np.add(mant, d, out=mant, where=isd, casting="unsafe")
         frac += isd & seen_dot
         ndig += isd
-    good &= (ndig >= 1) & (ndig <= 15)
+    good &= (ndig >= 1) & (ndig <= 15)  # so |value| < 1e15, always within MAX_MAGNITUDE
     vals = mant.astype(np.float64)
     vals /= _POW10[frac]
     np.negative(vals, out=vals, where=neg)
@@ -1021,7 +1094,8 @@ def _merge(
     one set of lines and one TimeColumn.
     """
     assert p.wanted is not None
-    batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected)
+    batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
+                  notices=prefix.notices + rest.notices, unread=prefix.unread + rest.unread)
     batch.rows = prefix.rows + rest.rows + len(fast_lines)
     key = p.wanted[0][0]
     pre_l = prefix.lines.get(key, [])

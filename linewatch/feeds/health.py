@@ -6,12 +6,19 @@ a row (common practice: a frozen sensor looks like a perfectly stable process); 
 value frees it; 0 turns the check off. `tick` reports each transition exactly once, as
 FeedEvents: `stale` / `resumed` (file = the log file) and `stuck` / `unstuck` (file = the
 characteristic's name, detail says so).
+
+Time stamps are kept as written, but each file's are counted when they go backwards (earlier
+than the row before) or cannot be read as a time (ISO 8601 date and time, a time of day, or
+seconds since 1970); `times` events report the counts, at once the first time and then at most
+once a minute per file while they grow. The rows are kept either way.
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from datetime import datetime, time
 
 import numpy as np
 
@@ -23,6 +30,47 @@ from linewatch.words import count
 class _FileHealth:
     last_row: float
     stale: bool = False
+
+
+@dataclass(slots=True)
+class _Times:
+    last: float | None = None
+    backwards: int = 0
+    unreadable: int = 0
+    reported: tuple[int, int] = (0, 0)
+    reported_at: float | None = None
+
+
+_EPOCH = datetime(1970, 1, 1)
+TIMES_EVERY = 60.0  # seconds between two `times` events of one file while the counts grow
+
+
+def time_key(text: str) -> float | None:
+    """Seconds for ordering a time stamp (ISO 8601 date-time, time of day, or epoch seconds);
+    None when it cannot be read as a time."""
+    try:
+        v = float(text)
+    except ValueError:
+        pass
+    else:
+        return v if math.isfinite(v) else None
+    try:
+        dt = datetime.fromisoformat(text)
+    except ValueError:
+        try:
+            t = time.fromisoformat(text)
+        except ValueError:
+            return None
+        return t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
+    if dt.tzinfo is not None:
+        return dt.timestamp()
+    return (dt - _EPOCH).total_seconds()  # naive: as written, no local-time guess
+
+
+def times_text(backwards: int, unreadable: int) -> str:
+    """The counts in words (feed events and the feeds view)."""
+    return (f"time stamps: {backwards:,} earlier than the row before, {unreadable:,} not "
+            "readable as a time (rows kept)")
 
 
 @dataclass(slots=True)
@@ -44,6 +92,7 @@ class FeedHealth:
         self.stuck_repeats = stuck_repeats
         self._files: dict[str, _FileHealth] = {}
         self._gauges: dict[str, _Gauge] = {}
+        self._times: dict[str, _Times] = {}
         self._pending: list[FeedEvent] = []
 
     # -- arrivals ---------------------------------------------------------------------------
@@ -65,6 +114,32 @@ class FeedHealth:
         row still goes stale."""
         if event.kind in ("appeared", "waiting") and event.file not in self._files:
             self._files[event.file] = _FileHealth(last_row=now)
+
+    def times_arrived(self, file: str, times: Sequence[str | None],
+                      start: tuple[int, int] = (0, 0)) -> None:
+        """The time stamps of the next rows of `file`, in file order (None: the row has none).
+        `start` gives counts kept from before (a restart)."""
+        t = self._times.get(file)
+        if t is None:
+            t = self._times[file] = _Times(backwards=start[0], unreadable=start[1],
+                                           reported=start)
+        last = t.last
+        for text in times:
+            if text is None:
+                continue
+            key = time_key(text)
+            if key is None:
+                t.unreadable += 1
+                continue
+            if last is not None and key < last:
+                t.backwards += 1
+            last = key
+        t.last = last
+
+    def time_counts(self, file: str) -> tuple[int, int]:
+        """(went backwards, not readable) so far for `file`."""
+        t = self._times.get(file)
+        return (0, 0) if t is None else (t.backwards, t.unreadable)
 
     def values_arrived(self, characteristic: str, values: Iterable[float]) -> None:
         """The next values of one characteristic, in order."""
@@ -103,6 +178,12 @@ class FeedHealth:
     def tick(self, now: float) -> list[FeedEvent]:
         """Transitions since the last tick, in the order they happened."""
         events, self._pending = self._pending, []
+        for file, t in self._times.items():
+            counts = (t.backwards, t.unreadable)
+            if counts != t.reported and (t.reported_at is None
+                                         or now - t.reported_at >= TIMES_EVERY):
+                t.reported, t.reported_at = counts, now
+                events.append(FeedEvent("times", file, times_text(*counts)))
         if self.stale_after > 0:
             for file, f in self._files.items():
                 if not f.stale and now - f.last_row >= self.stale_after:

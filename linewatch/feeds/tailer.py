@@ -28,16 +28,18 @@ the saved states back on restart, so reading resumes exactly where it stopped.
 
 from __future__ import annotations
 
+import errno
 import glob
 import hashlib
 import os
 import stat
 import time
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 from linewatch.config import FeedConfig
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
+from linewatch.feeds.patterns import Expansion, expand
 from linewatch.model import FeedEvent, FileState
 
 FINGERPRINT_BYTES = 1024
@@ -97,6 +99,40 @@ def _static_dir(pattern: str) -> str:
             break
         keep.append(part)
     return os.sep.join(keep) or os.sep
+
+
+BOUNDED_EVERY = 30.0  # seconds between two walks of a pattern whose expansion was bounded
+
+
+def _not_a_log(path: str) -> str | None:
+    """What `path` is when it is no regular file (a FIFO is never opened: reading one blocks),
+    else None."""
+    try:
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        return None if not os.path.islink(path) else "a broken symbolic link"
+    except OSError as exc:
+        if exc.errno == errno.ELOOP:
+            return "a symbolic link loop"
+        return None  # unreadable: the reading step says so
+    if stat.S_ISREG(mode):
+        return None
+    return _kind_of(mode)
+
+
+def _kind_of(mode: int) -> str:
+    """A file type in words."""
+    if stat.S_ISDIR(mode):
+        return "a directory"
+    if stat.S_ISFIFO(mode):
+        return "a named pipe (FIFO)"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    if stat.S_ISCHR(mode):
+        return "a character device"
+    if stat.S_ISBLK(mode):
+        return "a block device"
+    return "a special file"
 
 
 def _find_inode(folder: str, dev: int, inode: int) -> str | None:
@@ -337,8 +373,15 @@ class Tailer:
         default_feed: FeedConfig | None = None,
         shrink_grace: float = SHRINK_GRACE,
         max_open: int | None = None,
+        should_stop: Callable[[], bool] | None = None,
     ) -> None:
         self.shrink_grace = shrink_grace
+        self.should_stop = should_stop  # asked during pattern expansion (SIGTERM)
+        # paths a pattern matched that are no regular file, and patterns whose expansion was
+        # bounded: each said once (again only when what is said changes)
+        self._skipped: dict[str, str] = {}
+        self._bounded: dict[str, str] = {}
+        self._last_bounded: dict[str, tuple[float, Expansion]] = {}
         self.max_open = max(1, default_max_open() if max_open is None else max_open)
         # open files, the one with the oldest news first (the first to be put to rest)
         self._open: dict[str, _Followed] = {}
@@ -479,12 +522,30 @@ class Tailer:
     # -- discovery --------------------------------------------------------------------------
 
     def _discover(self, chunks: list[TailChunk]) -> None:
+        now = time.monotonic()
         for pattern, feed in self._patterns:
-            matches = sorted(glob.glob(os.path.expanduser(pattern), recursive=True))
+            last = self._last_bounded.get(pattern)
+            if last is not None and now - last[0] < BOUNDED_EVERY:
+                expansion = last[1]  # a bounded walk is costly: done again now and then only
+            else:
+                expansion = expand(pattern, self.should_stop)
+                if expansion.bounded and not expansion.stopped:
+                    self._last_bounded[pattern] = (now, expansion)
+                else:
+                    self._last_bounded.pop(pattern, None)
+            bounded = expansion.bounded
+            if bounded and self._bounded.get(pattern) != bounded and not expansion.stopped:
+                self._bounded[pattern] = bounded
+                chunks.append(TailChunk(pattern, None, None, [FeedEvent(
+                    "bounded", pattern, f"{bounded}; name the folders more narrowly")]))
             found = False
-            for m in matches:
-                path = os.path.abspath(m)
-                if not os.path.isfile(path):
+            ends_deep = pattern.rstrip(os.sep).endswith("**")
+            for path in expansion.paths:
+                what = _not_a_log(path)
+                if what is not None:
+                    # a folder matched by a trailing ** is expected; anything else is said once
+                    if what != "a directory" or not ends_deep:
+                        self._skip(path, what, chunks)
                     continue
                 found = True
                 f = self._followed.get(path)
@@ -504,6 +565,14 @@ class Tailer:
                 )
                 event = FeedEvent("waiting", pattern, detail)
                 chunks.append(TailChunk(pattern, None, None, [event]))
+
+    def _skip(self, path: str, what: str, chunks: list[TailChunk]) -> None:
+        """Say once that a matched path is not read, and why."""
+        if self._skipped.get(path) == what:
+            return
+        self._skipped[path] = what
+        chunks.append(TailChunk(path, None, None, [FeedEvent(
+            "skipped", path, f"is {what}, not a log file: not read")]))
 
     # -- one path ---------------------------------------------------------------------------
 

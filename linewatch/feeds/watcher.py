@@ -18,6 +18,8 @@ import time
 from collections.abc import Sequence
 from typing import Any
 
+from linewatch.feeds.patterns import in_pseudo_fs
+
 DEFAULT_SAFETY_SECONDS = 2.0
 
 log = logging.getLogger(__name__)
@@ -134,7 +136,12 @@ class Waker:
         for pattern in self.patterns:
             folder, below = _target(pattern)
             existing = _nearest_existing(folder)
-            wanted.add((existing, below and existing == folder))
+            below = below and existing == folder
+            if in_pseudo_fs(existing) is not None or (below and existing == os.sep):
+                # a recursive watch of / or of /proc, /sys, /dev would walk the machine (the
+                # expansion of such patterns is bounded too): the re-check beat serves them
+                continue
+            wanted.add((existing, below))
         return wanted
 
     def _sync(self, wanted: set[tuple[str, bool]]) -> None:

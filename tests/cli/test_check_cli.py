@@ -136,7 +136,7 @@ def test_directly_formatted_signal_lines_equal_the_generic_records(tmp_path):
     ns = argparse.Namespace(logs=[str(log)], config=None, column=[], rules="nelson",
                             center=None, sigma=None, baseline=50, subgroup_size=None,
                             dispersion=None, lsl=None, usl=None, decimal=None)
-    (a,), _ = analyse(ns)
+    (a,), _, _ = analyse(ns)
     assert a.result.firings
     expected = [dumps(signal_record("od", f.chart, f.rule, f.index, int(a.column.lines[f.row]),
                                     f.value)) for f in a.result.firings]
@@ -201,3 +201,24 @@ def test_a_large_capability_index_is_written_in_plain_digits(tmp_path):
     pp = float(line.split()[1])
     # Pp = (USL - LSL) / 6s with the sample SD (numpy, ddof=1)
     assert pp == pytest.approx(2000 / (6 * x.std(ddof=1)), rel=1e-3)
+def test_a_constant_column_is_reported_and_the_others_are_charted(tmp_path):
+    # a column whose every value is the same has moving ranges of 0, so σ̂ = MR̄/d2 = 0 and
+    # no control limits exist (common practice: limits need variation to estimate from)
+    rng = np.random.default_rng(4)  # seeded test data
+    od = np.round(rng.normal(12.0, 0.01, 30), 4)
+    ring = np.round(rng.normal(3.0, 0.1, 30), 3)
+    log = tmp_path / "c.csv"
+    log.write_text("time,od,wall,ring\n" + "".join(
+        f"t{k},{a},2.000,{b}\n" for k, (a, b) in enumerate(zip(od, ring, strict=True))))
+    res = lw("check", str(log))
+    assert res.returncode == 2 and "Traceback" not in res.stderr
+    assert "== od:" in res.stdout and "== ring:" in res.stdout
+    wall = [line for line in res.stdout.splitlines() if "wall" in line]
+    assert len(wall) == 1 and "not charted" in wall[0] and "sigma estimated as 0" in wall[0]
+    res = lw("check", str(log), "--format", "jsonl")
+    assert res.returncode == 2
+    recs = records(res.stdout)
+    assert {r["characteristic"] for r in recs if r["type"] == "summary"} == {"od", "ring"}
+    (skip,) = [r for r in recs if r["type"] == "not-charted"]
+    assert skip["characteristic"] == "wall" and skip["values"] == 30
+    assert "sigma estimated as 0" in skip["problem"]

@@ -269,7 +269,9 @@ def test_prime_header_resumes_in_the_middle_of_a_file() -> None:
 def test_live_parser_keeps_going_when_a_column_is_missing() -> None:
     b = rows(WIDE, columns=["od", "ovality"])
     assert list(b.values) == ["od"]
-    assert b.rejected[0].line == 1 and "ovality" in b.rejected[0].reason
+    assert b.rejected == []  # the header is no row: the missing column is a notice
+    assert b.notices[0].line == 1 and "ovality" in b.notices[0].text
+    assert "time, part, od, wall" in b.notices[0].text
 
 
 def test_user_errors_are_one_line_messages(tmp_path: Path) -> None:
@@ -341,13 +343,15 @@ def test_a_new_file_without_a_header_is_read_under_the_header_the_path_had_befor
     # a differently shaped first row is not forced under the old header
     parser.reset()
     other = parser.parse([b"2026-03-02T06:01:00,25.001"], 1)
-    assert not other.values and "not a header" in other.rejected[0].reason
+    assert not other.values and "not a header" in other.notices[0].text and other.unread == 1
 
 
 def test_a_first_line_of_data_with_no_header_before_is_rejected_not_taken_for_names() -> None:
     b = rows("2026-03-02T06:00:00,T-0001,25.013,1.502\n2026-03-02T06:00:05,T-0002,24.987,1.497\n")
     assert not b.values  # '25.013' never becomes a characteristic
-    assert b.rejected[0].line == 1 and "not a header" in b.rejected[0].reason
+    assert b.rejected == [] and b.unread == 2  # counted, and said once for the file
+    (n,) = b.notices
+    assert n.line == 1 and n.kind == "no-header" and "not a header" in n.text
     # column names that happen to hold a digit or two are still a header
     named = rows("time,station 2,od\n2026-03-02T06:00:00,4,25.013\n")
     assert list(named.values) == ["station 2", "od"]

@@ -10,6 +10,7 @@ from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.safe_text import visible
+from linewatch.feeds.health import times_text
 from linewatch.ui import palette
 from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
@@ -103,7 +104,8 @@ class FeedScreen(TableScreen):
 
     def _cells(self, f: view.FeedView, name: str) -> list[object]:
         g = self.lw.glyphs
-        bad = f.stale or f.status in ("missing", "unreadable", "stale")
+        bad = f.stale or f.status in ("missing", "unreadable", "stale", "no header",
+                                      "skipped", "bounded")
         mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
         return [
             Text(f"{mark} {visible(f.status)}",
@@ -129,10 +131,17 @@ class FeedScreen(TableScreen):
         elif 0 <= row < len(feeds):
             f = feeds[row]
             text.append(f"{visible(f.file)}\n", "bold")
+            if f.unread:
+                text.append(f"no header: {f.unread:,} lines not read\n", palette.SIGNAL)
+            for note in f.notes:
+                text.append(f"warning: {visible(note)}\n", palette.SPEC)
+            if f.times_backwards or f.times_unreadable:
+                text.append(times_text(f.times_backwards, f.times_unreadable) + "\n",
+                            palette.SPEC)
             if f.last_rejects:
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:
                     text.append(f"  {visible(reason)}\n", palette.SIGNAL)
-            else:
+            elif not f.unread:
                 text.append("no rejected row", palette.LABEL)
         self.query_one("#feed-rejects", Static).update(text)

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from rich.text import Text
 
 from linewatch.figures import fmt_reading
-from linewatch.scales import padded_span
+from linewatch.scales import fraction_of, padded_span
 from linewatch.ui import palette
 from linewatch.ui.formatting import fmt_scaled, fmt_value, rule_mark
 from linewatch.ui.glyphs import Glyphs
@@ -167,7 +167,7 @@ def draw_control_chart(
     bottom = height - 1 - (1 if any(note.startswith("LSL") for note in off_chart) else 0)
 
     def row_of(v: float) -> int:
-        return top + round((hi - v) / (hi - lo) * (bottom - top))
+        return top + round((1.0 - fraction_of(v, lo, hi)) * (bottom - top))
 
     labels: dict[int, Text] = {}
     scale = newest.sigma if newest else chart.sigma

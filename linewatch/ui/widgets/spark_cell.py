@@ -12,6 +12,7 @@ from rich.style import Style
 from rich.text import Text
 from textual.renderables.sparkline import Sparkline
 
+from linewatch.scales import fraction_of
 from linewatch.ui import palette
 from linewatch.ui.formatting import rule_mark
 from linewatch.ui.glyphs import Glyphs
@@ -47,8 +48,11 @@ class SparkCell:
         if n == 1:
             return [*pad, Segment(self.glyphs.spark_bars[3], Style.parse(palette.SPARK_HIGH))]
         cls = _AsciiSparkline if self.glyphs.ascii else Sparkline
+        # the bars show where each point sits between the lowest and the highest: hand the
+        # sparkline those places (0..1), since its own arithmetic overflows on extreme values
+        lo, hi = min(self.values), max(self.values)
         spark = cls(
-            self.values,
+            [fraction_of(v, lo, hi) for v in self.values],
             width=n,
             height=1,
             min_color=Color.parse(palette.SPARK_LOW),
