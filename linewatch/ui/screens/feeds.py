@@ -9,8 +9,8 @@ from textual.app import ComposeResult
 from textual.widgets import DataTable, Static
 
 from linewatch import view
-from linewatch.safe_text import visible
 from linewatch.feeds.health import times_text
+from linewatch.safe_text import visible
 from linewatch.ui import palette
 from linewatch.ui.formatting import base_name, fmt_age
 from linewatch.ui.screens.base import TableScreen
