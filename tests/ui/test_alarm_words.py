@@ -124,18 +124,29 @@ async def test_a_shelved_alarm_without_a_reason_reads_cleanly(
     assert re.fullmatch(r"shelved until \d\d:\d\d:\d\d", line.strip()), line
 
 
-async def test_the_rule_id_joins_the_chart_in_one_bracket(
+async def test_a_chart_alarm_row_starts_with_its_chart_and_counts_every_rule(
     app: LinewatchApp, source: FakeSource
 ) -> None:
     picture = build_snapshot()
-    first = next(a for a in picture.alarms if a.kind == "beyond-limits")
-    first.description = "a point outside the control limits (xbar chart)"
-    source.picture = picture
+    chart_alarm = next(a for a in picture.alarms if a.episodes > 1 and a.kind == "beyond-limits")
+    async with app.run_test(size=(80, 24)) as pilot:  # the chart is seen at 80 columns too
+        await pilot.press("a")
+        await pilot.pause()
+        table = app.screen.query_one("#queue-table", DataTable)
+        row = [str(k.value) for k in table.rows].index(str(chart_alarm.id))
+        what = str(table.get_cell_at((row, 3)))
+    assert what.startswith(f"{chart_alarm.chart}: {chart_alarm.counts}"), what
+    assert f"{chart_alarm.episodes} episodes" in what
+
+
+async def test_an_out_of_spec_row_says_how_many_parts_to_quarantine(
+    app: LinewatchApp, source: FakeSource
+) -> None:
+    spec = next(a for a in build_snapshot().alarms if a.kind == "out-of-spec")
     async with app.run_test(size=(160, 48)) as pilot:
         await pilot.press("a")
         await pilot.pause()
         table = app.screen.query_one("#queue-table", DataTable)
-        row = [str(k.value) for k in table.rows].index(str(first.id))
+        row = [str(k.value) for k in table.rows].index(str(spec.id))
         what = str(table.get_cell_at((row, 3)))
-    assert what.endswith(f"outside the control limits (xbar chart, {first.rule})"), what
-    assert what.count("(") == 1
+    assert f"{spec.above_usl} above USL" in what and "below LSL" not in what

@@ -129,7 +129,7 @@ async def test_hostile_names_are_shown_literally_on_every_screen(name: str) -> N
         await pilot.press(*"die", "enter")
         await settle(pilot)
         assert actions.calls[-1] == ("new_baseline", (name, 47, "die"))
-        assert_notified(app, f"new baseline for {shown} from point 47")
+        assert_notified(app, f"new baseline for {shown} from subgroup 47")
 
         await pilot.press("escape", "a")
         await settle(pilot)
