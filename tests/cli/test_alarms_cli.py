@@ -13,9 +13,12 @@ from store_fixtures import line_with_alarms, linewatch
 from linewatch.store.db import Store
 from linewatch.view import SHELVED, UNACKNOWLEDGED
 
+# The keys the list always had, then those the condition-based alarm model adds (in the order
+# the issue that introduced them lists them).
 KEYS = [
     "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index", "raised_at",
     "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note", "shelved_until",
+    "signals", "episodes", "rules", "below_lsl", "above_usl", "escalated_at",
 ]
 
 
@@ -36,6 +39,12 @@ def test_list_jsonl_open_alarms_with_exact_keys(state: Path) -> None:
     ]
     assert records[0]["rule"] == "usl" and records[0]["first_index"] == 1
     assert records[0]["state"] == UNACKNOWLEDGED
+    # wall 2.6 > USL 2.4 is one part above USL; 1.9 conforms (LSL 1.8)
+    spec, rule = records
+    assert (spec["signals"], spec["episodes"], spec["rules"]) == (1, 1, {"usl": 1})
+    assert (spec["below_lsl"], spec["above_usl"], spec["escalated_at"]) == (0, 1, None)
+    assert (rule["signals"], rule["episodes"], rule["rules"]) == (1, 1, {"we4": 1})
+    assert (rule["below_lsl"], rule["above_usl"]) == (None, None)  # not an out-of-spec alarm
 
 
 def test_list_all_includes_closed(state: Path) -> None:
