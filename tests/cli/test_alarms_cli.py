@@ -115,6 +115,13 @@ def audit_size(state: Path) -> int:
         (["alarms", "shelve", "2", "--for", "30m", "--reason", ""], "reason is required"),
         (["alarms", "shelve", "1", "--for", "30m", "--reason", "x"], "alarm 1 is closed"),
         (["alarms", "unshelve", "2"], "alarm 2 is not shelved"),
+        (["alarms", "shelve", "2", "--for", "30", "--reason", "x"], "a duration needs a unit"),
+        (["alarms", "shelve", "2", "--for", "13h", "--reason", "x"], "at most 12h"),
+        (["alarms", "shelve", "--for", "30m", "--reason", "x"], "give one alarm id or"),
+        (["alarms", "shelve", "2", "--characteristic", "od", "--for", "30m", "--reason", "x"],
+         "give one alarm id or"),
+        (["alarms", "shelve", "--characteristic", "nosuch", "--for", "30m", "--reason", "x"],
+         "no characteristic nosuch (known: od, wall)"),
     ],
 )
 def test_bad_input_is_one_line_exit_2_and_changes_nothing(
@@ -165,3 +172,31 @@ def test_state_dir_from_the_config(tmp_path: Path) -> None:
     result = linewatch("alarms", "ack", "2", "--reason", "die wear", "-c",
                        str(tmp_path / "line.toml"))
     assert result.returncode == 0, result.stderr
+
+
+def test_shelve_a_whole_characteristic(state: Path) -> None:
+    result = linewatch(
+        "alarms", "shelve", "--characteristic", "od", "--for", "30m", "--reason", "die change",
+        "--state-dir", str(state),
+    )
+    assert result.returncode == 0, result.stderr
+    assert "od shelved for 30m (1 open alarm" in result.stdout
+    listed = linewatch("alarms", "list", "--format", "jsonl", "--state-dir", str(state))
+    states = {json.loads(x)["id"]: json.loads(x)["state"] for x in listed.stdout.splitlines()}
+    assert states == {2: SHELVED, 3: UNACKNOWLEDGED}  # wall is another characteristic
+    with Store(state, create=False) as store:
+        shelf = store.alarms.shelf("od", time.time())
+        assert shelf is not None and shelf.reason == "die change"
+        assert abs(shelf.until - time.time() - 1800) < 60
+        assert [e.action for e in store.audit.entries()[-2:]] == ["shelved", "shelved"]
+
+
+def test_list_text_shows_first_out_rule_episodes_and_counts(state: Path) -> None:
+    result = linewatch("alarms", "list", "--state-dir", str(state))
+    header, *rows = result.stdout.splitlines()
+    assert header.split() == ["ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART",
+                              "FIRST", "POINTS", "EPISODES", "SIGNALS", "ACK"]
+    by_id = {row.split()[0]: row.split() for row in rows}
+    # id, priority, state, date, time, characteristic, chart, first-out, points, episodes, counts
+    assert by_id["2"][5:] == ["od", "xbar", "we4", "2-2", "1", "we4", "×1"]
+    assert by_id["3"][5:] == ["wall", "individuals", "usl", "1-1", "1", "usl", "×1"]
