@@ -494,3 +494,24 @@ def test_audit_payloads_of_the_alarm_actions(book: AlarmBook, operator: Actor) -
         "raised", "escalated", "returned-to-normal", "re-raised", "shelved", "unshelved",
         "acknowledged", "returned-to-normal", "closed"]
     assert book.store.audit.verify().ok
+
+
+def test_the_priority_is_the_most_urgent_of_the_rules_seen_whatever_the_config(
+    store: Store,
+) -> None:
+    """With run rules configured more urgent than a limit break, a beyond-limits alarm that
+    then sees a run rule takes the run rule's priority (and is escalated), as the issue's
+    "priority = the most urgent of the rules seen" says."""
+    config = parse_config('[alarms.priorities]\nbeyond-limits = 3\nrun-rule = 2\n', "p.toml")
+    book = AlarmBook(store, config)
+    book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
+    assert [(a.kind, a.priority) for a in book.alarms()] == [("beyond-limits", 3)]
+    events = book.observe_chart("od", "individuals", 1, 1, {"we2": [1]}, now=2)
+    assert names(events) == ["escalated"]
+    [alarm] = book.alarms()
+    assert (alarm.kind, alarm.priority, alarm.escalated_at) == ("run-rule", 2, 2)
+    # both at the first point: the alarm opens at the more urgent priority, not escalated
+    events = book.observe_chart("wall", "individuals", 0, 0, {"we1": [0], "we2": [0]}, now=3)
+    assert names(events) == ["raised"]
+    wall = book.alarms()[-1]
+    assert (wall.kind, wall.priority, wall.escalated_at) == ("run-rule", 2, None)
