@@ -515,3 +515,48 @@ def test_the_priority_is_the_most_urgent_of_the_rules_seen_whatever_the_config(
     assert names(events) == ["raised"]
     wall = book.alarms()[-1]
     assert (wall.kind, wall.priority, wall.escalated_at) == ("run-rule", 2, None)
+
+
+@settings(max_examples=60, deadline=None)
+@given(case=firing_cases(), shelving=st.lists(st.sampled_from(["ack", "shelve", "none"]),
+                                              min_size=9, max_size=9),
+       shelf_for=st.integers(1, 30))
+def test_shelving_and_acknowledging_change_no_episode(
+    case: tuple[int, dict[str, list[int]], list[int], int, list[bool]], shelving: list[str],
+    shelf_for: int,
+) -> None:
+    """Whatever an operator does between passes (acknowledge, shelve the characteristic for a
+    while, which ends by itself), the trail holds every episode once; a shelved alarm never
+    closes, and a new row still opens only after the previous one closed."""
+    n, fired, cuts, clear_after, _ = case
+    want = episodes([i for f in fired.values() for i in f], n - 1, clear_after)
+    bounds = [0, *(c for c in cuts if c < n), n]
+    operator = Actor("op")
+    with tempfile.TemporaryDirectory() as tmp, Store(Path(tmp) / "s") as store:
+        book = AlarmBook(store)
+        for k, (lo, hi) in enumerate(itertools.pairwise(bounds)):
+            chunk = {r: [i for i in f if lo <= i < hi] for r, f in fired.items()}
+            book.observe_chart("od", "individuals", lo, hi - 1, chunk, now=float(lo),
+                               clear_after=clear_after)
+            if shelving[k] == "ack":
+                ids = [a.id for a in book.alarms() if not a.acknowledged]
+                if ids:
+                    book.acknowledge(ids, "tool wear", now=lo + 0.5, actor=operator)
+            elif shelving[k] == "shelve":
+                book.shelve_characteristic("od", shelf_for, "trial", now=lo + 0.5,
+                                           actor=operator)
+        starts = sorted([p["first_index"] for _, _, p in trail(store, "raised")]
+                        + [p["index"] for _, _, p in trail(store, "re-raised")])
+        assert starts == [e.first for e in want]
+        returns = [p["last_index"] for _, _, p in trail(store, "returned-to-normal")]
+        assert returns == [e.last for e in want if e.returned_at is not None]
+        entries = [a for a, _, _ in trail(store) if a in ("raised", "closed")]
+        assert ("raised", "raised") not in set(itertools.pairwise(entries))
+        for entry in store.audit.entries():
+            if entry.action == "closed":
+                alarm_id = int(entry.subject.split()[1])
+                alarm = store.alarms.get(alarm_id)
+                assert alarm is not None
+                assert alarm.shelved_until is None or alarm.shelved_until <= entry.at
+        assert sum(a.episodes for a in book.alarms(include_closed=True)) == len(want)
+        assert store.audit.verify().ok
