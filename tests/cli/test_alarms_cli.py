@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import getpass
 import json
+import subprocess
 import time
 from pathlib import Path
 
@@ -200,3 +201,50 @@ def test_list_text_shows_first_out_rule_episodes_and_counts(state: Path) -> None
     # id, priority, state, date, time, characteristic, chart, first-out, points, episodes, counts
     assert by_id["2"][5:] == ["od", "xbar", "we4", "2-2", "1", "we4", "×1"]
     assert by_id["3"][5:] == ["wall", "individuals", "usl", "1-1", "1", "usl", "×1"]
+
+
+@pytest.mark.parametrize(("clear_after", "episodes"), [(None, 1), ("1", 2), ("2", 1)])
+def test_watch_clear_after_sets_when_an_episode_returns(
+    tmp_path: Path, clear_after: str | None, episodes: int
+) -> None:
+    """Beyond-limits firings at points 5 and 7 (one quiet point between, known limits 10 ± 3):
+    two episodes with --clear-after 1, one with 2 or the default 8; judged to point 17, the
+    alarm has returned in every case."""
+    import numpy as np
+
+    from tests.watch.helpers import HEADER, rows_text, start_watch, stop, wait_caught_up
+
+    log = tmp_path / "line.csv"
+    values = np.array([10.0] * 5 + [14.0, 10.0, 14.0] + [10.0] * 10)
+    log.write_text(HEADER + "".join(rows_text(values)))
+    state = tmp_path / "state"
+    extra = ["--center", "10", "--sigma", "1", "--rules", "we1"]
+    if clear_after is not None:
+        extra += ["--clear-after", clear_after]
+    proc = start_watch([str(log)], state, *extra, stdout=subprocess.DEVNULL)
+    wait_caught_up(state, log)
+    stop(proc)
+    listed = linewatch("alarms", "list", "--all", "--format", "jsonl", "--state-dir", str(state))
+    [alarm] = [json.loads(x) for x in listed.stdout.splitlines()
+               if json.loads(x)["chart"] == "individuals"]
+    assert (alarm["first_index"], alarm["last_index"], alarm["signals"]) == (5, 7, 2)
+    assert (alarm["episodes"], alarm["state"]) == (episodes, "returned-unacknowledged")
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [(["--clear-after", "0"], "--clear-after needs at least 1"),
+     (["-c", "{config}"], "characteristic.od.clear_after: must be between 1 and")],
+)
+def test_a_clear_after_below_1_is_refused_in_one_line(
+    tmp_path: Path, args: list[str], message: str
+) -> None:
+    (tmp_path / "line.csv").write_text("od\n10.0\n")
+    config = tmp_path / "c.toml"
+    config.write_text('[[characteristic]]\nname = "od"\nclear_after = 0\n')
+    result = linewatch("watch", str(tmp_path / "line.csv"), "--center", "10", "--sigma", "1",
+                       "--no-ui", "--state-dir", str(tmp_path / "state"),
+                       *(a.format(config=config) for a in args))
+    assert result.returncode == 2 and result.stderr.count("\n") == 1
+    assert message in result.stderr
+    assert not (tmp_path / "state").exists()
