@@ -17,6 +17,7 @@ import tempfile
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -560,3 +561,46 @@ def test_shelving_and_acknowledging_change_no_episode(
                 assert alarm.shelved_until is None or alarm.shelved_until <= entry.at
         assert sum(a.episodes for a in book.alarms(include_closed=True)) == len(want)
         assert store.audit.verify().ok
+
+
+@pytest.mark.parametrize("chunk", [1, 3, 25])
+def test_a_new_baseline_while_rows_arrive_never_stops_the_alarm_book(
+    tmp_path: Path, chunk: int
+) -> None:
+    """The stall the issue reports: a new baseline requested while rows arrive, with a point of
+    the new baseline window beyond the new limits. Fed as the collector feeds it (push, then
+    each chart's judged range and firings; `settle` right after the request), every firing lies
+    in its judged range, the book never raises, and the alarm counts every firing point once."""
+    from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
+    from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+
+    rng = np.random.default_rng(9)
+    values = rng.normal(10.0, 0.1, 200)
+    values[100:] += 0.5  # the process moved: the new phase is centred higher
+    values[104] = 13.0  # inside the new baseline window (100..119), far beyond any limits
+    setup = ChartSetup("od", 1, "range", tuple(resolve_rules(parse_rule_list("nelson"))), 20)
+    engine = CharacteristicEngine(setup)
+    firing_points: dict[str, set[int]] = {}
+    with Store(tmp_path / "state") as store:
+        book = AlarmBook(store)
+
+        def judge(out: Any, now: float) -> None:
+            fired: dict[str, dict[str, list[int]]] = {}
+            for f in out.firings:
+                lo, hi = out.judged[f.chart]
+                assert lo <= f.index <= hi, (f, out.judged)
+                fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
+                firing_points.setdefault(f.chart, set()).add(f.index)
+            for chart, (lo, hi) in out.judged.items():
+                book.observe_chart("od", chart, lo, hi, fired.get(chart, {}), now=now)
+
+        for start in range(0, 200, chunk):
+            if start <= 110 < start + chunk:  # the request comes while rows keep arriving
+                engine.new_baseline(100)
+                judge(engine.settle(), now=float(start))
+            judge(engine.push(values[start:start + chunk]), now=float(start))
+        assert engine.phase == 1
+        assert 104 in firing_points["individuals"]
+        rows = book.alarms(include_closed=True)
+        for chart, points in firing_points.items():
+            assert sum(a.signals for a in rows if a.chart == chart) == len(points)
