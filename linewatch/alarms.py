@@ -541,11 +541,12 @@ class AlarmBook:
     # -- reading ----------------------------------------------------------------------------
 
     def known_characteristics(self) -> list[str]:
-        """Every characteristic the config or the store knows, sorted."""
+        """Every characteristic the config or the store knows, and every file with an alarm
+        (what `--characteristic` may name), sorted."""
         names = {c.name for c in self.config.characteristics} if self.config else set()
         names.update(str(r[0]) for r in self.store.query("SELECT name FROM characteristics"))
         names.update(str(r[0]) for r in self.store.query(
-            "SELECT DISTINCT characteristic FROM alarms WHERE kind != ?", (FEED_HEALTH,)))
+            "SELECT DISTINCT characteristic FROM alarms"))  # files too: their feed alarms
         return sorted(names)
 
     def alarms(self, include_closed: bool = False) -> list[AlarmRecord]:
@@ -679,8 +680,8 @@ class AlarmBook:
                     self._flush(alarm, now)
                     alarm = self._return(events, alarm, now)
                 if alarm is None:
-                    alarm = self._raise(events, kind_of(rules), characteristic, chart, rules[0],
-                                        i, i, now)
+                    alarm = self._raise(events, self._urgent_kind(kind_of, rules),
+                                        characteristic, chart, rules[0], i, i, now)
                 elif not alarm.active:
                     alarm = self._reraise(events, alarm, rules[0], i, now)
                 self._count(events, alarm, i, rules, kind_of, now)
@@ -711,7 +712,7 @@ class AlarmBook:
         if alarm.kind == OUT_OF_SPEC:
             alarm.below_lsl = (alarm.below_lsl or 0) + ("lsl" in rules)
             alarm.above_usl = (alarm.above_usl or 0) + ("usl" in rules)
-        kind = kind_of(counts)
+        kind = self._urgent_kind(kind_of, counts)
         priority = self.priority(kind)
         if priority < alarm.priority:
             self._flush(alarm, now)
@@ -727,6 +728,12 @@ class AlarmBook:
             alarm.kind, alarm.priority, alarm.escalated_at = kind, priority, now
             if alarm.state(now) != SHELVED:
                 events.append(AlarmEvent("escalated", self._get(alarm.id)))
+
+    def _urgent_kind(self, kind_of: Callable[[Iterable[str]], str], rules: Iterable[str]) -> str:
+        """The most urgent (configured priority) of the kinds of `rules`, so that the priority
+        is that of the most urgent rule seen whatever the config ranks first (ties: KINDS)."""
+        kinds = {kind_of([rule]) for rule in rules}
+        return min(kinds, key=lambda k: (self.priority(k), KINDS.index(k)))
 
     def _flush(self, alarm: AlarmRecord, now: float) -> None:
         """Write the counts `_count` gathered in memory."""

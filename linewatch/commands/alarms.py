@@ -79,7 +79,7 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
     if args.characteristic and args.ids:
         raise LinewatchError("give alarm ids or --characteristic, not both")
     if args.characteristic:
-        _check_known(book, args.characteristic)
+        _known_characteristic(book, args.characteristic)
         count = book.acknowledge_characteristic(args.characteristic, args.reason, args.note)
         print(f"acknowledged {count} alarm{'s' if count != 1 else ''} of "
               f"{visible(args.characteristic)}")
@@ -95,18 +95,6 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
         elif event.action == "closed":
             print(f"alarm {a.id} closed (already back to normal)")
     return 0
-
-
-def _check_known(book: AlarmBook, name: str) -> None:
-    """An unknown characteristic is a mistake (a typo acknowledges nothing and says so with
-    exit 0 otherwise): refuse it, naming the ones there are."""
-    known = set(book.store.history.characteristics_with_points())
-    if book.config is not None:
-        known |= {c.name for c in book.config.characteristics}
-    known |= {a.characteristic for a in book.alarms(include_closed=True)}
-    if name not in known:
-        listed = ", ".join(sorted(known)) or "none yet"
-        raise LinewatchError(f"no characteristic named {name!r}; known: {listed}")
 
 
 def _shelve(book: AlarmBook, args: argparse.Namespace) -> int:
@@ -132,7 +120,8 @@ def _shelve(book: AlarmBook, args: argparse.Namespace) -> int:
 
 
 def _known_characteristic(book: AlarmBook, name: str) -> str:
-    """`name` when the store knows such a characteristic; else an error listing the known."""
+    """`name` when the store knows such a characteristic (or a file with feed alarms); else an
+    error listing the known ones (a typo acknowledges or shelves nothing, and says so)."""
     known = book.known_characteristics()
     if name not in known:
         listed = ", ".join(visible(k) for k in known) or "none yet"

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import getpass
 import json
+import subprocess
 import time
 from pathlib import Path
 
@@ -13,9 +14,12 @@ from store_fixtures import line_with_alarms, linewatch
 from linewatch.store.db import Store
 from linewatch.view import SHELVED, UNACKNOWLEDGED
 
+# The keys the list always had, then those the condition-based alarm model adds (in the order
+# the issue that introduced them lists them).
 KEYS = [
     "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index", "raised_at",
     "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note", "shelved_until",
+    "signals", "episodes", "rules", "below_lsl", "above_usl", "escalated_at",
 ]
 
 
@@ -36,6 +40,12 @@ def test_list_jsonl_open_alarms_with_exact_keys(state: Path) -> None:
     ]
     assert records[0]["rule"] == "usl" and records[0]["first_index"] == 1
     assert records[0]["state"] == UNACKNOWLEDGED
+    # wall 2.6 > USL 2.4 is one part above USL; 1.9 conforms (LSL 1.8)
+    spec, rule = records
+    assert (spec["signals"], spec["episodes"], spec["rules"]) == (1, 1, {"usl": 1})
+    assert (spec["below_lsl"], spec["above_usl"], spec["escalated_at"]) == (0, 1, None)
+    assert (rule["signals"], rule["episodes"], rule["rules"]) == (1, 1, {"we4": 1})
+    assert (rule["below_lsl"], rule["above_usl"]) == (None, None)  # not an out-of-spec alarm
 
 
 def test_list_all_includes_closed(state: Path) -> None:
@@ -107,7 +117,14 @@ def audit_size(state: Path) -> int:
         (["alarms", "shelve", "1", "--for", "30m", "--reason", "x"], "alarm 1 is closed"),
         (["alarms", "unshelve", "2"], "alarm 2 is not shelved"),
         (["alarms", "ack", "--characteristic", "bor", "--reason", "1"],
-         "no characteristic named 'bor'; known: "),
+         "no characteristic bor (known: "),
+        (["alarms", "shelve", "2", "--for", "30", "--reason", "x"], "a duration needs a unit"),
+        (["alarms", "shelve", "2", "--for", "13h", "--reason", "x"], "at most 12h"),
+        (["alarms", "shelve", "--for", "30m", "--reason", "x"], "give one alarm id or"),
+        (["alarms", "shelve", "2", "--characteristic", "od", "--for", "30m", "--reason", "x"],
+         "give one alarm id or"),
+        (["alarms", "shelve", "--characteristic", "nosuch", "--for", "30m", "--reason", "x"],
+         "no characteristic nosuch (known: od, wall)"),
     ],
 )
 def test_bad_input_is_one_line_exit_2_and_changes_nothing(
@@ -167,3 +184,76 @@ def test_an_unknown_characteristic_lists_the_known_ones(state: Path) -> None:
     with Store(state, create=False) as store:
         names = {a.characteristic for a in store.alarms.all()}
     assert names and all(name in result.stderr for name in names)
+def test_shelve_a_whole_characteristic(state: Path) -> None:
+    result = linewatch(
+        "alarms", "shelve", "--characteristic", "od", "--for", "30m", "--reason", "die change",
+        "--state-dir", str(state),
+    )
+    assert result.returncode == 0, result.stderr
+    assert "od shelved for 30m (1 open alarm" in result.stdout
+    listed = linewatch("alarms", "list", "--format", "jsonl", "--state-dir", str(state))
+    states = {json.loads(x)["id"]: json.loads(x)["state"] for x in listed.stdout.splitlines()}
+    assert states == {2: SHELVED, 3: UNACKNOWLEDGED}  # wall is another characteristic
+    with Store(state, create=False) as store:
+        shelf = store.alarms.shelf("od", time.time())
+        assert shelf is not None and shelf.reason == "die change"
+        assert abs(shelf.until - time.time() - 1800) < 60
+        assert [e.action for e in store.audit.entries()[-2:]] == ["shelved", "shelved"]
+
+
+def test_list_text_shows_first_out_rule_episodes_and_counts(state: Path) -> None:
+    result = linewatch("alarms", "list", "--state-dir", str(state))
+    header, *rows = result.stdout.splitlines()
+    assert header.split() == ["ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART",
+                              "FIRST", "POINTS", "EPISODES", "SIGNALS", "ACK"]
+    by_id = {row.split()[0]: row.split() for row in rows}
+    # id, priority, state, date, time, characteristic, chart, first-out, points, episodes, counts
+    assert by_id["2"][5:] == ["od", "xbar", "we4", "2-2", "1", "we4", "×1"]
+    assert by_id["3"][5:] == ["wall", "individuals", "usl", "1-1", "1", "usl", "×1"]
+
+
+@pytest.mark.parametrize(("clear_after", "episodes"), [(None, 1), ("1", 2), ("2", 1)])
+def test_watch_clear_after_sets_when_an_episode_returns(
+    tmp_path: Path, clear_after: str | None, episodes: int
+) -> None:
+    """Beyond-limits firings at points 5 and 7 (one quiet point between, known limits 10 ± 3):
+    two episodes with --clear-after 1, one with 2 or the default 8; judged to point 17, the
+    alarm has returned in every case."""
+    import numpy as np
+
+    from tests.watch.helpers import HEADER, rows_text, start_watch, stop, wait_caught_up
+
+    log = tmp_path / "line.csv"
+    values = np.array([10.0] * 5 + [14.0, 10.0, 14.0] + [10.0] * 10)
+    log.write_text(HEADER + "".join(rows_text(values)))
+    state = tmp_path / "state"
+    extra = ["--center", "10", "--sigma", "1", "--rules", "we1"]
+    if clear_after is not None:
+        extra += ["--clear-after", clear_after]
+    proc = start_watch([str(log)], state, *extra, stdout=subprocess.DEVNULL)
+    wait_caught_up(state, log)
+    stop(proc)
+    listed = linewatch("alarms", "list", "--all", "--format", "jsonl", "--state-dir", str(state))
+    [alarm] = [json.loads(x) for x in listed.stdout.splitlines()
+               if json.loads(x)["chart"] == "individuals"]
+    assert (alarm["first_index"], alarm["last_index"], alarm["signals"]) == (5, 7, 2)
+    assert (alarm["episodes"], alarm["state"]) == (episodes, "returned-unacknowledged")
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [(["--clear-after", "0"], "--clear-after needs at least 1"),
+     (["-c", "{config}"], "characteristic.od.clear_after: must be between 1 and")],
+)
+def test_a_clear_after_below_1_is_refused_in_one_line(
+    tmp_path: Path, args: list[str], message: str
+) -> None:
+    (tmp_path / "line.csv").write_text("od\n10.0\n")
+    config = tmp_path / "c.toml"
+    config.write_text('[[characteristic]]\nname = "od"\nclear_after = 0\n')
+    result = linewatch("watch", str(tmp_path / "line.csv"), "--center", "10", "--sigma", "1",
+                       "--no-ui", "--state-dir", str(tmp_path / "state"),
+                       *(a.format(config=config) for a in args))
+    assert result.returncode == 2 and result.stderr.count("\n") == 1
+    assert message in result.stderr
+    assert not (tmp_path / "state").exists()

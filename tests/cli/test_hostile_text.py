@@ -9,10 +9,9 @@ the window and OSC 52 writes the clipboard (xterm control sequences, common prac
 
 from __future__ import annotations
 
-import re
-
 import json
 import os
+import re
 import signal
 import subprocess
 import sys

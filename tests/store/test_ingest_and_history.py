@@ -137,9 +137,11 @@ def test_alarms_in_a_period(store: Store) -> None:
     from linewatch.store.actor import Actor
 
     book = AlarmBook(store)
-    book.observe_chart("od", "individuals", 0, 1, {"we1": [0]}, now=100)  # returns at once
+    book.observe_chart("od", "individuals", 0, 1, {"we1": [0]}, now=100,  # returns at once
+                       clear_after=1)
     book.acknowledge([1], "tool wear", now=150, actor=Actor("op"))  # closed at 150
-    book.observe_chart("od", "individuals", 2, 2, {"we1": [2]}, now=300)  # still open
+    book.observe_chart("od", "individuals", 2, 2, {"we1": [2]}, now=300,  # still open
+                       clear_after=1)
     assert [a.id for a in store.alarms.between(0, 99)] == []
     assert [a.id for a in store.alarms.between(120, 200)] == [1]
     assert [a.id for a in store.alarms.between(160, 400)] == [2]
