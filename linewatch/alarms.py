@@ -672,6 +672,8 @@ class AlarmBook:
         events: list[AlarmEvent] = []
         with self.store.transaction():
             self._expire_shelves(now, events)
+            self.store.alarms.add_signals(
+                characteristic, chart, [(i, r) for i in sorted(by_point) for r in by_point[i]])
             alarm = self.store.alarms.open_on_chart(characteristic, chart, kinds)
             for i in sorted(by_point):
                 rules = by_point[i]

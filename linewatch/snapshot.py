@@ -124,14 +124,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.last_row_age = max(0.0, now - recs[-1].received_at)
         v.seconds_per_point = _seconds_per_point(recs, n)
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
-        marks: dict[str, dict[int, list[str]]] = {}
         first_plotted = int(min([*li[:1].tolist(), *di[:1].tolist()], default=0))
-        shown = store.alarms.over_points(c.name, first_plotted) if detail else open_alarms
-        for a in shown:
-            if a.characteristic != c.name or a.first_index is None:
-                continue
-            for i in range(a.first_index, (a.last_index or a.first_index) + 1):
-                marks.setdefault(a.chart, {}).setdefault(i, []).append(a.rule)
+        # exactly the points at which a rule fired (an alarm also spans the quiet points
+        # between the firings of its episodes)
+        marks = store.alarms.signals_over(c.name, first_plotted)
         loc_name, disp_name = chart_names(n, c.effective_dispersion)
         v.location = _chart_view(loc_name, lv, li, limits_hist, marks.get(loc_name, {}))
         v.dispersion = _chart_view(disp_name, dv, di, limits_hist, marks.get(disp_name, {}))

@@ -208,15 +208,28 @@ class AlarmRows:
         )
         return [_record(r) for r in rows]
 
-    def over_points(self, characteristic: str, from_index: int) -> list[AlarmRecord]:
-        """Alarms of one characteristic, open or closed, that reach point `from_index` or
-        later (what a chart starting there marks), oldest first."""
-        rows = self.store.query(
-            f"{_SELECT} WHERE characteristic = ? AND first_index IS NOT NULL "
-            "AND COALESCE(last_index, first_index) >= ? ORDER BY id",
+    def add_signals(self, characteristic: str, chart: str,
+                    firings: list[tuple[int, str]]) -> None:
+        """Remember where each rule fired (index, rule), for the chart marks."""
+        if not firings:
+            return
+        with self.store.transaction() as conn:
+            conn.executemany(
+                "INSERT OR IGNORE INTO signals (characteristic, chart, idx, rule) "
+                "VALUES (?, ?, ?, ?)",
+                [(characteristic, chart, i, rule) for i, rule in firings],
+            )
+
+    def signals_over(self, characteristic: str, from_index: int) -> dict[str, dict[int, list[str]]]:
+        """chart -> point index -> rules that fired there, for points `from_index` on."""
+        marks: dict[str, dict[int, list[str]]] = {}
+        for chart, idx, rule in self.store.query(
+            "SELECT chart, idx, rule FROM signals WHERE characteristic = ? AND idx >= ? "
+            "ORDER BY idx, chart, rule",
             (characteristic, from_index),
-        )
-        return [_record(r) for r in rows]
+        ):
+            marks.setdefault(str(chart), {}).setdefault(int(idx), []).append(str(rule))
+        return marks
 
     def all(self) -> list[AlarmRecord]:
         """Every alarm, oldest first."""

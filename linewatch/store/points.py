@@ -180,6 +180,11 @@ class History:
                     "DELETE FROM points WHERE characteristic = ? AND idx <= ?",
                     (name, newest - self.keep_points),
                 ).rowcount
+                oldest = conn.execute("SELECT MIN(idx) FROM points WHERE characteristic = ?",
+                                      (name,)).fetchone()[0]
+                if oldest is not None:  # plotted indices are at most readings / 1, at least / 25
+                    conn.execute("DELETE FROM signals WHERE characteristic = ? AND idx < ?",
+                                 (name, oldest // 25))
         return gone
 
     # -- limits -----------------------------------------------------------------------------

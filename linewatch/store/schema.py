@@ -168,4 +168,15 @@ MIGRATIONS: tuple[str, ...] = (
         reason         TEXT NOT NULL
     );
     """,
+    # 8: the points at which each rule fired, so a chart marks exactly the signalling points
+    # (an alarm spans quiet points between its firings).
+    """
+    CREATE TABLE signals (
+        characteristic TEXT NOT NULL,
+        chart          TEXT NOT NULL,
+        idx            INTEGER NOT NULL,
+        rule           TEXT NOT NULL,
+        PRIMARY KEY (characteristic, idx, chart, rule)
+    ) WITHOUT ROWID;
+    """,
 )

@@ -290,20 +290,18 @@ def test_a_firing_judged_in_an_earlier_pass_is_not_counted_again(book: AlarmBook
         book.observe_chart("od", "individuals", 5, 4, {}, now=4)
 
 
-def test_the_alarms_over_a_chart_s_shown_points_are_those_reaching_into_it(
+def test_a_chart_marks_exactly_the_points_at_which_a_rule_fired(
     book: AlarmBook, operator: Actor,
 ) -> None:
-    """A close-up from point 50 on marks every alarm, open or closed, of its characteristic
-    whose firings (first..last) reach point 50 or later; the rule is interval overlap."""
-    book.observe_chart("od", "individuals", 0, 20, {"we1": [10]}, now=1.0)  # 10..10
+    """A close-up from point 50 on marks the firings of every alarm, open or closed, of its
+    characteristic at 50 or later, and never the quiet points an episode spans."""
+    book.observe_chart("od", "individuals", 0, 20, {"we1": [10]}, now=1.0)
     book.acknowledge([1], "tool wear", now=1.5, actor=operator)  # closes it
-    book.observe_chart("od", "individuals", 21, 65, {"we1": [45, 52]}, now=2.0)  # 45..52
+    book.observe_chart("od", "individuals", 21, 65, {"we1": [45, 52]}, now=2.0)  # one episode
     book.acknowledge([2], "tool wear", now=2.5, actor=operator)
-    book.observe_chart("od", "individuals", 66, 80, {"we4": [70, 71]}, now=3.0)  # 70..71
+    book.observe_chart("od", "individuals", 66, 80, {"we4": [70, 71], "we2": [71]}, now=3.0)
     book.observe_chart("wall", "individuals", 0, 80, {"we1": [65]}, now=3.0)
     assert [a.closed_at for a in book.alarms(include_closed=True)] == [1.5, 2.5, None, None]
-    over = book.store.alarms.over_points("od", 50)
-    assert [(a.characteristic, a.first_index, a.last_index) for a in over] == [
-        ("od", 45, 52), ("od", 70, 71)]
-    assert {a.first_index for a in book.store.alarms.over_points("od", 53)} == {70}
-    assert {a.first_index for a in book.store.alarms.over_points("od", 10)} == {10, 45, 70}
+    assert book.store.alarms.signals_over("od", 50) == {
+        "individuals": {52: ["we1"], 70: ["we4"], 71: ["we2", "we4"]}}
+    assert set(book.store.alarms.signals_over("od", 0)["individuals"]) == {10, 45, 52, 70, 71}
