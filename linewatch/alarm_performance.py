@@ -183,15 +183,16 @@ def annunciation_times(marks: Iterable[AlarmMark], since: float, end: float) -> 
 
 
 def most_frequent(
-    marks: Iterable[AlarmMark], since: float, end: float, top: int = 5
+    marks: Iterable[AlarmMark], since: float, end: float, top: int = 5, at_least: int = 2
 ) -> list[tuple[int, int]]:
-    """The `top` alarms by annunciations in [since, end): (alarm id, count), most first, then
-    the lower id."""
+    """The `top` alarms by annunciations in [since, end), shown at least `at_least` times (an
+    alarm shown once is no burden to name): (alarm id, count), most first, then the lower id."""
     counts: dict[int, int] = {}
     for m in marks:
         if m.annunciated and since <= m.at < end:
             counts[m.alarm_id] = counts.get(m.alarm_id, 0) + 1
-    return sorted(counts.items(), key=lambda kv: (-kv[1], kv[0]))[:top]
+    often = [kv for kv in counts.items() if kv[1] >= at_least]
+    return sorted(often, key=lambda kv: (-kv[1], kv[0]))[:top]
 
 
 def chattering(
