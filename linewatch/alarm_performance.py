@@ -241,17 +241,19 @@ def open_at_end(marks: Iterable[AlarmMark], end: float) -> list[OpenAtEnd]:
 
 
 def acknowledge_times(marks: Iterable[AlarmMark], since: float, end: float) -> list[float]:
-    """For each acknowledgement in [since, end): seconds since the latest raise or re-raise of
-    the same alarm (an acknowledgement without one among the marks is left out)."""
-    latest: dict[int, float] = {}
+    """For each acknowledgement in [since, end): seconds since the alarm was first shown
+    unacknowledged (its raise, or the first re-raise after an earlier acknowledgement; later
+    re-raises of an alarm still waiting do not restart the clock). An acknowledgement of an
+    alarm never shown among the marks (raised before them, or only while shelved) is left out."""
+    waiting: dict[int, float] = {}
     waits: list[float] = []
     for m in sorted(marks, key=lambda m: m.at):
         if m.at >= end:
             break
-        if m.action in (RAISED, RE_RAISED):
-            latest[m.alarm_id] = m.at
-        elif m.action == ACKNOWLEDGED and m.alarm_id in latest:
-            start = latest.pop(m.alarm_id)
+        if m.annunciated:
+            waiting.setdefault(m.alarm_id, m.at)
+        elif m.action == ACKNOWLEDGED and m.alarm_id in waiting:
+            start = waiting.pop(m.alarm_id)
             if m.at >= since:
                 waits.append(m.at - start)
     return waits
@@ -262,7 +264,9 @@ def alarm_performance(
     flood_window: float = TEN_MINUTES,
 ) -> AlarmPerformance:
     """Every figure of [since, end) from the alarm marks (give them from the earliest raise of
-    any alarm open in the period, so ages and waits that began earlier are right)."""
+    any alarm open in the period, so ages and waits that began earlier are right). Rates are
+    taken over [since, end): pass as `since` the later of the period's start and the moment the
+    store began to keep a record, so time nobody watched does not dilute them."""
     marks = list(marks)
     times = annunciation_times(marks, since, end)
     tens = window_counts(times, since, end, TEN_MINUTES)

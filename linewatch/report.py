@@ -321,6 +321,13 @@ def _trace(
     return trace
 
 
+def _what(text: str, chart: str) -> str:
+    """The alarm's condition without a trailing "(CHART chart)": the report has a chart
+    column."""
+    suffix = f" ({chart} chart)"
+    return text[: -len(suffix)] if text.endswith(suffix) else text
+
+
 def build_report(
     store: Store, since: float, until: float, config: Config | None = None,
     now: float | None = None,
@@ -348,7 +355,11 @@ def build_report(
     ]
     flood_alarms = config.alarms.flood_alarms if config is not None else DEFAULT_FLOOD_ALARMS
     flood_window = config.alarms.flood_window if config is not None else DEFAULT_FLOOD_WINDOW
-    performance = alarm_performance(marks, since, end, flood_alarms, flood_window)
+    # Rates over the time the store kept a record: a period reaching back before the first
+    # entry would dilute them with time nobody watched.
+    began = store.audit.first_at()
+    watched_from = max(since, began) if began is not None and began < end else since
+    performance = alarm_performance(marks, watched_from, end, flood_alarms, flood_window)
 
     alarms: list[AlarmLine] = []
     for a in alarm_rows:
@@ -360,7 +371,8 @@ def build_report(
         alarms.append(
             AlarmLine(
                 id=a.id, kind=a.kind, characteristic=a.characteristic, chart=a.chart,
-                rule=a.rule, what=book.describe(a), priority=a.priority, raised_at=a.raised_at,
+                rule=a.rule, what=_what(book.describe(a), a.chart), priority=a.priority,
+                raised_at=a.raised_at,
                 state=a.state(end), acknowledged_by=(a.acknowledged_by or "") if acked else "",
                 acknowledged_at=acked_at,
                 unacknowledged_for=max(0.0, waited), still_unacknowledged=not acked,
@@ -490,8 +502,17 @@ def index_range(first: int | None, last: int | None, returned: bool) -> str:
     return f"{first}–{last}"
 
 
+def short_time(epoch: float | None, since: float, until: float) -> str:
+    """Local time without its offset (the report's heading gives it), without the date when
+    the period lies in one local day: for lists that repeat many times."""
+    if epoch is None:
+        return ""
+    full = clock_time(epoch, since, until)
+    return full.rsplit(" ", 1)[0]
+
+
 def episode_text(ep: EpisodeLine, at: Callable[[float | None], str]) -> str:
-    """One episode in a few words: "points 61–64 06:30:00–06:31:10" ("… still active")."""
+    """One episode in a few words: "points 61–64, 06:30:00 to 06:31:10" ("… still active")."""
     points = index_range(ep.first_index, ep.last_index, ep.returned_at is not None)
     where = f"points {points}, " if points else ""
     when = (f"{at(ep.started_at)} to {at(ep.returned_at)}" if ep.returned_at is not None
@@ -542,8 +563,9 @@ def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
         ("chattering alarms (re-raised 3 or more times within a minute)",
          str(len(p.chattering)), "none"),
         ("alarms still open at the end", str(len(p.open_at_end)), ""),
-        ("time to acknowledge, median", median or "—", ""),
-        ("time to acknowledge, longest", span(p.longest_to_acknowledge) or "—", ""),
+        ("time to acknowledge (from first shown), median", median or "—", ""),
+        ("time to acknowledge (from first shown), longest", span(p.longest_to_acknowledge) or "—",
+         ""),
     ]
 
 
@@ -552,8 +574,9 @@ def performance_sentence(p: AlarmPerformance) -> str:
     from linewatch.alarm_performance import guidance_verdict
 
     text = (f"{p.annunciations} alarm{'s' if p.annunciations != 1 else ''} shown in "
-            f"{span(p.end - p.since)}: {p.per_ten_minutes:.2f} per 10 minutes on average, "
-            f"{guidance_verdict(p.per_ten_minutes)}")
+            f"{span(p.end - p.since)} watched: {p.per_ten_minutes:.2f} per 10 minutes on "
+            f"average, {guidance_verdict(p.per_ten_minutes)}")
     if p.flood_windows:
-        text += f"; {p.flood_windows} {window_words(p.flood_window)} windows were in flood"
+        text += (f"; in flood (more than {p.flood_alarms} alarms) in {p.flood_windows} of "
+                 f"{p.windows} {window_words(p.flood_window)} windows")
     return text + "."

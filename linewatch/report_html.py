@@ -20,6 +20,7 @@ from linewatch.report import (
     performance_sentence,
     ppm,
     rules_text,
+    short_time,
     span,
 )
 from linewatch.report_svg import control_chart_svg
@@ -103,6 +104,9 @@ def render_html(report: ShiftReport) -> str:
     def at(epoch: float | None) -> str:  # no line break inside a time
         return clock_time(epoch, r.since, r.until).replace(" ", "\u00a0")
 
+    def brief(epoch: float | None) -> str:  # in the episode list: the heading gives the offset
+        return short_time(epoch, r.since, r.until).replace(" ", "\u00a0")
+
     title = f"Shift handover {local_time(r.since)} to {local_time(r.until)}"
     out = [
         "<!DOCTYPE html>",
@@ -184,7 +188,7 @@ def render_html(report: ShiftReport) -> str:
         ))
         if r.episodes:
             items = "".join(
-                f"<li><b>{escape(a.label)}</b>: {escape(episode_list(r, a, at))}</li>"
+                f"<li><b>{escape(a.label)}</b>: {escape(episode_list(r, a, brief))}</li>"
                 for a in r.alarms if r.episodes_of(a.id)
             )
             out.append(f'<h3>Episodes</h3><ul class="episodes">{items}</ul>')

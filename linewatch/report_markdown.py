@@ -18,6 +18,7 @@ from linewatch.report import (
     performance_sentence,
     ppm,
     rules_text,
+    short_time,
     span,
 )
 from linewatch.safe_text import visible
@@ -49,6 +50,9 @@ def render_markdown(report: ShiftReport) -> str:
 
     def at(epoch: float | None) -> str:
         return clock_time(epoch, r.since, r.until)
+
+    def brief(epoch: float | None) -> str:  # in the episode list: the heading gives the offset
+        return short_time(epoch, r.since, r.until)
 
     lines = [
         f"# Shift handover: {local_time(r.since)} to {local_time(r.until)}",
@@ -110,7 +114,7 @@ def render_markdown(report: ShiftReport) -> str:
             lines += ["### Episodes", ""]
             for a in r.alarms:
                 if r.episodes_of(a.id):
-                    lines.append(f"- {_cell(a.label)}: {_cell(episode_list(r, a, at))}")
+                    lines.append(f"- {_cell(a.label)}: {_cell(episode_list(r, a, brief))}")
             lines.append("")
     lines += _performance_lines(r, at)
 

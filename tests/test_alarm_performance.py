@@ -90,6 +90,15 @@ def test_episodes_pair_raises_with_returns() -> None:
     ]
 
 
+def test_the_wait_restarts_only_after_an_acknowledgement() -> None:
+    # Shown at 0 and re-raised at 100 s unacknowledged: acknowledged at 130 s, it waited 130 s.
+    # Acknowledged again 40 s after a re-raise at 200 s (while shelved: not shown) and 260 s.
+    marks = [AlarmMark(T0, 1, RAISED), AlarmMark(T0 + 100, 1, RE_RAISED),
+             AlarmMark(T0 + 130, 1, ACKNOWLEDGED), AlarmMark(T0 + 200, 1, RE_RAISED, shelved=True),
+             AlarmMark(T0 + 260, 1, RE_RAISED), AlarmMark(T0 + 300, 1, ACKNOWLEDGED)]
+    assert alarm_performance(marks, T0, T0 + HOUR).acknowledge_times == [130.0, 40.0]
+
+
 def test_a_flood_window_needs_more_than_the_limit() -> None:
     # Exactly 10 in the first 10 minutes is not a flood, 11 in the second is (ISA-18.2
     # guidance: more than about 10 in 10 minutes, from memory).
@@ -140,7 +149,9 @@ def test_marks_read_from_a_real_store(tmp_path: Path) -> None:
         (RAISED, 61), (RETURNED, 61), (RE_RAISED, 75), (ACKNOWLEDGED, None)
     ]
     perf = alarm_performance(marks, T0, T0 + 600)
-    assert perf.acknowledge_times == [30.0]  # re-raised at +60 s, acknowledged at +90 s
+    # Raised at 0 s, re-raised at +60 s while still unacknowledged, acknowledged at +90 s: it
+    # waited 90 s for a person (the re-raise does not restart the clock).
+    assert perf.acknowledge_times == [90.0]
 
 
 # -- invariants over any trail -------------------------------------------------------------
