@@ -571,7 +571,7 @@ def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
 
 def performance_sentence(p: AlarmPerformance) -> str:
     """The period's load beside the guidance, in one sentence."""
-    from linewatch.alarm_performance import guidance_verdict
+    from linewatch.alarm_performance import TEN_MINUTES, guidance_verdict
 
     text = (f"{p.annunciations} alarm{'s' if p.annunciations != 1 else ''} shown in "
             f"{span(p.end - p.since)} watched: {p.per_ten_minutes:.2f} per 10 minutes on "
@@ -579,4 +579,6 @@ def performance_sentence(p: AlarmPerformance) -> str:
     if p.flood_windows:
         text += (f"; in flood (more than {p.flood_alarms} alarms) in {p.flood_windows} of "
                  f"{p.windows} {window_words(p.flood_window)} windows")
+    if 0 < p.end - p.since < TEN_MINUTES:
+        text += " (less than 10 minutes watched: the mean is extrapolated, the peak is not)"
     return text + "."

@@ -555,8 +555,12 @@ def test_a_wait_that_began_before_the_period_is_measured_from_the_raise(tmp_path
         (alarm,) = store.alarms.all()
         book.acknowledge([alarm.id], "no cause found", now=T0 + 60, actor=Actor("ana", ""))
         report = build_report(store, T0, T0 + 600, None, now=T0 + 600)
+        short = build_report(store, T0, T0 + 300, None, now=T0 + 300)
     finally:
         store.close()
+    # Ten minutes watched: a true 10-minute mean; five minutes: the report says it extrapolates.
+    assert "extrapolated" not in render_markdown(report)
+    assert "less than 10 minutes watched" in render_markdown(short)
     perf = report.performance
     assert perf is not None
     # Raised 5 minutes before the period, acknowledged 1 minute into it: 360 s; still open
