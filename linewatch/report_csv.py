@@ -63,10 +63,14 @@ def render_csv(report: ShiftReport) -> str:
         w.writerow([])
         w.writerow(["section", "figure", "value", "note"])
         for figure, value, note in (
+            ("watched_from", local_time(p.since),
+             "the later of the period's start and the store's first record"),
+            ("watched_to", local_time(p.end), ""),
             ("alarms_shown", p.annunciations, "raised or re-raised, not shelved"),
             ("alarms_per_10_minutes_mean", _f(p.per_ten_minutes),
              "ISA-18.2 guidance: about 1 very likely acceptable, about 2 the most manageable"),
-            ("alarms_per_10_minutes_peak", p.peak_ten_minutes, "windows from the period start"),
+            ("alarms_per_10_minutes_peak", p.peak_ten_minutes,
+             "10-minute windows from watched_from"),
             ("flood_windows", p.flood_windows,
              f"{p.flood_window:g}-second windows with more than {p.flood_alarms} alarms"),
             ("windows", p.windows, "the last may be shorter"),
