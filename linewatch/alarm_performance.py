@@ -33,11 +33,16 @@ _MARK_ACTIONS = (RAISED, RE_RAISED, RETURNED, ACKNOWLEDGED, CLOSED)
 class _Entry(Protocol):
     """What this module reads of an audit entry (`store.audit.AuditEntry` has it)."""
 
-    at: float
-    actor: str
-    action: str
-    subject: str
-    payload: str
+    @property
+    def at(self) -> float: ...
+    @property
+    def actor(self) -> str: ...
+    @property
+    def action(self) -> str: ...
+    @property
+    def subject(self) -> str: ...
+    @property
+    def payload(self) -> str: ...
 
 
 @dataclass(frozen=True, slots=True)

@@ -86,9 +86,9 @@ def render_csv(report: ShiftReport) -> str:
                     "raised", "age_seconds", "acknowledged"])
         for alarm_id, n in p.most_frequent:
             w.writerow(["alarm-list", alarm_id, "most-frequent", n, "", "", "", "", ""])
-        for c in p.chattering:
-            w.writerow(["alarm-list", c.alarm_id, "chattering", "", c.re_raised,
-                        c.most_in_window, "", "", ""])
+        for chatter in p.chattering:
+            w.writerow(["alarm-list", chatter.alarm_id, "chattering", "", chatter.re_raised,
+                        chatter.most_in_window, "", "", ""])
         for o in p.open_at_end:
             w.writerow(["alarm-list", o.alarm_id, "open-at-end", "", "", "",
                         local_time(o.raised_at), round(o.age, 3),
