@@ -217,3 +217,34 @@ def test_every_raise_starts_exactly_one_episode(marks: list[AlarmMark]) -> None:
     assert len(eps) == len(starts)
     for e in eps:
         assert e.returned_at is None or e.returned_at >= e.started_at
+
+
+@settings(max_examples=40, deadline=None)
+@given(firings=st.lists(st.integers(0, 120), max_size=25),
+       cuts=st.lists(st.integers(1, 120), max_size=6), clear_after=st.integers(1, 10))
+def test_episodes_from_the_trail_are_the_definition_s(
+    firings: list[int], cuts: list[int], clear_after: int
+) -> None:
+    # Whatever the chunking of the judged points into passes, the episodes read back from the
+    # audit trail are those of THE definition (engine.episodes) applied to the whole series.
+    import tempfile
+    from itertools import pairwise
+
+    from linewatch.engine.episodes import episodes as defined
+
+    bounds = [0, *sorted(set(cuts)), 121]
+    with tempfile.TemporaryDirectory() as folder:
+        store = Store(Path(folder) / "state")
+        try:
+            book = AlarmBook(store)
+            for k, (lo, hi) in enumerate(pairwise(bounds)):
+                fired = {"we1": [i for i in firings if lo <= i < hi]}
+                book.observe_chart("od", "individuals", lo, hi - 1, fired, now=T0 + k,
+                                   clear_after=clear_after)
+            read = episodes(marks_from_audit(store.audit.entries()))
+        finally:
+            store.close()
+    expected = defined(firings, 120, clear_after)
+    assert [(e.first_index, e.last_index if e.returned_at else None) for e in read] == [
+        (e.first, e.last if e.returned_at is not None else None) for e in expected
+    ]
