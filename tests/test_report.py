@@ -406,6 +406,16 @@ def test_report_of_a_real_watch_run(tmp_path: Path) -> None:
     for name, column in columns.items():
         assert int(figures[name]["n"]) == len(expected[column])
         assert float(figures[name]["mean"]) == pytest.approx(np.mean(expected[column]))
+    # Each alarm's episodes in the report (read from the audit trail) number what
+    # `alarms list` says the alarm counted, and the performance section counts every raise.
+    listed_episodes = {str(a["id"]): a["episodes"] for a in alarms}
+    report_episodes: dict[str, int] = {}
+    for r in rows:
+        if r and r[0] == "episode":
+            report_episodes[r[1]] = report_episodes.get(r[1], 0) + 1
+    assert report_episodes == listed_episodes
+    figures_of_load = {r[1]: r[2] for r in rows if r and r[0] == "performance"}
+    assert int(figures_of_load["alarms_shown"]) == sum(a["episodes"] for a in alarms)
     acked = [r for r in rows if r and r[0] == "alarm" and r[1] == str(tensile["id"])]
     assert acked and "sample re-clamped and retested" in acked[0]
     # Berlin is UTC+01:00 in winter and +02:00 in summer; either way the offset is shown.
