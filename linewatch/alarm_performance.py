@@ -165,6 +165,7 @@ class AlarmPerformance:
     chattering: list[Chatter] = field(default_factory=list)
     open_at_end: list[OpenAtEnd] = field(default_factory=list)
     acknowledge_times: list[float] = field(default_factory=list)  # seconds, one per ack
+    floods: list[FloodSpan] = field(default_factory=list)  # as the collector announced them
 
     @property
     def flood_share(self) -> float | None:
@@ -262,6 +263,43 @@ def acknowledge_times(marks: Iterable[AlarmMark], since: float, end: float) -> l
             if m.at >= since:
                 waits.append(m.at - start)
     return waits
+
+
+@dataclass(frozen=True, slots=True)
+class FloodSpan:
+    """A flood the collector announced (audit `flood-started` .. `flood-ended`)."""
+
+    started: float
+    ended: float | None  # None: still going on at the end of the period
+    peak: int | None  # most alarms in one flood window, known once it ended
+
+
+def flood_spans(entries: Iterable[_Entry], since: float, end: float) -> list[FloodSpan]:
+    """Floods that overlap [since, end), from the collector's flood-started / flood-ended
+    entries (a flood-ended entry names when its flood began, so one that began before the
+    entries given is still found)."""
+    spans: list[FloodSpan] = []
+    started: float | None = None
+    for e in sorted(entries, key=lambda e: e.at):
+        if e.at >= end:
+            break
+        if e.action == "flood-started":
+            started = e.at
+        elif e.action == "flood-ended":
+            try:
+                payload = json.loads(e.payload or "{}")
+            except ValueError:
+                payload = {}
+            begun = payload.get("since") if isinstance(payload, dict) else None
+            peak = payload.get("peak") if isinstance(payload, dict) else None
+            first = started if started is not None else (
+                float(begun) if isinstance(begun, int | float) else e.at)
+            if e.at >= since:
+                spans.append(FloodSpan(first, e.at, peak if isinstance(peak, int) else None))
+            started = None
+    if started is not None:
+        spans.append(FloodSpan(started, None, None))
+    return spans
 
 
 def alarm_performance(

@@ -333,7 +333,12 @@ def build_report(
     now: float | None = None,
 ) -> ShiftReport:
     """Gather the report of [since, until) from `store` (nothing is written)."""
-    from linewatch.alarm_performance import alarm_performance, episodes, marks_from_audit
+    from linewatch.alarm_performance import (
+        alarm_performance,
+        episodes,
+        flood_spans,
+        marks_from_audit,
+    )
     from linewatch.alarms import AlarmBook, rule_summary
     from linewatch.config import DEFAULT_FLOOD_ALARMS, DEFAULT_FLOOD_WINDOW
     from linewatch.engine.summary import summarize
@@ -360,6 +365,7 @@ def build_report(
     began = store.audit.first_at()
     watched_from = max(since, began) if began is not None and began < end else since
     performance = alarm_performance(marks, watched_from, end, flood_alarms, flood_window)
+    performance.floods.extend(flood_spans(trail, since, end))
 
     alarms: list[AlarmLine] = []
     for a in alarm_rows:
@@ -560,6 +566,7 @@ def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
          "more than about 10 in 10 minutes is a flood"),
         (f"{window_words(p.flood_window)} windows in flood (more than {p.flood_alarms} alarms)",
          flood, "none, or as few as possible"),
+        ("floods announced on the screen", str(len(p.floods)), ""),
         ("chattering alarms (re-raised 3 or more times within a minute)",
          str(len(p.chattering)), "none"),
         ("alarms still open at the end", str(len(p.open_at_end)), ""),

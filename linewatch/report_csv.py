@@ -93,6 +93,10 @@ def render_csv(report: ShiftReport) -> str:
             w.writerow(["alarm-list", o.alarm_id, "open-at-end", "", "", "",
                         local_time(o.raised_at), round(o.age, 3),
                         "yes" if o.acknowledged else "no"])
+        w.writerow([])
+        w.writerow(["section", "started", "ended", "peak"])  # floods the collector announced
+        for f in p.floods:
+            w.writerow(["flood", local_time(f.started), local_time(f.ended), _i(f.peak)])
     w.writerow([])
     w.writerow(["section", "set_at", "characteristic", "chart", "phase", "start_index", "center",
                 "ucl", "lcl", "kind", "reason", "by"])

@@ -245,6 +245,15 @@ def _performance_html(r: ShiftReport, at: Callable[[float | None], str]) -> list
               (str(n), True), (f"{100 * n / p.annunciations:.0f}%", True)]
              for i, n in p.most_frequent],
         ))
+    if p.floods:
+        out.append("<h3>Floods announced on the screen</h3>")
+        out.append(_table(
+            ["started", "ended", "lasted", "most alarms in one window"],
+            [[(at(f.started), False),
+              (at(f.ended) if f.ended is not None else "still going on", False),
+              (span((f.ended if f.ended is not None else p.end) - f.started), True),
+              ("" if f.peak is None else str(f.peak), True)] for f in p.floods],
+        ))
     out.append("<h3>Chattering alarms</h3>")
     if p.chattering:
         out.append(_table(

@@ -164,6 +164,15 @@ def _performance_lines(r: ShiftReport, at: Callable[[float | None], str]) -> lis
               f"{100 * n / p.annunciations:.0f}%"] for i, n in p.most_frequent],
         )
         lines.append("")
+    if p.floods:
+        lines += ["### Floods announced on the screen", ""]
+        lines += _table(
+            ["started", "ended", "lasted", "most alarms in one window"],
+            [[at(f.started), at(f.ended) if f.ended is not None else "still going on",
+              span((f.ended if f.ended is not None else p.end) - f.started),
+              "" if f.peak is None else f.peak] for f in p.floods],
+        )
+        lines.append("")
     lines += ["### Chattering alarms", ""]
     if p.chattering:
         lines += _table(

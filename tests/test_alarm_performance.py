@@ -23,6 +23,7 @@ from linewatch.alarm_performance import (
     alarm_performance,
     chattering,
     episodes,
+    flood_spans,
     guidance_verdict,
     marks_from_audit,
     open_at_end,
@@ -247,4 +248,28 @@ def test_episodes_from_the_trail_are_the_definition_s(
     expected = defined(firings, 120, clear_after)
     assert [(e.first_index, e.last_index if e.returned_at else None) for e in read] == [
         (e.first, e.last if e.returned_at is not None else None) for e in expected
+    ]
+
+
+def test_floods_from_the_collector_s_entries() -> None:
+    # One flood begun before the hour (its end names its start), one inside it, one still on.
+    from dataclasses import dataclass as _dc
+
+    @_dc
+    class E:
+        at: float
+        action: str
+        payload: str = "{}"
+        actor: str = "linewatch"
+        subject: str = "alarms"
+
+    entries = [
+        E(T0 + 120, "flood-ended", f'{{"since": {T0 - 300}, "peak": 14}}'),
+        E(T0 + 600, "flood-started"),
+        E(T0 + 900, "flood-ended", f'{{"since": {T0 + 600}, "peak": 12}}'),
+        E(T0 + 3000, "flood-started"),
+    ]
+    spans = flood_spans(entries, T0, T0 + HOUR)
+    assert [(s.started - T0, None if s.ended is None else s.ended - T0, s.peak) for s in spans] == [
+        (-300, 120, 14), (600, 900, 12), (3000, None, None)
     ]
