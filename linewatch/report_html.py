@@ -250,8 +250,8 @@ def _performance_html(r: ShiftReport, at: Callable[[float | None], str]) -> list
         out.append(_table(
             ["started", "ended", "lasted", "most alarms in one window"],
             [[(at(f.started), False),
-              (at(f.ended) if f.ended is not None else "still going on", False),
-              (span((f.ended if f.ended is not None else p.end) - f.started), True),
+              (at(f.ended) if f.ended is not None else "no end recorded", False),
+              (span(f.ended - f.started) if f.ended is not None else "", True),
               ("" if f.peak is None else str(f.peak), True)] for f in p.floods],
         ))
     out.append("<h3>Chattering alarms</h3>")

@@ -168,8 +168,8 @@ def _performance_lines(r: ShiftReport, at: Callable[[float | None], str]) -> lis
         lines += ["### Floods announced on the screen", ""]
         lines += _table(
             ["started", "ended", "lasted", "most alarms in one window"],
-            [[at(f.started), at(f.ended) if f.ended is not None else "still going on",
-              span((f.ended if f.ended is not None else p.end) - f.started),
+            [[at(f.started), at(f.ended) if f.ended is not None else "no end recorded",
+              span(f.ended - f.started) if f.ended is not None else "",
               "" if f.peak is None else f.peak] for f in p.floods],
         )
         lines.append("")

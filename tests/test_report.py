@@ -578,3 +578,25 @@ def test_a_wait_that_began_before_the_period_is_measured_from_the_raise(tmp_path
     assert perf.acknowledge_times == [360.0]
     assert [(o.age, o.acknowledged) for o in perf.open_at_end] == [(900.0, True)]
     assert perf.annunciations == 0
+
+
+def test_a_flood_the_collector_announced_is_in_the_report(tmp_path: Path) -> None:
+    store = Store(tmp_path / "state")
+    try:
+        book = AlarmBook(store)
+        # Eleven alarms (one per characteristic) within a minute: more than the default 10 in
+        # 10 minutes, a flood; ten minutes after the last one it is over.
+        for k in range(11):
+            book.observe_chart(f"c{k}", "individuals", 0, 0, {"we1": [0]}, now=T0 + 5 * k)
+        book.check_flood(now=T0 + 60)
+        book.check_flood(now=T0 + 60 + 600)
+        report = build_report(store, T0, T0 + 3600, None, now=T0 + 3600)
+    finally:
+        store.close()
+    perf = report.performance
+    assert perf is not None
+    assert [(f.started, f.ended, f.peak) for f in perf.floods] == [(T0 + 60, T0 + 660, 11)]
+    # The first 10-minute window holds all eleven: in flood by the report's count as well.
+    assert (perf.flood_windows, perf.windows) == (1, 6)
+    text = render_markdown(report)
+    assert "### Floods announced on the screen" in text and "| 10m00s | 11 |" in text
