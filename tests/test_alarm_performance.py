@@ -273,3 +273,19 @@ def test_floods_from_the_collector_s_entries() -> None:
     assert [(s.started - T0, None if s.ended is None else s.ended - T0, s.peak) for s in spans] == [
         (-300, 120, 14), (600, 900, 12), (3000, None, None)
     ]
+
+
+def test_alarms_raised_while_shelved_are_not_shown(tmp_path: Path) -> None:
+    store = Store(tmp_path / "state")
+    try:
+        book = AlarmBook(store)
+        book.shelve_characteristic("od", 1800, "gauge being recalibrated", now=T0,
+                                   actor=Actor("ana", ""))
+        book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=T0 + 10)
+        book.observe_chart("wall", "individuals", 0, 0, {"we1": [0]}, now=T0 + 20)
+        marks = marks_from_audit(store.audit.entries())
+    finally:
+        store.close()
+    # The od alarm opens shelved (its audit payload says so); only the wall alarm is shown.
+    assert [(m.action, m.shelved) for m in marks] == [(RAISED, True), (RAISED, False)]
+    assert alarm_performance(marks, T0, T0 + 600).annunciations == 1
