@@ -95,8 +95,9 @@ def render_csv(report: ShiftReport) -> str:
                         "yes" if o.acknowledged else "no"])
         w.writerow([])
         w.writerow(["section", "started", "ended", "peak"])  # floods the collector announced
-        for f in p.floods:
-            w.writerow(["flood", local_time(f.started), local_time(f.ended), _i(f.peak)])
+        for flood in p.floods:
+            w.writerow(["flood", local_time(flood.started), local_time(flood.ended),
+                        _i(flood.peak)])
     w.writerow([])
     w.writerow(["section", "set_at", "characteristic", "chart", "phase", "start_index", "center",
                 "ucl", "lcl", "kind", "reason", "by"])
