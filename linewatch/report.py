@@ -490,6 +490,8 @@ def anchor_sentence() -> str:
 # -- alarm episodes and performance, worded once for every format ---------------------------
 
 EPISODES_SHOWN = 12  # per alarm in the Markdown / HTML list; the CSV lists every one
+# The guidance figures below (about 1 and about 2 alarms per 10 minutes for one operator, a flood
+# above about 10) are ISA-18.2's, quoted from memory (see linewatch.alarm_performance).
 GUIDANCE_SOURCE = (
     "Guidance figures: the alarm-management standard ISA-18.2 (IEC 62682) and its guidance, "
     "for one operator; linewatch counts one operator per state directory. An alarm shown is a "
