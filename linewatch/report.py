@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import TYPE_CHECKING
@@ -18,6 +19,7 @@ from linewatch.model import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHART_XBAR, L
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
+    from linewatch.alarm_performance import AlarmPerformance, Episode
     from linewatch.config import Config
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.audit import Verdict
@@ -146,6 +148,30 @@ class AlarmLine:
     note: str
     returned_at: float | None
     closed_at: float | None
+    signals: int = 0  # signalling points of every episode
+    episodes: int = 1
+    counts: str = ""  # per-rule counts, "we2 ×44 we3 ×37" (`alarms.rule_summary`)
+    below_lsl: int | None = None  # out-of-spec: parts below LSL / above USL (None otherwise)
+    above_usl: int | None = None
+    escalated_at: float | None = None
+
+    @property
+    def label(self) -> str:
+        """Which alarm, in a few words: "#12 outer-diameter individuals"."""
+        return f"#{self.id} {self.characteristic} {self.chart}"
+
+
+@dataclass(slots=True)
+class EpisodeLine:
+    """One episode of one alarm in the period, from the audit trail's raise / re-raise and
+    return-to-normal entries: plotted indices (None for feed health) and times."""
+
+    alarm_id: int
+    started_at: float
+    first_index: int | None
+    returned_at: float | None  # None: not returned by the end of the period
+    last_index: int | None
+    shelved: bool
 
 
 @dataclass(slots=True)
@@ -191,6 +217,21 @@ class ShiftReport:
     audit_message: str
     audit_entries: int  # entries written in the period
     audit_anchor: str = ""  # the trail's head as an anchor line (see store/anchors.py)
+    episodes: list[EpisodeLine] = field(default_factory=list)
+    performance: AlarmPerformance | None = None
+
+    def alarm(self, alarm_id: int) -> AlarmLine | None:
+        """The report's line of one alarm (None when it was not open in the period)."""
+        return next((a for a in self.alarms if a.id == alarm_id), None)
+
+    def alarm_label(self, alarm_id: int) -> str:
+        """"#12 outer-diameter individuals", or "#12" for an alarm the report does not list."""
+        line = self.alarm(alarm_id)
+        return line.label if line is not None else f"#{alarm_id}"
+
+    def episodes_of(self, alarm_id: int) -> list[EpisodeLine]:
+        """The alarm's episodes in the period, oldest first."""
+        return [e for e in self.episodes if e.alarm_id == alarm_id]
 
     def alarm_tally(self) -> str:
         """One sentence: how many alarms, how many acknowledged and how fast, how many not."""
@@ -259,7 +300,7 @@ def _limits_at(history: list[Limits], index: int) -> Limits | None:
 
 def _trace(
     chart: str, values: list[float], first_index: int, n: int, history: list[Limits],
-    alarms: list[AlarmRecord],
+    alarms: list[AlarmRecord], episodes: list[Episode],
 ) -> ChartTrace:
     """Plotted location statistic (individuals, or means of complete subgroups) with limits."""
     trace = ChartTrace(chart)
@@ -277,11 +318,25 @@ def _trace(
         trace.center.append(lim.center if lim else None)
         trace.ucl.append(lim.ucl if lim else None)
         trace.lcl.append(lim.lcl if lim else None)
-    for a in alarms:
-        if a.chart == chart and a.first_index is not None:
-            last = a.last_index if a.last_index is not None else a.first_index
-            trace.flagged.update(range(a.first_index, last + 1))
+    # Flag each episode's points (first to last firing), not all between an alarm's first and
+    # latest firing: one alarm can span many episodes hours apart.
+    mine = {a.id: a for a in alarms if a.chart == chart}
+    for ep in episodes:
+        alarm = mine.get(ep.alarm_id)
+        if alarm is None or ep.first_index is None:
+            continue
+        last = ep.last_index
+        if last is None:  # not returned: up to the alarm's latest firing
+            last = alarm.last_index if alarm.last_index is not None else ep.first_index
+        trace.flagged.update(range(ep.first_index, max(last, ep.first_index) + 1))
     return trace
+
+
+def _what(text: str, chart: str) -> str:
+    """The alarm's condition without a trailing "(CHART chart)": the report has a chart
+    column."""
+    suffix = f" ({chart} chart)"
+    return text[: -len(suffix)] if text.endswith(suffix) else text
 
 
 def build_report(
@@ -289,13 +344,39 @@ def build_report(
     now: float | None = None,
 ) -> ShiftReport:
     """Gather the report of [since, until) from `store` (nothing is written)."""
-    from linewatch.alarms import AlarmBook
+    from linewatch.alarm_performance import (
+        alarm_performance,
+        episodes,
+        flood_spans,
+        marks_from_audit,
+    )
+    from linewatch.alarms import AlarmBook, rule_summary
+    from linewatch.config import DEFAULT_FLOOD_ALARMS, DEFAULT_FLOOD_WINDOW
     from linewatch.engine.summary import summarize
 
     now = time.time() if now is None else now
     book = AlarmBook(store, config)
     alarm_rows = store.alarms.between(since, until)
     end = min(until, now)
+    # The trail from the earliest raise of any alarm open in the period: waits and ages that
+    # began before the period are measured from their real start.
+    earliest = min([since, *(a.raised_at for a in alarm_rows)])
+    trail = [e for e in store.audit.entries(earliest) if e.at < until]  # read once
+    marks = marks_from_audit(e for e in trail if e.at < end)
+    listed = {a.id for a in alarm_rows}
+    period_episodes = [
+        ep for ep in episodes(marks)
+        if ep.alarm_id in listed and ep.started_at < end
+        and (ep.returned_at is None or ep.returned_at >= since)
+    ]
+    flood_alarms = config.alarms.flood_alarms if config is not None else DEFAULT_FLOOD_ALARMS
+    flood_window = config.alarms.flood_window if config is not None else DEFAULT_FLOOD_WINDOW
+    # Rates over the time the store kept a record: a period reaching back before the first
+    # entry would dilute them with time nobody watched.
+    began = store.audit.first_at()
+    watched_from = max(since, began) if began is not None and began < end else since
+    performance = alarm_performance(marks, watched_from, end, flood_alarms, flood_window)
+    performance.floods.extend(flood_spans(trail, since, end))
 
     alarms: list[AlarmLine] = []
     for a in alarm_rows:
@@ -307,14 +388,19 @@ def build_report(
         alarms.append(
             AlarmLine(
                 id=a.id, kind=a.kind, characteristic=a.characteristic, chart=a.chart,
-                rule=a.rule, what=book.describe(a), priority=a.priority, raised_at=a.raised_at,
+                rule=a.rule, what=_what(book.describe(a), a.chart), priority=a.priority,
+                raised_at=a.raised_at,
                 state=a.state(end), acknowledged_by=(a.acknowledged_by or "") if acked else "",
                 acknowledged_at=acked_at,
                 unacknowledged_for=max(0.0, waited), still_unacknowledged=not acked,
                 reason=(a.reason or "") if acked else "", note=(a.note or "") if acked else "",
-                returned_at=a.returned_at, closed_at=a.closed_at,
+                returned_at=a.returned_at, closed_at=a.closed_at, signals=a.signals,
+                episodes=a.episodes, counts=rule_summary(a), below_lsl=a.below_lsl,
+                above_usl=a.above_usl, escalated_at=a.escalated_at,
             )
         )
+    # Grouped per characteristic and chart, oldest first within a group.
+    alarms.sort(key=lambda a: (a.characteristic, a.chart, a.id))
 
     names = list(dict.fromkeys(
         [c.name for c in config.characteristics] if config is not None else []
@@ -351,7 +437,7 @@ def build_report(
             by_rule[a.rule] = by_rule.get(a.rule, 0) + 1
         trace = _trace(
             location, values, points[0].index if points else 0, n,
-            [lim for lim in history if lim.chart == location], mine,
+            [lim for lim in history if lim.chart == location], mine, period_episodes,
         )
         parts.append(
             CharacteristicPart(
@@ -363,7 +449,7 @@ def build_report(
             )
         )
 
-    period = [e for e in store.audit.entries(since) if e.at < until]  # read once
+    period = [e for e in trail if e.at >= since]
     baselines = {
         (e.subject, round(e.at, 6)): e.actor for e in period if e.action == "new-baseline"
     }
@@ -392,6 +478,9 @@ def build_report(
         characteristics=parts, alarms=alarms, limits=limits, feed_events=feed,
         audit_ok=verdict.ok, audit_message=verdict.message, audit_entries=len(period),
         audit_anchor=anchor,
+        episodes=[EpisodeLine(ep.alarm_id, ep.started_at, ep.first_index, ep.returned_at,
+                              ep.last_index, ep.shelved) for ep in period_episodes],
+        performance=performance,
     )
 
 
@@ -411,3 +500,109 @@ def anchor_sentence() -> str:
     return ("Audit anchor (file a copy of this report away from the line PC; "
             "`linewatch audit verify --anchor REPORT` checks the trail still holds what "
             "it held now):")
+
+
+# -- alarm episodes and performance, worded once for every format ---------------------------
+
+EPISODES_SHOWN = 12  # per alarm in the Markdown / HTML list; the CSV lists every one
+# The guidance figures below (about 1 and about 2 alarms per 10 minutes for one operator, a flood
+# above about 10) are ISA-18.2's, quoted from memory (see linewatch.alarm_performance).
+GUIDANCE_SOURCE = (
+    "Guidance figures: the alarm-management standard ISA-18.2 (IEC 62682) and its guidance, "
+    "for one operator; linewatch counts one operator per state directory. An alarm shown is a "
+    "raise or re-raise that was not shelved."
+)
+
+
+def index_range(first: int | None, last: int | None, returned: bool) -> str:
+    """Plotted points of an episode: "61", "61–64", "70–…" (not returned); '' for feed health."""
+    if first is None:
+        return ""
+    if not returned:
+        return f"{first}–…"
+    if last is None or last == first:
+        return str(first)
+    return f"{first}–{last}"
+
+
+def short_time(epoch: float | None, since: float, until: float) -> str:
+    """Local time without its offset (the report's heading gives it), without the date when
+    the period lies in one local day: for lists that repeat many times."""
+    if epoch is None:
+        return ""
+    full = clock_time(epoch, since, until)
+    return full.rsplit(" ", 1)[0]
+
+
+def episode_text(ep: EpisodeLine, at: Callable[[float | None], str]) -> str:
+    """One episode in a few words: "points 61–64, 06:30:00 to 06:31:10" ("… still active")."""
+    points = index_range(ep.first_index, ep.last_index, ep.returned_at is not None)
+    where = f"points {points}, " if points else ""
+    when = (f"{at(ep.started_at)} to {at(ep.returned_at)}" if ep.returned_at is not None
+            else f"from {at(ep.started_at)}, still active")
+    return f"{where}{when}{' (shelved)' if ep.shelved else ''}"
+
+
+def episode_list(r: ShiftReport, alarm: AlarmLine, at: Callable[[float | None], str]) -> str:
+    """An alarm's episodes of the period on one line, the newest EPISODES_SHOWN at most."""
+    eps = r.episodes_of(alarm.id)
+    shown = eps[-EPISODES_SHOWN:]
+    text = "; ".join(episode_text(ep, at) for ep in shown)
+    if len(eps) > len(shown):
+        text = f"{len(eps) - len(shown)} earlier not shown (see the CSV); " + text
+    return text
+
+
+def out_of_spec_text(a: AlarmLine) -> str:
+    """"3 below LSL, 1 above USL" for an out-of-spec alarm, '' for others."""
+    if a.below_lsl is None and a.above_usl is None:
+        return ""
+    return f"{a.below_lsl or 0} below LSL, {a.above_usl or 0} above USL"
+
+
+def window_words(seconds: float) -> str:
+    """"10-minute" for a window length (to the minute, or seconds below one)."""
+    return f"{seconds / 60:g}-minute" if seconds >= 60 else f"{seconds:g}-second"
+
+
+def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
+    """(figure, this period, guidance) rows of the alarm-performance table."""
+    share = p.flood_share
+    flood = f"{p.flood_windows} of {p.windows}"
+    if share is not None:
+        flood += f" ({100 * share:.0f}%)"
+    waits = len(p.acknowledge_times)
+    median = span(p.median_to_acknowledge)
+    if median:
+        median += f" ({waits} acknowledgement{'s' if waits != 1 else ''})"
+    return [
+        ("alarms shown", str(p.annunciations), ""),
+        ("alarms per 10 minutes, mean", f"{p.per_ten_minutes:.2f}",
+         "about 1 is very likely acceptable, about 2 the most that is manageable"),
+        ("alarms per 10 minutes, peak", str(p.peak_ten_minutes),
+         "more than about 10 in 10 minutes is a flood"),
+        (f"{window_words(p.flood_window)} windows in flood (more than {p.flood_alarms} alarms)",
+         flood, "none, or as few as possible"),
+        ("floods announced on the screen", str(len(p.floods)), ""),
+        ("chattering alarms (re-raised 3 or more times within a minute)",
+         str(len(p.chattering)), "none"),
+        ("alarms still open at the end", str(len(p.open_at_end)), ""),
+        ("time to acknowledge (from first shown), median", median or "—", ""),
+        ("time to acknowledge (from first shown), longest", span(p.longest_to_acknowledge) or "—",
+         ""),
+    ]
+
+
+def performance_sentence(p: AlarmPerformance) -> str:
+    """The period's load beside the guidance, in one sentence."""
+    from linewatch.alarm_performance import TEN_MINUTES, guidance_verdict
+
+    text = (f"{p.annunciations} alarm{'s' if p.annunciations != 1 else ''} shown in "
+            f"{span(p.end - p.since)} watched: {p.per_ten_minutes:.2f} per 10 minutes on "
+            f"average, {guidance_verdict(p.per_ten_minutes)}")
+    if p.flood_windows:
+        text += (f"; in flood (more than {p.flood_alarms} alarms) in {p.flood_windows} of "
+                 f"{p.windows} {window_words(p.flood_window)} windows")
+    if 0 < p.end - p.since < TEN_MINUTES:
+        text += " (less than 10 minutes watched: the mean is extrapolated, the peak is not)"
+    return text + "."

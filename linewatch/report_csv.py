@@ -42,6 +42,8 @@ class _SafeWriter:
 
     def writerow(self, row: Iterable[object]) -> None:
         self._w.writerow([safe_cell(c) for c in row])
+def _i(x: int | None) -> str:
+    return "" if x is None else str(x)
 
 
 def render_csv(report: ShiftReport) -> str:
@@ -70,12 +72,61 @@ def render_csv(report: ShiftReport) -> str:
     w.writerow([])
     w.writerow(["section", "id", "raised", "characteristic", "chart", "rule", "what", "priority",
                 "state", "acknowledged_by", "acknowledged_at", "unacknowledged_seconds",
-                "still_unacknowledged", "reason", "note"])
+                "still_unacknowledged", "reason", "note", "signals", "episodes", "rules",
+                "below_lsl", "above_usl", "escalated_at"])
     for a in r.alarms:
         w.writerow(["alarm", a.id, local_time(a.raised_at), a.characteristic, a.chart, a.rule,
                     a.what, a.priority, a.state, a.acknowledged_by,
                     local_time(a.acknowledged_at), round(a.unacknowledged_for, 3),
-                    "yes" if a.still_unacknowledged else "no", a.reason, a.note])
+                    "yes" if a.still_unacknowledged else "no", a.reason, a.note, a.signals,
+                    a.episodes, a.counts, _i(a.below_lsl), _i(a.above_usl),
+                    local_time(a.escalated_at)])
+    w.writerow([])
+    w.writerow(["section", "alarm_id", "started", "first_index", "returned", "last_index",
+                "shelved"])
+    for e in r.episodes:  # every episode of the period, from the audit trail
+        w.writerow(["episode", e.alarm_id, local_time(e.started_at), _i(e.first_index),
+                    local_time(e.returned_at), _i(e.last_index), "yes" if e.shelved else "no"])
+    p = r.performance
+    if p is not None:
+        w.writerow([])
+        w.writerow(["section", "figure", "value", "note"])
+        for figure, value, note in (
+            ("watched_from", local_time(p.since),
+             "the later of the period's start and the store's first record"),
+            ("watched_to", local_time(p.end), ""),
+            ("alarms_shown", p.annunciations, "raised or re-raised, not shelved"),
+            ("alarms_per_10_minutes_mean", _f(p.per_ten_minutes),
+             "ISA-18.2 guidance: about 1 very likely acceptable, about 2 the most manageable"),
+            ("alarms_per_10_minutes_peak", p.peak_ten_minutes,
+             "10-minute windows from watched_from"),
+            ("flood_windows", p.flood_windows,
+             f"{p.flood_window:g}-second windows with more than {p.flood_alarms} alarms"),
+            ("windows", p.windows, "the last may be shorter"),
+            ("chattering_alarms", len(p.chattering), "re-raised 3 or more times within 60 s"),
+            ("open_at_end", len(p.open_at_end), ""),
+            ("acknowledgements", len(p.acknowledge_times), ""),
+            ("acknowledge_median_seconds", _f(p.median_to_acknowledge), ""),
+            ("acknowledge_longest_seconds", _f(p.longest_to_acknowledge), ""),
+        ):
+            w.writerow(["performance", figure, value, note])
+        w.writerow([])
+        w.writerow(["section", "alarm_id", "list", "count", "re_raised", "most_in_a_minute",
+                    "raised", "age_seconds", "acknowledged"])
+        for alarm_id, n in p.most_frequent:
+            w.writerow(["alarm-list", alarm_id, "most-frequent", n, "", "", "", "", ""])
+        for chatter in p.chattering:
+            w.writerow(["alarm-list", chatter.alarm_id, "chattering", "", chatter.re_raised,
+                        chatter.most_in_window, "", "", ""])
+        for o in p.open_at_end:
+            w.writerow(["alarm-list", o.alarm_id, "open-at-end", "", "", "",
+                        local_time(o.raised_at), round(o.age, 3),
+                        "yes" if o.acknowledged else "no"])
+        w.writerow([])
+        w.writerow(["section", "started", "ended", "peak"])  # floods the collector announced
+        for flood in p.floods:
+            w.writerow(["flood", local_time(flood.started), local_time(flood.ended),
+                        _i(flood.peak)])
     w.writerow([])
     w.writerow(["section", "set_at", "characteristic", "chart", "phase", "start_index", "center",
                 "ucl", "lcl", "kind", "reason", "by"])

@@ -3,20 +3,27 @@ nothing fetched), laid out to read well on screen and printed on A4."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from html import escape
 
 from linewatch.report import (
+    GUIDANCE_SOURCE,
     LOCATION_CHARTS,
     LimitsChange,
     ShiftReport,
     anchor_sentence,
     clock_time,
+    episode_list,
     interval,
     local_time,
     num,
+    out_of_spec_text,
+    performance_rows,
+    performance_sentence,
     ppm,
     reading,
     rules_text,
+    short_time,
     span,
 )
 from linewatch.report_svg import control_chart_svg
@@ -40,6 +47,8 @@ th, td { text-align: left; padding: 3px 6px; border-bottom: 1px solid var(--rule
 th { background: var(--band); font-weight: 600; }
 td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 table.alarms td:nth-child(4) { min-width: 16em; }
+ul.episodes { font-size: 12.5px; padding-left: 18px; margin: 4px 0 10px; }
+table.performance td:first-child { width: 40%; }
 tr.open td:first-child { border-left: 4px solid var(--warn); }
 .empty { padding: 12px; background: var(--band); border-left: 4px solid var(--muted); }
 .figures { color: var(--muted); font-size: 12px; margin: 0 0 4px; }
@@ -97,6 +106,9 @@ def render_html(report: ShiftReport) -> str:
 
     def at(epoch: float | None) -> str:  # no line break inside a time
         return clock_time(epoch, r.since, r.until).replace(" ", "\u00a0")
+
+    def brief(epoch: float | None) -> str:  # in the episode list: the heading gives the offset
+        return short_time(epoch, r.since, r.until).replace(" ", "\u00a0")
 
     title = f"Shift handover {local_time(r.since)} to {local_time(r.until)}"
     out = [
@@ -159,12 +171,17 @@ def render_html(report: ShiftReport) -> str:
 
     out.append(f"<h2>Alarms</h2><p>{escape(r.alarm_tally())}</p>")
     if r.alarms:
+        out.append('<p class="legend">Grouped per characteristic and chart. First-out: the rule '
+                   "that fired first; signals: the points that fired, per rule and in all.</p>")
         out.append(_table(
-            ["#", "raised", "characteristic", "what", "prio", "state at end", "acknowledged by",
+            ["#", "characteristic", "chart", "first-out", "signals by rule", "signals",
+             "episodes", "out of spec", "prio", "raised", "state at end", "acknowledged by",
              "acknowledged at", "unacknowledged for", "reason", "note"],
             [
-                [(str(a.id), True), (at(a.raised_at), False), (a.characteristic, False),
-                 (f"{a.rule}: {a.what}", False), (str(a.priority), True), (a.state, False),
+                [(str(a.id), True), (a.characteristic, False), (a.chart, False),
+                 (f"{a.rule}: {a.what}", False), (a.counts, False), (str(a.signals), True),
+                 (str(a.episodes), True), (out_of_spec_text(a), False),
+                 (str(a.priority), True), (at(a.raised_at), False), (a.state, False),
                  (a.acknowledged_by or "—", False), (at(a.acknowledged_at), False),
                  (span(a.unacknowledged_for), True),
                  (a.reason, False), (a.note, False)]
@@ -173,6 +190,13 @@ def render_html(report: ShiftReport) -> str:
             ["open" if a.still_unacknowledged else "" for a in r.alarms],
             cls="alarms",
         ))
+        if r.episodes:
+            items = "".join(
+                f"<li><b>{escape(a.label)}</b>: {escape(episode_list(r, a, brief))}</li>"
+                for a in r.alarms if r.episodes_of(a.id)
+            )
+            out.append(f'<h3>Episodes</h3><ul class="episodes">{items}</ul>')
+    out += _performance_html(r, at)
 
     out.append("<h2>Limits and baselines</h2>")
     decimals = {c.name: c.decimals for c in r.characteristics}
@@ -208,3 +232,55 @@ def render_html(report: ShiftReport) -> str:
         out.append('<p class="empty">No feed events in this period.</p>')
     out.append("</body></html>")
     return "\n".join(out)
+
+
+def _performance_html(r: ShiftReport, at: Callable[[float | None], str]) -> list[str]:
+    """The alarm-performance section: load beside the ISA-18.2 guidance, the most frequent and
+    chattering alarms, those still open at the end."""
+    p = r.performance
+    if p is None:
+        return []
+    out = ["<h2>Alarm performance</h2>", f"<p>{escape(performance_sentence(p))}</p>"]
+    out.append(_table(
+        ["figure", "this period", "ISA-18.2 guidance"],
+        [[(f, False), (v, True), (g, False)] for f, v, g in performance_rows(p)],
+        cls="performance",
+    ))
+    out.append(f'<p class="legend">{escape(GUIDANCE_SOURCE)}</p>')
+    if p.most_frequent:
+        out.append("<h3>Most frequent alarms</h3>")
+        out.append(_table(
+            ["alarm", "signals by rule", "shown", "share of all shown"],
+            [[(r.alarm_label(i), False), ((a.counts if (a := r.alarm(i)) else ""), False),
+              (str(n), True), (f"{100 * n / p.annunciations:.0f}%", True)]
+             for i, n in p.most_frequent],
+        ))
+    if p.floods:
+        out.append("<h3>Floods announced on the screen</h3>")
+        out.append(_table(
+            ["started", "ended", "lasted", "most alarms in one window"],
+            [[(at(f.started), False),
+              (at(f.ended) if f.ended is not None else "no end recorded", False),
+              (span(f.ended - f.started) if f.ended is not None else "", True),
+              ("" if f.peak is None else str(f.peak), True)] for f in p.floods],
+        ))
+    out.append("<h3>Chattering alarms</h3>")
+    if p.chattering:
+        out.append(_table(
+            ["alarm", "re-raised in the period", "most re-raises within a minute"],
+            [[(r.alarm_label(c.alarm_id), False), (str(c.re_raised), True),
+              (str(c.most_in_window), True)] for c in p.chattering],
+        ))
+    else:
+        out.append('<p class="empty">No alarm was re-raised 3 or more times within a '
+                   "minute.</p>")
+    out.append("<h3>Still open at the end</h3>")
+    if p.open_at_end:
+        out.append(_table(
+            ["alarm", "first raised", "age at the end", "acknowledged"],
+            [[(r.alarm_label(o.alarm_id), False), (at(o.raised_at), False), (span(o.age), True),
+              ("yes" if o.acknowledged else "no", False)] for o in p.open_at_end],
+        ))
+    else:
+        out.append('<p class="empty">Every alarm was closed by the end of the period.</p>')
+    return out

@@ -2,17 +2,25 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from linewatch.report import (
+    GUIDANCE_SOURCE,
     LOCATION_CHARTS,
     ShiftReport,
     anchor_sentence,
     clock_time,
+    episode_list,
     interval,
     local_time,
     num,
+    out_of_spec_text,
+    performance_rows,
+    performance_sentence,
     ppm,
     reading,
     rules_text,
+    short_time,
     span,
 )
 from linewatch.safe_text import visible
@@ -53,6 +61,9 @@ def render_markdown(report: ShiftReport) -> str:
 
     def at(epoch: float | None) -> str:
         return clock_time(epoch, r.since, r.until)
+
+    def brief(epoch: float | None) -> str:  # in the episode list: the heading gives the offset
+        return short_time(epoch, r.since, r.until)
 
     lines = [
         f"# Shift handover: {local_time(r.since)} to {local_time(r.until)}",
@@ -97,18 +108,28 @@ def render_markdown(report: ShiftReport) -> str:
 
     lines += ["## Alarms", "", r.alarm_tally(), ""]
     if r.alarms:
+        lines += ["Grouped per characteristic and chart. First-out: the rule that fired first; "
+                  "signals: the points that fired, per rule and in all.", ""]
         lines += _table(
-            ["#", "raised", "characteristic", "what", "priority", "state at end",
+            ["#", "characteristic", "chart", "first-out", "signals by rule", "signals",
+             "episodes", "out of spec", "priority", "raised", "state at end",
              "acknowledged by", "acknowledged at", "unacknowledged for", "reason", "note"],
             [
-                [a.id, at(a.raised_at), a.characteristic, f"{a.rule}: {a.what}",
-                 a.priority, a.state, a.acknowledged_by or "—", at(a.acknowledged_at),
-                 span(a.unacknowledged_for),
+                [a.id, a.characteristic, a.chart, f"{a.rule}: {a.what}", a.counts, a.signals,
+                 a.episodes, out_of_spec_text(a), a.priority, at(a.raised_at), a.state,
+                 a.acknowledged_by or "—", at(a.acknowledged_at), span(a.unacknowledged_for),
                  a.reason, a.note]
                 for a in r.alarms
             ],
         )
         lines.append("")
+        if r.episodes:
+            lines += ["### Episodes", ""]
+            for a in r.alarms:
+                if r.episodes_of(a.id):
+                    lines.append(f"- {_cell(a.label)}: {_cell(episode_list(r, a, brief))}")
+            lines.append("")
+    lines += _performance_lines(r, at)
 
     lines += ["## Limits and baselines", ""]
     decimals = {c.name: c.decimals for c in r.characteristics}
@@ -138,3 +159,51 @@ def render_markdown(report: ShiftReport) -> str:
         lines.append("No feed events in this period.")
     lines.append("")
     return "\n".join(lines)
+
+
+def _performance_lines(r: ShiftReport, at: Callable[[float | None], str]) -> list[str]:
+    """The alarm-performance section: load beside the ISA-18.2 guidance, the most frequent and
+    chattering alarms, those still open at the end."""
+    p = r.performance
+    if p is None:
+        return []
+    lines = ["## Alarm performance", "", performance_sentence(p), ""]
+    lines += _table(["figure", "this period", "ISA-18.2 guidance"],
+                    [list(row) for row in performance_rows(p)])
+    lines += ["", GUIDANCE_SOURCE, ""]
+    if p.most_frequent:
+        lines += ["### Most frequent alarms", ""]
+        lines += _table(
+            ["alarm", "signals by rule", "shown", "share of all shown"],
+            [[r.alarm_label(i), a.counts if (a := r.alarm(i)) else "", n,
+              f"{100 * n / p.annunciations:.0f}%"] for i, n in p.most_frequent],
+        )
+        lines.append("")
+    if p.floods:
+        lines += ["### Floods announced on the screen", ""]
+        lines += _table(
+            ["started", "ended", "lasted", "most alarms in one window"],
+            [[at(f.started), at(f.ended) if f.ended is not None else "no end recorded",
+              span(f.ended - f.started) if f.ended is not None else "",
+              "" if f.peak is None else f.peak] for f in p.floods],
+        )
+        lines.append("")
+    lines += ["### Chattering alarms", ""]
+    if p.chattering:
+        lines += _table(
+            ["alarm", "re-raised in the period", "most re-raises within a minute"],
+            [[r.alarm_label(c.alarm_id), c.re_raised, c.most_in_window] for c in p.chattering],
+        )
+    else:
+        lines.append("No alarm was re-raised 3 or more times within a minute.")
+    lines += ["", "### Still open at the end", ""]
+    if p.open_at_end:
+        lines += _table(
+            ["alarm", "first raised", "age at the end", "acknowledged"],
+            [[r.alarm_label(o.alarm_id), at(o.raised_at), span(o.age),
+              "yes" if o.acknowledged else "no"] for o in p.open_at_end],
+        )
+    else:
+        lines.append("Every alarm was closed by the end of the period.")
+    lines.append("")
+    return lines

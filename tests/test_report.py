@@ -81,11 +81,13 @@ def shift_store(tmp_path: Path):
                SIGMA, phase=1, start_index=150),
         reason="new die fitted", now=T0 + 7200, actor="maria", new_baseline=True,
     )
+    # One we1 firing at 61, acknowledged; the judged range then reaches 69 (61 + clear_after
+    # 8), so it returns and closes, and the we4 firing at 70 opens a second alarm.
     book.observe_chart("outer-diameter", "individuals", 60, 62, {"we1": [61]}, now=T0 + 1800)
-    book.observe_chart("outer-diameter", "individuals", 63, 70, {"we4": [70]}, now=T0 + 3600)
     first = store.alarms.all()[0]
     book.acknowledge([first.id], "material lot change", "lot 24-117 on the hopper",
                      now=T0 + 1800 + 135, actor=Actor("maria", "10.0.0.7"))
+    book.observe_chart("outer-diameter", "individuals", 63, 70, {"we4": [70]}, now=T0 + 3600)
     history.add_feed_event(FeedEvent("rotated", "od.csv", "old file now od.csv.1"), at=T0 + 900)
     history.add_feed_event(FeedEvent("stale", "wall.csv", "no row for 10m"), at=T0 + 5000)
     yield store, values
@@ -226,7 +228,9 @@ def test_markdown_tables_are_well_formed(shift_store) -> None:
         elif current:
             tables.append(current)
             current = []
-    assert len(tables) == 4  # characteristics, alarms, limits, feed health
+    # characteristics, alarms, alarm performance, most frequent (none shown twice: left out),
+    # still open at the end, limits, feed health
+    assert len(tables) == 6
     for table in tables:
         widths = {len(re.findall(r"(?<!\\)\|", row)) for row in table}
         assert len(widths) == 1, table[:3]
@@ -402,6 +406,16 @@ def test_report_of_a_real_watch_run(tmp_path: Path) -> None:
     for name, column in columns.items():
         assert int(figures[name]["n"]) == len(expected[column])
         assert float(figures[name]["mean"]) == pytest.approx(np.mean(expected[column]))
+    # Each alarm's episodes in the report (read from the audit trail) number what
+    # `alarms list` says the alarm counted, and the performance section counts every raise.
+    listed_episodes = {str(a["id"]): a["episodes"] for a in alarms}
+    report_episodes: dict[str, int] = {}
+    for r in rows:
+        if r and r[0] == "episode":
+            report_episodes[r[1]] = report_episodes.get(r[1], 0) + 1
+    assert report_episodes == listed_episodes
+    figures_of_load = {r[1]: r[2] for r in rows if r and r[0] == "performance"}
+    assert int(figures_of_load["alarms_shown"]) == sum(a["episodes"] for a in alarms)
     acked = [r for r in rows if r and r[0] == "alarm" and r[1] == str(tensile["id"])]
     assert acked and "sample re-clamped and retested" in acked[0]
     # Berlin is UTC+01:00 in winter and +02:00 in summer; either way the offset is shown.
@@ -515,6 +529,8 @@ def test_markdown_cells_stay_cells_and_html_stays_text(hostile_store) -> None:
     store, _ = hostile_store
     html = MarkdownIt("commonmark", {"html": True}).enable("table").render(
         render_markdown(_report(store)))
+    # the report's own code spans (the audit anchor and its command) are the only ones
+    html = re.sub(r"<code>linewatch[^<]*</code>", "", html)
     assert "<script" not in html and "<a " not in html and "<code>" not in html
     for table in re.findall(r"<table>(.*?)</table>", html, re.S):
         header = len(re.findall(r"<th[ >]", table))
@@ -548,3 +564,154 @@ def test_the_html_limits_have_the_readings_decimals(shift_store) -> None:
     assert first[5:8] == ["12.000", "12.036", "11.964"]  # CL 12, not "12": ±0.05 mm, 3 decimals
     moving_range = next(r for r in rows if "baseline" in r and "moving-range" in r)
     assert moving_range[7] == "0"  # a dispersion limit is not on the readings' scale
+# -- alarms per characteristic and chart, episodes, alarm performance -----------------------
+
+HOSTILE = "od|gauge\x1b[2J"  # a pipe and an escape sequence in a characteristic name
+
+
+@pytest.fixture()
+def episode_store(tmp_path: Path):
+    """A store whose alarms come back: the individuals alarm of HOSTILE has three episodes
+    (firings 61; 75; 91 still active), an out-of-spec alarm of "wall" counts 2 parts below LSL
+    and 1 above USL, and a moving-range alarm of HOSTILE, raised last, is acknowledged."""
+    store = Store(tmp_path / "state")
+    book = AlarmBook(store)
+    book.observe_spec("wall", 0, [1.0, 0.1, 0.2, 1.0, 1.0, 2.5], 0.5, 2.0, now=T0 + 100)
+    book.observe_chart(HOSTILE, "individuals", 60, 70, {"we1": [61]}, now=T0 + 600)
+    book.observe_chart(HOSTILE, "individuals", 71, 90, {"we2": [75]}, now=T0 + 660)
+    book.observe_chart(HOSTILE, "individuals", 91, 91, {"we1": [91], "we5": [91]},
+                       now=T0 + 700)
+    book.observe_chart(HOSTILE, "moving-range", 10, 12, {"we1": [11]}, now=T0 + 800)
+    mr = next(a for a in store.alarms.all() if a.chart == "moving-range")
+    book.acknowledge([mr.id], "no cause found", now=T0 + 890, actor=Actor("ana", ""))
+    yield store
+    store.close()
+
+
+def _episode_report(store: Store):
+    return build_report(store, T0, T0 + 3600, None, now=T0 + 3600)
+
+
+def test_alarms_are_grouped_per_characteristic_and_chart_with_their_counts(
+    episode_store,
+) -> None:
+    report = _episode_report(episode_store)
+    groups = [(a.characteristic, a.chart) for a in report.alarms]
+    # Sorted by characteristic then chart, whatever the order they were raised in.
+    assert groups == [(HOSTILE, "individuals"), (HOSTILE, "moving-range"), ("wall", "individuals")]
+    ind, _mr, spec = report.alarms
+    # Firings 61 (we1), 75 (we2), 91 (we1 and we5): three points, three episodes, first-out we1.
+    assert (ind.rule, ind.signals, ind.episodes) == ("we1", 3, 3)
+    assert ind.counts == "we1 ×2 we2 ×1 we5 ×1"
+    # Measurements 0.1 and 0.2 below LSL 0.5, 2.5 above USL 2.0: 3 parts to quarantine.
+    assert (spec.below_lsl, spec.above_usl, spec.signals) == (2, 1, 3)
+    assert ind.below_lsl is None and ind.above_usl is None
+
+
+def test_episodes_come_from_the_audit_trail(episode_store) -> None:
+    report = _episode_report(episode_store)
+    ind = report.alarms[0]
+    eps = [(e.first_index, e.last_index, e.returned_at) for e in report.episodes_of(ind.id)]
+    # 61 returns at 69 (clear_after 8) in the pass at +600; 75 returns at 83 in the pass at
+    # +660; 91 is still active.
+    assert eps == [(61, 61, T0 + 600), (75, 75, T0 + 660), (91, None, None)]
+    text = render_markdown(report)
+    assert "points 61, " in text and "points 75, " in text and "points 91–…" in text
+    rows = list(csv.reader(io.StringIO(render_csv(report))))
+    episodes = [r for r in rows if r and r[0] == "episode"]
+    assert len(episodes) == 3 + 1 + 1  # individuals ×3, moving range, out of spec
+
+
+def test_the_performance_section_in_every_format(episode_store) -> None:
+    report = _episode_report(episode_store)
+    perf = report.performance
+    assert perf is not None
+    # The store's record begins at +100 s (its first entry), so the rates are over the 3500 s
+    # watched. Shown: out-of-spec raised, individuals raised + re-raised twice, moving range
+    # raised: 5 in 3500 s = 0.857 per 10 minutes (by hand); windows from +100 s: [100, 700)
+    # holds +100, +600, +660 -> peak 3.
+    assert perf.since == T0 + 100
+    assert perf.annunciations == 5 and perf.peak_ten_minutes == 3
+    assert perf.most_frequent == [(report.alarms[0].id, 3)]
+    # The moving-range alarm: raised at +800, acknowledged at +890: 90 s (by hand).
+    assert perf.acknowledge_times == [90.0]
+    # None closed: the moving-range alarm is acknowledged but its firing at 11 has not yet
+    # returned (that takes point 19). Oldest first.
+    ind, mr, spec = report.alarms
+    assert [(o.alarm_id, o.acknowledged) for o in perf.open_at_end] == [
+        (spec.id, False), (ind.id, False), (mr.id, True)
+    ]
+    md = render_markdown(report)
+    html = render_html(report)
+    for text in (md, html):
+        assert "Alarm performance" in text and "ISA-18.2" in text
+        assert "0.86" in text and "1m30s" in text
+        assert "very likely acceptable" in text
+    assert "\x1b" not in md  # the hostile name is shown visibly (safe_text.visible)
+    rows = list(csv.reader(io.StringIO(render_csv(report))))
+    figures = {r[1]: r[2] for r in rows if r and r[0] == "performance"}
+    assert float(figures["alarms_per_10_minutes_mean"]) == pytest.approx(5 * 600 / 3500)
+    assert float(figures["acknowledge_median_seconds"]) == 90.0
+
+
+def test_markdown_cells_with_a_pipe_stay_escaped(episode_store) -> None:
+    text = render_markdown(_episode_report(episode_store))
+    for row in (line for line in text.splitlines() if line.startswith("|")):
+        assert HOSTILE.split("|")[0] + "|" not in row.replace("\\|", "")
+    # every table row of one table has the same number of unescaped pipes
+    tables: list[list[str]] = []
+    current: list[str] = []
+    for line in [*text.splitlines(), ""]:
+        if line.startswith("|"):
+            current.append(line)
+        elif current:
+            tables.append(current)
+            current = []
+    for table in tables:
+        assert len({len(re.findall(r"(?<!\\)\|", row)) for row in table}) == 1, table[:3]
+    assert "- #" in text and "od\\|gauge" in text  # the episode list escapes it too
+
+
+def test_a_wait_that_began_before_the_period_is_measured_from_the_raise(tmp_path: Path) -> None:
+    store = Store(tmp_path / "state")
+    try:
+        book = AlarmBook(store)
+        book.observe_chart("od", "individuals", 0, 1, {"we1": [1]}, now=T0 - 300)
+        (alarm,) = store.alarms.all()
+        book.acknowledge([alarm.id], "no cause found", now=T0 + 60, actor=Actor("ana", ""))
+        report = build_report(store, T0, T0 + 600, None, now=T0 + 600)
+        short = build_report(store, T0, T0 + 300, None, now=T0 + 300)
+    finally:
+        store.close()
+    # Ten minutes watched: a true 10-minute mean; five minutes: the report says it extrapolates.
+    assert "extrapolated" not in render_markdown(report)
+    assert "less than 10 minutes watched" in render_markdown(short)
+    perf = report.performance
+    assert perf is not None
+    # Raised 5 minutes before the period, acknowledged 1 minute into it: 360 s; still open
+    # (not returned) at the end, 15 minutes old; not shown in the period itself.
+    assert perf.acknowledge_times == [360.0]
+    assert [(o.age, o.acknowledged) for o in perf.open_at_end] == [(900.0, True)]
+    assert perf.annunciations == 0
+
+
+def test_a_flood_the_collector_announced_is_in_the_report(tmp_path: Path) -> None:
+    store = Store(tmp_path / "state")
+    try:
+        book = AlarmBook(store)
+        # Eleven alarms (one per characteristic) within a minute: more than the default 10 in
+        # 10 minutes, a flood; ten minutes after the last one it is over.
+        for k in range(11):
+            book.observe_chart(f"c{k}", "individuals", 0, 0, {"we1": [0]}, now=T0 + 5 * k)
+        book.check_flood(now=T0 + 60)
+        book.check_flood(now=T0 + 60 + 600)
+        report = build_report(store, T0, T0 + 3600, None, now=T0 + 3600)
+    finally:
+        store.close()
+    perf = report.performance
+    assert perf is not None
+    assert [(f.started, f.ended, f.peak) for f in perf.floods] == [(T0 + 60, T0 + 660, 11)]
+    # The first 10-minute window holds all eleven: in flood by the report's count as well.
+    assert (perf.flood_windows, perf.windows) == (1, 6)
+    text = render_markdown(report)
+    assert "### Floods announced on the screen" in text and "| 10m00s | 11 |" in text

@@ -157,6 +157,12 @@ class AuditTrail:
         row = self.store.query("SELECT seq, hash FROM audit ORDER BY seq DESC LIMIT 1")
         return (int(row[0][0]), str(row[0][1])) if row else (0, GENESIS)
 
+    def first_at(self) -> float | None:
+        """When the oldest entry was written (None for an empty trail): when this store began
+        to keep a record, so rates over a period are taken over the time it was watched."""
+        row = self.store.query("SELECT MIN(at) FROM audit")
+        return float(row[0][0]) if row and row[0][0] is not None else None
+
     def append(
         self,
         action: str,
