@@ -249,6 +249,8 @@ class Monitor:
                 except Exception as exc:  # keep monitoring; resume from what the store holds
                     self._step_down()
                     self._failed(exc)
+                    if _store_replaced(exc):  # no retry can help: say so and end
+                        raise
                     stop.wait(min(MAX_BACKOFF, 2.0 ** (self.failures - 1)))
                     due = True
                     continue
@@ -660,6 +662,14 @@ def _signal_record(name: str, f: Firing) -> dict[str, Any]:
     if when:
         rec["time"] = when
     return rec
+
+
+def _store_replaced(exc: BaseException) -> bool:
+    """SQLite says the store file is damaged or was replaced under us ("file is not a
+    database", "malformed"): unlike a full disk or a lock, no retry can mend that."""
+    import sqlite3
+
+    return isinstance(exc, sqlite3.DatabaseError) and not isinstance(exc, sqlite3.OperationalError)
 
 
 def request_new_baseline(store: Store, characteristic: str, start_index: int,

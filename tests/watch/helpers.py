@@ -75,13 +75,33 @@ def wait_caught_up(state_dir: Path, path: Path, timeout: float = 30) -> None:
     raise AssertionError(f"the watcher did not reach offset {size} of {path}")
 
 
-def alarm_set(state_dir: Path) -> set[tuple]:
-    out = subprocess.run(
-        [sys.executable, "-m", "linewatch", "alarms", "list", "--all", "--format", "jsonl",
-         "--state-dir", str(state_dir)], capture_output=True, text=True, timeout=60, check=True,
-    ).stdout
-    return {(r["kind"], r["characteristic"], r["chart"], r["rule"], r["first_index"],
-             r["last_index"]) for r in records(out)}
+def episodes_of(state_dir: Path) -> list[tuple]:
+    """Every alarm episode the audit trail records, as (what, characteristic, chart, first
+    firing, last firing or None while it lasts), sorted: what an operator was shown, whichever
+    alarm row each episode went to (an acknowledgement closes a row, so the next episode of the
+    same condition opens another)."""
+    def run(*args: str) -> list[dict]:
+        out = subprocess.run([sys.executable, "-m", "linewatch", *args, "--format", "jsonl",
+                              "--state-dir", str(state_dir)],
+                             capture_output=True, text=True, timeout=60, check=True).stdout
+        return records(out)
+
+    group = {a["id"]: ("spec" if a["kind"] == "out-of-spec" else "feed"
+                       if a["kind"] == "feed-health" else "control")
+             for a in run("alarms", "list", "--all")}
+    open_: dict[int, list] = {}
+    done: list[tuple] = []
+    for e in run("audit", "export"):
+        if not e["subject"].startswith("alarm "):
+            continue
+        alarm_id, p = int(e["subject"].split()[1]), e["payload"]
+        if e["action"] in ("raised", "re-raised"):
+            first = p.get("first_index", p.get("index"))
+            open_[alarm_id] = [group[alarm_id], p["characteristic"], p["chart"], first]
+        elif e["action"] == "returned-to-normal" and alarm_id in open_:
+            done.append((*open_.pop(alarm_id), p["last_index"]))
+    done += [(*ep, None) for ep in open_.values()]
+    return sorted(done, key=repr)
 
 
 def check_signals(path: Path, *extra: str) -> set[tuple]:
