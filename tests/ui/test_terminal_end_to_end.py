@@ -60,12 +60,13 @@ def test_acknowledge_an_alarm_by_keypress_and_find_it_in_the_store(
     wait_for(lambda: "2 to acknowledge" in screen(), "the alarms on the board", screen)
 
     tmux("send-keys", "-t", session, "a")
-    wait_for(lambda: "alarm queue" in screen() and "beyond limits" in screen(),
-             "the alarm queue", screen)
+    wait_for(lambda: "alarm queue" in screen() and "individuals: we1" in screen()
+             and "moving-range: we1" in screen(), "the alarm queue", screen)
     tmux("send-keys", "-t", session, "Enter")
     wait_for(lambda: "Acknowledge alarm" in screen(), "the acknowledge panel", screen)
     reasons = {line.strip(" │|")[0]: line.strip(" │|")[2:].strip()
-               for line in screen().splitlines() if line.strip(" │|")[:2] in ("1 ", "2 ")}
+               for line in screen().splitlines()
+               if "│" in line and line.strip(" │|")[:2] in ("1 ", "2 ")}  # the panel's lines
     tmux("send-keys", "-t", session, "1")
     tmux("send-keys", "-t", session, "Enter")
     wait_for(lambda: "1 to acknowledge" in screen(), "the first acknowledgement", screen)

@@ -253,10 +253,10 @@ class AlarmQueueScreen(TableScreen):
             text.append("first: ", palette.LABEL)
             text.append(visible(a.description or a.rule))
             if a.kind in ("run-rule", "beyond-limits", "out-of-spec"):
-                episodes = "episode" if a.episodes == 1 else "episodes"
-                text.append(f" | {a.signals} signalling, {a.episodes} {episodes}: ",
-                            palette.LABEL)
+                text.append(" | signals: ", palette.LABEL)
                 text.append(visible(a.counts))
+                episodes = "episode" if a.episodes == 1 else "episodes"
+                text.append(f" in {a.episodes} {episodes}", palette.LABEL)
             text.append("\n")
             if a.acknowledged_by:
                 when = fmt_clock(a.acknowledged_at) if a.acknowledged_at else ""
