@@ -11,7 +11,7 @@ from textual.binding import Binding, BindingType
 from textual.widgets import DataTable, Static
 
 from linewatch import view
-from linewatch.safe_text import visible
+from linewatch.safe_text import visible, visible_lines
 from linewatch.ui import palette
 from linewatch.ui.formatting import (
     ALARM_STATE_WORDS,
@@ -269,7 +269,8 @@ class AlarmQueueScreen(TableScreen):
                 why = f": {visible(a.reason)}" if a.reason else ""
                 text.append(f"shelved until {fmt_clock(a.shelved_until)}{why}\n")
             text.append("reaction plan: ", "bold")
-            text.append(visible(a.reaction_plan or "none given in the config"),
+            # a plan is written as numbered lines: keep its line breaks, escape the rest
+            text.append(visible_lines(a.reaction_plan or "none given in the config"),
                         "" if a.reaction_plan else palette.LABEL)
         self.query_one("#queue-plan", Static).update(text)
 
