@@ -17,6 +17,16 @@ import numpy as np
 HEADER = "time,part,od\n"
 
 
+def wait_until(predicate, timeout: float = 20.0) -> None:
+    """Poll `predicate` until it holds; fail after `timeout` seconds."""
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if predicate():
+            return
+        time.sleep(0.05)
+    raise AssertionError("condition not reached")
+
+
 def rows_text(values: np.ndarray, start: int = 0) -> list[str]:
     return [f"2026-03-02T06:{(start + i) // 60 % 60:02d}:{(start + i) % 60:02d},P{start + i},"
             f"{v:.4f}\n" for i, v in enumerate(values)]

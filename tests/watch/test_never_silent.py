@@ -7,23 +7,13 @@ from __future__ import annotations
 import json
 import sys
 import threading
-import time
 
 import numpy as np
 
 from linewatch.config import parse_config
 from linewatch.face import MonitorFace
 from linewatch.monitor import Monitor, WatchPlan
-from tests.watch.helpers import HEADER, rows_text
-
-
-def _wait(predicate, timeout: float = 30.0) -> None:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if predicate():
-            return
-        time.sleep(0.05)
-    raise AssertionError("condition not reached")
+from tests.watch.helpers import HEADER, rows_text, wait_until
 
 
 def test_failing_passes_are_reported_retried_and_alarmed(tmp_path):
@@ -55,11 +45,11 @@ def test_failing_passes_are_reported_retried_and_alarmed(tmp_path):
     worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
     worker.start()
     try:
-        _wait(lambda: any(r.get("type") == "error" for r in records), 10)
+        wait_until(lambda: any(r.get("type") == "error" for r in records), 10)
         problems_seen.append(face.snapshot().problem)  # the screen shows it at once
-        _wait(lambda: len(face.store.history.points("od")) == 40)
-        _wait(lambda: hooked.exists() and hooked.read_text().strip())
-        _wait(lambda: any(r.get("resolved") for r in records if r.get("type") == "error"))
+        wait_until(lambda: len(face.store.history.points("od")) == 40, 30)
+        wait_until(lambda: hooked.exists() and hooked.read_text().strip(), 30)
+        wait_until(lambda: any(r.get("resolved") for r in records if r.get("type") == "error"), 30)
     finally:
         stop.set()
         worker.join(timeout=20)

@@ -13,16 +13,7 @@ import numpy as np
 from linewatch.config import parse_config
 from linewatch.face import MonitorFace
 from linewatch.monitor import Monitor, WatchPlan
-from tests.watch.helpers import HEADER, rows_text
-
-
-def _wait(predicate, timeout: float = 20.0) -> None:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if predicate():
-            return
-        time.sleep(0.05)
-    raise AssertionError("condition not reached")
+from tests.watch.helpers import HEADER, rows_text, wait_until
 
 
 def _collect(log, state_dir) -> tuple[MonitorFace, threading.Event, threading.Thread]:
@@ -45,10 +36,10 @@ def test_a_new_phase_gets_its_own_limits_and_an_audit_entry(tmp_path):
     face, stop, worker = _collect(log, tmp_path / "state")
     try:
         history = face.store.history
-        _wait(lambda: history.current_limits("od"))
-        _wait(lambda: len(history.points("od")) == 60)
+        wait_until(lambda: history.current_limits("od"))
+        wait_until(lambda: len(history.points("od")) == 60)
         face.new_baseline("od", 30, "new die fitted")
-        _wait(lambda: any(r.limits.phase == 1 for r in history.limits_history("od")))
+        wait_until(lambda: any(r.limits.phase == 1 for r in history.limits_history("od")))
     finally:
         stop.set()
         worker.join(timeout=10)
@@ -75,12 +66,12 @@ def test_every_instance_sees_a_new_phase_waiting_for_its_limits(tmp_path):
     log.write_text(HEADER + "".join(rows_text(base)))
     face, stop, worker = _collect(log, tmp_path / "state")
     try:
-        _wait(lambda: len(face.store.history.points("od")) == 50)
+        wait_until(lambda: len(face.store.history.points("od")) == 50)
         face.new_baseline("od", 40, "gauge recalibrated")  # only 10 of 20 points are there
-        _wait(lambda: face.detail("od").pending_phase_start == 40)
+        wait_until(lambda: face.detail("od").pending_phase_start == 40)
         with log.open("a") as f:
             f.writelines(rows_text(base[:15], start=50))
-        _wait(lambda: face.detail("od").pending_phase_start is None)
+        wait_until(lambda: face.detail("od").pending_phase_start is None)
     finally:
         stop.set()
         worker.join(timeout=10)
@@ -102,16 +93,16 @@ def test_a_new_baseline_while_rows_arrive_never_stops_collection(tmp_path):
     records: list[dict] = []
     face.monitor.emit = records.append
     try:
-        _wait(lambda: len(face.store.history.points("od")) == 50)
+        wait_until(lambda: len(face.store.history.points("od")) == 50)
         face.new_baseline("od", 40, "new die fitted")  # 10 of the 20 points are there
-        _wait(lambda: face.detail("od").pending_phase_start == 40)
+        wait_until(lambda: face.detail("od").pending_phase_start == 40)
         more = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8] * 3
         for k in range(0, 30, 5):  # rows keep arriving, a few at a time
             with log.open("a") as f:
                 f.writelines(rows_text(more[k:k + 5], start=50 + k))
             time.sleep(0.2)
-        _wait(lambda: len(face.store.history.points("od")) == 80)
-        _wait(lambda: face.detail("od").pending_phase_start is None)
+        wait_until(lambda: len(face.store.history.points("od")) == 80)
+        wait_until(lambda: face.detail("od").pending_phase_start is None)
         time.sleep(1.5)  # a few more passes, in which the stall showed
     finally:
         stop.set()
