@@ -33,8 +33,7 @@ class MonitorFace:
         if not self.monitor.plan.characteristics:
             for name in self.store.history.characteristics_with_points():
                 if name not in known:
-                    known[name] = self.monitor.plan.overrides(
-                        CharacteristicConfig(name=name, column=name))
+                    known[name] = self.monitor.plan.discovered(name)
         return list(known.values())
 
     # -- SnapshotSource --

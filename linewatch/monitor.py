@@ -67,6 +67,12 @@ class WatchPlan:
         default=lambda c: c
     )
 
+    def discovered(self, name: str) -> CharacteristicConfig:
+        """How a characteristic found in the data (not declared) is charted: the command
+        line's options, and the config-wide acknowledgement reasons."""
+        return self.overrides(CharacteristicConfig(
+            name=name, column=name, reasons=list(self.config.alarms.reasons)))
+
 
 class Monitor:
     """Collector or viewer of one state directory."""
@@ -197,7 +203,7 @@ class Monitor:
     def _char_config(self, name: str) -> CharacteristicConfig | None:
         c = self.char_configs.get(name)
         if c is None and not self.plan.characteristics:
-            c = self.plan.overrides(CharacteristicConfig(name=name, column=name))
+            c = self.plan.discovered(name)
             self.char_configs[name] = c
             self.by_column[name] = name
             self.store.history.save_characteristics([c])
