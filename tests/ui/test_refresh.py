@@ -5,15 +5,17 @@ from __future__ import annotations
 
 import asyncio
 import copy
+import dataclasses
 import threading
 import time
 
 import pytest
-from textual.widgets import DataTable
+from textual.widgets import DataTable, Static
 
 from linewatch import view
 from linewatch.ui.app import LinewatchApp
 from linewatch.ui.screens.queue import AlarmQueueScreen
+from linewatch.ui.widgets.top_bar import TopBar
 
 from .fake_line import NOW, FakeActions, FakeSource, build_snapshot, fixed_clock
 from .waiting import until
@@ -188,3 +190,57 @@ async def test_the_close_up_reads_its_detail_again_only_when_its_characteristic_
         assert source.detail_calls == before
         source.publish(changed(3, value=25.5))  # outer-diameter itself moved
         await until(lambda: source.detail_calls == before + 1)
+
+
+async def test_bell_rings_for_a_re_raise_and_an_escalation_of_the_same_alarm(
+    source: FakeSource,
+) -> None:
+    app = LinewatchApp(source, FakeActions(), bell=True, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        publish_from_thread(source, [changed(2, alarm=new_alarm(100, 3))])
+        await until(lambda: app.line.version == 2)
+        assert app.bells_rung == 0  # a run rule (priority 3) is not urgent
+        escalated = dataclasses.replace(new_alarm(100, 2), kind="beyond-limits")
+        publish_from_thread(source, [changed(3, alarm=escalated)])
+        await until(lambda: app.line.version == 3)
+        assert app.bells_rung == 1  # escalated to priority 2: rings like a new alarm
+        again = dataclasses.replace(escalated, episodes=2)
+        publish_from_thread(source, [changed(4, alarm=again)])
+        await until(lambda: app.line.version == 4)
+        assert app.bells_rung == 2  # its next episode re-raised it
+
+
+async def test_during_a_flood_the_bell_rings_once_not_for_each_alarm(source: FakeSource) -> None:
+    app = LinewatchApp(source, FakeActions(), bell=True, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        pictures = []
+        for k in range(5):  # five new urgent alarms while the collector says: flood
+            line = changed(2 + k)
+            line.alarms += [new_alarm(200 + j, 1) for j in range(k + 1)]
+            line.flood, line.flood_window = 11 + k, 600.0
+            pictures.append(line)
+        for picture in pictures:
+            publish_from_thread(source, [picture])
+            await until(lambda p=picture: app.line.version == p.version)
+        assert app.bells_rung == 1
+        assert "ALARM FLOOD: 15 in 10m" in str(app.screen.query_one(TopBar).render())
+
+
+async def test_a_failing_collector_shows_in_the_top_line_and_the_feeds_view(
+    source: FakeSource,
+) -> None:
+    app = LinewatchApp(source, FakeActions(), bell=False, clock=fixed_clock, ascii_only=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        line = changed(2)
+        line.problem = "OperationalError: database or disk is full"
+        publish_from_thread(source, [line])
+        await until(lambda: app.line.version == 2)
+        top = str(app.screen.query_one(TopBar).render())
+        assert "MONITORING FAILING: OperationalError" in top  # at 80 columns too
+        await pilot.press("f")
+        await pilot.pause()
+        shown = " ".join(str(w.render()) for w in app.screen.query(Static))
+        assert "collecting fails: OperationalError: database or disk is full" in shown

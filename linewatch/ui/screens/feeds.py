@@ -126,6 +126,11 @@ class FeedScreen(TableScreen):
         feeds = self.lw.line.feeds
         row = self.table.cursor_row
         text = Text(end="")
+        if self.lw.line.problem:  # the collector itself fails: above any file's details
+            text.append("collecting fails: ", f"bold {palette.SIGNAL}")
+            text.append(visible(self.lw.line.problem), palette.SIGNAL)
+            text.append("\nwhat it read is read again after a pause; nothing is lost\n",
+                        palette.LABEL)
         if not feeds:
             text.append("no file followed yet", palette.LABEL)
         elif 0 <= row < len(feeds):
