@@ -28,7 +28,7 @@ from linewatch.engine.stream import ChartLimitsState, ChartRules, lookback
 from linewatch.errors import BadLimits, NotEnoughData
 
 VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
-HISTORY_KEEP = 2000  # plotted points kept in memory per chart (detail view, new baselines)
+HISTORY_KEEP = 2000  # plotted points kept in memory per chart (a new baseline reaches back)
 STATE_HISTORY = 500  # of those, how many are saved with the engine state
 
 
@@ -399,11 +399,11 @@ class CharacteristicEngine:
             idx = start + k
             self.loc_history.append(PlottedPoint(self.loc_chart, idx, float(loc_vals[k]),
                                                  int(rows[k]), self.phase, True,
-                                                 loc_hits.get(k, []), tag_of(k)))
+                                                 loc_hits.get(k, [])))
             if k >= disp_from:
                 self.disp_history.append(PlottedPoint(
                     self.disp_chart, idx, float(disp_vals[k]), int(rows[k]), self.phase, True,
-                    disp_hits.get(k - disp_from, []), tag_of(k)))
+                    disp_hits.get(k - disp_from, [])))
         for chart, lo in ((self.loc_chart, start), (self.disp_chart, start + disp_from)):
             if lo <= start + count - 1:
                 earlier, _ = out.judged.get(chart, (lo, lo))
@@ -469,6 +469,9 @@ class CharacteristicEngine:
             for rule_id in point.rules:
                 out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
                                           point.value, point.meta))
+            # judged: its firings carry the row's tag now; the kept point need not (memory is
+            # bounded by HISTORY_KEEP points per chart, and most of a point was its tag)
+            point.meta = None
 
     # -- phases -------------------------------------------------------------------------------
     def new_baseline(self, start_index: int, baseline: int | None = None) -> None:
