@@ -14,8 +14,8 @@ from store_fixtures import line_with_alarms, linewatch
 from linewatch.store.db import Store
 from linewatch.view import SHELVED, UNACKNOWLEDGED
 
-# The keys the list always had, then those the condition-based alarm model adds (in the order
-# the issue that introduced them lists them).
+# The keys the list always had, then those the condition-based alarm model adds, in the
+# documented order (README).
 KEYS = [
     "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index", "raised_at",
     "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note", "shelved_until",

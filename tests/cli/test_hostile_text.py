@@ -3,7 +3,7 @@ reaches the terminal raw: every command's stdout and stderr hold no control char
 and line feed, the hostile text is still shown (escaped, `\\x1b`), and jsonl stays valid JSON
 with the exact original text.
 
-The hostile key is the one of the probe in the issue: ESC [ 2 J clears the screen, OSC 0 retitles
+The hostile key is a probe's: ESC [ 2 J clears the screen, OSC 0 retitles
 the window and OSC 52 writes the clipboard (xterm control sequences, common practice).
 """
 

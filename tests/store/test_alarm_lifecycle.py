@@ -266,7 +266,7 @@ def test_priorities_come_from_the_config(store: Store) -> None:
 def test_list_record_has_exactly_the_documented_keys(book: AlarmBook) -> None:
     book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1_700_000_000)
     record = book.list_record(book.alarms()[0], now=1_700_000_001)
-    # the keys the list always had, then those the episode model adds, in the order
+    # the keys the list always had, then those the episode model adds, in the documented order
     assert list(record) == [
         "id", "kind", "characteristic", "chart", "rule", "first_index", "last_index",
         "raised_at", "state", "priority", "acknowledged_by", "acknowledged_at", "reason", "note",

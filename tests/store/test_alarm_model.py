@@ -156,7 +156,7 @@ def test_clear_after_1_returns_at_the_first_quiet_point(book: AlarmBook) -> None
 
 
 def test_the_default_clear_after_is_8_plotted_points(book: AlarmBook) -> None:
-    """The issue's default: the episode returns at the 8th quiet point, not before."""
+    """The default: the episode returns at the 8th quiet point, not before."""
     book.observe_chart("od", "individuals", 0, 7, {"we1": [0]}, now=1)
     assert book.alarms()[0].active
     assert names(book.observe_chart("od", "individuals", 8, 8, {}, now=2)) == [
@@ -297,7 +297,7 @@ def test_a_one_sided_spec_counts_one_side(book: AlarmBook) -> None:
 def test_shelving_is_bounded_by_the_configured_maximum(store: Store, operator: Actor) -> None:
     book = AlarmBook(store)
     book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
-    with pytest.raises(LinewatchError, match=r"at most 12h"):  # the issue's default: 12 h
+    with pytest.raises(LinewatchError, match=r"at most 12h"):  # the default: 12 h
         book.shelve(1, 12 * 3600 + 1, "long", now=2, actor=operator)
     book.shelve(1, 12 * 3600, "whole shift", now=2, actor=operator)
     limited = AlarmBook(store, parse_config('[alarms]\nshelve_max = "30m"\n', "s.toml"))
@@ -375,7 +375,7 @@ def raise_on_charts(book: AlarmBook, count: int, now: float, first: int = 0) -> 
 
 
 def test_more_than_10_alarms_in_10_minutes_is_a_flood_by_default(book: AlarmBook) -> None:
-    """The issue's defaults (after ISA-18.2's guidance): more than 10 in 10 minutes."""
+    """The defaults (after ISA-18.2's guidance): more than 10 in 10 minutes."""
     raise_on_charts(book, 10, now=1000)
     assert book.check_flood(now=1010) == [] and book.flood() is None
     raise_on_charts(book, 1, now=1011, first=10)
@@ -501,8 +501,8 @@ def test_the_priority_is_the_most_urgent_of_the_rules_seen_whatever_the_config(
     store: Store,
 ) -> None:
     """With run rules configured more urgent than a limit break, a beyond-limits alarm that
-    then sees a run rule takes the run rule's priority (and is escalated), as the issue's
-    "priority = the most urgent of the rules seen" says."""
+    then sees a run rule takes the run rule's priority (and is escalated): the priority is
+    the most urgent of the rules seen."""
     config = parse_config('[alarms.priorities]\nbeyond-limits = 3\nrun-rule = 2\n', "p.toml")
     book = AlarmBook(store, config)
     book.observe_chart("od", "individuals", 0, 0, {"we1": [0]}, now=1)
@@ -567,7 +567,7 @@ def test_shelving_and_acknowledging_change_no_episode(
 def test_a_new_baseline_while_rows_arrive_never_stops_the_alarm_book(
     tmp_path: Path, chunk: int
 ) -> None:
-    """The stall the issue reports: a new baseline requested while rows arrive, with a point of
+    """The stall once met by a user: a new baseline requested while rows arrive, with a point of
     the new baseline window beyond the new limits. Fed as the collector feeds it (push, then
     each chart's judged range and firings; `settle` right after the request), every firing lies
     in its judged range, the book never raises, and the alarm counts every firing point once."""
