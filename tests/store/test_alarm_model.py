@@ -14,6 +14,7 @@ from __future__ import annotations
 import itertools
 import json
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -88,6 +89,30 @@ def firing_cases(draw: st.DrawFn) -> tuple[int, dict[str, list[int]], list[int],
     return n, fired, cuts, clear_after, acks
 
 
+def feed_in_chunks(book: AlarmBook, fired: dict[str, list[int]], bounds: list[int],
+                   clear_after: int, between: Callable[[int, int], None]) -> None:
+    """Judge points bounds[k]..bounds[k+1]-1 chunk by chunk, as the collector does, calling
+    `between(k, lo)` after each chunk (what an operator does between passes)."""
+    for k, (lo, hi) in enumerate(itertools.pairwise(bounds)):
+        chunk = {r: [i for i in f if lo <= i < hi] for r, f in fired.items()}
+        book.observe_chart("od", "individuals", lo, hi - 1, chunk, now=float(lo),
+                           clear_after=clear_after)
+        between(k, lo)
+
+
+def acknowledge_all(book: AlarmBook, at: float) -> None:
+    ids = [a.id for a in book.alarms() if not a.acknowledged]
+    if ids:
+        book.acknowledge(ids, "tool wear", now=at, actor=Actor("op"))
+
+
+def trail_episodes(store: Store) -> tuple[list[int], list[int]]:
+    """First firings (raised, re-raised) and last firings (returned) of the trail's episodes."""
+    starts = sorted([p["first_index"] for _, _, p in trail(store, "raised")]
+                    + [p["index"] for _, _, p in trail(store, "re-raised")])
+    return starts, [p["last_index"] for _, _, p in trail(store, "returned-to-normal")]
+
+
 @settings(max_examples=60, deadline=None)
 @given(case=firing_cases())
 def test_live_alarms_give_the_episodes_of_the_definition_whatever_the_chunking(
@@ -100,21 +125,16 @@ def test_live_alarms_give_the_episodes_of_the_definition_whatever_the_chunking(
     assert [(e.first, e.last, e.returned_at) for e in want] == reference_episodes(
         points, n - 1, clear_after)
     bounds = [0, *(c for c in cuts if c < n), n]
-    operator = Actor("op")
     with tempfile.TemporaryDirectory() as tmp, Store(Path(tmp) / "s") as store:
         book = AlarmBook(store)
-        for k, (lo, hi) in enumerate(itertools.pairwise(bounds)):
-            chunk = {r: [i for i in f if lo <= i < hi] for r, f in fired.items()}
-            book.observe_chart("od", "individuals", lo, hi - 1, chunk, now=float(lo),
-                               clear_after=clear_after)
+
+        def between(k: int, lo: int) -> None:
             if acks[k]:
-                ids = [a.id for a in book.alarms() if not a.acknowledged]
-                if ids:
-                    book.acknowledge(ids, "tool wear", now=float(lo) + 0.5, actor=operator)
-        starts = sorted([p["first_index"] for _, _, p in trail(store, "raised")]
-                        + [p["index"] for _, _, p in trail(store, "re-raised")])
+                acknowledge_all(book, lo + 0.5)
+
+        feed_in_chunks(book, fired, bounds, clear_after, between)
+        starts, returns = trail_episodes(store)
         assert starts == [e.first for e in want]
-        returns = [p["last_index"] for _, _, p in trail(store, "returned-to-normal")]
         assert returns == [e.last for e in want if e.returned_at is not None]
         rows = book.alarms(include_closed=True)
         assert sum(a.episodes for a in rows) == len(want)
@@ -532,24 +552,19 @@ def test_shelving_and_acknowledging_change_no_episode(
     n, fired, cuts, clear_after, _ = case
     want = episodes([i for f in fired.values() for i in f], n - 1, clear_after)
     bounds = [0, *(c for c in cuts if c < n), n]
-    operator = Actor("op")
     with tempfile.TemporaryDirectory() as tmp, Store(Path(tmp) / "s") as store:
         book = AlarmBook(store)
-        for k, (lo, hi) in enumerate(itertools.pairwise(bounds)):
-            chunk = {r: [i for i in f if lo <= i < hi] for r, f in fired.items()}
-            book.observe_chart("od", "individuals", lo, hi - 1, chunk, now=float(lo),
-                               clear_after=clear_after)
+
+        def between(k: int, lo: int) -> None:
             if shelving[k] == "ack":
-                ids = [a.id for a in book.alarms() if not a.acknowledged]
-                if ids:
-                    book.acknowledge(ids, "tool wear", now=lo + 0.5, actor=operator)
+                acknowledge_all(book, lo + 0.5)
             elif shelving[k] == "shelve":
                 book.shelve_characteristic("od", shelf_for, "trial", now=lo + 0.5,
-                                           actor=operator)
-        starts = sorted([p["first_index"] for _, _, p in trail(store, "raised")]
-                        + [p["index"] for _, _, p in trail(store, "re-raised")])
+                                           actor=Actor("op"))
+
+        feed_in_chunks(book, fired, bounds, clear_after, between)
+        starts, returns = trail_episodes(store)
         assert starts == [e.first for e in want]
-        returns = [p["last_index"] for _, _, p in trail(store, "returned-to-normal")]
         assert returns == [e.last for e in want if e.returned_at is not None]
         entries = [a for a, _, _ in trail(store) if a in ("raised", "closed")]
         assert ("raised", "raised") not in set(itertools.pairwise(entries))
