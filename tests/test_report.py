@@ -217,9 +217,8 @@ def test_subgroup_size_comes_back_from_xbar_and_range_limits(tmp_path: Path) -> 
         store.close()
 
 
-def test_markdown_tables_are_well_formed(shift_store) -> None:
-    store, _ = shift_store
-    text = render_markdown(_report(store))
+def markdown_tables(text: str) -> list[list[str]]:
+    """The Markdown tables of a text, each as its lines."""
     tables: list[list[str]] = []
     current: list[str] = []
     for line in [*text.splitlines(), ""]:
@@ -228,6 +227,13 @@ def test_markdown_tables_are_well_formed(shift_store) -> None:
         elif current:
             tables.append(current)
             current = []
+    return tables
+
+
+def test_markdown_tables_are_well_formed(shift_store) -> None:
+    store, _ = shift_store
+    text = render_markdown(_report(store))
+    tables = markdown_tables(text)
     # characteristics, alarms, alarm performance, most frequent (none shown twice: left out),
     # still open at the end, limits, feed health
     assert len(tables) == 6
@@ -659,14 +665,7 @@ def test_markdown_cells_with_a_pipe_stay_escaped(episode_store) -> None:
     for row in (line for line in text.splitlines() if line.startswith("|")):
         assert HOSTILE.split("|")[0] + "|" not in row.replace("\\|", "")
     # every table row of one table has the same number of unescaped pipes
-    tables: list[list[str]] = []
-    current: list[str] = []
-    for line in [*text.splitlines(), ""]:
-        if line.startswith("|"):
-            current.append(line)
-        elif current:
-            tables.append(current)
-            current = []
+    tables = markdown_tables(text)
     for table in tables:
         assert len({len(re.findall(r"(?<!\\)\|", row)) for row in table}) == 1, table[:3]
     assert "- #" in text and "od\\|gauge" in text  # the episode list escapes it too
