@@ -1,5 +1,5 @@
 """Allow `python -m linewatch`."""
 
-from linewatch.cli import main
+from linewatch.cli.main import main
 
 raise SystemExit(main())

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from linewatch.domain.errors import BadLimits, NotEnoughData
 from linewatch.engine.charts import chart_names, plotted_series, subgroup_stats
 from linewatch.engine.limits import (
     MIN_BASELINE,
@@ -25,7 +26,6 @@ from linewatch.engine.limits import (
 from linewatch.engine.rulebook import BEYOND, RuleSpec
 from linewatch.engine.rules import classify, evaluate_classified
 from linewatch.engine.stream import ChartLimitsState, ChartRules, lookback
-from linewatch.errors import BadLimits, NotEnoughData
 
 VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (a new baseline reaches back)

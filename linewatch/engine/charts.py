@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from linewatch.model import (
+from linewatch.domain.records import (
     CHART_INDIVIDUALS,
     CHART_MOVING_RANGE,
     CHART_RANGE,

@@ -18,10 +18,10 @@ from math import isfinite, sqrt
 
 import numpy as np
 
+from linewatch.domain.errors import BadLimits, NotEnoughData
+from linewatch.domain.records import DISPERSION_CHARTS
 from linewatch.engine import constants as k
 from linewatch.engine.charts import chart_names
-from linewatch.errors import BadLimits, NotEnoughData
-from linewatch.model import DISPERSION_CHARTS
 
 MIN_BASELINE = 2
 

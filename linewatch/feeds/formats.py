@@ -50,9 +50,9 @@ from typing import Any, overload
 
 import numpy as np
 
-from linewatch.config import FeedConfig
-from linewatch.errors import LinewatchError
-from linewatch.model import MAX_MAGNITUDE, Notice, Rejected
+from linewatch.config.loading import FeedConfig
+from linewatch.domain.errors import LinewatchError
+from linewatch.domain.records import MAX_MAGNITUDE, Notice, Rejected
 
 MAX_LINE_BYTES = 1 << 20
 FAST_BLOCK_BYTES = 32 << 10  # blocks at least this large take the whole-buffer path

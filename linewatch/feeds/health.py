@@ -22,8 +22,8 @@ from datetime import datetime, time
 
 import numpy as np
 
-from linewatch.model import FeedEvent
-from linewatch.words import count
+from linewatch.domain.records import FeedEvent
+from linewatch.domain.words import count
 
 
 @dataclass(slots=True)

@@ -37,10 +37,10 @@ import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
-from linewatch.config import FeedConfig
+from linewatch.config.loading import FeedConfig
+from linewatch.domain.records import FeedEvent, FileState
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
 from linewatch.feeds.patterns import Expansion, expand
-from linewatch.model import FeedEvent, FileState
 
 FINGERPRINT_BYTES = 1024
 READ_SIZE = 1 << 20

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import BinaryIO
 
-from linewatch.simulate import Action, Header, Note, Rotate, Row
+from linewatch.simulation.line import Action, Header, Note, Rotate, Row
 
 PARTIAL_PAUSE = 0.03  # seconds between the two pieces of a split row
 

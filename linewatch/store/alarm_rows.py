@@ -1,12 +1,18 @@
 """Alarm rows and their derived ISA-18.2 / IEC 62682 state. The lifecycle rules (when to raise,
-extend, return, close) live in `linewatch.alarms`; this module only stores and reads."""
+extend, return, close) live in `linewatch.alarms.book`; this module only stores and reads."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING, Any
 
-from linewatch.view import ACKNOWLEDGED, NORMAL, RETURNED_UNACKNOWLEDGED, SHELVED, UNACKNOWLEDGED
+from linewatch.present.view import (
+    ACKNOWLEDGED,
+    NORMAL,
+    RETURNED_UNACKNOWLEDGED,
+    SHELVED,
+    UNACKNOWLEDGED,
+)
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store

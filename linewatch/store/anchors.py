@@ -23,10 +23,10 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 from urllib.parse import quote, unquote
 
-from linewatch.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.config import MonitorConfig
+    from linewatch.config.loading import MonitorConfig
     from linewatch.store.db import Store
 
 MARK = "linewatch-audit-anchor v1"
@@ -103,7 +103,7 @@ def configure_audit(store: Store, monitor: MonitorConfig, source: str = "config"
     """Apply the config's audit settings to an open store: the key (when `audit_key_file` is
     set) signs new entries; the returned Anchorer (when `audit_anchor_file` is set) writes
     anchors. Both files must lie outside the state directory (ConfigError otherwise)."""
-    from linewatch.errors import ConfigError
+    from linewatch.domain.errors import ConfigError
     from linewatch.store.audit import load_key
 
     for key, path in (("audit_key_file", monitor.audit_key_file),

@@ -27,8 +27,8 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
-from linewatch.errors import LinewatchError
-from linewatch.safe_text import json_safe
+from linewatch.domain.errors import LinewatchError
+from linewatch.domain.safe_text import json_safe
 from linewatch.store.actor import current_actor
 
 if TYPE_CHECKING:

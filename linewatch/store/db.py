@@ -22,7 +22,7 @@ from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from linewatch.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError
 from linewatch.store.schema import MIGRATIONS
 
 if TYPE_CHECKING:
@@ -252,7 +252,7 @@ class Store:
 
     @cached_property
     def alarms(self) -> AlarmRows:
-        """Alarm rows (the lifecycle logic lives in linewatch.alarms)."""
+        """Alarm rows (the lifecycle logic lives in linewatch.alarms.book)."""
         from linewatch.store.alarm_rows import AlarmRows
 
         return AlarmRows(self)

@@ -8,7 +8,7 @@ import json
 import time
 from typing import TYPE_CHECKING
 
-from linewatch.model import FileState
+from linewatch.domain.records import FileState
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store

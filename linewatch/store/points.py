@@ -13,10 +13,10 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from linewatch.model import FeedEvent, Limits
+from linewatch.domain.records import FeedEvent, Limits
 
 if TYPE_CHECKING:
-    from linewatch.config import CharacteristicConfig
+    from linewatch.config.loading import CharacteristicConfig
     from linewatch.store.db import Store
 
 KEEP_SECONDS = 7 * 86400.0

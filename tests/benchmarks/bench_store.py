@@ -12,8 +12,8 @@ import tempfile
 import time
 from pathlib import Path
 
-from linewatch.alarms import AlarmBook
-from linewatch.model import FileState
+from linewatch.alarms.book import AlarmBook
+from linewatch.domain.records import FileState
 from linewatch.store.db import Store
 
 CHARACTERISTICS = 20

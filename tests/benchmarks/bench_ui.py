@@ -18,8 +18,8 @@ import time
 
 from textual import events
 
-from linewatch import view
-from linewatch.ui.app import LinewatchApp
+from linewatch.faces.tui.app import LinewatchApp
+from linewatch.present import view
 
 CHARACTERISTICS = 200
 POINTS_SHOWN = 120

@@ -17,9 +17,9 @@ import statistics
 import sys
 import time
 
-from linewatch import view
-from linewatch.ui.app import LinewatchApp
-from linewatch.ui.screens.queue import AlarmQueueScreen
+from linewatch.faces.tui.app import LinewatchApp
+from linewatch.faces.tui.screens.queue import AlarmQueueScreen
+from linewatch.present import view
 
 KINDS = ["out-of-spec", "beyond-limits", "run-rule", "feed-health"]
 STATES = [view.UNACKNOWLEDGED, view.ACKNOWLEDGED, view.RETURNED_UNACKNOWLEDGED, view.SHELVED]

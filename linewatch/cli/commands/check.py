@@ -1,0 +1,184 @@
+"""`linewatch check`: chart finished logs, report limits, signals, capability and the false-alarm
+budget. Exit 0 when no signal, 1 when signals, 2 for usage or input errors (also when a
+characteristic could not be charted: the others are still reported)."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from linewatch.config.loading import CharacteristicConfig, FeedConfig
+from linewatch.config.selection import (
+    chart_setup,
+    feed_for_log,
+    load_optional_config,
+    select_characteristics,
+    validate_chart_options,
+)
+from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
+from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
+from linewatch.domain.records import Rejected
+from linewatch.domain.safe_text import json_safe
+from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_history
+
+
+@dataclass(slots=True)
+class Column:
+    """All values of one characteristic across the logs, with where each came from."""
+
+    values: np.ndarray
+    lines: np.ndarray
+    files: list[str]  # the logs read, in order
+    file_index: np.ndarray  # for each value, its log's position in `files`
+
+
+@dataclass(slots=True)
+class Analysis:
+    """One characteristic's results."""
+
+    config: CharacteristicConfig
+    column: Column
+    result: HistoryResult
+    summary: dict[str, Any]
+    setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
+
+
+def _read_all(
+    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
+) -> tuple[dict[str, Column], list[Rejected]]:
+    """Read every log into per-characteristic columns plus the rejected rows."""
+    from linewatch.feeds.formats import read_log
+
+    batches = [read_log(p, feed, columns) for p, feed in zip(paths, feeds, strict=True)]
+    names: list[str] = []
+    for b in batches:
+        names.extend(k for k in b.values if k not in names)
+    cols: dict[str, Column] = {}
+    files = [b.file for b in batches]
+    for name in names:
+        vals = [np.asarray(b.values.get(name, []), dtype=float) for b in batches]
+        lines = [np.asarray(b.lines.get(name, []), dtype=np.int64) for b in batches]
+        fidx = [np.full(len(v), i, dtype=np.int32) for i, v in enumerate(vals)]
+        cols[name] = Column(np.concatenate(vals), np.concatenate(lines), files,
+                            np.concatenate(fidx))
+    rejected: list[Rejected] = [r for b in batches for r in b.rejected]
+    for n in (n for b in batches for n in b.notices):  # nothing lost, but worth knowing
+        sys.stderr.write(f"linewatch: warning: {n.file}: line {n.line}: {n.text}\n")
+    return cols, rejected
+
+
+def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
+             result: HistoryResult, rejected: int) -> dict[str, Any]:
+    from linewatch.engine.budget import average_run_length
+    from linewatch.engine.summary import summarize
+
+    s = summarize(values, sigma_within=result.limits.sigma_within, lsl=c.lsl, usl=c.usl)
+    record = {"type": "summary", "characteristic": c.name, "points": int(values.shape[0]),
+              "rejected": rejected}
+    record.update({k: v for k, v in s.to_dict().items() if k != "points"})
+    budget = average_run_length(list(setup.rules))
+    finite = math.isfinite(budget.arl)
+    record["arl0"] = budget.arl if finite else None  # no rule can fire: no run length
+    record["arl0_method"] = budget.method
+    record["arl0_std_error"] = budget.std_error
+    record["false_alarms_per_1000"] = budget.false_alarms_per_1000
+    if result.leftover:
+        record["left_out_values"] = result.leftover
+    return record
+
+
+@dataclass(frozen=True, slots=True)
+class NotCharted:
+    """A characteristic that could not be charted (too few values, σ̂ = 0, limits not finite),
+    with the reason; the others are charted all the same."""
+
+    characteristic: str
+    values: int
+    problem: str
+
+
+def analyse(
+    args: argparse.Namespace,
+) -> tuple[list[Analysis], list[Rejected], list[NotCharted]]:
+    """Read the logs named in `args` and chart every selected characteristic; those that
+    cannot be charted are returned with the reason instead of stopping the others."""
+    validate_chart_options(args)
+    config = load_optional_config(args.config)
+    feeds = [feed_for_log(config, p, args) for p in args.logs]
+    wanted = None
+    if args.column:
+        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in args.column]
+    elif config.characteristics:
+        wanted = [c.column for c in config.characteristics]
+    cols, rejected = _read_all(args.logs, feeds, wanted)
+    chars = select_characteristics(config, args, list(cols))
+    if not chars:
+        raise LinewatchError("no numeric column to chart (name one with --column)")
+    out: list[Analysis] = []
+    skipped: list[NotCharted] = []
+    for c in chars:
+        col = cols[c.column]
+        setup = chart_setup(c, None)
+        try:
+            result = analyse_history(col.values, setup)
+        except (NotEnoughData, BadLimits) as exc:
+            skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+            continue
+        out.append(Analysis(c, col, result, _summary(col.values, c, setup, result,
+                                                     len(rejected)), setup))
+    if not out and skipped:  # nothing could be charted: the one-line error, as before
+        raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
+            f"{n.characteristic}: {n.problem}" for n in skipped))
+    return out, rejected, skipped
+
+
+def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
+    """Signal records as JSON text, formatted directly from the firing table: the same text
+    `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each.
+    With several logs each record also names the `file` its row came from."""
+    name = json_safe(json.dumps(a.config.name, ensure_ascii=False))
+    t = a.result.table
+    col = a.column
+    heads = [[f'{{"type":"signal","characteristic":{name},"chart":"{c}","rule":"{r}","index":'
+              for r in t.rules] for c in t.charts]
+    lines = col.lines[t.row].tolist()
+    if with_file:
+        files = [json_safe(json.dumps(f, ensure_ascii=False)) for f in col.files]
+        tails = [f',"file":{files[k]}}}' for k in col.file_index[t.row].tolist()]
+    else:
+        tails = ["}"] * len(lines)
+    out = []
+    for i, c, r, line, v, tail in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
+                                      lines, t.value.tolist(), tails, strict=True):
+        value = repr(v) if math.isfinite(v) else "null"
+        out.append(f'{heads[c][r]}{i},"line":{line},"value":{value}{tail}')
+    return out
+
+
+def run(args: argparse.Namespace) -> int:
+    analyses, rejected, skipped = analyse(args)
+    several_files = len(args.logs) > 1
+    write = sys.stdout.write
+    if args.format == "jsonl":
+        lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
+        lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
+                  for n in skipped]
+        for a in analyses:
+            for lim in (a.result.limits.location, a.result.limits.dispersion):
+                lines.append(dumps(limits_record(a.config.name, lim)))
+            lines.extend(_signal_lines(a, several_files))
+            lines.append(dumps(a.summary))
+        write("\n".join(lines) + "\n")
+    else:
+        from linewatch.cli.commands.check_text import render_text
+
+        write(render_text(analyses, rejected, several_files, skipped))
+    if skipped:  # an input problem, as when no characteristic can be charted at all
+        return 2
+    return 1 if any(len(a.result.table) for a in analyses) else 0

@@ -1,0 +1,98 @@
+"""`linewatch report`: the shift handover report from the store, as Markdown, HTML or CSV."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from datetime import datetime
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from linewatch.domain.errors import LinewatchError
+
+if TYPE_CHECKING:
+    from linewatch.config.loading import Config
+    from linewatch.store.db import Store
+
+DEFAULT_SPAN = "8h"
+
+
+def parse_when(text: str, option: str) -> float:
+    """An ISO date or date-time as epoch seconds; without an offset it is local time."""
+    try:
+        stamp = datetime.fromisoformat(text.strip())
+    except ValueError:
+        raise LinewatchError(
+            f"{option}: not a date or time: {text!r} (use e.g. 2026-03-02 or 2026-03-02T06:00)"
+        ) from None
+    if stamp.tzinfo is None:
+        stamp = stamp.astimezone()  # naive: the local time zone
+    return stamp.timestamp()
+
+
+def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
+    """[since, until) from --since / --from / --to (default: the last 8 hours)."""
+    from linewatch.domain.durations import parse_duration
+
+    until = parse_when(args.to, "--to") if args.to else now
+    if args.from_:
+        since = parse_when(args.from_, "--from")
+    else:
+        try:
+            seconds = parse_duration(args.since or DEFAULT_SPAN)
+        except ValueError as exc:
+            raise LinewatchError(f"--since: {exc}") from None
+        since = until - seconds
+    if since >= until:
+        raise LinewatchError("the period is empty: its start is not before its end")
+    return since, until
+
+
+def _write_anchor(store: Store, config: Config | None, line: str) -> None:
+    """Append the report's anchor to the config's anchor file (if any); a failure is told on
+    stderr and does not stop the report."""
+    if config is None or not config.monitor.audit_anchor_file:
+        return
+    from linewatch.store.anchors import append_anchor
+
+    try:
+        append_anchor(config.monitor.audit_anchor_file, line)
+    except OSError as exc:
+        print(f"linewatch: cannot write the audit anchor to {config.monitor.audit_anchor_file}: "
+              f"{exc.strerror or exc}", file=sys.stderr)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Write the report to -o FILE or standard output; exit 0 (an empty period included)."""
+    from linewatch.cli.commands._store_args import open_existing
+    from linewatch.report.build import build_report
+
+    now = time.time()
+    since, until = period(args, now)
+    store, config = open_existing(args)
+    try:
+        report = build_report(store, since, until, config, now)
+        _write_anchor(store, config, report.audit_anchor)
+    finally:
+        store.close()
+    if args.format == "html":
+        from linewatch.report.as_html import render_html
+
+        text = render_html(report)
+    elif args.format == "csv":
+        from linewatch.report.as_csv import render_csv
+
+        text = render_csv(report)
+    else:
+        from linewatch.report.as_markdown import render_markdown
+
+        text = render_markdown(report)
+    if args.output:
+        try:
+            Path(args.output).write_text(text, encoding="utf-8")
+        except OSError as exc:
+            raise LinewatchError(f"-o: cannot write {args.output}: {exc.strerror}") from None
+    else:
+        sys.stdout.write(text)
+    return 0

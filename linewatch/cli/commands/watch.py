@@ -1,0 +1,149 @@
+"""`linewatch watch`: follow growing logs; the screen, or plain records with --no-ui."""
+
+from __future__ import annotations
+
+import argparse
+import signal
+import sys
+import threading
+from pathlib import Path
+from types import FrameType
+from typing import TYPE_CHECKING, Any
+
+from linewatch.config.loading import Config, FeedConfig
+from linewatch.config.selection import (
+    JSON_SUFFIXES,
+    apply_overrides,
+    load_optional_config,
+    select_characteristics,
+    validate_chart_options,
+)
+from linewatch.domain.errors import LinewatchError
+
+if TYPE_CHECKING:
+    from linewatch.pipeline.monitor import Monitor, WatchPlan
+
+
+def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
+    """Feeds and characteristics from the config and the command line."""
+    from linewatch.pipeline.monitor import WatchPlan
+
+    feeds: list[FeedConfig] = [f for f in config.feeds]
+    if args.patterns:
+        base = feeds[0] if feeds else FeedConfig(paths=[])
+        if not feeds and all(p.lower().endswith(JSON_SUFFIXES) for p in args.patterns):
+            base = FeedConfig(paths=[], layout="jsonl")
+        extra = FeedConfig(
+            paths=[str(Path(p).expanduser()) for p in args.patterns], layout=base.layout,
+            delimiter=base.delimiter, decimal=args.decimal or base.decimal,
+            encoding=base.encoding, time_column=base.time_column, name_column=base.name_column,
+            value_column=base.value_column,
+        )
+        feeds = [extra] if not config.feeds else [*feeds, extra]
+    if not feeds:
+        raise LinewatchError(
+            "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
+        )
+    chars = select_characteristics(config, args, None) if (
+        args.column or config.characteristics) else []
+    columns = [c.column for c in chars] if chars else None
+    baseline = args.baseline or config.monitor.baseline
+    return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
+                     baseline=baseline, overrides=lambda c: apply_overrides(c, args))
+
+
+def run(args: argparse.Namespace, title: str = "") -> int:
+    validate_chart_options(args)
+    config = load_optional_config(args.config)
+    plan = build_plan(args, config)
+    plan.title = title
+    from linewatch.runtime.statedir import resolve_state_dir
+
+    state_dir = resolve_state_dir(args.state_dir, config)
+    if args.no_ui:
+        return run_headless(plan, state_dir, args.format, args.poll)
+    return run_screen(plan, state_dir, args.poll, bell=config.monitor.bell and not args.no_bell)
+
+
+def run_headless(plan: WatchPlan, state_dir: Path, fmt: str, poll: float | None) -> int:
+    """Collect (or view) until SIGTERM/SIGINT/SIGHUP, then print one summary per
+    characteristic."""
+    from linewatch.faces.headless import Printer
+    from linewatch.pipeline.monitor import Monitor
+
+    printer = Printer(fmt)
+    monitor = Monitor(plan, state_dir, emit=printer, poll_seconds=poll)
+    stop = threading.Event()
+
+    def _stop(signum: int, frame: FrameType | None) -> None:
+        stop.set()
+
+    # a dropped SSH session (SIGHUP) ends it like SIGTERM: the pass is finished and the
+    # collector's lease given up at once, so another instance takes over without waiting
+    for sig in (signal.SIGTERM, signal.SIGINT, signal.SIGHUP):
+        signal.signal(sig, _stop)
+    monitor.run(stop)
+    for record in summaries(monitor):
+        printer(record)
+    return 0
+
+
+def summaries(monitor: Monitor) -> list[dict[str, Any]]:
+    """`summary` records per characteristic. `points` and the figures cover the readings the
+    store holds for it (up to the newest 100,000), whichever instance read them, so they agree
+    after a restart or a takeover; `read` is how many this instance read, `rejected` how many
+    rows it rejected."""
+    from linewatch.engine.charts import chart_names
+    from linewatch.engine.summary import summarize
+    from linewatch.runtime.statedir import open_store
+
+    out: list[dict[str, Any]] = []
+    store = open_store(monitor.state_dir, create=True)
+    try:
+        for name, c in monitor.char_configs.items():
+            recs = store.history.last_points(name, 100_000)
+            values = [r.value for r in recs]
+            limits = store.history.current_limits(name)
+            loc = limits.get(chart_names(c.subgroup_size, c.effective_dispersion)[0])
+            sigma = loc.sigma * (c.subgroup_size ** 0.5) if loc else None
+            s = summarize(values, sigma_within=sigma, lsl=c.lsl, usl=c.usl).to_dict()
+            rec = {"type": "summary", "characteristic": name, "points": len(values),
+                   "read": monitor.counts.get(name, 0), "rejected": monitor.rejected}
+            rec.update({k: v for k, v in s.items() if k != "points"})
+            out.append(rec)
+    finally:
+        store.close()
+    return out
+
+
+def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
+    """The Textual screen over a monitor running on a background thread."""
+    from linewatch.pipeline.monitor import Monitor
+    from linewatch.present.face import MonitorFace
+
+    messages: list[dict[str, Any]] = []
+    from linewatch.runtime.exiting import on_forced_exit
+
+    monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
+    face = MonitorFace(monitor)
+    stop = threading.Event()
+    worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
+    worker.start()
+
+    def stop_collecting() -> None:
+        """Finish the collector's pass and give its lease up (also on a forced exit)."""
+        stop.set()
+        worker.join(timeout=5)
+
+    forget = on_forced_exit(stop_collecting)
+    try:
+        from linewatch.faces.tui.app import run_app
+
+        return run_app(face, face, bell=bell, title=monitor.title)
+    finally:
+        forget()
+        stop_collecting()
+        face.close()
+        for m in messages:
+            if m.get("type") == "hook":
+                print(f"linewatch: alarm hook: {m['problem']}", file=sys.stderr)

@@ -1,0 +1,278 @@
+"""Command line: argument parsing only. Each subcommand's work lives in `linewatch.cli.commands.*`,
+imported lazily so that `linewatch --help` and `linewatch check` start quickly."""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+EXIT_OK = 0
+EXIT_SIGNALS = 1
+EXIT_USAGE = 2
+
+
+def _add_chart_options(p: argparse.ArgumentParser) -> None:
+    """Options shared by `check` and `watch`: what to chart and how."""
+    p.add_argument("-c", "--config", metavar="CONFIG", help="TOML file declaring characteristics")
+    p.add_argument(
+        "--column",
+        action="append",
+        default=[],
+        metavar="NAME",
+        help="characteristic column to chart (repeatable; default: every numeric column)",
+    )
+    p.add_argument(
+        "--rules",
+        metavar="LIST",
+        help="rule ids and set names, comma-separated: nelson, western-electric, n1..n8, "
+        "we1..we4 (default: western-electric)",
+    )
+    p.add_argument("--center", type=float, metavar="C", help="known process centre (with --sigma)")
+    p.add_argument(
+        "--sigma", type=float, metavar="S", help="known standard deviation of individual values"
+    )
+    p.add_argument(
+        "--baseline",
+        type=int,
+        metavar="N",
+        help="estimate limits from the first N plotted points",
+    )
+    p.add_argument(
+        "--subgroup-size", type=int, metavar="N", help="consecutive values per subgroup (1-25)"
+    )
+    p.add_argument(
+        "--dispersion",
+        choices=("range", "stdev"),
+        help="dispersion chart for subgroups (default: range for n<=9, stdev for n>=10)",
+    )
+    p.add_argument("--lsl", type=float, metavar="X", help="lower specification limit")
+    p.add_argument("--usl", type=float, metavar="X", help="upper specification limit")
+    p.add_argument(
+        "--decimal",
+        choices=(".", ","),
+        help="decimal mark (default: ',' when the delimiter is ';', else '.')",
+    )
+
+
+def _add_state_dir(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--state-dir",
+        metavar="DIR",
+        help="folder of the alarm and ingest store (default: per config, in the user state dir)",
+    )
+    p.add_argument("-c", "--config", metavar="CONFIG", help="config whose state directory to use")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The full argument parser (cheap to build: no heavy imports)."""
+    parser = argparse.ArgumentParser(
+        prog="linewatch",
+        description="Watch measurement logs beside a production line: control charts, "
+        "Western Electric and Nelson run rules, capability, alarms with acknowledgement. "
+        "Run without a subcommand to open ./linewatch.toml.",
+    )
+    from linewatch import __version__
+
+    parser.add_argument("--version", action="version", version=f"linewatch {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser(
+        "check",
+        help="chart a finished log and report signals, limits and capability",
+        description="Read whole logs, estimate limits (Phase I) or use known ones, apply the run "
+        "rules and summarise. Exit 0: no signal, 1: signals, 2: usage or input error.",
+    )
+    p.add_argument("logs", nargs="+", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
+    _add_chart_options(p)
+    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="text for people (default) or one JSON record a line")
+
+    p = sub.add_parser(
+        "watch",
+        help="follow growing logs live (screen, or --no-ui for plain output)",
+        description="Follow appended logs through rotation and truncation, apply the run rules as "
+        "rows arrive, and raise alarms. PATTERN may be a quoted glob; new matching files are "
+        "picked up.",
+    )
+    p.add_argument("patterns", nargs="*", metavar="PATTERN", help="file or quoted glob")
+    _add_chart_options(p)
+    p.add_argument("--state-dir", metavar="DIR", help="folder of the ingest and alarm store")
+    p.add_argument(
+        "--poll",
+        type=float,
+        metavar="SECONDS",
+        help="poll files every SECONDS instead of waiting for file-system events (network shares)",
+    )
+    p.add_argument(
+        "--no-ui", action="store_true", help="print events instead of opening the screen"
+    )
+    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="text for people (default) or one JSON record a line")
+    p.add_argument("--no-bell", action="store_true", help="no terminal bell on new alarms")
+    p.add_argument("--clear-after", type=int, metavar="N",
+                   help="quiet plotted points after which an alarm episode returns to normal "
+                        "(default 8; 1: at the first quiet point)")
+
+    alarms = sub.add_parser("alarms", help="list, acknowledge and shelve alarms from the shell")
+    asub = alarms.add_subparsers(dest="alarms_command", metavar="ACTION", required=True)
+    a = asub.add_parser("list", help="open alarms (all with --all)")
+    a.add_argument("--all", action="store_true", help="include closed alarms")
+    a.add_argument("--format", choices=("text", "jsonl"), default="text",
+                   help="a table for people (default) or one JSON record a line")
+    _add_state_dir(a)
+    a = asub.add_parser("ack", help="acknowledge alarms with a reason")
+    a.add_argument("ids", nargs="*", type=int, metavar="ID")
+    a.add_argument(
+        "--characteristic", metavar="NAME", help="every open alarm of this characteristic"
+    )
+    a.add_argument("--reason", required=True, metavar="TEXT",
+                   help="why it happened: one of the reasons, or its number in the list")
+    a.add_argument("--note", default="", metavar="TEXT",
+                   help="what was seen or done (optional)")
+    _add_state_dir(a)
+    a = asub.add_parser(
+        "shelve", help="take an alarm out of annunciation for a while (still counted and audited)"
+    )
+    a.add_argument("id", type=int, nargs="?", metavar="ID")
+    a.add_argument("--characteristic", metavar="NAME",
+                   help="every alarm of this characteristic, and those it raises meanwhile")
+    a.add_argument("--for", dest="duration", required=True, metavar="DURATION",
+                   help="with a unit, e.g. 30m, 2h (at most alarms.shelve_max, default 12h)")
+    a.add_argument("--reason", required=True, metavar="TEXT", help="why it is shelved (required)")
+    _add_state_dir(a)
+    a = asub.add_parser("unshelve", help="bring a shelved alarm back")
+    a.add_argument("id", type=int, metavar="ID")
+    _add_state_dir(a)
+
+    p = sub.add_parser(
+        "baseline", help="start a new phase of limits from a point (carried out by the collector)"
+    )
+    p.add_argument("characteristic", metavar="CHARACTERISTIC")
+    at = p.add_mutually_exclusive_group(required=True)
+    at.add_argument("--at", type=int, metavar="INDEX", help="the plotted point the phase starts at")
+    at.add_argument("--now", action="store_true", help="from the next plotted point on")
+    p.add_argument("--reason", required=True, metavar="TEXT", help="why (kept in the audit trail)")
+    _add_state_dir(p)
+
+    audit = sub.add_parser("audit", help="verify or export the tamper-evident audit trail")
+    usub = audit.add_subparsers(dest="audit_command", metavar="ACTION", required=True)
+    u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
+    u.add_argument("--anchor", action="append", default=[], metavar="FILE",
+                   help="an anchor file or a shift report holding the trail's head, to check "
+                        "the trail still holds what it held then (repeatable)")
+    u.add_argument("--key", metavar="FILE",
+                   help="the audit key file, to check the entries signed with it (default: "
+                        "the config's monitor.audit_key_file)")
+    _add_state_dir(u)
+    u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
+    u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
+    u.add_argument("--format", choices=("csv", "jsonl"), default="jsonl",
+                   help="JSON lines (default) or CSV")
+    _add_state_dir(u)
+
+    p = sub.add_parser("report", help="shift handover report from the store")
+    when = p.add_mutually_exclusive_group()
+    when.add_argument("--since", metavar="DURATION", help="the last DURATION (default 8h)")
+    when.add_argument("--from", dest="from_", metavar="WHEN", help="start (ISO date/time)")
+    p.add_argument("--to", metavar="WHEN", help="end (ISO date/time; default now)")
+    p.add_argument("--format", choices=("markdown", "html", "csv"), default="markdown",
+                   help="Markdown (default), one HTML file with charts, or CSV")
+    p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
+    _add_state_dir(p)
+
+    p = sub.add_parser("simulate", help="write invented measurement logs with special causes")
+    p.add_argument("--out", required=True, metavar="DIR",
+                   help="folder for the logs (made if missing; logs already there are continued)")
+    p.add_argument("--rate", type=float, default=5.0, metavar="ROWS_PER_S",
+                   help="rows per second of the fastest gauge (default 5)")
+    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+                   help="run the line's clock this many times faster than real time (default 1)")
+    p.add_argument("--seed", type=int, default=1, metavar="N",
+                   help="random seed: the same seed writes the same values (default 1)")
+    p.add_argument("--duration", metavar="DURATION", help="stop after this long (default: forever)")
+
+    p = sub.add_parser("demo", help="open the screen on a simulated line (no setup needed)")
+    p.add_argument("--keep", action="store_true", help="keep the temporary folder on exit")
+    p.add_argument("--seed", type=int, default=1, metavar="N",
+                   help="random seed of the simulated line (default 1)")
+    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+                   help="run the simulated line this many times faster than real time (default 1)")
+    return parser
+
+
+_COMMANDS = {
+    "check": "linewatch.cli.commands.check",
+    "watch": "linewatch.cli.commands.watch",
+    "alarms": "linewatch.cli.commands.alarms",
+    "audit": "linewatch.cli.commands.audit",
+    "report": "linewatch.cli.commands.report",
+    "simulate": "linewatch.cli.commands.simulate",
+    "demo": "linewatch.cli.commands.demo",
+    "baseline": "linewatch.cli.commands.baseline",
+}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point: parse, dispatch lazily, turn user errors into one line and exit code 2.
+
+    Everything the commands (and argparse) print passes through the one sanitiser of
+    `linewatch.domain.safe_text`, so text from a log, a file name or a config cannot steer the
+    terminal; the screen draws through its own handle and escapes what it shows itself.
+    """
+    from linewatch.domain.safe_text import guarded_output
+
+    with guarded_output():
+        try:
+            return _main(argv)
+        except Exception:  # a bug: its traceback may quote a name or a file, so print it here
+            import traceback
+
+            traceback.print_exc()
+            return EXIT_SIGNALS  # the interpreter's own code for an uncaught exception
+
+
+def _main(argv: Sequence[str] | None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    from linewatch.domain.errors import LinewatchError
+    from linewatch.domain.safe_text import visible
+
+    try:
+        if args.command is None:
+            module = importlib.import_module("linewatch.cli.commands.default")
+        else:
+            module = importlib.import_module(_COMMANDS[args.command])
+        return int(module.run(args) or 0)
+    except LinewatchError as exc:
+        print(f"linewatch: {visible(exc)}", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        return 130
+    except BrokenPipeError:
+        return 0
+    except Exception as exc:
+        damage = _store_damage(exc)
+        if damage is None:
+            raise
+        print(f"linewatch: {damage}", file=sys.stderr)
+        return EXIT_USAGE
+
+
+def _store_damage(exc: BaseException) -> str | None:
+    """One line for a store file damaged or replaced while linewatch had it open (SQLite's
+    "file is not a database", "disk image is malformed"), or None for any other error. Full
+    disks and locks are OperationalErrors: those are retried where they happen, not here."""
+    import sqlite3
+
+    if not isinstance(exc, sqlite3.DatabaseError) or isinstance(exc, sqlite3.OperationalError):
+        return None
+    return (
+        f"the store's database file is damaged or was replaced while in use ({exc}); "
+        "nothing more was collected. Keep the damaged state directory for inspection, "
+        "move it aside, and start again: the logs are read afresh"
+    )
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,60 @@
+"""The JSON-lines records that `check` and `watch --format jsonl` print, built in one place."""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+from linewatch.domain.records import Rejected
+from linewatch.domain.safe_text import json_safe
+from linewatch.engine.limits import ChartLimits
+
+
+def _num(x: float | None) -> float | None:
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def limits_record(characteristic: str, lim: ChartLimits) -> dict[str, Any]:
+    return {
+        "type": "limits",
+        "characteristic": characteristic,
+        "chart": lim.chart,
+        "center": _num(lim.center),
+        "ucl": _num(lim.ucl),
+        "lcl": _num(lim.lcl),
+        "sigma": _num(lim.sigma),
+    }
+
+
+def not_charted_record(characteristic: str, values: int, problem: str) -> dict[str, Any]:
+    """A characteristic `check` could not chart (the others are charted)."""
+    return {"type": "not-charted", "characteristic": characteristic, "values": values,
+            "problem": problem}
+
+
+def signal_record(
+    characteristic: str, chart: str, rule: str, index: int, line: int, value: float
+) -> dict[str, Any]:
+    return {
+        "type": "signal",
+        "characteristic": characteristic,
+        "chart": chart,
+        "rule": rule,
+        "index": index,
+        "line": line,
+        "value": _num(value),
+    }
+
+
+def rejected_record(r: Rejected) -> dict[str, Any]:
+    return {"type": "rejected", "file": r.file, "line": r.line, "reason": r.reason}
+
+
+def dumps(record: dict[str, Any]) -> str:
+    """One compact JSON line (NaN and infinities never appear: they become null). Control
+    characters of any kind are JSON escapes, so the line is safe on a terminal."""
+    return json_safe(json.dumps(record, ensure_ascii=False, separators=(",", ":")))

@@ -1,0 +1,324 @@
+"""The close-up of one characteristic: both control charts, box plot, phases, trend, baseline."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.console import Group
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.events import Resize
+from textual.widgets import Static
+
+from linewatch.domain.safe_text import visible
+from linewatch.domain.words import count
+from linewatch.engine.rulebook import RULES
+from linewatch.engine.summary import trend
+from linewatch.faces.tui import palette
+from linewatch.faces.tui.formatting import STATE_WORDS, fmt_span, rule_mark
+from linewatch.faces.tui.screens.base import LineScreen
+from linewatch.faces.tui.widgets.box_plot import draw_box_plot
+from linewatch.faces.tui.widgets.chart_pane import ChartPane
+from linewatch.faces.tui.widgets.key_footer import KeyFooter
+from linewatch.faces.tui.widgets.phase_table import phase_table
+from linewatch.faces.tui.widgets.top_bar import TopBar
+from linewatch.present import view
+from linewatch.present.figures import fmt_reading
+
+TREND_WINDOW = 30  # points in the trend fit
+WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the charts
+
+
+def point_word(cv: view.CharacteristicView) -> str:
+    """What one plotted point of the close-up is: a reading's point, or a subgroup. (Readings
+    are single measurements; a chart of subgroups plots one point per subgroup.)"""
+    return "subgroup" if cv.subgroup_size > 1 else "point"
+
+
+def projection_words(slope: float, points: int, lsl: float | None, usl: float | None,
+                     seconds_per_point: float | None, decimals: int | None = None,
+                     word: str = "point") -> str:
+    """Where a significant trend leads: the spec limit it heads for, in plotted points (`word`:
+    point or subgroup) and, when the pace of the line is known, in time."""
+    name, limit = ("USL", usl) if slope > 0 else ("LSL", lsl)
+    if points <= 0:
+        return f"the fitted line is already past {name} {fmt_reading(limit, decimals)}"
+    when = f"about {count(points, word)}"
+    if seconds_per_point:
+        when += f", ~{fmt_span(points * seconds_per_point)} at the current pace"
+    return f"reaches {name} {fmt_reading(limit, decimals)} in {when} if it goes on"
+
+
+class CloseUpBody(VerticalScroll):
+    """Scrolls with up/down/PgUp/PgDn; left, right, Home and End stay with the point cursor."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("left", "screen.move(-1)", "Point", key_display="<-"),
+        Binding("right", "screen.move(1)", "Point", key_display="->", show=False),
+        Binding("home", "screen.move_to(0)", "First", show=False),
+        Binding("end", "screen.move_to(-1)", "Newest", show=False),
+        Binding("pagedown", "page_down", "Figures", key_display="PgDn",
+                tooltip="scroll down to the box plot, phases, trend and open alarms"),
+    ]
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """PgDn leads to the figures only when they sit below the charts (not beside them)."""
+        return not (action == "page_down" and self.screen.has_class("-wide"))
+
+
+class CloseUpScreen(LineScreen):
+    """Move the cursor over the location chart's points; `n` starts a new phase there."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape", "back", "Back", tooltip="back to where you came from"),
+        Binding("left", "move(-1)", "Point", key_display="<-", show=False,
+                tooltip="cursor one point left"),
+        Binding("right", "move(1)", "Point", key_display="->", show=False,
+                tooltip="cursor one point right"),
+        Binding("shift+left", "move(-10)", "10 left", show=False,
+                tooltip="cursor ten points left"),
+        Binding("shift+right", "move(10)", "10 right", show=False,
+                tooltip="cursor ten points right"),
+        Binding("home", "move_to(0)", "First", show=False, tooltip="cursor to the first point"),
+        Binding("end", "move_to(-1)", "Newest", show=False, tooltip="cursor to the newest point"),
+        Binding("n", "new_baseline", "New baseline",
+                tooltip="start a new phase of limits at the cursor's point"),
+    ]
+
+    def __init__(self, name: str, focus_index: int | None = None) -> None:
+        super().__init__()
+        self.characteristic = name
+        self.focus_index = focus_index
+        self.cursor: int | None = None  # position in location.values
+        self.detail: view.CharacteristicView | None = None
+        self._detail_key: tuple[object, ...] | None = None  # the line's key when it was read
+        # a new phase asked for here, and how many phases there were then (until one more comes)
+        self.requested: tuple[int, int] | None = None
+
+    def compose(self) -> ComposeResult:
+        g = self.lw.glyphs
+        yield TopBar(id="topbar")
+        with CloseUpBody(id="closeup-body"), Horizontal(id="closeup-grid"):
+            with Vertical(id="closeup-charts"):
+                yield ChartPane(g, id="closeup-location")
+                yield ChartPane(g, id="closeup-dispersion")
+                yield Static(id="closeup-cursor")
+            with Vertical(id="closeup-figures"):
+                yield Static(id="closeup-box")
+                yield Static(id="closeup-phases")
+                yield Static(id="closeup-trend")
+                yield Static(id="closeup-alarms")
+        yield KeyFooter()
+
+    def on_mount(self) -> None:
+        self.query_one(CloseUpBody).focus()
+        self.ready = True
+        self.show_line()
+
+    def on_resize(self, event: Resize) -> None:
+        wide = event.size.width >= WIDE_AT[0] and event.size.height >= WIDE_AT[1]
+        self.set_class(wide, "-wide")
+        self.refresh_bindings()
+        self.call_after_refresh(self._draw_figures)
+
+    def _line_key(self) -> tuple[object, ...] | None:
+        """What the line's picture says about this characteristic: while it stays the same, a
+        new picture (another characteristic moved) needs no new read of its detail."""
+        cv = next((c for c in self.lw.line.characteristics if c.name == self.characteristic),
+                  None)
+        if cv is None:
+            return None
+        loc = cv.location
+        limits = (len(loc.phase_limits), loc.center, loc.ucl, loc.lcl) if loc else ()
+        return (cv.points, cv.state, cv.open_alarms, cv.last_value, cv.pending_phase_start,
+                cv.stale, cv.stuck, cv.cpk, limits)
+
+    def show_line(self) -> None:
+        key = self._line_key()
+        if self.detail is not None and key is not None and key == self._detail_key:
+            self._draw_top_bar(self.detail)  # the line's alarm counts may have moved
+            super().show_line()
+            return
+        try:
+            self.detail = self.lw.source.detail(self.characteristic)
+            self._detail_key = key
+        except Exception as exc:  # keep the last picture; the next change tries again
+            self.notify(f"cannot read {self.characteristic}: {exc}", severity="error")
+        cv = self.detail
+        loc = cv.location if cv else None
+        if loc and loc.values:
+            if self.cursor is None:
+                self.cursor = len(loc.values) - 1
+                if self.focus_index is not None and self.focus_index in loc.indices:
+                    self.cursor = loc.indices.index(self.focus_index)
+            self.cursor = min(self.cursor, len(loc.values) - 1)
+        self._draw()
+        super().show_line()
+
+    def _draw(self) -> None:
+        cv = self.detail
+        bar = self.query_one(TopBar)
+        if cv is None:
+            bar.show(self.lw.line, f"close-up {self.characteristic}", "gone from the line")
+            return
+        self._draw_top_bar(cv)
+        self._draw_cursor()
+        self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
+        self._draw_figures()
+
+    def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
+        unit = f" [{cv.unit}]" if cv.unit else ""
+        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}",
+                                    f"{STATE_WORDS.get(cv.state, cv.state)}, "
+                                    f"{count(cv.points, 'reading')}")
+
+    def _draw_figures(self) -> None:
+        cv = self.detail
+        if cv is None or not self.drawable:  # a resize can queue this just before the screen goes
+            return
+        # the spec limits bound single parts, so the box plot shows individual readings;
+        # without them (an older source) it falls back to the plotted points and says so
+        loc = cv.location
+        if cv.recent_values:
+            values, what = cv.recent_values, "readings"
+        else:
+            values = loc.values if loc else []
+            what = "readings" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
+        width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
+        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs, cv.decimals)
+        box.end = "\n"  # Textual counts newlines to size a Group
+        self.query_one("#closeup-box", Static).update(Group(
+            Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
+        ))
+        self.query_one("#closeup-phases", Static).update(Group(
+            Text("phases of limits", "bold"),
+            phase_table(cv.phases) if cv.phases else Text("no limits yet", palette.LABEL),
+        ))
+        self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
+        self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
+
+    def _alarms_text(self, name: str) -> Text:
+        """This characteristic's open alarms, so the close-up answers 'why is it red'."""
+        from linewatch.faces.tui.formatting import ALARM_STATE_WORDS, fmt_clock
+        from linewatch.faces.tui.screens.queue import sorted_alarms
+
+        mine = [a for a in sorted_alarms(self.lw.line.alarms)
+                if a.characteristic == name and a.state != view.NORMAL]
+        text = Text(end="")
+        text.append(f"open alarms ({len(mine)})\n", "bold")
+        for a in mine[:8]:
+            text.append(f"P{a.priority} {fmt_clock(a.raised_at)} ")
+            text.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9}",
+                        "bold reverse" if a.state == view.UNACKNOWLEDGED else "")
+            text.append(f" {visible(a.description or a.rule)}\n")
+        if not mine:
+            text.append("none", palette.LABEL)
+        return text
+
+    def _cursor_text(self, cv: view.CharacteristicView) -> Text:
+        loc = cv.location
+        text = Text(end="")
+        if cv.baseline_needed:
+            text.append(f"learning: {count(cv.baseline_needed, point_word(cv))} more before "
+                        "limits exist\n",
+                        palette.STATE_STYLE[view.STATE_LEARNING])
+        pending = cv.pending_phase_start  # known to every instance through the store
+        if pending is None and self.requested is not None and loc is not None:
+            start, phases_then = self.requested
+            if len(loc.phase_limits) > phases_then:
+                self.requested = None  # its limits have arrived and are drawn
+            else:
+                pending = start
+        if pending is not None:
+            text.append(f"new phase from {point_word(cv)} {pending} asked for: its limits come "
+                        f"once enough {point_word(cv)}s have arrived\n",
+                        palette.STATE_STYLE[view.STATE_LEARNING])
+        if loc and self.cursor is not None and loc.values:
+            i = self.cursor
+            idx = loc.indices[i] if i < len(loc.indices) else i
+            mean_of = f" (mean of {cv.subgroup_size})" if cv.subgroup_size > 1 else ""
+            text.append(f"cursor: {point_word(cv)} {idx} = "
+                        f"{fmt_reading(loc.values[i], cv.decimals)}{mean_of}", "bold")
+            rules = loc.rules[i] if i < len(loc.rules) else ""
+            if rules:
+                text.append(f"  signals {rules}", palette.SIGNAL)
+            text.append("\n")
+        fired = sorted({r.strip() for rs in ((loc.rules if loc else []) +
+                                             (cv.dispersion.rules if cv.dispersion else []))
+                        for r in rs.split(",") if r.strip()})
+        if fired:
+            text.append("marks: ", palette.LABEL)
+            parts = []
+            for rule in fired:
+                spec = RULES.get(rule)
+                parts.append(f"{rule_mark(rule)}={rule} {spec.describe() if spec else ''}".strip())
+            text.append("; ".join(parts))
+        return text
+
+    def _trend_text(self, cv: view.CharacteristicView) -> Text:
+        values = cv.location.values[-TREND_WINDOW:] if cv.location else []
+        text = Text(end="")
+        text.append(f"trend over the last {count(len(values), point_word(cv))}\n", "bold")
+        fit = trend(values, cv.lsl, cv.usl)
+        if fit.slope is None or fit.r2 is None or fit.adj_r2 is None or fit.p_value is None:
+            text.append(f"too few {point_word(cv)}s, or no spread", palette.LABEL)
+            return text
+        text.append(f"slope {fit.slope:+.4g} {visible(cv.unit)}/{point_word(cv)}   "
+                    f"R² {fit.r2:.2f}   adj. R² {fit.adj_r2:.2f}   p {fit.p_value:.3g}\n")
+        if fit.points_to_spec is None:
+            text.append("no significant trend towards a spec limit (p < 0.05 needed)",
+                        palette.LABEL)
+        else:
+            text.append(projection_words(fit.slope, fit.points_to_spec, cv.lsl, cv.usl,
+                                         cv.seconds_per_point, cv.decimals, point_word(cv)),
+                        palette.SIGNAL)
+        return text
+
+    def action_move(self, step: int) -> None:
+        loc = self.detail.location if self.detail else None
+        if not loc or not loc.values or self.cursor is None:
+            return
+        self.cursor = max(0, min(len(loc.values) - 1, self.cursor + step))
+        self._draw_cursor()
+
+    def action_move_to(self, where: int) -> None:
+        loc = self.detail.location if self.detail else None
+        if not loc or not loc.values:
+            return
+        self.cursor = where if where >= 0 else len(loc.values) - 1
+        self._draw_cursor()
+
+    def _draw_cursor(self) -> None:
+        """A cursor move changes the location chart and the cursor line, nothing else."""
+        cv = self.detail
+        if cv is None:
+            return
+        self.query_one("#closeup-location", ChartPane).show(cv.location, cv.lsl, cv.usl,
+                                                            self.cursor, cv.decimals)
+        self.query_one("#closeup-cursor", Static).update(self._cursor_text(cv))
+
+    def action_back(self) -> None:
+        self.dismiss()
+
+    def action_new_baseline(self) -> None:
+        from linewatch.faces.tui.screens.restart_panel import RestartChoice, RestartPanel
+
+        cv = self.detail
+        loc = cv.location if cv else None
+        if cv is None or not loc or not loc.values or self.cursor is None:
+            self.notify("no points to start a new phase at")
+            return
+        start = loc.indices[self.cursor] if self.cursor < len(loc.indices) else self.cursor
+        last = loc.indices[-1] if loc.indices else len(loc.values) - 1
+        phases_now = len(loc.phase_limits)
+
+        def done(choice: RestartChoice | None) -> None:
+            if choice and self.ask("new_baseline", cv.name, choice.start_index, choice.reason)[0]:
+                self.notify(f"new baseline for {cv.name} from {point_word(cv)} "
+                            f"{choice.start_index}")
+                self.requested = (choice.start_index, phases_now)
+                self._draw()
+
+        self.app.push_screen(RestartPanel(cv.name, start, last), done)

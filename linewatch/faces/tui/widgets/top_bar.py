@@ -1,0 +1,78 @@
+"""The one-line bar at the top: line title, where you are, what needs attention, messages."""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual.events import Resize
+from textual.widgets import Static
+
+from linewatch.domain.durations import format_duration
+from linewatch.domain.safe_text import visible
+from linewatch.faces.tui.formatting import to_acknowledge
+from linewatch.present import view
+
+
+def acknowledge_words(alarms: list[view.AlarmView], short: bool = False) -> str:
+    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge'; `short` for a narrow
+    terminal: '5 to ack, 2 active'."""
+    waiting, active = to_acknowledge(alarms)
+    if not waiting:
+        return "nothing to ack" if short else "nothing to acknowledge"
+    if short:
+        return f"{waiting} to ack, {active} active"
+    return f"{waiting} to acknowledge ({active or 'none'} still active)"
+
+
+class TopBar(Static):
+    """Title · view name · alarms to acknowledge · catching up · the monitor's message · filter.
+
+    When the line is narrower than the whole text, the title goes first, so where you are and
+    what waits for you stay readable."""
+
+    _last: tuple[view.LineSnapshot, str, str] | None = None
+
+    def show(self, line: view.LineSnapshot, where: str, extra: str = "") -> None:
+        self._last = (line, where, extra)
+        self.update(self._compose_text(line, where, extra), layout=False)  # always one line
+
+    def _compose_text(self, line: view.LineSnapshot, where: str, extra: str) -> Text:
+        waiting, _active = to_acknowledge(line.alarms)
+        loud = "bold reverse" if waiting else ""
+        head: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
+        if line.role == "viewer":
+            head.append(("viewing", ""))
+        # what must never be missed comes before the alarm count, and stays at every width
+        alerts: list[tuple[str, str]] = []
+        if line.problem:
+            alerts.append((f"MONITORING FAILING: {line.problem}", "bold reverse"))
+        if line.flood is not None:
+            window = format_duration(line.flood_window)
+            alerts.append((f"ALARM FLOOD: {line.flood} in {window}", "bold reverse"))
+        tail: list[tuple[str, str]] = []
+        if line.catching_up is not None:
+            tail.append((f"catching up {line.catching_up:.0%}", "italic"))
+        if extra:
+            tail.append((extra, ""))
+        if line.message:
+            tail.append((line.message, ""))
+        width = self.size.width or (self.app.size.width if self.is_attached else 0)
+        # narrower and narrower: first without the title, then with the alarm count in short
+        for drop, short in ((0, False), (1, False), (1, True)):
+            parts = [*head[drop:], *alerts, (acknowledge_words(line.alarms, short), loud),
+                     *tail]
+            if not width or sum(len(p) + 3 for p, _ in parts) <= width:
+                break
+        text = Text(no_wrap=True, overflow="ellipsis", end="")
+        for k, (raw, style) in enumerate(parts):
+            part = visible(raw)  # the title, names and messages come from outside
+            if k == 0:
+                text.append(f" {part} ", style)
+            else:
+                text.append("| ")
+                text.append(part, style)
+                text.append(" ")
+        return text
+
+    def on_resize(self, event: Resize) -> None:
+        if self._last is not None:
+            self.show(*self._last)

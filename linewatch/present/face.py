@@ -1,0 +1,93 @@
+"""What the screen talks to: a `SnapshotSource` and `LineActions` over one `Monitor`.
+
+Snapshots are built from the store on the caller's thread with a connection of its own, so the
+screen never waits for the collector's transaction and never touches its engines."""
+
+from __future__ import annotations
+
+import threading
+import time
+from collections.abc import Callable
+
+from linewatch.config.loading import CharacteristicConfig
+from linewatch.pipeline.monitor import Monitor
+from linewatch.present.view import CharacteristicView, LineSnapshot
+
+
+class MonitorFace:
+    """A `SnapshotSource` and `LineActions` over one Monitor, safe to call from the UI thread."""
+
+    def __init__(self, monitor: Monitor) -> None:
+        from linewatch.alarms.book import AlarmBook
+        from linewatch.runtime.statedir import open_store
+
+        self.monitor = monitor
+        self.store = open_store(monitor.state_dir, create=True,
+                                shared_group=monitor.config.monitor.shared_group)
+        self.store.audit.use_key(monitor.store.audit.key)  # sign actions as the monitor does
+        self.alarms = AlarmBook(self.store, monitor.config)
+        self._lock = threading.Lock()
+
+    def _characteristics(self) -> list[CharacteristicConfig]:
+        known = dict(self.monitor.char_configs)
+        if not self.monitor.plan.characteristics:
+            for name in self.store.history.characteristics_with_points():
+                if name not in known:
+                    known[name] = self.monitor.plan.discovered(name)
+        return list(known.values())
+
+    # -- SnapshotSource --
+    def snapshot(self) -> LineSnapshot:
+        from linewatch.present.snapshot import build_snapshot
+
+        with self._lock:
+            snap = build_snapshot(
+                self.store, self.alarms, self._characteristics(), role=self.monitor.role,
+                title=self.monitor.title, version=self.monitor.version,
+                stale_after=self.monitor.config.monitor.stale_after,
+            )
+        snap.catching_up = self.monitor.catching_up
+        snap.problem = self.monitor.problem
+        return snap
+
+    def detail(self, characteristic: str) -> CharacteristicView | None:
+        from linewatch.present.snapshot import DETAIL_POINTS, characteristic_view
+
+        with self._lock:
+            for c in self._characteristics():
+                if c.name == characteristic:
+                    return characteristic_view(
+                        self.store, self.alarms, c, time.time(), points=DETAIL_POINTS,
+                        detail=True, stale_after=self.monitor.config.monitor.stale_after)
+        return None
+
+    def subscribe(self, callback: Callable[[int], None]) -> None:
+        self.monitor.subscribe(callback)
+
+    # -- LineActions --
+    def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None:
+        with self._lock:
+            self.alarms.acknowledge(alarm_ids, reason, note)
+        self.monitor.poke()
+
+    def acknowledge_characteristic(self, characteristic: str, reason: str, note: str = "") -> int:
+        with self._lock:
+            n = self.alarms.acknowledge_characteristic(characteristic, reason, note)
+        self.monitor.poke()
+        return n
+
+    def shelve(self, alarm_id: int, seconds: float, reason: str) -> None:
+        with self._lock:
+            self.alarms.shelve(alarm_id, seconds, reason)
+        self.monitor.poke()
+
+    def unshelve(self, alarm_id: int) -> None:
+        with self._lock:
+            self.alarms.unshelve(alarm_id)
+        self.monitor.poke()
+
+    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
+        self.monitor.new_baseline(characteristic, start_index, reason)
+
+    def close(self) -> None:
+        self.store.close()

@@ -1,0 +1,196 @@
+"""What the faces show: plain snapshots of the line that the monitor builds and the UI renders.
+
+The monitor (or an attached viewer reading the store) fills these; the Textual screen and the
+headless printer only read them. Actions go the other way through the `LineActions` protocol.
+Nothing here imports textual or rich.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Protocol
+
+# Alarm states (ISA-18.2 / IEC 62682 wording).
+UNACKNOWLEDGED = "unacknowledged"
+ACKNOWLEDGED = "acknowledged"
+RETURNED_UNACKNOWLEDGED = "returned-unacknowledged"
+NORMAL = "normal"
+SHELVED = "shelved"
+OPEN_STATES = (UNACKNOWLEDGED, ACKNOWLEDGED, RETURNED_UNACKNOWLEDGED, SHELVED)
+
+# Overall state of a characteristic on the overview, worst first.
+STATE_ALARM = "alarm"  # an unacknowledged alarm
+STATE_WATCH = "watch"  # acknowledged but still active alarm, or Cpk below 1.00
+STATE_STALE = "stale"  # no new row for stale_after, or a stuck gauge
+STATE_LEARNING = "learning"  # collecting baseline points, no limits yet
+STATE_OK = "ok"
+
+
+@dataclass(slots=True)
+class ChartView:
+    """One chart of one characteristic: recent plotted points with their limits history."""
+
+    chart: str
+    values: list[float] = field(default_factory=list)
+    indices: list[int] = field(default_factory=list)
+    # rule ids that fired at each point ("" when none), aligned with `values`
+    rules: list[str] = field(default_factory=list)
+    center: float | None = None
+    ucl: float | None = None
+    lcl: float | None = None
+    sigma: float | None = None
+    # indices (into the chart's full series) where a new phase of limits starts
+    phase_starts: list[int] = field(default_factory=list)
+    # every phase's limits, oldest first: (start index, CL, UCL, LCL, sigma of the statistic)
+    phase_limits: list[tuple[int, float, float, float, float]] = field(default_factory=list)
+
+
+@dataclass(slots=True)
+class PhaseStats:
+    """Summary figures of one phase of limits (for the detail table)."""
+
+    phase: int
+    start_index: int
+    n: int
+    mean: float | None
+    stdev: float | None
+    ci95: tuple[float, float] | None
+    cp: float | None
+    cpk: float | None
+    cpk_ci95: tuple[float, float] | None
+    ppm_out: float | None  # from the overall SD, like Pp and Ppk
+    pp: float | None = None
+    ppk: float | None = None
+
+
+@dataclass(slots=True)
+class CharacteristicView:
+    """Everything the overview row and the detail screen need about one characteristic."""
+
+    name: str
+    unit: str = ""
+    state: str = STATE_LEARNING
+    last_value: float | None = None
+    decimals: int | None = None  # how readings are shown (figures.reading_decimals)
+    last_row_age: float | None = None  # seconds since the newest row arrived
+    lsl: float | None = None
+    usl: float | None = None
+    subgroup_size: int = 1
+    points: int = 0
+    rejected: int = 0
+    baseline_needed: int = 0  # plotted points still needed before limits exist
+    location: ChartView | None = None
+    dispersion: ChartView | None = None
+    recent_mean: float | None = None
+    recent_sigma: float | None = None  # within sigma of individual values
+    margin_sigma: float | None = None  # distance of recent mean to the nearer spec limit, in σ
+    cpk: float | None = None
+    cpk_lower95: float | None = None
+    open_alarms: int = 0
+    phases: list[PhaseStats] = field(default_factory=list)
+    stale: bool = False
+    stuck: bool = False
+    seconds_per_point: float | None = None  # mean time between recent plotted points
+    recent_values: list[float] = field(default_factory=list)  # latest individual readings
+    pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
+
+
+@dataclass(slots=True)
+class AlarmView:
+    """One alarm as the alarm list shows it."""
+
+    id: int
+    kind: str  # out-of-spec | beyond-limits | run-rule | feed-health
+    characteristic: str
+    chart: str
+    rule: str
+    description: str
+    state: str
+    priority: int
+    raised_at: float  # epoch seconds
+    first_index: int | None = None
+    last_index: int | None = None
+    acknowledged_by: str | None = None
+    acknowledged_at: float | None = None
+    reason: str | None = None
+    note: str | None = None
+    shelved_until: float | None = None
+    reaction_plan: str = ""
+    reasons: list[str] = field(default_factory=list)
+    signals: int = 0  # signalling points over all episodes
+    episodes: int = 1
+    counts: str = ""  # per-rule counts in a few words ("we2 ×44 we3 ×37")
+    active: bool = True  # the condition is present now
+    below_lsl: int | None = None
+    above_usl: int | None = None
+
+
+@dataclass(slots=True)
+class FeedView:
+    """Health of one followed file."""
+
+    file: str
+    rows: int = 0
+    rejected: int = 0
+    rows_per_second: float = 0.0
+    last_row_age: float | None = None
+    rotations: int = 0
+    truncations: int = 0
+    stale: bool = False
+    # following | waiting | missing | unreadable | stale | no header | skipped | bounded
+    status: str = "following"
+    last_rejects: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)  # the last warnings about the file
+    unread: int = 0  # lines not read: the file has no header to go by (also in `rejected`)
+    times_backwards: int = 0  # time stamps earlier than the row before (rows kept)
+    times_unreadable: int = 0  # time stamps that cannot be read as a time (rows kept)
+
+
+@dataclass(slots=True)
+class LineSnapshot:
+    """The whole picture at one moment; `version` grows whenever anything changes."""
+
+    version: int = 0
+    title: str = "linewatch"
+    role: str = "collector"  # collector | viewer
+    characteristics: list[CharacteristicView] = field(default_factory=list)
+    alarms: list[AlarmView] = field(default_factory=list)
+    feeds: list[FeedView] = field(default_factory=list)
+    catching_up: float | None = None  # fraction done while reading history, else None
+    message: str = ""
+    flood: int | None = None  # alarms annunciated in the flood window while in a flood
+    flood_since: float | None = None
+    flood_window: float = 600.0  # seconds the flood count is taken over
+    problem: str = ""  # the collector's internal error, while it lasts ("" when none)
+
+
+class LineActions(Protocol):
+    """What a face can ask of the monitor. Each call is safe from any thread and returns quickly;
+    it raises `linewatch.domain.errors.LinewatchError` with a one-line message on bad input."""
+
+    def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None: ...
+
+    def acknowledge_characteristic(
+        self, characteristic: str, reason: str, note: str = ""
+    ) -> int: ...
+
+    def shelve(self, alarm_id: int, seconds: float, reason: str) -> None: ...
+
+    def unshelve(self, alarm_id: int) -> None: ...
+
+    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None: ...
+
+
+class SnapshotSource(Protocol):
+    """Where a face gets its picture. `snapshot()` is cheap and thread-safe; `subscribe` registers a
+    callback called (from any thread, possibly often) with the new version whenever something
+    changed, so the face can schedule a batched redraw instead of polling."""
+
+    def snapshot(self) -> LineSnapshot: ...
+
+    def detail(self, characteristic: str) -> CharacteristicView | None:
+        """The characteristic with its full recent chart history, phases and statistics."""
+        ...
+
+    def subscribe(self, callback: Callable[[int], None]) -> None: ...
