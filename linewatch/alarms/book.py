@@ -10,8 +10,8 @@ Priorities: a lower number is more urgent (1 = most urgent). Defaults: out-of-sp
 beyond-limits 2, other run rules 3, feed health 4.
 
 Every transition is appended to the audit trail in the same transaction as the change itself.
-Hooks run only after the commit, by the caller (see `linewatch.alarms.hooks`), on the "raised" events
-these methods return.
+Hooks run only after the commit, by the caller (see `linewatch.alarms.hooks`), on the "raised"
+events these methods return.
 """
 
 from __future__ import annotations
@@ -31,12 +31,12 @@ from linewatch.config.loading import (
     DEFAULT_REASONS,
     DEFAULT_SHELVE_MAX,
 )
+from linewatch.domain.alarm_states import SHELVED
 from linewatch.domain.durations import format_duration
 from linewatch.domain.errors import LinewatchError
-from linewatch.domain.records import FeedEvent
+from linewatch.domain.records import AlarmView, FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
 from linewatch.engine.rulebook import BEYOND, RULES, RuleListError, resolve_rules
-from linewatch.present.view import SHELVED, AlarmView
 from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 

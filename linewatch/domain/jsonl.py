@@ -4,11 +4,10 @@ from __future__ import annotations
 
 import json
 import math
-from typing import Any
+from typing import Any, Protocol
 
 from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
-from linewatch.engine.limits import ChartLimits
 
 
 def _num(x: float | None) -> float | None:
@@ -18,7 +17,22 @@ def _num(x: float | None) -> float | None:
     return x if math.isfinite(x) else None
 
 
-def limits_record(characteristic: str, lim: ChartLimits) -> dict[str, Any]:
+class ChartLimitFields(Protocol):
+    """What a limits record needs of one chart's limits (the engine's `ChartLimits`)."""
+
+    @property
+    def chart(self) -> str: ...
+    @property
+    def center(self) -> float: ...
+    @property
+    def ucl(self) -> float: ...
+    @property
+    def lcl(self) -> float: ...
+    @property
+    def sigma(self) -> float: ...
+
+
+def limits_record(characteristic: str, lim: ChartLimitFields) -> dict[str, Any]:
     return {
         "type": "limits",
         "characteristic": characteristic,

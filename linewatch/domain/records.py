@@ -6,7 +6,7 @@ can share them.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 CHART_INDIVIDUALS = "individuals"
 CHART_MOVING_RANGE = "moving-range"
@@ -82,3 +82,33 @@ class FileState:
     # the column names the file is read under: its own header, or the one its path had before
     # when it began without one (kept so a restart reads such a file the same way)
     header: tuple[str, ...] | None = None
+
+
+@dataclass(slots=True)
+class AlarmView:
+    """One alarm as the alarm list shows it."""
+
+    id: int
+    kind: str  # out-of-spec | beyond-limits | run-rule | feed-health
+    characteristic: str
+    chart: str
+    rule: str
+    description: str
+    state: str
+    priority: int
+    raised_at: float  # epoch seconds
+    first_index: int | None = None
+    last_index: int | None = None
+    acknowledged_by: str | None = None
+    acknowledged_at: float | None = None
+    reason: str | None = None
+    note: str | None = None
+    shelved_until: float | None = None
+    reaction_plan: str = ""
+    reasons: list[str] = field(default_factory=list)
+    signals: int = 0  # signalling points over all episodes
+    episodes: int = 1
+    counts: str = ""  # per-rule counts in a few words ("we2 ×44 we3 ×37")
+    active: bool = True  # the condition is present now
+    below_lsl: int | None = None
+    above_usl: int | None = None

@@ -93,7 +93,7 @@ class GuardedStream(io.TextIOBase):
         self.inner = inner
         self._held_cr = False
 
-    def write(self, text: str) -> int:  # type: ignore[override]
+    def write(self, text: str) -> int:
         n = len(text)
         if self._held_cr:
             text = "\r" + text
@@ -136,8 +136,8 @@ def guarded_output() -> Iterator[None]:
     """Route sys.stdout and sys.stderr through `GuardedStream` while the block runs, then put
     the original streams back (the screen writes to the terminal through its own handle)."""
     out, err = sys.stdout, sys.stderr
-    sys.stdout = GuardedStream(out)  # type: ignore[assignment]
-    sys.stderr = GuardedStream(err)  # type: ignore[assignment]
+    sys.stdout = GuardedStream(out)
+    sys.stderr = GuardedStream(err)
     try:
         yield
     finally:

@@ -410,7 +410,7 @@ def _expected_steps(
     t, info = bicgstab(a, ones, rtol=1e-13, atol=0.0, maxiter=_KRYLOV_ITERATIONS)
     if info != 0 or np.linalg.norm(a @ t - ones) > 1e-9 * math.sqrt(size):
         return None
-    return t
+    return np.asarray(t)
 
 
 def _unique_automata(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> list[_Automaton] | None:

@@ -63,7 +63,8 @@ def window_count(flags: np.ndarray, m: int) -> np.ndarray:
     n = flags.shape[0]
     hi = np.arange(1, n + 1)
     lo = np.maximum(hi - m, 0)
-    return cs[hi] - cs[lo]
+    counts: np.ndarray = cs[hi] - cs[lo]
+    return counts
 
 
 def _trend(x: np.ndarray, length: int) -> np.ndarray:

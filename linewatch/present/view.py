@@ -11,13 +11,26 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Protocol
 
-# Alarm states (ISA-18.2 / IEC 62682 wording).
-UNACKNOWLEDGED = "unacknowledged"
-ACKNOWLEDGED = "acknowledged"
-RETURNED_UNACKNOWLEDGED = "returned-unacknowledged"
-NORMAL = "normal"
-SHELVED = "shelved"
-OPEN_STATES = (UNACKNOWLEDGED, ACKNOWLEDGED, RETURNED_UNACKNOWLEDGED, SHELVED)
+# The alarm states and the alarm record live in the domain; the faces read them here too.
+from linewatch.domain.alarm_states import (
+    ACKNOWLEDGED as ACKNOWLEDGED,
+)
+from linewatch.domain.alarm_states import (
+    NORMAL as NORMAL,
+)
+from linewatch.domain.alarm_states import (
+    OPEN_STATES as OPEN_STATES,
+)
+from linewatch.domain.alarm_states import (
+    RETURNED_UNACKNOWLEDGED as RETURNED_UNACKNOWLEDGED,
+)
+from linewatch.domain.alarm_states import (
+    SHELVED as SHELVED,
+)
+from linewatch.domain.alarm_states import (
+    UNACKNOWLEDGED as UNACKNOWLEDGED,
+)
+from linewatch.domain.records import AlarmView as AlarmView
 
 # Overall state of a characteristic on the overview, worst first.
 STATE_ALARM = "alarm"  # an unacknowledged alarm
@@ -94,36 +107,6 @@ class CharacteristicView:
     seconds_per_point: float | None = None  # mean time between recent plotted points
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
     pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
-
-
-@dataclass(slots=True)
-class AlarmView:
-    """One alarm as the alarm list shows it."""
-
-    id: int
-    kind: str  # out-of-spec | beyond-limits | run-rule | feed-health
-    characteristic: str
-    chart: str
-    rule: str
-    description: str
-    state: str
-    priority: int
-    raised_at: float  # epoch seconds
-    first_index: int | None = None
-    last_index: int | None = None
-    acknowledged_by: str | None = None
-    acknowledged_at: float | None = None
-    reason: str | None = None
-    note: str | None = None
-    shelved_until: float | None = None
-    reaction_plan: str = ""
-    reasons: list[str] = field(default_factory=list)
-    signals: int = 0  # signalling points over all episodes
-    episodes: int = 1
-    counts: str = ""  # per-rule counts in a few words ("we2 ×44 we3 ×37")
-    active: bool = True  # the condition is present now
-    below_lsl: int | None = None
-    above_usl: int | None = None
 
 
 @dataclass(slots=True)

@@ -344,10 +344,11 @@ def readme_section(stem: str, built: Built) -> str:
 README_HEAD = """# Sample feeds
 
 Recorded logs from an invented tube-extrusion line (demo data, not from any real plant), each
-with special causes placed at known rows. `tests/unit/simulation/test_samples.py` runs `linewatch check` on every
-sample with its config and asserts that each rule in the tables below fires on the named
-characteristic and chart inside the stated window of plotted points (and file lines), that the
-stretch before the first cause is quiet, and that exactly the listed junk lines are rejected.
+with special causes placed at known rows. `tests/unit/simulation/test_samples.py` runs
+`linewatch check` on every sample with its config and asserts that each rule in the tables
+below fires on the named characteristic and chart inside the stated window of plotted points
+(and file lines), that the stretch before the first cause is quiet, and that exactly the listed
+junk lines are rejected.
 
 A rule is listed with a window, not a single point, when the exact first point depends on the
 noise around the change (a run that started before the change counts too). The windows follow

@@ -6,7 +6,7 @@ from __future__ import annotations
 from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING, Any
 
-from linewatch.present.view import (
+from linewatch.domain.alarm_states import (
     ACKNOWLEDGED,
     NORMAL,
     RETURNED_UNACKNOWLEDGED,
