@@ -6,34 +6,13 @@ import argparse
 import sys
 from typing import TYPE_CHECKING
 
+from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store
 
 
-def parse_since(text: str, now: float | None = None) -> float:
-    """Epoch seconds for `--since`: a duration back from now (8h) or an ISO date/time (a time
-    without an offset is local time)."""
-    import time
-    from datetime import datetime
-
-    from linewatch.domain.durations import parse_duration
-
-    now = time.time() if now is None else now
-    try:
-        return now - parse_duration(text)
-    except ValueError:
-        pass
-    try:
-        moment = datetime.fromisoformat(text.strip())
-    except ValueError:
-        raise LinewatchError(
-            f"--since: {text!r} is neither a duration (8h, 30m) nor an ISO date/time"
-        ) from None
-    if moment.tzinfo is None:
-        moment = moment.astimezone()
-    return moment.timestamp()
 
 
 def _verify(store: Store, args: argparse.Namespace) -> int:

@@ -5,10 +5,10 @@ from __future__ import annotations
 import argparse
 import sys
 import time
-from datetime import datetime
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from linewatch.domain.clock import parse_moment
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
@@ -18,26 +18,15 @@ if TYPE_CHECKING:
 DEFAULT_SPAN = "8h"
 
 
-def parse_when(text: str, option: str) -> float:
-    """An ISO date or date-time as epoch seconds; without an offset it is local time."""
-    try:
-        stamp = datetime.fromisoformat(text.strip())
-    except ValueError:
-        raise LinewatchError(
-            f"{option}: not a date or time: {text!r} (use e.g. 2026-03-02 or 2026-03-02T06:00)"
-        ) from None
-    if stamp.tzinfo is None:
-        stamp = stamp.astimezone()  # naive: the local time zone
-    return stamp.timestamp()
 
 
 def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
     """[since, until) from --since / --from / --to (default: the last 8 hours)."""
     from linewatch.domain.durations import parse_duration
 
-    until = parse_when(args.to, "--to") if args.to else now
+    until = parse_moment(args.to, "--to") if args.to else now
     if args.from_:
-        since = parse_when(args.from_, "--from")
+        since = parse_moment(args.from_, "--from")
     else:
         try:
             seconds = parse_duration(args.since or DEFAULT_SPAN)

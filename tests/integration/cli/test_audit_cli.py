@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 from store_fixtures import line_with_alarms, linewatch
 
-from linewatch.cli.commands.audit import parse_since
+from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
 from linewatch.store.db import DB_NAME, Store
 
