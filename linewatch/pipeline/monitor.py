@@ -26,7 +26,6 @@ from typing import TYPE_CHECKING, Any, cast
 from linewatch.alarms.book import SYSTEM_ACTOR, AlarmEvent
 from linewatch.config.loading import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.selection import chart_setup
-from linewatch.domain.errors import LinewatchError
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
 from linewatch.domain.records import FeedEvent, Limits
 from linewatch.engine.characteristic import CharacteristicEngine, Firing, LiveOutput
@@ -40,17 +39,12 @@ if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.feeds.tailer import TailChunk, Tailer
     from linewatch.feeds.watcher import Waker
     from linewatch.store.anchors import Anchorer
-    from linewatch.store.db import Store
 
 Emit = Callable[[dict[str, Any]], None]
 TICK_SECONDS = RENEW_EVERY  # lease renewal, stale checks, shelf expiry, changes by others
-BASELINE_REQUEST = "baseline-request:"  # meta key prefix: a viewer asks the collector
-PHASE_REQUEST = "phase-request:{name}:{phase}"  # meta key: who asked for a phase, and why
 ANNOUNCED = ("raised", "re-raised", "escalated")  # alarm events that reach the hook
 FAILURES_BEFORE_ALARM = 3  # failed passes in a row before "monitoring stopped" is raised
 MAX_BACKOFF = 30.0  # seconds between retries after repeated failures, at most
-UNREAD_LINES = "unread-lines:{file}"  # meta key: lines of a file with no header to go by
-TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
 
 
 @dataclass(slots=True)
@@ -412,9 +406,7 @@ class Monitor:
                     FeedEvent(n.kind, n.file, detail), now, raised))
             if batch.unread:  # lines of a file without a header: counted, said once above
                 self.rejected += batch.unread
-                key = UNREAD_LINES.format(file=batch.file)
-                total = int(self.store.get_meta(key) or 0) + batch.unread
-                self.store.set_meta(key, str(total))
+                self.store.ingest.add_unread_lines(batch.file, batch.unread)
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(
@@ -453,15 +445,13 @@ class Monitor:
             for ln, tm in columns:
                 by_line.update(zip(ln, tm, strict=True))
             times = [by_line[k] for k in sorted(by_line)]
-        key = TIME_COUNTS.format(file=batch.file)
         before = self.health.time_counts(batch.file)
-        if before == (0, 0) and (raw := self.store.get_meta(key)):
-            start = tuple(int(x) for x in raw.split(","))
-            before = (start[0], start[1])
+        if before == (0, 0):
+            before = self.store.ingest.time_counts(batch.file) or before
         self.health.times_arrived(batch.file, times, before)
         after = self.health.time_counts(batch.file)
         if after != before:
-            self.store.set_meta(key, f"{after[0]},{after[1]}")
+            self.store.ingest.save_time_counts(batch.file, after)
 
     def _process_values(
         self, name: str, batch: Batch, column: str, now: float, written: float,
@@ -536,10 +526,9 @@ class Monitor:
         baseline, a later phase's with the reason and person that asked for it."""
         reason, actor, asked = "baseline", SYSTEM_ACTOR, False
         if eng.phase > 0:
-            raw = self.store.get_meta(PHASE_REQUEST.format(name=name, phase=eng.phase))
-            request = json.loads(raw) if raw else {}
-            reason = request.get("reason") or "new baseline"
-            actor = request.get("actor") or SYSTEM_ACTOR
+            request = self.store.requests.for_phase(name, eng.phase)
+            reason = (request.reason if request else "") or "new baseline"
+            actor = (request.actor if request else None) or SYSTEM_ACTOR
             asked = True
         for lim in (limits.location, limits.dispersion):
             self.store.history.record_limits(
@@ -619,31 +608,27 @@ class Monitor:
     # -- baselines --
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
         """Start a new phase of limits (any instance may ask; the collector carries it out)."""
-        request_new_baseline(self.store, characteristic, start_index, reason)
+        self.store.requests.ask(characteristic, start_index, reason)
 
     def _serve_baseline_requests(self, now: float, raised: list[AlarmEvent]) -> None:
-        for key, raw in self.store.meta_starting(BASELINE_REQUEST):
-            if not raw:
-                continue
-            name = key[len(BASELINE_REQUEST):]
-            self.store.set_meta(key, "")
-            req = json.loads(raw)
+        for req in self.store.requests.pending():
+            name = req.characteristic
             eng = self._engine(name)
             if eng is None:
+                self.store.requests.refused(req.id, f"{name} is not charted here", now)
                 continue
             try:
-                eng.new_baseline(int(req["start"]))
+                eng.new_baseline(req.start_index)
             except ValueError as exc:
+                self.store.requests.refused(req.id, str(exc), now)
                 self.emit({"type": "baseline", "characteristic": name, "problem": str(exc)})
                 continue
             self.store.audit.append(
                 "new-baseline", name,
-                {"start_index": eng.phase_start, "phase": eng.phase, "reason": req["reason"]},
-                at=now, actor=req.get("actor"),
+                {"start_index": eng.phase_start, "phase": eng.phase, "reason": req.reason},
+                at=now, actor=req.actor,
             )
-            self.store.set_meta(PHASE_REQUEST.format(name=name, phase=eng.phase),
-                                json.dumps({"reason": req["reason"], "actor": req.get("actor"),
-                                            "start": eng.phase_start}))
+            self.store.requests.carried_out(req.id, eng.phase, eng.phase_start, now)
             out = eng.settle()  # the new phase may already hold enough points for limits
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)
@@ -654,7 +639,7 @@ class Monitor:
                 self.emit(_signal_record(name, f))
             self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
             self.emit({"type": "baseline", "characteristic": name, "start_index": eng.phase_start,
-                       "reason": req["reason"]})
+                       "reason": req.reason})
 
 
 def _signal_record(name: str, f: Firing) -> dict[str, Any]:
@@ -676,18 +661,6 @@ def _store_replaced(exc: BaseException) -> bool:
     import sqlite3
 
     return isinstance(exc, sqlite3.DatabaseError) and not isinstance(exc, sqlite3.OperationalError)
-
-
-def request_new_baseline(store: Store, characteristic: str, start_index: int,
-                         reason: str) -> None:
-    """Ask the collector (whichever instance holds the lease) for a new phase of limits from
-    `start_index`; the screen's close-up and `linewatch baseline` both ask this way."""
-    if not reason.strip():
-        raise LinewatchError("a reason is required for a new baseline")
-    request = json.dumps({"start": int(start_index), "reason": reason.strip(),
-                          "actor": _actor()})
-    with store.transaction():
-        store.set_meta(BASELINE_REQUEST + characteristic, request)
 
 
 def _stopped_payload(problem: str, now: float) -> dict[str, Any]:
