@@ -11,12 +11,14 @@ import threading
 import numpy as np
 
 from linewatch.config.loading import parse_config
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.collector import Collector
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import HEADER, rows_text, wait_until
 
 
-def test_failing_passes_are_reported_retried_and_alarmed(tmp_path):
+def test_failing_passes_are_reported_retried_and_alarmed(tmp_path, monkeypatch):
     log = tmp_path / "line.csv"
     values = np.tile([10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8], 4)
     log.write_text(HEADER + "".join(rows_text(values)))
@@ -30,17 +32,17 @@ def test_failing_passes_are_reported_retried_and_alarmed(tmp_path):
     face = MonitorFace(monitor)
     records: list[dict] = []
     monitor.emit = records.append
-    real = monitor._process_chunks
+    real = Collector.process
     failing = {"left": 4}
     problems_seen: list[str] = []
 
-    def flaky(chunks):  # an injected fault inside the pass, after the rows were read
+    def flaky(collector, chunks, now):  # an injected fault inside the pass, after the read
         if failing["left"] > 0:
             failing["left"] -= 1
             raise RuntimeError("injected fault")
-        return real(chunks)
+        return real(collector, chunks, now)
 
-    monitor._process_chunks = flaky
+    monkeypatch.setattr(Collector, "process", flaky)
     stop = threading.Event()
     worker = threading.Thread(target=monitor.run, args=(stop,), daemon=True)
     worker.start()
