@@ -23,16 +23,10 @@ from pathlib import Path
 from typing import Any
 
 from linewatch.domain.durations import parse_duration
-from linewatch.domain.errors import ConfigError
+from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
-from linewatch.engine.rulebook import (
-    DEFAULT_RULES,
-    RULES,
-    RuleListError,
-    parse_rule_list,
-    resolve_rules,
-)
+from linewatch.engine.rulebook import DEFAULT_RULES, RULES, parse_rule_list, resolve_rules
 
 DEFAULT_REASONS: tuple[str, ...] = (
     "tool wear",
