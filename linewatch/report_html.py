@@ -4,7 +4,6 @@ nothing fetched), laid out to read well on screen and printed on A4."""
 from __future__ import annotations
 
 from collections.abc import Callable
-from html import escape
 
 from linewatch.report import (
     GUIDANCE_SOURCE,
@@ -26,7 +25,7 @@ from linewatch.report import (
     short_time,
     span,
 )
-from linewatch.report_svg import control_chart_svg
+from linewatch.report_svg import control_chart_svg, escape
 
 STYLE = """
 :root { --ink: #1d2329; --muted: #5b6570; --rule: #c9d0d6; --warn: #b3261e; --ok: #1e6b3a;
