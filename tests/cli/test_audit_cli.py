@@ -249,3 +249,48 @@ def test_the_configured_anchor_file_and_an_anchor_argument_are_read_once_each(
     assert out.returncode == 0, out.stdout
     anchors = next(x for x in out.stdout.splitlines() if x.strip().startswith("anchors:"))
     assert "2 anchors" in anchors and "shift.md" in anchors
+
+
+def test_a_report_sends_its_anchor_to_syslog_and_the_log_host_copy_verifies(
+    tmp_path: Path,
+) -> None:
+    """A UDP socket on 127.0.0.1 stands in for the log host; what it received, saved as a
+    file, is an anchor file for `verify --anchor` (RFC 3164 framing, PRI 13 = user.notice)."""
+    import socket
+
+    host = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
+    host.bind(("127.0.0.1", 0))
+    host.settimeout(10.0)
+    try:
+        config = tmp_path / "line.toml"
+        config.write_text('[monitor]\nstate_dir = "state"\n'
+                          f'audit_anchor_syslog = "127.0.0.1:{host.getsockname()[1]}"\n')
+        line_with_alarms(tmp_path / "state")
+        made = linewatch("report", "-c", str(config), "-o", str(tmp_path / "shift.md"))
+        assert made.returncode == 0 and made.stderr == "", made.stderr
+        message = host.recvfrom(65536)[0].decode("utf-8")
+    finally:
+        host.close()
+    assert message.startswith("<13>linewatch-audit: linewatch-audit-anchor v1 ")
+    assert "why=report" in message
+    with Store(tmp_path / "state", create=False) as store:
+        entries, head = store.audit.head()
+    assert f"entries={entries} head={head} " in message
+    kept = tmp_path / "loghost-syslog"
+    kept.write_text(f"Dec  3 14:00:00 linepc {message[4:]}\n")  # as a daemon files it
+    emptied(tmp_path / "state")
+    out = linewatch("audit", "verify", "-c", str(config), "--anchor", str(kept))
+    assert out.returncode == 1 and "truncated or rolled back" in out.stdout, out.stdout
+
+
+def test_a_syslog_that_cannot_be_reached_is_told_and_the_report_still_made(
+    tmp_path: Path,
+) -> None:
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\n'
+                      f'audit_anchor_syslog = "{tmp_path / "no-daemon.sock"}"\n')
+    line_with_alarms(tmp_path / "state")
+    made = linewatch("report", "-c", str(config), "-o", str(tmp_path / "shift.md"))
+    assert made.returncode == 0 and (tmp_path / "shift.md").exists()
+    assert made.stderr.startswith("linewatch: cannot send the audit anchor to syslog")
+    assert "Traceback" not in made.stderr and len(made.stderr.splitlines()) == 1
