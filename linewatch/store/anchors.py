@@ -150,7 +150,8 @@ class SyslogAnchors:
             return None
         self.close()  # opened afresh at the next anchor: the daemon may be back by then
         reason = getattr(failure, "strerror", None) or failure
-        return f"cannot send the audit anchor to syslog ({self.target}): {reason}"
+        where = self.target if self.target != "local" else f"local, {LOCAL_SYSLOG}"
+        return f"cannot send the audit anchor to syslog ({where}): {reason}"
 
     def close(self) -> None:
         if self._handler is not None:

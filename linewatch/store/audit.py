@@ -304,7 +304,7 @@ class AuditTrail:
             if broken is not None:
                 return broken
             mine = self.anchors_for(anchors)
-            newest = max(mine, key=lambda a: a.entries)
+            newest = max(reversed(mine), key=lambda a: a.entries)  # ties: the later one
             checks.append("anchors")
             message += (
                 f"; agrees with {len(mine)} anchor{'s' if len(mine) != 1 else ''} "
