@@ -94,8 +94,10 @@ def _check_lines(store: Store, verdict: Verdict, key_given: bool, sources: list[
     if verdict.ok:
         lines.append(f"  chain: intact, {verdict.entries} entries linked from the first")
     if verdict.signed_checked:
-        lines.append(f"  key: used (id {store.audit.key_id}); {verdict.signed_checked} signed "
-                     "entries check out, so nobody without the key re-hashed them")
+        n = verdict.signed_checked
+        lines.append(f"  key: used (id {store.audit.key_id}); {n} signed "
+                     f"{'entry checks' if n == 1 else 'entries check'} out, so nobody without "
+                     "the key re-hashed them")
     elif not key_given:
         lines.append("  key: no key given (monitor.audit_key_file or --key): a trail edited "
                      "and re-hashed by someone with write access passes the chain check")

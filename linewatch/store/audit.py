@@ -291,7 +291,8 @@ class AuditTrail:
         checks = ["chain"]
         if with_key:
             checks.append("key")
-            message += f"; {with_key} entries signed with the key check out"
+            message += (f"; {with_key} {'entry' if with_key == 1 else 'entries'} signed with "
+                        f"the key check{'s' if with_key == 1 else ''} out")
         if foreign:
             message += (
                 f"; {unchecked} signed entries could not be checked without their key "

@@ -151,6 +151,7 @@ def test_with_a_key_acknowledgements_are_signed_and_a_keyless_one_is_refused(
     assert refused.returncode == 2 and "signed with a key" in refused.stderr
     keyed = linewatch("audit", "verify", "-c", str(config))
     assert keyed.returncode == 0 and "checked: chain + key" in keyed.stdout
+    assert "1 signed entry checks out" in keyed.stdout  # the one acknowledgement
     report = linewatch("report", "-c", str(config), "-o", str(tmp_path / "r.md"))
     assert report.returncode == 0, report.stderr
     anchors = (tmp_path / "anchors.log").read_text()
