@@ -33,10 +33,10 @@ from linewatch.config.loading import (
 from linewatch.domain.alarm_states import SHELVED
 from linewatch.domain.clock import iso_time
 from linewatch.domain.durations import format_duration
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import AlarmView, FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
-from linewatch.engine.rulebook import BEYOND, RULES, RuleListError, resolve_rules
+from linewatch.engine.rulebook import BEYOND, RULES, resolve_rules
 from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 

@@ -22,7 +22,8 @@ import time
 from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
-from linewatch.store.lease import RENEW_EVERY, Lease, LeaseLost
+from linewatch.domain.errors import LeaseLost
+from linewatch.store.lease import RENEW_EVERY, Lease
 
 if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.alarms.book import AlarmBook

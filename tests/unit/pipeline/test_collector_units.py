@@ -18,11 +18,12 @@ import pytest
 
 from linewatch.alarms.book import AlarmBook
 from linewatch.config.loading import parse_config
+from linewatch.domain.errors import LeaseLost
 from linewatch.feeds.tailer import Tailer
 from linewatch.pipeline.collector import Collector
 from linewatch.pipeline.plan import Characteristics, WatchPlan
 from linewatch.store.db import DB_NAME, Store
-from linewatch.store.lease import Lease, LeaseLost
+from linewatch.store.lease import Lease
 
 BASE = [10.0, 10.3, 9.8, 10.1, 9.9, 10.2, 9.7, 10.0, 10.2, 9.8]
 HEADER = "time,part,od\n"
