@@ -415,6 +415,8 @@ class Monitor:
                 key = UNREAD_LINES.format(file=batch.file)
                 total = int(self.store.get_meta(key) or 0) + batch.unread
                 self.store.set_meta(key, str(total))
+            if batch.rows:
+                self._headed(batch.file, now, records, raised)
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(
@@ -436,6 +438,20 @@ class Monitor:
                 self._count_times(batch)
         if chunk.state is not None:
             self.store.ingest.save_file(chunk.state, now)
+
+    def _headed(self, file: str, now: float, records: list[dict[str, Any]],
+                raised: list[AlarmEvent]) -> None:
+        """Rows of a file counted as having no header are read now (a header was added, or
+        the file was replaced by one with a header): say so, return its no-header alarm and
+        clear the count, so the file no longer shows as unread."""
+        key = UNREAD_LINES.format(file=file)
+        before = int(self.store.get_meta(key) or 0)
+        if not before:
+            return
+        self.store.set_meta(key, "0")
+        records.append(self._record_feed_event(FeedEvent(
+            "header", file, f"a header to go by now: its rows are read; {before:,} lines "
+            "without one were counted before"), now, raised))
 
     def _count_times(self, batch: Batch) -> None:
         """Count the batch's time stamps that go backwards or cannot be read (the rows are

@@ -245,8 +245,11 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
-        fv.notes = [e.detail for e in mine
-                    if e.kind in ("warning", "no-header", "skipped", "bounded")][-3:]
+        # a no-header notice is past once the file got a header (a `header` event after it)
+        headed = max((k for k, e in enumerate(mine) if e.kind == "header"), default=-1)
+        fv.notes = [e.detail for k, e in enumerate(mine)
+                    if e.kind in ("warning", "no-header", "skipped", "bounded")
+                    and not (e.kind == "no-header" and k < headed)][-3:]
         fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
         fv.rejected += fv.unread
         counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
