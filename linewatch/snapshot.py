@@ -267,6 +267,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
                      "bounded": "bounded"}.get(latest, "following")
         if fv.unread and fv.status == "following":
             fv.status = "no header"  # its lines cannot be read until it has one
+        elif fv.status == "following" and any(e.kind == "warning" for e in mine):
+            fv.status = "warning"  # read, but worth a look (a column asked for is not there)
         out.append(fv)
     return out
 

@@ -138,7 +138,8 @@ class FeedView:
     rotations: int = 0
     truncations: int = 0
     stale: bool = False
-    # following | waiting | missing | unreadable | stale | no header | skipped | bounded
+    # following | warning | waiting | missing | unreadable | stale | no header | skipped |
+    # bounded
     status: str = "following"
     last_rejects: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)  # the last warnings about the file

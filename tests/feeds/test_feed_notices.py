@@ -205,3 +205,58 @@ def _feed_views(store):
     from linewatch.snapshot import feed_views
 
     return feed_views(store, _time.time(), 0)
+
+
+def test_with_several_feeds_each_file_lacking_a_wanted_column_says_so_with_its_columns(
+        tmp_path: Path) -> None:
+    """Several feeds read every numeric column; a `--column` name is still looked for in each
+    file, and only the files lacking it are named, each with the columns it has."""
+    from linewatch.store.db import Store
+
+    a, b, j = tmp_path / "a.csv", tmp_path / "b.csv", tmp_path / "c.jsonl"
+    a.write_text("time,od,wall\n" + "".join(f"t{k},{12 + k / 100},1.5\n" for k in range(30)))
+    b.write_text("time;ovality\n" + "".join(f"t{k};1,{k % 7}\n" for k in range(30)))
+    j.write_text("".join(json.dumps({"time": f"t{k}", "fill": 500 + k % 3}) + "\n"
+                         for k in range(30)))
+    cfg = tmp_path / "line.toml"
+    cfg.write_text(f'[[feed]]\npaths = ["{a}"]\n[[feed]]\npaths = ["{b}"]\n'
+                   f'[[feed]]\npaths = ["{j}"]\nlayout = "jsonl"\n')
+    state = tmp_path / "state"
+    proc = start_watch([], state, "-c", str(cfg), "--column", "od", "--column", "nosuch")
+    for p in (a, b, j):
+        wait_caught_up(state, p)
+    out, _ = stop(proc)
+    recs = records(out)
+    warned = {r["file"]: r["detail"] for r in recs
+              if r["type"] == "feed" and r["event"] == "warning"}
+    assert set(warned) == {str(a), str(b), str(j)}
+    assert "'nosuch'" in warned[str(a)] and "'od'" not in warned[str(a)]
+    assert "time, od, wall" in warned[str(a)] and "nothing is charted" not in warned[str(a)]
+    assert "'od', 'nosuch'" in warned[str(b)] and "time, ovality" in warned[str(b)]
+    assert "nothing is charted" in warned[str(b)]
+    assert "no key 'od', 'nosuch'" in warned[str(j)] and "time, fill" in warned[str(j)]
+    assert next(r for r in recs if r["type"] == "summary" and r["characteristic"] == "od")[
+        "points"] == 30
+    with Store(state, create=False) as store:  # the feeds view shows it under each file
+        views = {fv.file: fv for fv in _feed_views(store)}
+    assert all(any("no " in n for n in views[str(p)].notes) for p in (a, b, j))
+    assert {views[str(p)].status for p in (a, b, j)} == {"warning"}
+
+
+def test_a_wanted_column_present_in_every_file_of_several_feeds_is_not_flagged(
+        tmp_path: Path) -> None:
+    a, b = tmp_path / "a.csv", tmp_path / "b.csv"
+    for p in (a, b):
+        p.write_text("time,od\n" + "".join(f"t{k},{12 + k / 100}\n" for k in range(10)))
+    cfg = tmp_path / "line.toml"
+    cfg.write_text(f'[[feed]]\npaths = ["{a}"]\n[[feed]]\npaths = ["{b}"]\n')
+    state = tmp_path / "state"
+    proc = start_watch([], state, "-c", str(cfg), "--column", "od")
+    for p in (a, b):
+        wait_caught_up(state, p)
+    out, _ = stop(proc)
+    assert not [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
+    from linewatch.store.db import Store
+
+    with Store(state, create=False) as store:
+        assert {fv.status for fv in _feed_views(store)} == {"following"}
