@@ -51,6 +51,7 @@ FAILURES_BEFORE_ALARM = 3  # failed passes in a row before "monitoring stopped" 
 MAX_BACKOFF = 30.0  # seconds between retries after repeated failures, at most
 UNREAD_LINES = "unread-lines:{file}"  # meta key: lines of a file with no header to go by
 TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
+LIMITS_REFUSED = "limits-refused:{name}"  # meta key: why this phase's limits were refused
 
 
 @dataclass(slots=True)
@@ -503,6 +504,7 @@ class Monitor:
         records: list[dict[str, Any]] = []
         if out.problem is not None:  # this characteristic has no limits; the others go on
             records.append({"type": "error", "characteristic": name, "problem": out.problem})
+            self.store.set_meta(LIMITS_REFUSED.format(name=name), out.problem)
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)
@@ -555,6 +557,7 @@ class Monitor:
     ) -> None:
         """Put new limits on the history: the first phase's as set by linewatch from its
         baseline, a later phase's with the reason and person that asked for it."""
+        self.store.set_meta(LIMITS_REFUSED.format(name=name), "")  # limits exist now
         reason, actor, asked = "baseline", SYSTEM_ACTOR, False
         if eng.phase > 0:
             raw = self.store.get_meta(PHASE_REQUEST.format(name=name, phase=eng.phase))
@@ -662,10 +665,14 @@ class Monitor:
                 {"start_index": eng.phase_start, "phase": eng.phase, "reason": req["reason"]},
                 at=now, actor=req.get("actor"),
             )
+            self.store.set_meta(LIMITS_REFUSED.format(name=name), "")  # judged afresh
             self.store.set_meta(PHASE_REQUEST.format(name=name, phase=eng.phase),
                                 json.dumps({"reason": req["reason"], "actor": req.get("actor"),
                                             "start": eng.phase_start}))
             out = eng.settle()  # the new phase may already hold enough points for limits
+            if out.problem is not None:  # ... or be refused again
+                self.store.set_meta(LIMITS_REFUSED.format(name=name), out.problem)
+                self.emit({"type": "error", "characteristic": name, "problem": out.problem})
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)
                 for lim in (out.limits.location, out.limits.dispersion):

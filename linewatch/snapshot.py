@@ -23,6 +23,7 @@ from linewatch.view import (
     STATE_ALARM,
     STATE_LEARNING,
     STATE_OK,
+    STATE_REFUSED,
     STATE_STALE,
     STATE_WATCH,
     UNACKNOWLEDGED,
@@ -152,7 +153,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
                                   [r.value for r in recs[-RESOLUTION_READINGS:]])
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
-    if not limits_hist:
+    from linewatch.monitor import LIMITS_REFUSED
+
+    v.limits_refused = store.get_meta(LIMITS_REFUSED.format(name=c.name)) or ""
+    if not limits_hist and not v.limits_refused:  # (refused: more points cannot help)
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
     # the label follows the condition (the gauge recovered), not the unacknowledged alarm
     v.stuck = any(a.rule == "stuck" and a.active for a in open_alarms)
@@ -207,6 +211,8 @@ def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bo
         return STATE_ALARM
     if v.stale or v.stuck:
         return STATE_STALE
+    if v.limits_refused:
+        return STATE_REFUSED
     if ACKNOWLEDGED in states or (v.cpk is not None and v.cpk < 1.0):
         return STATE_WATCH
     if not has_limits:

@@ -23,6 +23,7 @@ OPEN_STATES = (UNACKNOWLEDGED, ACKNOWLEDGED, RETURNED_UNACKNOWLEDGED, SHELVED)
 STATE_ALARM = "alarm"  # an unacknowledged alarm
 STATE_WATCH = "watch"  # acknowledged but still active alarm, or Cpk below 1.00
 STATE_STALE = "stale"  # no new row for stale_after, or a stuck gauge
+STATE_REFUSED = "refused"  # this phase's limits were refused (σ̂ = 0, values too extreme)
 STATE_LEARNING = "learning"  # collecting baseline points, no limits yet
 STATE_OK = "ok"
 
@@ -80,6 +81,7 @@ class CharacteristicView:
     points: int = 0
     rejected: int = 0
     baseline_needed: int = 0  # plotted points still needed before limits exist
+    limits_refused: str = ""  # why this phase's limits were refused ("" when they were not)
     location: ChartView | None = None
     dispersion: ChartView | None = None
     recent_mean: float | None = None
