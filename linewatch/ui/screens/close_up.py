@@ -202,9 +202,8 @@ class CloseUpScreen(LineScreen):
     def _alarms_text(self, name: str) -> Text:
         """This characteristic's open alarms, so the close-up answers 'why is it red'."""
         from linewatch.ui.formatting import ALARM_STATE_WORDS, fmt_clock
-        from linewatch.ui.screens.queue import sorted_alarms
 
-        mine = [a for a in sorted_alarms(self.lw.line.alarms)
+        mine = [a for a in self.lw.alarms_in_order()
                 if a.characteristic == name and a.state != view.NORMAL]
         text = Text(end="")
         text.append(f"open alarms ({len(mine)})\n", "bold")
