@@ -10,10 +10,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from textual.widgets._footer import FooterKey
 
-from linewatch.present import view
 from linewatch.faces.tui.app import LinewatchApp
 from linewatch.faces.tui.screens.queue import AlarmQueueScreen, sorted_alarms
 from linewatch.faces.tui.widgets.key_footer import KeyFooter
+from linewatch.present import view
 
 from .fake_line import NOW, FakeSource
 
