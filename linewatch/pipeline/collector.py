@@ -109,6 +109,8 @@ class Collector:
             if batch.unread:  # lines of a file without a header: counted, said once above
                 out.rejected += batch.unread
                 self.store.ingest.add_unread_lines(batch.file, batch.unread)
+            if batch.rows:
+                self._headed(batch.file, now, out)
             for r in batch.rejected:
                 out.records.append(rejected_record(r))
                 self.store.history.add_feed_event(
@@ -129,6 +131,16 @@ class Collector:
                 self._count_times(batch)
         if chunk.state is not None:
             self.store.ingest.save_file(chunk.state, now)
+
+    def _headed(self, file: str, now: float, out: Outcome) -> None:
+        """Rows of a file counted as having no header are read now (a header was added, or
+        the file was replaced by one with a header): say so, return its no-header alarm and
+        clear the count, so the file no longer shows as unread."""
+        before = self.store.ingest.take_unread_lines(file)
+        if before:
+            out.records.append(self._record_feed_event(FeedEvent(
+                "header", file, f"a header to go by now: its rows are read; {before:,} lines "
+                "without one were counted before"), now, out.raised))
 
     def _count_times(self, batch: Batch) -> None:
         """Count the batch's time stamps that go backwards or cannot be read (the rows are
@@ -167,6 +179,7 @@ class Collector:
         if live.problem is not None:  # this characteristic has no limits; the others go on
             out.records.append({"type": "error", "characteristic": name,
                                 "problem": live.problem})
+            self.store.ingest.set_limits_refused(name, live.problem)
         if live.limits is not None:
             self._record_limits(name, eng, live.limits, now)
             out.records.extend(limits_record(name, lim)
@@ -217,7 +230,12 @@ class Collector:
             at=now, actor=req.actor,
         )
         self.store.requests.carried_out(req.id, eng.phase, eng.phase_start, now)
+        self.store.ingest.set_limits_refused(name, "")  # judged afresh
         live = eng.settle()  # the new phase may already hold enough points for limits
+        if live.problem is not None:  # ... or be refused again
+            self.store.ingest.set_limits_refused(name, live.problem)
+            out.records.append({"type": "error", "characteristic": name,
+                                "problem": live.problem})
         if live.limits is not None:
             self._record_limits(name, eng, live.limits, now)
             out.records.extend(limits_record(name, lim)
@@ -266,6 +284,7 @@ class Collector:
     ) -> None:
         """Put new limits on the history: the first phase's as set by linewatch from its
         baseline, a later phase's with the reason and person that asked for it."""
+        self.store.ingest.set_limits_refused(name, "")  # limits exist now
         reason, actor, asked = "baseline", SYSTEM_ACTOR, False
         if eng.phase > 0:
             request = self.store.requests.for_phase(name, eng.phase)

@@ -25,6 +25,7 @@ class WatchPlan:
     columns: list[str] | None  # columns to keep (None: every numeric column)
     baseline: int
     title: str = ""
+    asked: list[str] | None = None  # columns named on the command line (`--column`)
     overrides: Callable[[CharacteristicConfig], CharacteristicConfig] = field(
         default=lambda c: c
     )

@@ -197,10 +197,14 @@ class RoleLoop:
         saved = self.store.ingest.files()
         # One column list serves every feed; with several feeds each file holds only some of
         # the characteristics, so every numeric column is read and the unknown ones dropped.
+        # Columns asked for by name are still looked for in every file, and a file lacking
+        # one says so (a `warning` feed event listing the columns it has).
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
+        expected = self.plan.asked if columns is None else None
         stop = self._stop
         self.tailer = Tailer(self.plan.feeds, columns, saved,
-                             should_stop=None if stop is None else stop.is_set)
+                             should_stop=None if stop is None else stop.is_set,
+                             expected=expected)
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         self.emit({"type": "role", "role": "collector", "instance": self.lease.instance_id})
 

@@ -3,7 +3,8 @@
 The keys in use (DEVELOPERS.md lists them too): `audit_head` (audit.py: the trail's newest
 sequence number and hash), `alarm_flood` (the alarm flood going on now, JSON; '' when none),
 `unread-lines:<file>` and `time-stamps:<file>` (ingest.py: per-file counts the collector keeps
-with the offsets). Anything that is a list of things, or is looked up by part of its key, gets
+with the offsets), `limits-refused:<characteristic>` (ingest.py: why the current phase has no
+limits). Anything that is a list of things, or is looked up by part of its key, gets
 a table instead (e.g. the baseline requests, requests.py).
 """
 
