@@ -25,7 +25,8 @@ from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
 from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
 from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
-from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_history
+from linewatch.engine.batch import HistoryResult, analyse_history
+from linewatch.engine.setup import ChartSetup
 
 
 @dataclass(slots=True)
