@@ -76,7 +76,7 @@ def _read_all(
 
 def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
              result: HistoryResult, rejected: int) -> dict[str, Any]:
-    from linewatch.engine.budget import average_run_length
+    from linewatch.engine.budget.rates import average_run_length
     from linewatch.engine.summary import summarize
 
     s = summarize(values, sigma_within=result.limits.sigma_within, lsl=c.lsl, usl=c.usl)
