@@ -17,9 +17,9 @@ from linewatch.config.loading import (
     FeedConfig,
     load_config,
 )
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.rulebook import RuleListError, parse_rule_list, resolve_rules
+from linewatch.engine.rulebook import parse_rule_list, resolve_rules
 from linewatch.engine.setup import ChartSetup
 
 
