@@ -13,10 +13,20 @@ import threading
 import time
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
+from datetime import datetime, timedelta
 from pathlib import Path
 from typing import BinaryIO
 
-from linewatch.simulation.line import Action, Header, Note, Rotate, Row
+from linewatch.simulation.line import (
+    EXTRUSION_LINE,
+    Action,
+    Header,
+    Note,
+    Rotate,
+    Row,
+    Scenario,
+    latest_stamp,
+)
 
 PARTIAL_PAUSE = 0.03  # seconds between the two pieces of a split row
 
@@ -123,3 +133,26 @@ def _apply(
         stats.rotations += 1
     elif isinstance(action, Note) and on_note is not None:
         on_note(action)
+
+
+
+def existing_logs(folder: Path, scenario: Scenario = EXTRUSION_LINE) -> list[Path]:
+    """The scenario's logs that `folder` already holds (a run then continues them)."""
+    return [folder / g.file for g in scenario.gauges if (folder / g.file).exists()]
+
+
+def continue_after(logs: list[Path]) -> datetime | None:
+    """A time just after the newest row of `logs`: a continued run stamps its first live row no
+    earlier, so no log's time stamps go backwards, even after an earlier run went ahead of the
+    clock (speed > 1). None when no row of theirs carries a time stamp."""
+    stamps = [t for t in (_tail_stamp(p) for p in logs) if t is not None]
+    return max(stamps) + timedelta(seconds=1) if stamps else None
+
+
+def _tail_stamp(path: Path) -> datetime | None:
+    """The newest time stamp among the last rows of a log written by the simulator."""
+    with path.open("rb") as fh:
+        fh.seek(0, 2)
+        fh.seek(max(0, fh.tell() - 4096))
+        tail = fh.read().decode("utf-8", errors="replace")
+    return latest_stamp(tail)
