@@ -325,10 +325,12 @@ def test_cli_stops_cleanly_on_sigterm(tmp_path: Path) -> None:
         text=True,
     )
     try:
+        # SIGTERM once every gauge has written (not after a guessed pause)
+        logs = [tmp_path / g.file for g in EXTRUSION_LINE.gauges]
         deadline = time.monotonic() + 15
-        while not (tmp_path / "fill_scale.jsonl").exists() and time.monotonic() < deadline:
+        while (not all(p.exists() and p.stat().st_size for p in logs)
+               and time.monotonic() < deadline):
             time.sleep(0.05)
-        time.sleep(0.3)
         proc.send_signal(signal.SIGTERM)
         _out, err = proc.communicate(timeout=10)
     finally:
