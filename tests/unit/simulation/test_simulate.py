@@ -38,7 +38,7 @@ from linewatch.simulation.line import (
     collect,
     generate,
 )
-from linewatch.simulation.writer import write_feeds
+from linewatch.simulation.writer import PARTIAL_PAUSE, write_feeds
 
 START = datetime(2026, 3, 2, 6, 0, 0, tzinfo=timezone(timedelta(hours=1)))
 RATE = 5.0
@@ -286,6 +286,20 @@ def test_writer_honours_duration_and_writes_complete_rotated_files(tmp_path: Pat
     )
     simulated = (last - START).total_seconds()
     assert speed * (stats.seconds - 1.5) < simulated <= speed * stats.seconds + 1
+
+
+def test_partial_lines_do_not_hold_back_the_pace(tmp_path: Path) -> None:
+    # At a high speed the split rows' pauses add up to more than the whole run: they must
+    # overlap the schedule, not be slept one after the other (which took seconds longer).
+    stats = write_feeds(tmp_path, generate(3, RATE, START), speed=300.0, duration=1.0)
+    assert stats.split_rows * PARTIAL_PAUSE > 2.0  # the pauses alone, if slept in turn
+    assert stats.seconds < stats.split_rows * PARTIAL_PAUSE
+    for g in EXTRUSION_LINE.gauges:  # every split row was completed
+        written = b"".join(p.read_bytes() for p in (tmp_path / f"{g.file}.1", tmp_path / g.file)
+                           if p.exists())
+        assert written.endswith(b"\n")
+        _, expected = collect(generate(3, RATE, START), ONE_CYCLE * 3)
+        assert _file_bytes(expected, g.file).startswith(written)
 
 
 def test_writer_stops_at_once_when_asked(tmp_path: Path) -> None:
