@@ -61,6 +61,7 @@ def save_state(engine: CharacteristicEngine) -> dict[str, Any]:
         "phase_start": engine.phase_start,
         "phase_baseline": engine.phase_baseline,
         "next_index": engine.next_index,
+        "problem": engine.problem,
         "limits": _limits_to_dict(engine.limits) if engine.limits else None,
         "waiting": [[_point_to_list(p), _point_to_list(d)] for p, d in engine.waiting],
         "history": [[_point_to_list(p), _point_to_list(disp_by_index.get(p.index))]
@@ -84,6 +85,7 @@ def restore_engine(
     engine.phase_start = state["phase_start"]
     engine.phase_baseline = state["phase_baseline"]
     engine.next_index = state["next_index"]
+    engine.problem = state.get("problem")
     loc_c, disp_c = engine.loc_chart, engine.disp_chart
     for p, d in state["history"]:
         engine.loc_history.append(_point_from_list(loc_c, p))
