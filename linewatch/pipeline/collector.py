@@ -22,7 +22,9 @@ from linewatch.config.loading import CharacteristicConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
 from linewatch.domain.records import FeedEvent, Limits
-from linewatch.engine.characteristic import CharacteristicEngine, Firing, LiveOutput
+from linewatch.engine.live import CharacteristicEngine, LiveOutput
+from linewatch.engine.live_state import restore_engine, save_state
+from linewatch.engine.setup import Firing
 from linewatch.feeds.health import FeedHealth
 from linewatch.pipeline.plan import Characteristics, WatchPlan
 
@@ -69,8 +71,8 @@ class Collector:
             for name, text in store.ingest.engines().items():
                 c = self._config(name)
                 if c is not None:
-                    self.engines[name] = CharacteristicEngine.from_state(
-                        chart_setup(c, plan.baseline), json.loads(text))
+                    self.engines[name] = restore_engine(chart_setup(c, plan.baseline),
+                                                        json.loads(text))
 
     # -- a poll -----------------------------------------------------------------------------
 
@@ -86,7 +88,7 @@ class Collector:
             for chunk in chunks:
                 self._process_chunk(chunk, now, out, touched)
             for name in sorted(touched):
-                self.store.ingest.save_engine(name, json.dumps(self.engines[name].to_state()),
+                self.store.ingest.save_engine(name, json.dumps(save_state(self.engines[name])),
                                               now)
         out.rows = sum(c.batch.rows for c in chunks if c.batch is not None)
         return out
@@ -242,7 +244,7 @@ class Collector:
                                for lim in (live.limits.location, live.limits.dispersion))
         out.raised.extend(self._observe_judged(name, live, now))
         out.records.extend(signal_of(name, f) for f in live.firings)
-        self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
+        self.store.ingest.save_engine(name, json.dumps(save_state(eng)), now)
         out.records.append({"type": "baseline", "characteristic": name,
                             "start_index": eng.phase_start, "reason": req.reason})
 
