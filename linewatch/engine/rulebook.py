@@ -15,10 +15,22 @@ Conventions (tests pin each one):
 - The mixture test (n8) fires at point i when the last L points are all beyond 1σ and lie on both
   sides of the centre line.
 - Dispersion charts get only the beyond-limits test (`n1`/`we1`) of the selected sets.
+
+Detectors (`ewma`, `cusum`) are rule ids too, listed beside the run rules, but they are not
+`RuleSpec`s: a run rule's verdict depends on its last `lookback` points only, so its state is
+rebuilt by replaying them, while a detector's statistic remembers every point of the phase and
+has real-valued parameters. Each has its own spec (`EwmaSpec`, `CusumSpec`) and is evaluated by
+`engine.detectors`, on the location statistic standardised by its σ (target: the centre line):
+- EWMA: z_i = λ·x_i + (1 − λ)·z_{i−1}, z_0 = 0; fires where |z_i| is strictly beyond the exact
+  time-varying limit L·√(λ/(2 − λ)·(1 − (1 − λ)^{2i})) (i = 1 at the first point).
+- CUSUM: C⁺_i = max(0, x_i − k + C⁺_{i−1}), C⁻_i = max(0, −x_i − k + C⁻_{i−1}), both starting
+  at the head start; fires (side up / down) where C⁺ > h or C⁻ > h; no reset after a signal.
 """
 
 from __future__ import annotations
 
+import math
+from collections.abc import Mapping
 from dataclasses import dataclass, replace
 
 from linewatch.domain.errors import RuleListError
@@ -102,6 +114,68 @@ RULE_SETS: dict[str, tuple[str, ...]] = {
 DEFAULT_RULES = "western-electric"
 
 
+# Detector kinds, evaluated by `engine.detectors`.
+EWMA = "ewma"
+CUSUM = "cusum"
+
+
+@dataclass(frozen=True, slots=True)
+class EwmaSpec:
+    """The EWMA detector: smoothing weight `lam` (λ) and limit width `width` (L, in σ of the
+    EWMA statistic's asymptotic spread). Defaults: Lucas & Saccucci, Technometrics 32(1), 1990
+    (in-control ARL about 500 with asymptotic limits)."""
+
+    lam: float = 0.2
+    width: float = 2.962
+    id: str = EWMA
+    kind: str = EWMA
+
+    @property
+    def asymptotic_half_width(self) -> float:
+        """L·√(λ/(2 − λ)): the limits' half-width (in σ of the plotted statistic) they widen to."""
+        return self.width * math.sqrt(self.lam / (2.0 - self.lam))
+
+    def describe(self) -> str:
+        return (f"EWMA (λ = {self.lam:g}) beyond {self.width:g}σ of its own spread "
+                "(small sustained shifts)")
+
+
+@dataclass(frozen=True, slots=True)
+class CusumSpec:
+    """The two-sided tabular CUSUM: reference value `k` and decision interval `h` (in σ of the
+    plotted statistic), head start `headstart` (fast initial response, Lucas & Crosier,
+    Technometrics 24(3), 1982; h/2 is their choice). Defaults k = ½, h = 5 (in-control ARL
+    about 465: Montgomery, Introduction to Statistical Quality Control, the CUSUM ARL table)."""
+
+    k: float = 0.5
+    h: float = 5.0
+    headstart: float = 0.0
+    id: str = CUSUM
+    kind: str = CUSUM
+
+    def describe(self) -> str:
+        start = f", head start {self.headstart:g}" if self.headstart else ""
+        return (f"CUSUM (k = {self.k:g}, h = {self.h:g}{start}) beyond its decision interval "
+                "(small sustained shifts)")
+
+
+DetectorSpec = EwmaSpec | CusumSpec
+
+DETECTORS: dict[str, DetectorSpec] = {EWMA: EwmaSpec(), CUSUM: CusumSpec()}
+
+# Option names of each detector (config tables `ewma = {...}`, `cusum = {...}`) -> spec field,
+# with the allowed range (inclusive) of each.
+DETECTOR_OPTIONS: dict[str, dict[str, tuple[str, float, float]]] = {
+    EWMA: {"lambda": ("lam", 0.01, 1.0), "width": ("width", 0.1, 10.0)},
+    CUSUM: {"k": ("k", 0.0, 5.0), "h": ("h", 0.1, 50.0), "headstart": ("headstart", 0.0, 50.0)},
+}
+
+
+def is_detector(rule_id: str) -> bool:
+    """Whether `rule_id` names a detector (`ewma`, `cusum`) rather than a run rule."""
+    return rule_id in DETECTORS
+
+
 def parse_rule_list(text: str | list[str] | tuple[str, ...]) -> list[str]:
     """Expand ids and set names (comma-separated or a list) into rule ids, in order, no repeats."""
     items = text.split(",") if isinstance(text, str) else list(text)
@@ -112,10 +186,10 @@ def parse_rule_list(text: str | list[str] | tuple[str, ...]) -> list[str]:
             continue
         if name in RULE_SETS:
             ids = RULE_SETS[name]
-        elif name in RULES:
+        elif name in RULES or name in DETECTORS:
             ids = (name,)
         else:
-            known = ", ".join([*RULE_SETS, *RULES])
+            known = ", ".join([*RULE_SETS, *RULES, *DETECTORS])
             raise RuleListError(f"unknown rule or set {raw.strip()!r} (known: {known})")
         out.extend(i for i in ids if i not in out)
     if not out:
@@ -124,10 +198,15 @@ def parse_rule_list(text: str | list[str] | tuple[str, ...]) -> list[str]:
 
 
 def resolve_rules(ids: list[str], lengths: dict[str, int] | None = None) -> list[RuleSpec]:
-    """RuleSpecs for `ids`, with run lengths (or window m) overridden from `lengths`."""
+    """RuleSpecs for the run rules among `ids`, with run lengths (or window m) overridden from
+    `lengths`. Detector ids are left to `resolve_detectors`."""
     lengths = lengths or {}
     specs: list[RuleSpec] = []
     for rule_id in ids:
+        if rule_id in DETECTORS:
+            if rule_id in lengths:
+                raise RuleListError(f"{rule_id} has no length to adjust")
+            continue
         spec = RULES[rule_id]
         if rule_id in lengths:
             new = int(lengths[rule_id])
@@ -141,3 +220,43 @@ def resolve_rules(ids: list[str], lengths: dict[str, int] | None = None) -> list
             spec = replace(spec, length=new)
         specs.append(spec)
     return specs
+
+
+def resolve_detectors(
+    ids: list[str] | tuple[str, ...],
+    options: Mapping[str, Mapping[str, float]] | None = None,
+) -> list[DetectorSpec]:
+    """Specs of the detectors among `ids` (in order), with parameters from `options`
+    (detector id -> option name -> value, e.g. {"ewma": {"lambda": 0.1}}). Run rule ids are left
+    to `resolve_rules`. A bad option names the detector, the option and the allowed range."""
+    options = options or {}
+    for det_id in options:
+        if det_id not in DETECTORS:
+            raise RuleListError(f"{det_id!r} is not a detector (known: {', '.join(DETECTORS)})")
+    out: list[DetectorSpec] = []
+    for det_id in ids:
+        if det_id not in DETECTORS:
+            continue
+        spec = DETECTORS[det_id]
+        allowed = DETECTOR_OPTIONS[det_id]
+        changes: dict[str, float] = {}
+        for name, raw in options.get(det_id, {}).items():
+            if name not in allowed:
+                raise RuleListError(
+                    f"{det_id} has no option {name!r} (known: {', '.join(allowed)})")
+            field, lo, hi = allowed[name]
+            if isinstance(raw, bool) or not isinstance(raw, int | float):
+                raise RuleListError(f"{det_id} {name} must be a number, got {raw!r}")
+            value = float(raw)
+            if not lo <= value <= hi:
+                raise RuleListError(f"{det_id} {name} must be between {lo:g} and {hi:g}")
+            changes[field] = value
+        if isinstance(spec, EwmaSpec):
+            spec = EwmaSpec(changes.get("lam", spec.lam), changes.get("width", spec.width))
+        else:
+            spec = CusumSpec(changes.get("k", spec.k), changes.get("h", spec.h),
+                             changes.get("headstart", spec.headstart))
+        if isinstance(spec, CusumSpec) and spec.headstart >= spec.h:
+            raise RuleListError("cusum headstart must be below h (h/2 is the usual choice)")
+        out.append(spec)
+    return out
