@@ -28,14 +28,22 @@ SYMBOL_LEVEL = np.array(list(range(1, LEVELS + 1)) * 2)
 ZONE_KINDS = frozenset({BEYOND, SIDE_RUN, K_OF_M, WITHIN, MIXTURE})
 
 
-def zone_probabilities() -> np.ndarray:
-    """Probability of each zone symbol for one standard normal point (sums to 1).
+def zone_probabilities(shift: float = 0.0) -> np.ndarray:
+    """Probability of each zone symbol for one normal point with mean `shift` and σ 1 (the chart's
+    centre 0, limits ±3; sums to 1).
 
     Φ is the project's own normal CDF (no scipy on this path); the tests compare with scipy.
     """
-    upper = [normal_cdf(-c) for c in (0.0, 1.0, 2.0, 3.0)]  # P(Z > c)
-    one_side = np.array([upper[0] - upper[1], upper[1] - upper[2], upper[2] - upper[3], upper[3]])
-    return np.concatenate([one_side, one_side])
+    if shift == 0.0:
+        upper = [normal_cdf(-c) for c in (0.0, 1.0, 2.0, 3.0)]  # P(Z > c)
+        one_side = np.array([upper[0] - upper[1], upper[1] - upper[2], upper[2] - upper[3],
+                             upper[3]])
+        return np.concatenate([one_side, one_side])
+    above = [normal_cdf(shift - c) for c in (0.0, 1.0, 2.0, 3.0)]  # P(X > c)
+    below = [normal_cdf(-c - shift) for c in (0.0, 1.0, 2.0, 3.0)]  # P(X < −c)
+    plus = [above[0] - above[1], above[1] - above[2], above[2] - above[3], above[3]]
+    minus = [below[0] - below[1], below[1] - below[2], below[2] - below[3], below[3]]
+    return np.array(plus + minus)
 
 
 @dataclass(frozen=True, slots=True)

@@ -10,6 +10,7 @@ factorisation of these shift-register chains suffers, and its residual is checke
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
@@ -30,8 +31,39 @@ _KRYLOV_ITERATIONS = 4_000
 _MAX_CODE = 2**62
 
 
-def markov_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> float | None:
-    """Exact ARL0 of zone-only rules together; None when the chain would be too large."""
+def markov_run_length(
+    specs: list[RuleSpec] | tuple[RuleSpec, ...], shift: float = 0.0
+) -> float | None:
+    """Exact ARL of zone-only rules together, in control or with the mean shifted by `shift` σ
+    of the plotted statistic; None when the chain would be too large. The chain's states are
+    built once per rule set (cached); each shift only solves it again."""
+    structure = _structure(_rules_key(specs))
+    if structure is None:
+        return None
+    if isinstance(structure, float):
+        return structure
+    size, rows, cols, symbols, start = structure
+    probs = zone_probabilities(shift)[symbols]
+    t = _expected_steps(size, rows, cols, probs)
+    return None if t is None else float(t[start])
+
+
+def _rules_key(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> tuple[RuleSpec, ...]:
+    """The distinct zone rules by parameters (ids and order do not change the chain)."""
+    seen: dict[tuple[str, int, int, int], RuleSpec] = {}
+    for s in specs:
+        seen.setdefault((s.kind, s.length, s.k, s.zone), RuleSpec("", s.kind, s.length, s.k,
+                                                                  s.zone))
+    return tuple(sorted(seen.values(), key=lambda s: (s.kind, s.length, s.k, s.zone)))
+
+
+@lru_cache(maxsize=64)
+def _structure(
+    specs: tuple[RuleSpec, ...],
+) -> tuple[int, np.ndarray, np.ndarray, np.ndarray, int] | float | None:
+    """The merged chain of `specs`: its size, the (row, column, zone symbol) of every
+    transition that does not signal, and the start state; inf with no rules, None when too
+    large."""
     autos = _unique_automata(specs)
     if autos is None:
         return None
@@ -67,12 +99,11 @@ def markov_run_length(specs: list[RuleSpec] | tuple[RuleSpec, ...]) -> float | N
     target = np.where(fire, -1, np.searchsorted(known, nxt))  # −1: the chain signals
     group, reps = _merge_equivalent(target)
     target = target[reps]
-    prob = np.broadcast_to(zone_probabilities(), target.shape)
+    symbol = np.broadcast_to(np.arange(SYMBOLS)[None, :], target.shape)
     keep = target >= 0
     rows = np.broadcast_to(np.arange(reps.size)[:, None], target.shape)[keep]
     cols = group[target[keep]]
-    t = _expected_steps(reps.size, rows, cols, prob[keep])
-    return None if t is None else float(t[group[0]])  # code 0 (the empty history) sorts first
+    return reps.size, rows, cols, symbol[keep], int(group[0])  # code 0 (empty history) first
 
 
 def _merge_equivalent(target: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -1,8 +1,9 @@
-"""Seeded Monte-Carlo in-control ARL: for sets with rules that look at the values' order.
+"""Seeded Monte-Carlo ARL: for sets with rules that look at the values' order, and for
+detectors combined with other rules.
 
-Independent standard normal runs, each until the first signal, judged by the vectorised
-evaluator of `rules.py`. The relative standard error is about 1/√replicates (run lengths are
-near-geometric).
+Independent normal runs (σ 1, mean 0 or shifted), each until the first signal, judged by the
+vectorised evaluator of `rules.py` and the detectors' row-wise evaluators. The relative standard
+error is about 1/√replicates (run lengths are near-geometric).
 """
 
 from __future__ import annotations
@@ -12,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from linewatch.engine.rulebook import WITHIN, RuleSpec
+from linewatch.engine.rulebook import WITHIN, CusumSpec, DetectorSpec, RuleSpec
 
 SIMULATION = "simulation"
 SIMULATION_LOWER_BOUND = "simulation (lower bound)"
@@ -39,9 +40,14 @@ def simulate_run_length(
     replicates: int = DEFAULT_REPLICATES,
     seed: int = DEFAULT_SEED,
     max_points: int = MAX_SIMULATED_POINTS,
+    shift: float = 0.0,
+    detectors: tuple[DetectorSpec, ...] = (),
+    first_width: int = 256,
 ) -> SimulatedRunLength:
-    """Monte-Carlo ARL0 of `specs` (at least one rule): independent standard normal runs, each
-    until the first signal, evaluating at most `max_points` points in all.
+    """Monte-Carlo ARL of `specs` and `detectors` together (at least one of either), with the
+    mean shifted by `shift` σ: independent normal runs, each until the first signal, evaluating
+    at most `max_points` points in all. Each run starts `first_width` points long (short runs,
+    as under a shift, need less) and doubles while it has no signal.
 
     Runs are laid end to end in one array and evaluated with `rules.evaluate_classified`, with a
     separator block before each run that, by the rulebook's conventions, carries nothing over
@@ -51,16 +57,16 @@ def simulate_run_length(
     re-evaluated.
     """
     specs = tuple(specs)
-    if not specs:
+    if not specs and not detectors:
         raise ValueError("no rules to simulate")
     rng = np.random.default_rng(seed)
-    series = rng.standard_normal((replicates, 256))
+    series = rng.standard_normal((replicates, first_width)) + shift
     lengths = np.zeros(replicates, np.int64)
     pending = np.arange(replicates)
     spent = 0
     method = SIMULATION
     while pending.size:
-        first = first_signals(specs, series)
+        first = first_signals(specs, series, detectors)
         spent += series.size
         done = first >= 0
         lengths[pending[done]] = first[done] + 1
@@ -70,17 +76,25 @@ def simulate_run_length(
             method = SIMULATION_LOWER_BOUND
             break
         if pending.size:  # no signal yet: extend these runs to twice their length
-            series = np.concatenate([series, rng.standard_normal(series.shape)], axis=1)
+            more = rng.standard_normal(series.shape) + shift
+            series = np.concatenate([series, more], axis=1)
     arl = float(np.mean(lengths))
     se = float(np.std(lengths, ddof=1) / math.sqrt(replicates)) if replicates > 1 else None
     return SimulatedRunLength(arl, method, se)
 
 
-def first_signals(specs: tuple[RuleSpec, ...], series: np.ndarray) -> np.ndarray:
-    """Index of the first point of each row at which any rule fires (−1 if none)."""
+def first_signals(
+    specs: tuple[RuleSpec, ...], series: np.ndarray, detectors: tuple[DetectorSpec, ...] = ()
+) -> np.ndarray:
+    """Index of the first point of each row at which any rule or detector fires (−1 if none)."""
     from linewatch.engine.rules import classify, evaluate_classified  # lazy: only for simulation
 
     rows, width = series.shape
+    hits = np.zeros((rows, width), bool)
+    for det in detectors:
+        hits |= _detector_rows(det, series)
+    if not specs:
+        return np.where(hits.any(axis=1), hits.argmax(axis=1), -1)
     gap = max(s.lookback for s in specs)
     total = gap + width
     x = np.empty((rows, total))
@@ -98,5 +112,13 @@ def first_signals(specs: tuple[RuleSpec, ...], series: np.ndarray) -> np.ndarray
     for spec in specs:
         lv = outside.ravel() if spec.kind == WITHIN else flat_level
         fires |= evaluate_classified(spec, flat_x, flat_side, lv)
-    hits = fires.reshape(rows, total)[:, gap:]
+    hits |= fires.reshape(rows, total)[:, gap:]
     return np.where(hits.any(axis=1), hits.argmax(axis=1), -1)
+
+
+def _detector_rows(spec: DetectorSpec, series: np.ndarray) -> np.ndarray:
+    from linewatch.engine.detectors import cusum, ewma  # lazy: only for simulation
+
+    if isinstance(spec, CusumSpec):
+        return cusum.fired_rows(spec, series)
+    return ewma.fired_rows(spec, series)
