@@ -10,13 +10,9 @@ import fnmatch
 import os
 from dataclasses import replace
 
-from linewatch.config.loading import (
-    DISPERSIONS,
-    CharacteristicConfig,
-    Config,
-    FeedConfig,
-    load_config,
-)
+from linewatch.config.choices import DISPERSIONS
+from linewatch.config.loading import load_config
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
 from linewatch.engine.characteristic import ChartSetup

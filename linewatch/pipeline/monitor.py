@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, cast
 
 from linewatch.alarms.book import SYSTEM_ACTOR, AlarmEvent
-from linewatch.config.loading import CharacteristicConfig, Config, FeedConfig
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record

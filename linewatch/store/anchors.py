@@ -33,7 +33,7 @@ from linewatch.domain.errors import LinewatchError
 if TYPE_CHECKING:
     import logging.handlers
 
-    from linewatch.config.loading import MonitorConfig
+    from linewatch.config.model import MonitorConfig
     from linewatch.store.db import Store
 
 MARK = "linewatch-audit-anchor v1"

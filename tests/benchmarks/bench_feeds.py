@@ -22,7 +22,7 @@ import threading
 import time
 from pathlib import Path
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import read_log
 from linewatch.feeds.tailer import Tailer
 from linewatch.feeds.watcher import Waker

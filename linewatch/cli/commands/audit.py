@@ -10,7 +10,7 @@ from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.anchors import Anchor
     from linewatch.store.audit import Verdict
     from linewatch.store.db import Store

@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from linewatch.config.loading import CharacteristicConfig, FeedConfig
+from linewatch.config.model import CharacteristicConfig, FeedConfig
 from linewatch.config.selection import (
     chart_setup,
     feed_for_log,

@@ -12,7 +12,7 @@ from linewatch.domain.clock import parse_moment
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.db import Store
 
 DEFAULT_SPAN = "8h"

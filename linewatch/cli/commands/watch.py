@@ -10,7 +10,7 @@ from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING, Any
 
-from linewatch.config.loading import Config, FeedConfig
+from linewatch.config.model import Config, FeedConfig
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,

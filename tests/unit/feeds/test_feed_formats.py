@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import LinewatchError
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser, read_log
 
