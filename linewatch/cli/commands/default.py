@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-import argparse
 from pathlib import Path
 
+from linewatch.cli.options import DefaultOptions, WatchOptions
 from linewatch.domain.errors import LinewatchError
 
 HOW_TO_START = """no ./linewatch.toml here. To start:
@@ -15,12 +15,11 @@ HOW_TO_START = """no ./linewatch.toml here. To start:
 Copy config/linewatch.example.toml to ./linewatch.toml to make this the default."""
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: DefaultOptions) -> int:
+    """`linewatch watch -c linewatch.toml`, when that file is here."""
     path = Path("linewatch.toml")
     if not path.exists():
         raise LinewatchError(HOW_TO_START)
     from linewatch.cli.commands import watch
-    from linewatch.cli.main import build_parser
 
-    watch_args = build_parser().parse_args(["watch", "-c", str(path)])
-    return watch.run(watch_args)
+    return watch.run(WatchOptions(config=str(path)))
