@@ -24,6 +24,7 @@ from linewatch.config.model import (
     FeedConfig,
     MonitorConfig,
 )
+from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
@@ -173,8 +174,6 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
     r.check_known()
     syslog = r.string("audit_anchor_syslog") or None
     if syslog is not None:
-        from linewatch.store.anchors import parse_syslog_target
-
         try:
             parse_syslog_target(syslog)
         except ValueError as exc:
