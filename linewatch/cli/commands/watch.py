@@ -49,9 +49,11 @@ def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
         chart.columns or config.characteristics) else []
     columns = [c.column for c in chars] if chars else None
     baseline = chart.baseline or config.monitor.baseline
+    asked = [c.column for c in chars] if chart.columns else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
                      baseline=baseline,
-                     overrides=functools.partial(apply_overrides, overrides=chart))
+                     overrides=functools.partial(apply_overrides, overrides=chart),
+                     asked=asked)
 
 
 def run(options: WatchOptions, title: str = "") -> int:
