@@ -265,7 +265,8 @@ def _read_characteristic(
     rules: list[str] = r.default("rules")
     if "rules" in r.table:
         rules_value = r.table["rules"]
-        if not isinstance(rules_value, str | list):
+        if not isinstance(rules_value, str) and not (
+                isinstance(rules_value, list) and all(isinstance(x, str) for x in rules_value)):
             raise r.fail("rules", "must be a string or a list of rule ids and set names")
         try:
             rules = parse_rule_list(rules_value)

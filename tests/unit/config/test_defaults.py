@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
+import re
 
 import pytest
 
@@ -77,3 +78,28 @@ def test_a_closed_set_accepts_each_of_its_words_and_names_them_when_refusing(key
         parse_config(f"{table}\n{key} = 'sideways'\n", "x.toml")
     assert err.value.key.endswith(key)
     assert f"must be one of {', '.join(choices)}" in err.value.problem
+
+
+# TOML values of every kind, well-formed and not, for the sweep below
+ANY_VALUES = ["1", "-1", "0", "2.5", "nan", "inf", "1e308", "99999999999", "true", "'x'", "''",
+              "'auto'", "'range'", "'jsonl'", "'1h'", "'-5s'", "[]", "['a']", "[1]", "[[1]]",
+              "{}", "{ a = 1 }", "{ we1 = 'x' }", "1979-05-27"]
+TABLES = [("[monitor]\n", MonitorConfig), ("[alarms]\n", AlarmConfig),
+          ("[[feed]]\npaths = ['a']\n", FeedConfig),
+          ("[[characteristic]]\nname = 'x'\n", CharacteristicConfig)]
+
+
+@pytest.mark.parametrize(("head", "record"), TABLES, ids=[r.__name__ for _, r in TABLES])
+def test_any_value_of_any_key_is_taken_or_refused_naming_that_key(head, record):
+    """Never a crash: a value is read, or refused with a ConfigError that names the key (or,
+    for center/sigma, the partner it lacks)."""
+    partners = {"center": "sigma", "sigma": "center"}
+    for f in dataclasses.fields(record):
+        lines = [line for line in head.splitlines() if not line.startswith(f"{f.name} =")]
+        for value in ANY_VALUES:
+            text = "\n".join([*lines, f"{f.name} = {value}", ""])
+            try:
+                parse_config(text, "x.toml")
+            except ConfigError as err:
+                parts = re.split(r"[.\[]", err.key)
+                assert f.name in parts or partners.get(f.name) in parts, (text, err)
