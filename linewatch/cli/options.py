@@ -2,14 +2,32 @@
 by the same names (a test holds the two equal), and their defaults are THE defaults: the parser
 gives none, and the dispatcher in `cli.main` fills a field the command line left out with its
 default here. Commands get one of these, never parsed arguments, so a command that runs another
-(the bare `linewatch`, `demo`) just builds the other's record."""
+(the bare `linewatch`, `demo`) just builds the other's record. A record refuses impossible
+numbers when it is made (LinewatchError naming the option), whoever makes it."""
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 from linewatch.config.choices import ExportFormat, RecordFormat, ReportFormat
 from linewatch.config.overrides import ChartOverrides
+from linewatch.domain.errors import LinewatchError
+
+
+def _check_positive(option: str, value: float, unit: str = "") -> None:
+    """`value` is a finite number above 0, else a LinewatchError naming `option`."""
+    if not math.isfinite(value):
+        raise LinewatchError(f"{option} must be a finite number, got {value}")
+    if not value > 0:
+        raise LinewatchError(f"{option} must be more than 0{unit}, got {value}")
+
+
+def _check_pace(seed: int, speed: float) -> None:
+    """A simulated line's seed and clock speed: a seed of 0 or more, a finite speed above 0."""
+    _check_positive("--speed", speed)
+    if seed < 0:
+        raise LinewatchError(f"--seed must be 0 or more, got {seed}")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -39,6 +57,10 @@ class WatchOptions:
     no_ui: bool = False
     format: RecordFormat = "text"
     no_bell: bool = False
+
+    def __post_init__(self) -> None:
+        if self.poll is not None and not (math.isfinite(self.poll) and self.poll >= 0):
+            raise LinewatchError(f"--poll must be 0 or more seconds, got {self.poll}")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -137,6 +159,10 @@ class SimulateOptions:
     seed: int = 1
     duration: str | None = None
 
+    def __post_init__(self) -> None:
+        _check_positive("--rate", self.rate, " rows per second")
+        _check_pace(self.seed, self.speed)
+
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class DemoOptions:
@@ -145,3 +171,6 @@ class DemoOptions:
     keep: bool = False
     seed: int = 1
     speed: float = 1.0
+
+    def __post_init__(self) -> None:
+        _check_pace(self.seed, self.speed)

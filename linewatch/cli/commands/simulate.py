@@ -24,10 +24,6 @@ def run(options: SimulateOptions) -> int:
     from linewatch.simulation.line import EXTRUSION_LINE, Note, generate
     from linewatch.simulation.writer import write_feeds
 
-    if not options.rate > 0:
-        raise LinewatchError(f"--rate must be more than 0 rows per second, got {options.rate}")
-    if not options.speed > 0:
-        raise LinewatchError(f"--speed must be more than 0, got {options.speed}")
     duration = None
     if options.duration is not None:
         try:

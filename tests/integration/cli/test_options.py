@@ -199,3 +199,34 @@ def test_the_demo_hands_watch_its_folder_and_removes_it(monkeypatch):
     assert title == "demo extrusion line"
     assert options == opts.WatchOptions(config=options.config, state_dir=options.state_dir)
     assert not folder.exists()  # removed on the way out (no --keep)
+
+
+@pytest.mark.parametrize(
+    ("record", "given", "words"),
+    [(opts.SimulateOptions, {"out": "x", "rate": 0.0}, "--rate must be more than 0 rows"),
+     (opts.SimulateOptions, {"out": "x", "rate": float("nan")}, "--rate must be a finite"),
+     (opts.SimulateOptions, {"out": "x", "speed": float("inf")}, "--speed must be a finite"),
+     (opts.SimulateOptions, {"out": "x", "seed": -1}, "--seed must be 0 or more"),
+     (opts.DemoOptions, {"speed": 0.0}, "--speed must be more than 0"),
+     (opts.DemoOptions, {"seed": -3}, "--seed must be 0 or more"),
+     (opts.WatchOptions, {"poll": -1.0}, "--poll must be 0 or more seconds"),
+     (opts.WatchOptions, {"poll": float("nan")}, "--poll must be 0 or more seconds")],
+)
+def test_a_record_refuses_impossible_numbers_whoever_makes_it(record, given, words):
+    from linewatch.domain.errors import LinewatchError
+
+    with pytest.raises(LinewatchError, match=re.escape(words)):
+        record(**given)
+    assert record(**{**given, **{k: 1 for k in given if k != "out"}})  # 1 of each is fine
+
+
+def test_a_negative_seed_is_one_line_and_exit_2_not_a_traceback(tmp_path):
+    import subprocess
+    import sys
+
+    res = subprocess.run([sys.executable, "-m", "linewatch", "simulate", "--out",
+                          str(tmp_path / "line"), "--seed", "-1"],
+                         capture_output=True, text=True, timeout=60)
+    assert res.returncode == 2
+    assert res.stderr.splitlines() == ["linewatch: --seed must be 0 or more, got -1"]
+    assert not (tmp_path / "line").exists()  # refused before anything was written
