@@ -14,8 +14,8 @@ from linewatch.config.loading import load_config
 from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.overrides import ChartOverrides
 from linewatch.domain.errors import LinewatchError, RuleListError
-from linewatch.engine.characteristic import ChartSetup
 from linewatch.engine.rulebook import resolve_rules
+from linewatch.engine.setup import ChartSetup
 
 
 def load_optional_config(path: str | None) -> Config:
