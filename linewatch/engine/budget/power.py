@@ -32,7 +32,7 @@ from linewatch.engine.rulebook import CusumSpec, DetectorSpec, EwmaSpec, RuleSpe
 SHIFTS = (0.0, 0.5, 1.0, 1.5, 2.0, 3.0)
 BROOK_EVANS = "markov (Brook & Evans)"
 LUCAS_SACCUCCI = "markov (Lucas & Saccucci)"
-SHIFTED_FIRST_WIDTH = 32
+SHIFTED_FIRST_WIDTH = 16
 
 
 @dataclass(frozen=True, slots=True)
