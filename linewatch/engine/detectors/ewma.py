@@ -124,12 +124,15 @@ def scan(spec: EwmaSpec, x: np.ndarray, state: EwmaState | None = None) -> tuple
     if start:
         terms[start - 1] = st.running  # 0 + … + W + t: the sum goes on from the carried W
     running = np.cumsum(terms.reshape(rows, b), axis=1)
-    z_before = [st.z_block]
-    last_p, last_w = b - 1, running[:, b - 1].tolist()
-    pn, wt = tab.pow_next_list[last_p], tab.weight_list[last_p]
-    for q in range(rows - 1):
-        z_before.append(pn * z_before[q] + wt * last_w[q])
-    zb = np.array(z_before)
+    pn, wt = tab.pow_next_list[b - 1], tab.weight_list[b - 1]
+    if pn == 0.0:  # λ = 1: z is the point itself (0·z_b adds at most the sign of a zero)
+        zb = np.concatenate(([st.z_block], wt * running[:-1, b - 1]))
+    else:  # one step per block of points, the recursion between blocks
+        z_before = [st.z_block]
+        last_w = running[:, b - 1].tolist()
+        for q in range(rows - 1):
+            z_before.append(pn * z_before[q] + wt * last_w[q])
+        zb = np.array(z_before)
     z = (tab.pow_next[None, :] * zb[:, None] + tab.weight[None, :] * running).ravel()
     z = z[start : start + n]
     half = half_widths(spec, st.count, n)
