@@ -14,6 +14,8 @@ import numpy as np
 
 from linewatch.domain.errors import NotEnoughData
 from linewatch.engine.charts import plotted_series
+from linewatch.engine.detectors.cusum import CusumTrace
+from linewatch.engine.detectors.detect import DOWN, UP, DetectorTrace, run, standardise
 from linewatch.engine.limits import (
     MIN_BASELINE,
     ChartLimits,
@@ -23,7 +25,7 @@ from linewatch.engine.limits import (
 )
 from linewatch.engine.rulebook import RuleSpec
 from linewatch.engine.rules import classify, evaluate_classified
-from linewatch.engine.setup import ChartSetup, Firing, limit_state
+from linewatch.engine.setup import ChartSetup, Firing, detector_value, limit_state
 
 
 @dataclass(frozen=True, slots=True)
@@ -37,6 +39,7 @@ class FiringTable:
     value: np.ndarray
     charts: tuple[str, ...]
     rules: tuple[str, ...]
+    side: np.ndarray | None = None  # detectors' firings: +1 up, −1 down; 0 for run rules
 
     def __len__(self) -> int:
         return int(self.index.shape[0])
@@ -56,11 +59,15 @@ class HistoryResult:
     def firings(self) -> list[Firing]:
         """The firings as records (the table is the fast form for large histories)."""
         t = self.table
+        sides = [None] * len(t) if t.side is None else [_SIDE_NAMES[s] for s in t.side.tolist()]
         return [
-            Firing(t.charts[c], t.rules[r], i, w, v)
-            for i, c, r, w, v in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
-                                     t.row.tolist(), t.value.tolist(), strict=True)
+            Firing(t.charts[c], t.rules[r], i, w, v, side=d)
+            for i, c, r, w, v, d in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
+                                        t.row.tolist(), t.value.tolist(), sides, strict=True)
         ]
+
+
+_SIDE_NAMES: dict[int, str | None] = {0: None, 1: UP, -1: DOWN}
 
 
 def _evaluate_series(
@@ -90,8 +97,9 @@ def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
             )
         disp_base = disp.values[: b - 1] if n == 1 else disp.values[:b]
         limits = estimate_limits(loc.values[:b], disp_base, n, setup.dispersion)
-    rule_ids = tuple(r.id for r in setup.rules)
-    parts: list[tuple[np.ndarray, int, int, np.ndarray, np.ndarray]] = []
+    rule_ids = tuple(r.id for r in setup.rules) + tuple(d.id for d in setup.detectors)
+    charts = setup.charts + tuple(d.id for d in setup.detectors)
+    parts: list[tuple[np.ndarray, int, int, np.ndarray, np.ndarray, int]] = []
     for c, (series, lim, specs) in enumerate((
         (loc, limits.location, setup.rules),
         (disp, limits.dispersion, setup.dispersion_rules),
@@ -99,17 +107,35 @@ def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
         for rule_id, fired in _evaluate_series(series.values, lim, specs).items():
             pos = np.flatnonzero(fired)
             parts.append((series.indices[pos], c, rule_ids.index(rule_id), series.rows[pos],
-                          series.values[pos]))
+                          series.values[pos], 0))
+    if setup.detectors:
+        lim = limits.location
+        z = standardise(loc.values, lim.center, lim.sigma)
+        for det in setup.detectors:
+            trace, _ = run(det, z)
+            for sign, mask, stat in _detector_sides(trace):
+                pos = np.flatnonzero(mask)
+                plotted = detector_value(det, lim, stat[pos])
+                parts.append((loc.indices[pos], charts.index(det.id), rule_ids.index(det.id),
+                              loc.rows[pos], plotted, sign))
     if parts:
         index = np.concatenate([p[0] for p in parts])
         chart = np.concatenate([np.full(p[0].shape[0], p[1], dtype=np.int8) for p in parts])
         rule = np.concatenate([np.full(p[0].shape[0], p[2], dtype=np.int16) for p in parts])
         row = np.concatenate([p[3] for p in parts])
         value = np.concatenate([p[4] for p in parts])
-        order = np.lexsort((rule, chart, index))
+        side = np.concatenate([np.full(p[0].shape[0], p[5], dtype=np.int8) for p in parts])
+        order = np.lexsort((-side, rule, chart, index))  # up before down at one point
         table = FiringTable(index[order], chart[order], rule[order], row[order], value[order],
-                            setup.charts, rule_ids)
+                            charts, rule_ids, side[order] if setup.detectors else None)
     else:
         empty = np.zeros(0, dtype=np.int64)
-        table = FiringTable(empty, empty, empty, empty, np.zeros(0), setup.charts, rule_ids)
+        table = FiringTable(empty, empty, empty, empty, np.zeros(0), charts, rule_ids)
     return HistoryResult(limits, loc.values, disp.values, table, leftover)
+
+
+def _detector_sides(trace: DetectorTrace) -> list[tuple[int, np.ndarray, np.ndarray]]:
+    """(sign, where it fired, the statistic plotted for that side) of each side of a trace."""
+    if isinstance(trace, CusumTrace):
+        return [(1, trace.up, trace.upper), (-1, trace.down, trace.lower)]
+    return [(1, trace.up, trace.statistic), (-1, trace.down, trace.statistic)]

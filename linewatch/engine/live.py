@@ -17,9 +17,12 @@ import numpy as np
 
 from linewatch.domain.errors import BadLimits, NotEnoughData
 from linewatch.engine.charts import plotted_series, subgroup_stats
+from linewatch.engine.detectors import detect
+from linewatch.engine.detectors.cusum import CusumTrace
+from linewatch.engine.detectors.detect import DetectorState
 from linewatch.engine.limits import MIN_BASELINE, LimitSet, estimate_limits, given_limits
 from linewatch.engine.rules import classify, evaluate_classified
-from linewatch.engine.setup import ChartSetup, Firing, limit_state
+from linewatch.engine.setup import ChartSetup, Firing, detector_value, limit_state
 from linewatch.engine.stream import ChartRules, lookback
 
 VECTOR_MIN = 32  # default: judge this many new points or more in one vectorised pass
@@ -55,6 +58,44 @@ def _judge_vectorised(
     hits = _fire_chunk(np.array([p.value for p in points], dtype=float), rules, fed)
     for k, point in enumerate(points):
         point.rules = hits.get(k, [])
+
+
+DetectorHits = dict[int, list[tuple[str, str, float]]]  # position -> (detector, side, value)
+
+
+def _detect_chunk(
+    setup: ChartSetup, limits: LimitSet, states: dict[str, DetectorState], values: np.ndarray,
+    vector_min: int,
+) -> DetectorHits:
+    """Detector firings at each position of `values` (new location points in order), point by
+    point for fewer than `vector_min`, else in one numpy pass; `states` are brought up to date."""
+    hits: DetectorHits = {}
+    if not setup.detectors or values.shape[0] == 0:
+        return hits
+    lim = limits.location
+    for det in setup.detectors:
+        if values.shape[0] >= vector_min:
+            trace, states[det.id] = detect.run(det, detect.standardise(values, lim.center,
+                                                                       lim.sigma),
+                                               states[det.id])
+            for f in detect.firings(det, trace):
+                stat = _trace_statistic(trace, f.at, f.side)
+                hits.setdefault(f.at, []).append((det.id, f.side,
+                                                  detector_value(det, lim, stat)))
+            continue
+        state = states[det.id]
+        for k, v in enumerate(values.tolist()):
+            for side in detect.push_point(det, (v - lim.center) / lim.sigma, state):
+                up, down = detect.statistic_now(state)
+                stat = down if side == detect.DOWN and down is not None else up
+                hits.setdefault(k, []).append((det.id, side, detector_value(det, lim, stat)))
+    return hits
+
+
+def _trace_statistic(trace: detect.DetectorTrace, at: int, side: str) -> float:
+    if isinstance(trace, CusumTrace):
+        return float(trace.lower[at] if side == detect.DOWN else trace.upper[at])
+    return float(trace.statistic[at])
 
 
 @dataclass(slots=True)
@@ -110,6 +151,8 @@ class CharacteristicEngine:
         self.problem: str | None = None  # why limits could not be formed, once reported
         self.loc_rules: ChartRules | None = None
         self.disp_rules: ChartRules | None = None
+        # detector statistics of this phase (they remember the whole phase: saved, not replayed)
+        self.detector_states: dict[str, DetectorState] = {}
         # values pushed into the current rule states, enough to rebuild them after a restart
         self.loc_fed: deque[float] = deque(maxlen=lookback(setup.rules))
         self.disp_fed: deque[float] = deque(maxlen=lookback(setup.dispersion_rules))
@@ -125,11 +168,15 @@ class CharacteristicEngine:
         self.disp_rules = ChartRules(self.setup.dispersion_rules, limit_state(limits.dispersion))
         self.loc_fed.clear()
         self.disp_fed.clear()
+        self.detector_states = {d.id: detect.new_state(d) for d in self.setup.detectors}
 
-    def resume(self, limits: LimitSet, loc_fed: Iterable[float], disp_fed: Iterable[float]) -> None:
+    def resume(self, limits: LimitSet, loc_fed: Iterable[float], disp_fed: Iterable[float],
+               detector_states: dict[str, DetectorState] | None = None) -> None:
         """Take `limits` as this phase's limits, with the rule counters rebuilt from the values
-        judged against them most recently (`loc_fed`, `disp_fed`: as after a restart)."""
+        judged against them most recently (`loc_fed`, `disp_fed`: as after a restart) and the
+        detectors' saved states."""
         self._apply_limits(limits)
+        self.detector_states.update(detector_states or {})
         assert self.loc_rules is not None and self.disp_rules is not None
         self.loc_fed.extend(loc_fed)
         self.disp_fed.extend(disp_fed)
@@ -250,6 +297,8 @@ class CharacteristicEngine:
         assert self.loc_rules is not None and self.disp_rules is not None
         loc_hits = _fire_chunk(loc_vals, self.loc_rules, self.loc_fed)
         disp_hits = _fire_chunk(disp_vals[disp_from:], self.disp_rules, self.disp_fed)
+        assert self.limits is not None
+        det_hits = _detect_chunk(self.setup, self.limits, self.detector_states, loc_vals, 1)
         tag_of = (lambda k: None) if meta is None else (lambda k: meta[tags[k]])
         keep_from = max(0, count - HISTORY_KEEP)
         for k in range(keep_from, count):
@@ -261,17 +310,22 @@ class CharacteristicEngine:
                 self.disp_history.append(PlottedPoint(
                     self.disp_chart, idx, float(disp_vals[k]), int(rows[k]), self.phase, True,
                     disp_hits.get(k - disp_from, [])))
-        for chart, lo in ((self.loc_chart, start), (self.disp_chart, start + disp_from)):
+        detector_charts = [(d.id, start) for d in self.setup.detectors]
+        for chart, lo in ((self.loc_chart, start), (self.disp_chart, start + disp_from),
+                          *detector_charts):
             if lo <= start + count - 1:
                 earlier, _ = out.judged.get(chart, (lo, lo))
                 out.judged[chart] = (min(earlier, lo), start + count - 1)
-        for k in sorted(set(loc_hits) | {j + disp_from for j in disp_hits}):
+        for k in sorted(set(loc_hits) | {j + disp_from for j in disp_hits} | set(det_hits)):
             for chart, hits, pos, vals in ((self.loc_chart, loc_hits, k, loc_vals),
                                            (self.disp_chart, disp_hits, k - disp_from,
                                             disp_vals)):
                 for rule_id in hits.get(pos, []):
                     out.firings.append(Firing(chart, rule_id, start + k, int(rows[k]),
                                               float(vals[k]), tag_of(k)))
+            for det_id, side, value in det_hits.get(k, []):
+                out.firings.append(Firing(det_id, det_id, start + k, int(rows[k]), value,
+                                          tag_of(k), side))
 
     def _plot(self, loc: PlottedPoint, disp: PlottedPoint | None, out: LiveOutput,
               queue: list[tuple[PlottedPoint, PlottedPoint | None]]) -> None:
@@ -304,6 +358,7 @@ class CharacteristicEngine:
         # points a new baseline reached back to were judged in their own phase already: they
         # keep those signals and are neither judged again nor reported again
         fresh: list[PlottedPoint] = []
+        det_hits: dict[int, list[tuple[str, str, float]]] = {}  # point index -> hits
         for which, rules, fed in ((0, self.loc_rules, self.loc_fed),
                                   (1, self.disp_rules, self.disp_fed)):
             points = [point for pair in queue
@@ -319,13 +374,32 @@ class CharacteristicEngine:
                     fed.append(point.value)
             for point in points:
                 point.judged = True
-            chart = points[0].chart
-            lo, _ = out.judged.get(chart, (points[0].index, points[0].index))
-            out.judged[chart] = (lo, points[-1].index)
-        for point in sorted(fresh, key=lambda p: (p.index, p.chart != self.loc_chart)):
+            charts = [points[0].chart]
+            if which == 0 and self.setup.detectors:
+                assert self.limits is not None
+                values = np.array([p.value for p in points], dtype=float)
+                hits = _detect_chunk(self.setup, self.limits, self.detector_states, values,
+                                     self.vector_min)
+                det_hits = {points[k].index: h for k, h in hits.items()}
+                charts += [d.id for d in self.setup.detectors]
+            for chart in charts:
+                lo, _ = out.judged.get(chart, (points[0].index, points[0].index))
+                out.judged[chart] = (lo, points[-1].index)
+        # at each point: the location chart's firings, the dispersion chart's, the detectors'
+        found: list[tuple[int, int, Firing]] = []
+        for point in fresh:
+            is_loc = point.chart == self.loc_chart
             for rule_id in point.rules:
-                out.firings.append(Firing(point.chart, rule_id, point.index, point.row,
-                                          point.value, point.meta))
+                found.append((point.index, 0 if is_loc else 1,
+                              Firing(point.chart, rule_id, point.index, point.row, point.value,
+                                     point.meta)))
+            if is_loc:
+                for det_id, side, value in det_hits.get(point.index, []):
+                    found.append((point.index, 2, Firing(det_id, det_id, point.index, point.row,
+                                                         value, point.meta, side)))
+        found.sort(key=lambda item: (item[0], item[1]))  # stable: rule order kept
+        out.firings.extend(f for _, _, f in found)
+        for point in fresh:
             # judged: its firings carry the row's tag now; the kept point need not (memory is
             # bounded by HISTORY_KEEP points per chart, and most of a point was its tag)
             point.meta = None
@@ -354,6 +428,7 @@ class CharacteristicEngine:
         self.limits = None
         self.loc_rules = None
         self.disp_rules = None
+        self.detector_states = {}
 
     def settle(self) -> LiveOutput:
         """Form limits now if the waiting baseline already holds enough points (after

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from linewatch.engine.detectors.detect import state_from_json, state_to_json
 from linewatch.engine.limits import ChartLimits, LimitSet
 from linewatch.engine.live import VECTOR_MIN, CharacteristicEngine, PlottedPoint
 from linewatch.engine.setup import ChartSetup
@@ -21,7 +22,10 @@ def signature(setup: ChartSetup) -> str:
     """What a saved state depends on; a state saved under another setup is not reused."""
     rules = ",".join(f"{r.id}:{r.length}" for r in setup.rules)
     s = setup
-    return f"{s.subgroup_size}|{s.dispersion}|{rules}|{s.baseline}|{s.center}|{s.sigma}"
+    base = f"{s.subgroup_size}|{s.dispersion}|{rules}|{s.baseline}|{s.center}|{s.sigma}"
+    if not s.detectors:
+        return base  # (the form states were saved in before detectors existed)
+    return base + "|" + ",".join(repr(d) for d in s.detectors)
 
 
 def _limits_to_dict(lim: LimitSet) -> dict[str, Any]:
@@ -68,6 +72,7 @@ def save_state(engine: CharacteristicEngine) -> dict[str, Any]:
                     for p in hist],
         "loc_fed": list(engine.loc_fed),
         "disp_fed": list(engine.disp_fed),
+        "detectors": {k: state_to_json(v) for k, v in engine.detector_states.items()},
     }
 
 
@@ -101,5 +106,9 @@ def restore_engine(
     if state["limits"] is None:
         engine.limits = engine.loc_rules = engine.disp_rules = None
     else:
-        engine.resume(_limits_from_dict(state["limits"]), state["loc_fed"], state["disp_fed"])
+        by_id = {d.id: d for d in setup.detectors}
+        detectors = {k: state_from_json(by_id[k], v)
+                     for k, v in state.get("detectors", {}).items() if k in by_id}
+        engine.resume(_limits_from_dict(state["limits"]), state["loc_fed"], state["disp_fed"],
+                      detectors)
     return engine

@@ -7,11 +7,16 @@ and report the same `Firing`s, so one setup gives one verdict whichever path jud
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TypeVar
+
+import numpy as np
 
 from linewatch.engine.charts import chart_names
 from linewatch.engine.limits import ChartLimits
-from linewatch.engine.rulebook import BEYOND, RuleSpec
+from linewatch.engine.rulebook import BEYOND, DetectorSpec, RuleSpec
 from linewatch.engine.stream import ChartLimitsState
+
+Number = TypeVar("Number", float, np.ndarray)
 
 
 @dataclass(frozen=True, slots=True)
@@ -25,6 +30,7 @@ class ChartSetup:
     baseline: int | None = None  # plotted points; None: all points (batch only)
     center: float | None = None
     sigma: float | None = None
+    detectors: tuple[DetectorSpec, ...] = ()  # on the location statistic; each its own chart
 
     @property
     def charts(self) -> tuple[str, str]:
@@ -46,6 +52,15 @@ class Firing:
     row: int
     value: float
     meta: object = None  # what the caller attached to the row (live path: file, line, time)
+    side: str | None = None  # detectors: "up" or "down" (chart and rule are the detector's id)
+
+
+def detector_value(spec: DetectorSpec, lim: ChartLimits, statistic: Number) -> Number:
+    """A detector's statistic in the characteristic's units, as its chart plots it: the EWMA as
+    centre + z·σ, a CUSUM side as C·σ (σ of the plotted location statistic)."""
+    if spec.kind == "ewma":
+        return lim.center + statistic * lim.sigma
+    return statistic * lim.sigma
 
 
 def limit_state(lim: ChartLimits) -> ChartLimitsState:

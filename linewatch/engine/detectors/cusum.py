@@ -11,6 +11,7 @@ M of each side and the point count.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -108,13 +109,21 @@ def scan(spec: CusumSpec, x: np.ndarray, state: CusumState | None = None) -> tup
             CusumState(count, su, mu, sd, md))
 
 
+def _minimum(a: float, b: float) -> float:
+    """min(a, b) as numpy's running minimum takes it: NaN if either is NaN (a point standardised
+    by a vanishing σ), so both paths keep the same state."""
+    if a != a or b != b:
+        return math.nan
+    return b if b < a else a
+
+
 def push(spec: CusumSpec, x: float, state: CusumState) -> tuple[bool, bool]:
     """Take one standardised point into `state` (changed in place); whether C⁺ and C⁻ exceed h
     there. The latest statistics are `state.upper`, `state.lower`."""
     state.sum_up = state.sum_up + (x - spec.k)
-    state.min_up = min(state.min_up, state.sum_up)
+    state.min_up = _minimum(state.min_up, state.sum_up)
     state.sum_down = state.sum_down + (-x - spec.k)
-    state.min_down = min(state.min_down, state.sum_down)
+    state.min_down = _minimum(state.min_down, state.sum_down)
     state.count += 1
     up, down = state.upper > spec.h, state.lower > spec.h
     if state.count % BLOCK == 0:
