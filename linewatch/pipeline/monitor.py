@@ -35,7 +35,7 @@ from linewatch.store.lease import RENEW_EVERY
 if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
     from linewatch.alarms.hooks import HookOutcome, HookRunner
     from linewatch.engine.limits import LimitSet
-    from linewatch.feeds.formats import Batch
+    from linewatch.feeds.batch import Batch
     from linewatch.feeds.health import FeedHealth
     from linewatch.feeds.tailer import TailChunk, Tailer
     from linewatch.feeds.watcher import Waker
@@ -471,8 +471,8 @@ class Monitor:
         if eng is None:
             return []
         c = self.char_configs[name]
-        values = batch.values[column]
-        lines = batch.lines[column]
+        values: list[float] = batch.values[column].tolist()
+        lines: list[int] = batch.lines[column].tolist()
         times = batch.times.get(column) if batch.times else None
         first = eng.values_seen
         meta = [(batch.file, ln, times[k] if times else None) for k, ln in enumerate(lines)]

@@ -53,7 +53,7 @@ def _read_all(
     paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
 ) -> tuple[dict[str, Column], list[Rejected]]:
     """Read every log into per-characteristic columns plus the rejected rows."""
-    from linewatch.feeds.formats import read_log
+    from linewatch.feeds.whole_file import read_log
 
     batches = [read_log(p, feed, columns) for p, feed in zip(paths, feeds, strict=True)]
     names: list[str] = []

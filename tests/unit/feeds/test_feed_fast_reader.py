@@ -13,7 +13,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from linewatch.config.loading import FeedConfig
-from linewatch.feeds.formats import Batch, RowParser, _read_long, parse_log_bytes
+from linewatch.feeds.batch import Batch
+from linewatch.feeds.row_parser import RowParser
+from linewatch.feeds.whole_buffer import read_buffer
+from linewatch.feeds.whole_file import parse_log_bytes
 
 NUMBERS = st.one_of(
     st.floats(allow_nan=False, allow_infinity=False, width=64).map(repr),
@@ -177,12 +180,12 @@ def test_fast_long_reader_equals_per_line_parser(
         slow = by_line.parse(lines, 1)
     except Exception as exc:  # the per-line parser refused: the fast reader must say the same
         try:
-            _read_long(data, whole)
+            read_buffer(data, whole)
         except Exception as fast_exc:
             assert type(fast_exc) is type(exc) and str(fast_exc) == str(exc)
             return
         raise AssertionError("the fast reader accepted what the per-line parser refused") from exc
-    fast = _read_long(data, whole)
+    fast = read_buffer(data, whole)
     assert_same(fast, slow)
     # the names met, in the order of the file (what an unknown-name message lists)
     assert list(whole.names_seen) == list(by_line.names_seen)
