@@ -21,7 +21,6 @@ import json
 import time
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
-from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
 from linewatch.config.loading import (
@@ -32,11 +31,12 @@ from linewatch.config.loading import (
     DEFAULT_SHELVE_MAX,
 )
 from linewatch.domain.alarm_states import SHELVED
+from linewatch.domain.clock import iso_time
 from linewatch.domain.durations import format_duration
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import AlarmView, FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
-from linewatch.engine.rulebook import BEYOND, RULES, RuleListError, resolve_rules
+from linewatch.engine.rulebook import BEYOND, RULES, resolve_rules
 from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 
@@ -115,11 +115,6 @@ class Flood:
     peak: int
 
 
-def iso_time(epoch: float | None) -> str | None:
-    """Local time with its UTC offset, to the second (None stays None)."""
-    if epoch is None:
-        return None
-    return datetime.fromtimestamp(epoch).astimezone().isoformat(timespec="seconds")
 
 
 def urgency(alarm: AlarmRecord) -> tuple[int, float, int]:

@@ -1,4 +1,8 @@
-"""Parse and show durations such as `30m`, `8h`, `1h30m`, `90s`, `2d`."""
+"""Parse and show durations such as `30m`, `8h`, `1h30m`, `90s`, `2d`.
+
+One rounding for every length of time shown: to the nearest whole second (`_seconds`). An age
+on the screen is coarser on purpose and steps down (an age of 59 s is "50s", not "1m").
+"""
 
 from __future__ import annotations
 
@@ -50,9 +54,14 @@ def _is_number(text: str) -> bool:
     return True
 
 
+def _seconds(seconds: float) -> int:
+    """The one rounding of a length of time: to the nearest whole second, never negative."""
+    return round(max(0.0, seconds))
+
+
 def format_duration(seconds: float) -> str:
     """Compact form: 45s, 12m, 3h05m, 2d04h."""
-    s = round(max(0.0, seconds))
+    s = _seconds(seconds)
     if s < 60:
         return f"{s}s"
     if s < 3600:
@@ -60,3 +69,36 @@ def format_duration(seconds: float) -> str:
     if s < 86400:
         return f"{s // 3600}h{(s % 3600) // 60:02d}m"
     return f"{s // 86400}d{(s % 86400) // 3600:02d}h"
+
+
+def format_span(seconds: float | None) -> str:
+    """A length of time to the second under an hour, for reports: 45s, 12m30s, 3h05m ('' when
+    missing)."""
+    if seconds is None:
+        return ""
+    s = _seconds(seconds)
+    if s < 60:
+        return f"{s}s"
+    if s < 3600:
+        return f"{s // 60}m{s % 60:02d}s"
+    return f"{s // 3600}h{(s % 3600) // 60:02d}m"
+
+
+def format_age(seconds: float | None) -> str:
+    """Coarse age of the newest row: <10s, 20s, 12m, 3h, 2d; '-' when nothing arrived yet.
+
+    Coarse on purpose: the text changes at most every ten seconds, so a quiet line does not
+    redraw every second just to count.
+    """
+    if seconds is None:
+        return "-"
+    s = max(0, int(seconds))
+    if s < 10:
+        return "<10s"
+    if s < 60:
+        return f"{s // 10 * 10}s"
+    if s < 3600:
+        return f"{s // 60}m"
+    if s < 86400:
+        return f"{s // 3600}h"
+    return f"{s // 86400}d"

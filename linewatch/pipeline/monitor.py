@@ -372,7 +372,7 @@ class Monitor:
         records: list[dict[str, Any]] = []
         raised: list[AlarmEvent] = []
         touched: set[str] = set()
-        from linewatch.store.lease import LeaseLost
+        from linewatch.domain.errors import LeaseLost
 
         try:
             with self.store.transaction():
@@ -692,13 +692,8 @@ def request_new_baseline(store: Store, characteristic: str, start_index: int,
 
 def _stopped_payload(problem: str, now: float) -> dict[str, Any]:
     """What the hook receives about a "monitoring stopped" alarm that could not be stored."""
-    from linewatch.alarms.book import (
-        FEED_CHART,
-        FEED_HEALTH,
-        MONITOR_SUBJECT,
-        STOPPED_RULE,
-        iso_time,
-    )
+    from linewatch.alarms.book import FEED_CHART, FEED_HEALTH, MONITOR_SUBJECT, STOPPED_RULE
+    from linewatch.domain.clock import iso_time
 
     return {"id": None, "kind": FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
             "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": 1, "state": "unacknowledged",

@@ -9,7 +9,8 @@ import io
 import math
 from collections.abc import Iterable
 
-from linewatch.report.build import ShiftReport, local_time
+from linewatch.domain.clock import local_time
+from linewatch.report.build import ShiftReport
 
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")  # a spreadsheet may run such a cell
 

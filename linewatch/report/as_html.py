@@ -4,18 +4,17 @@ nothing fetched), laid out to read well on screen and printed on A4."""
 from __future__ import annotations
 
 from collections.abc import Callable
-from html import escape
 
+from linewatch.domain.clock import clock_time, local_time, short_time
+from linewatch.domain.durations import format_span
 from linewatch.report.build import (
     GUIDANCE_SOURCE,
     LOCATION_CHARTS,
     LimitsChange,
     ShiftReport,
     anchor_sentence,
-    clock_time,
     episode_list,
     interval,
-    local_time,
     num,
     out_of_spec_text,
     performance_rows,
@@ -23,10 +22,8 @@ from linewatch.report.build import (
     ppm,
     reading,
     rules_text,
-    short_time,
-    span,
 )
-from linewatch.report.svg_charts import control_chart_svg
+from linewatch.report.svg_charts import control_chart_svg, escape
 
 STYLE = """
 :root { --ink: #1d2329; --muted: #5b6570; --rule: #c9d0d6; --warn: #b3261e; --ok: #1e6b3a;
@@ -183,7 +180,7 @@ def render_html(report: ShiftReport) -> str:
                  (str(a.episodes), True), (out_of_spec_text(a), False),
                  (str(a.priority), True), (at(a.raised_at), False), (a.state, False),
                  (a.acknowledged_by or "—", False), (at(a.acknowledged_at), False),
-                 (span(a.unacknowledged_for), True),
+                 (format_span(a.unacknowledged_for), True),
                  (a.reason, False), (a.note, False)]
                 for a in r.alarms
             ],
@@ -261,7 +258,7 @@ def _performance_html(r: ShiftReport, at: Callable[[float | None], str]) -> list
             ["started", "ended", "lasted", "most alarms in one window"],
             [[(at(f.started), False),
               (at(f.ended) if f.ended is not None else "no end recorded", False),
-              (span(f.ended - f.started) if f.ended is not None else "", True),
+              (format_span(f.ended - f.started) if f.ended is not None else "", True),
               ("" if f.peak is None else str(f.peak), True)] for f in p.floods],
         ))
     out.append("<h3>Chattering alarms</h3>")
@@ -278,7 +275,8 @@ def _performance_html(r: ShiftReport, at: Callable[[float | None], str]) -> list
     if p.open_at_end:
         out.append(_table(
             ["alarm", "first raised", "age at the end", "acknowledged"],
-            [[(r.alarm_label(o.alarm_id), False), (at(o.raised_at), False), (span(o.age), True),
+            [[(r.alarm_label(o.alarm_id), False), (at(o.raised_at), False),
+              (format_span(o.age), True),
               ("yes" if o.acknowledged else "no", False)] for o in p.open_at_end],
         ))
     else:

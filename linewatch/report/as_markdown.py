@@ -4,16 +4,16 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
+from linewatch.domain.clock import clock_time, local_time, short_time
+from linewatch.domain.durations import format_span
 from linewatch.domain.safe_text import visible
 from linewatch.report.build import (
     GUIDANCE_SOURCE,
     LOCATION_CHARTS,
     ShiftReport,
     anchor_sentence,
-    clock_time,
     episode_list,
     interval,
-    local_time,
     num,
     out_of_spec_text,
     performance_rows,
@@ -21,8 +21,6 @@ from linewatch.report.build import (
     ppm,
     reading,
     rules_text,
-    short_time,
-    span,
 )
 
 # Markdown that text from outside could use: HTML (<script>), links and images ([..](..)),
@@ -117,7 +115,7 @@ def render_markdown(report: ShiftReport) -> str:
             [
                 [a.id, a.characteristic, a.chart, f"{a.rule}: {a.what}", a.counts, a.signals,
                  a.episodes, out_of_spec_text(a), a.priority, at(a.raised_at), a.state,
-                 a.acknowledged_by or "—", at(a.acknowledged_at), span(a.unacknowledged_for),
+                 a.acknowledged_by or "—", at(a.acknowledged_at), format_span(a.unacknowledged_for),
                  a.reason, a.note]
                 for a in r.alarms
             ],
@@ -184,7 +182,7 @@ def _performance_lines(r: ShiftReport, at: Callable[[float | None], str]) -> lis
         lines += _table(
             ["started", "ended", "lasted", "most alarms in one window"],
             [[at(f.started), at(f.ended) if f.ended is not None else "no end recorded",
-              span(f.ended - f.started) if f.ended is not None else "",
+              format_span(f.ended - f.started) if f.ended is not None else "",
               "" if f.peak is None else f.peak] for f in p.floods],
         )
         lines.append("")
@@ -200,7 +198,7 @@ def _performance_lines(r: ShiftReport, at: Callable[[float | None], str]) -> lis
     if p.open_at_end:
         lines += _table(
             ["alarm", "first raised", "age at the end", "acknowledged"],
-            [[r.alarm_label(o.alarm_id), at(o.raised_at), span(o.age),
+            [[r.alarm_label(o.alarm_id), at(o.raised_at), format_span(o.age),
               "yes" if o.acknowledged else "no"] for o in p.open_at_end],
         )
     else:

@@ -11,9 +11,9 @@ import math
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from datetime import datetime
 from typing import TYPE_CHECKING
 
+from linewatch.domain.durations import format_span
 from linewatch.domain.records import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHART_XBAR, Limits
 
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
@@ -26,34 +26,10 @@ if TYPE_CHECKING:
     from linewatch.store.db import Store
 
 
-def local_time(epoch: float | None) -> str:
-    """Local time with its UTC offset, to the second: 2026-03-02 06:15:00 +01:00 ('' for None)."""
-    if epoch is None:
-        return ""
-    stamp = datetime.fromtimestamp(epoch).astimezone()
-    offset = stamp.strftime("%z")
-    return f"{stamp:%Y-%m-%d %H:%M:%S} {offset[:3]}:{offset[3:]}"
 
 
-def clock_time(epoch: float | None, since: float, until: float) -> str:
-    """Local time with offset, without the date when the whole period lies in one local day."""
-    if epoch is None:
-        return ""
-    one_day = datetime.fromtimestamp(since).date() == datetime.fromtimestamp(until).date()
-    full = local_time(epoch)
-    return full[11:] if one_day else full
 
 
-def span(seconds: float | None) -> str:
-    """A length of time for people: 45s, 12m30s, 3h05m."""
-    if seconds is None:
-        return ""
-    s = round(max(0.0, seconds))
-    if s < 60:
-        return f"{s}s"
-    if s < 3600:
-        return f"{s // 60}m{s % 60:02d}s"
-    return f"{s // 3600}h{(s % 3600) // 60:02d}m"
 
 
 def num(x: float | None, digits: int = 6) -> str:
@@ -244,10 +220,11 @@ class ShiftReport:
             median = acked[len(acked) // 2] if len(acked) % 2 else (
                 (acked[len(acked) // 2 - 1] + acked[len(acked) // 2]) / 2
             )
-            text += f" (median wait {span(median)}, longest {span(acked[-1])})"
+            text += f" (median wait {format_span(median)}, longest {format_span(acked[-1])})"
         text += f", {len(waiting)} not acknowledged"
         if waiting:
-            text += f" (the oldest waiting {span(max(a.unacknowledged_for for a in waiting))})"
+            oldest = max(a.unacknowledged_for for a in waiting)
+            text += f" (the oldest waiting {format_span(oldest)})"
         return text + "."
 
     @property
@@ -525,13 +502,6 @@ def index_range(first: int | None, last: int | None, returned: bool) -> str:
     return f"{first}–{last}"
 
 
-def short_time(epoch: float | None, since: float, until: float) -> str:
-    """Local time without its offset (the report's heading gives it), without the date when
-    the period lies in one local day: for lists that repeat many times."""
-    if epoch is None:
-        return ""
-    full = clock_time(epoch, since, until)
-    return full.rsplit(" ", 1)[0]
 
 
 def episode_text(ep: EpisodeLine, at: Callable[[float | None], str]) -> str:
@@ -572,7 +542,7 @@ def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
     if share is not None:
         flood += f" ({100 * share:.0f}%)"
     waits = len(p.acknowledge_times)
-    median = span(p.median_to_acknowledge)
+    median = format_span(p.median_to_acknowledge)
     if median:
         median += f" ({waits} acknowledgement{'s' if waits != 1 else ''})"
     return [
@@ -588,8 +558,8 @@ def performance_rows(p: AlarmPerformance) -> list[tuple[str, str, str]]:
          str(len(p.chattering)), "none"),
         ("alarms still open at the end", str(len(p.open_at_end)), ""),
         ("time to acknowledge (from first shown), median", median or "—", ""),
-        ("time to acknowledge (from first shown), longest", span(p.longest_to_acknowledge) or "—",
-         ""),
+        ("time to acknowledge (from first shown), longest",
+         format_span(p.longest_to_acknowledge) or "—", ""),
     ]
 
 
@@ -598,7 +568,7 @@ def performance_sentence(p: AlarmPerformance) -> str:
     from linewatch.report.alarm_performance import TEN_MINUTES, guidance_verdict
 
     text = (f"{p.annunciations} alarm{'s' if p.annunciations != 1 else ''} shown in "
-            f"{span(p.end - p.since)} watched: {p.per_ten_minutes:.2f} per 10 minutes on "
+            f"{format_span(p.end - p.since)} watched: {p.per_ten_minutes:.2f} per 10 minutes on "
             f"average, {guidance_verdict(p.per_ten_minutes)}")
     if p.flood_windows:
         text += (f"; in flood (more than {p.flood_alarms} alarms) in {p.flood_windows} of "

@@ -5,7 +5,8 @@ from __future__ import annotations
 
 from rich.console import Console
 
-from linewatch.faces.tui.formatting import fmt_age, rule_mark
+from linewatch.domain.durations import format_age
+from linewatch.faces.tui.formatting import rule_mark
 from linewatch.faces.tui.glyphs import ASCII, UNICODE
 from linewatch.faces.tui.widgets.box_plot import draw_box_plot
 from linewatch.faces.tui.widgets.control_chart import LABEL_WIDTH, draw_control_chart
@@ -126,7 +127,7 @@ def test_box_plot_marks_outliers_and_spec_brackets() -> None:
 
 
 def test_small_text_helpers() -> None:
-    assert [fmt_age(s) for s in (None, 4.9, 37, 61, 7300, 90000)] == [
+    assert [format_age(s) for s in (None, 4.9, 37, 61, 7300, 90000)] == [
         "-", "<10s", "30s", "1m", "2h", "1d"]
     # the kinds of pattern as the rules are published (Western Electric 1956, Nelson 1984):
     # we2 and n5 are "2 of 3 beyond 2σ" (zone), n2 is "9 in a row on one side", n1 beyond 3σ;

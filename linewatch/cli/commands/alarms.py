@@ -44,7 +44,8 @@ def run(args: argparse.Namespace) -> int:
 def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     import time
 
-    from linewatch.alarms.book import iso_time, urgency
+    from linewatch.alarms.book import urgency
+    from linewatch.domain.clock import iso_time
     from linewatch.domain.jsonl import dumps
 
     now = time.time()
@@ -98,7 +99,7 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
 
 
 def _shelve(book: AlarmBook, args: argparse.Namespace) -> int:
-    from linewatch.alarms.book import iso_time
+    from linewatch.domain.clock import iso_time
     from linewatch.domain.durations import parse_duration
 
     try:

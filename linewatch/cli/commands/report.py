@@ -5,10 +5,10 @@ from __future__ import annotations
 import argparse
 import sys
 import time
-from datetime import datetime
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from linewatch.domain.clock import parse_moment
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
@@ -18,26 +18,15 @@ if TYPE_CHECKING:
 DEFAULT_SPAN = "8h"
 
 
-def parse_when(text: str, option: str) -> float:
-    """An ISO date or date-time as epoch seconds; without an offset it is local time."""
-    try:
-        stamp = datetime.fromisoformat(text.strip())
-    except ValueError:
-        raise LinewatchError(
-            f"{option}: not a date or time: {text!r} (use e.g. 2026-03-02 or 2026-03-02T06:00)"
-        ) from None
-    if stamp.tzinfo is None:
-        stamp = stamp.astimezone()  # naive: the local time zone
-    return stamp.timestamp()
 
 
 def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
     """[since, until) from --since / --from / --to (default: the last 8 hours)."""
     from linewatch.domain.durations import parse_duration
 
-    until = parse_when(args.to, "--to") if args.to else now
+    until = parse_moment(args.to, "--to") if args.to else now
     if args.from_:
-        since = parse_when(args.from_, "--from")
+        since = parse_moment(args.from_, "--from")
     else:
         try:
             seconds = parse_duration(args.since or DEFAULT_SPAN)
@@ -50,17 +39,18 @@ def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
 
 
 def _write_anchor(store: Store, config: Config | None, line: str) -> None:
-    """Append the report's anchor to the config's anchor file (if any); a failure is told on
-    stderr and does not stop the report."""
-    if config is None or not config.monitor.audit_anchor_file:
+    """Send the report's anchor to the config's anchor destinations (file, syslog; if any); a
+    failure is told on stderr and does not stop the report."""
+    if config is None:
         return
-    from linewatch.store.anchors import append_anchor
+    from linewatch.store.anchors import sinks_for
 
+    sinks = sinks_for(config.monitor)
     try:
-        append_anchor(config.monitor.audit_anchor_file, line)
-    except OSError as exc:
-        print(f"linewatch: cannot write the audit anchor to {config.monitor.audit_anchor_file}: "
-              f"{exc.strerror or exc}", file=sys.stderr)
+        for problem in sinks.send(line) if sinks else []:
+            print(f"linewatch: {problem}", file=sys.stderr)
+    finally:
+        sinks.close()
 
 
 def run(args: argparse.Namespace) -> int:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-import time
 
 from linewatch.engine import rulebook
 from linewatch.present import view
@@ -68,34 +67,10 @@ def fmt_fixed(value: float | None, decimals: int = 2) -> str:
     return f"{value:.{decimals}f}"
 
 
-def fmt_age(seconds: float | None) -> str:
-    """Coarse age of the newest row: <10s, 20s, 12m, 3h, 2d; '-' when nothing arrived yet.
-
-    Coarse on purpose: the text changes at most every ten seconds, so a quiet line does not
-    redraw every second just to count.
-    """
-    if seconds is None:
-        return "-"
-    s = max(0, int(seconds))
-    if s < 10:
-        return "<10s"
-    if s < 60:
-        return f"{s // 10 * 10}s"
-    if s < 3600:
-        return f"{s // 60}m"
-    if s < 86400:
-        return f"{s // 3600}h"
-    return f"{s // 86400}d"
 
 
-def fmt_clock(epoch: float) -> str:
-    """Local wall-clock time of day, HH:MM:SS."""
-    return time.strftime("%H:%M:%S", time.localtime(epoch))
 
 
-def fmt_day_clock(epoch: float) -> str:
-    """Local date and time with the offset, for details where the day matters."""
-    return time.strftime("%Y-%m-%d %H:%M:%S %z", time.localtime(epoch))
 
 
 # One letter per kind of pattern, most urgent first: it marks a signalling point on the

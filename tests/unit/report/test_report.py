@@ -25,11 +25,12 @@ from scipy import stats
 
 from linewatch.alarms.book import AlarmBook
 from linewatch.config.loading import parse_config
+from linewatch.domain.clock import local_time
 from linewatch.domain.records import FeedEvent, Limits
 from linewatch.report.as_csv import render_csv
 from linewatch.report.as_html import render_html
 from linewatch.report.as_markdown import render_markdown
-from linewatch.report.build import _subgroup_size, build_report, local_time
+from linewatch.report.build import _subgroup_size, build_report
 from linewatch.store.actor import Actor
 from linewatch.store.db import Store
 

@@ -12,6 +12,7 @@ from textual.containers import Horizontal, Vertical
 from textual.events import Resize
 from textual.widgets import DataTable, Input, Static
 
+from linewatch.domain.durations import format_age
 from linewatch.domain.safe_text import visible
 from linewatch.faces.tui import palette
 from linewatch.faces.tui.formatting import (
@@ -20,7 +21,6 @@ from linewatch.faces.tui.formatting import (
     alarm_counts,
     alarm_subject,
     base_name,
-    fmt_age,
     needs_attention,
 )
 from linewatch.faces.tui.screens.base import LineScreen
@@ -194,7 +194,7 @@ class BoardScreen(LineScreen):
                 cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
                 cv.pending_phase_start, tail,
-                fmt_age(self.lw.age_now(cv.last_row_age)))
+                format_age(self.lw.age_now(cv.last_row_age)))
 
     def _highlighted_name(self) -> str | None:
         if not self._shown or self.table.row_count == 0:
@@ -228,7 +228,7 @@ class BoardScreen(LineScreen):
         return [state, name, spark, gauge, self._age_cell(cv)]
 
     def _age_cell(self, cv: view.CharacteristicView) -> Text:
-        text = Text(fmt_age(self.lw.age_now(cv.last_row_age)), end="")
+        text = Text(format_age(self.lw.age_now(cv.last_row_age)), end="")
         if cv.stuck:
             text.append("\nstuck", "reverse")
         elif cv.stale:

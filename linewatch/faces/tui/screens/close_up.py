@@ -201,7 +201,8 @@ class CloseUpScreen(LineScreen):
 
     def _alarms_text(self, name: str) -> Text:
         """This characteristic's open alarms, so the close-up answers 'why is it red'."""
-        from linewatch.faces.tui.formatting import ALARM_STATE_WORDS, fmt_clock
+        from linewatch.domain.clock import time_of_day
+        from linewatch.faces.tui.formatting import ALARM_STATE_WORDS
         from linewatch.faces.tui.screens.queue import sorted_alarms
 
         mine = [a for a in sorted_alarms(self.lw.line.alarms)
@@ -209,7 +210,7 @@ class CloseUpScreen(LineScreen):
         text = Text(end="")
         text.append(f"open alarms ({len(mine)})\n", "bold")
         for a in mine[:8]:
-            text.append(f"P{a.priority} {fmt_clock(a.raised_at)} ")
+            text.append(f"P{a.priority} {time_of_day(a.raised_at)} ")
             text.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9}",
                         "bold reverse" if a.state == view.UNACKNOWLEDGED else "")
             text.append(f" {visible(a.description or a.rule)}\n")

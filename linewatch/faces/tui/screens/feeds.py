@@ -8,10 +8,11 @@ from textual import on
 from textual.app import ComposeResult
 from textual.widgets import DataTable, Static
 
+from linewatch.domain.durations import format_age
 from linewatch.domain.safe_text import visible
 from linewatch.domain.words import count
 from linewatch.faces.tui import palette
-from linewatch.faces.tui.formatting import base_name, fmt_age
+from linewatch.faces.tui.formatting import base_name
 from linewatch.faces.tui.screens.base import TableScreen
 from linewatch.faces.tui.widgets.key_footer import KeyFooter
 from linewatch.faces.tui.widgets.top_bar import TopBar
@@ -97,7 +98,7 @@ class FeedScreen(TableScreen):
     def tick_clock(self) -> None:
         """Ages move on with the clock; touch a cell only when its text changes."""
         for f in self.lw.line.feeds:
-            age = fmt_age(self.lw.age_now(f.last_row_age))
+            age = format_age(self.lw.age_now(f.last_row_age))
             if self._ages.get(f.file) != age:
                 self._ages[f.file] = age
                 self.table.update_cell(f.file, "age", age)
@@ -115,7 +116,7 @@ class FeedScreen(TableScreen):
             f"{f.rows_per_second:.1f}",
             Text(f"{f.rejected:,}", palette.SIGNAL if f.rejected else ""),
             f"{f.rotations}/{f.truncations}",
-            self._ages.setdefault(f.file, fmt_age(self.lw.age_now(f.last_row_age))),
+            self._ages.setdefault(f.file, format_age(self.lw.age_now(f.last_row_age))),
         ]
 
     @on(DataTable.RowHighlighted, "#feed-table")

@@ -10,15 +10,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.widgets import DataTable, Static
 
+from linewatch.domain.clock import day_and_time, time_of_day
 from linewatch.domain.safe_text import visible, visible_lines
 from linewatch.faces.tui import palette
-from linewatch.faces.tui.formatting import (
-    ALARM_STATE_WORDS,
-    alarm_counts,
-    alarm_subject,
-    fmt_clock,
-    fmt_day_clock,
-)
+from linewatch.faces.tui.formatting import ALARM_STATE_WORDS, alarm_counts, alarm_subject
 from linewatch.faces.tui.screens.base import TableScreen
 from linewatch.faces.tui.widgets.key_footer import KeyFooter
 from linewatch.faces.tui.widgets.top_bar import TopBar
@@ -212,7 +207,7 @@ class AlarmQueueScreen(TableScreen):
                        view.RETURNED_UNACKNOWLEDGED: "bold"}.get(a.state, "")
         return [
             Text(str(a.priority), loud),
-            fmt_clock(a.raised_at),
+            time_of_day(a.raised_at),
             Text(visible(alarm_subject(a)), no_wrap=True, overflow="ellipsis"),
             what,
             Text(ALARM_STATE_WORDS.get(a.state, a.state), state_style),
@@ -249,7 +244,7 @@ class AlarmQueueScreen(TableScreen):
                 span = (f"point {a.first_index}" if a.first_index == a.last_index
                         else f"points {a.first_index}-{a.last_index}")
                 where += f" {span}"
-            text.append(f"{where} | raised {fmt_day_clock(a.raised_at)}\n")
+            text.append(f"{where} | raised {day_and_time(a.raised_at)}\n")
             text.append("first: ", palette.LABEL)
             text.append(visible(a.description or a.rule))
             if a.kind in ("run-rule", "beyond-limits", "out-of-spec"):
@@ -259,7 +254,7 @@ class AlarmQueueScreen(TableScreen):
                 text.append(f" in {a.episodes} {episodes}", palette.LABEL)
             text.append("\n")
             if a.acknowledged_by:
-                when = fmt_clock(a.acknowledged_at) if a.acknowledged_at else ""
+                when = time_of_day(a.acknowledged_at) if a.acknowledged_at else ""
                 text.append(f"acknowledged by {visible(a.acknowledged_by)} {when}: "
                             f"{visible(a.reason or '')}")
                 if a.note:
@@ -267,7 +262,7 @@ class AlarmQueueScreen(TableScreen):
                 text.append("\n")
             if a.state == view.SHELVED and a.shelved_until:
                 why = f": {visible(a.reason)}" if a.reason else ""
-                text.append(f"shelved until {fmt_clock(a.shelved_until)}{why}\n")
+                text.append(f"shelved until {time_of_day(a.shelved_until)}{why}\n")
             text.append("reaction plan: ", "bold")
             # a plan is written as numbered lines: keep its line breaks, escape the rest
             text.append(visible_lines(a.reaction_plan or "none given in the config"),
