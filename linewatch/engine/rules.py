@@ -113,7 +113,9 @@ def evaluate_classified(
         case "beyond":
             return level >= LEVEL_BEYOND
         case "side-run":
-            return run_at_least(side > 0, spec.length) | run_at_least(side < 0, spec.length)
+            fired: np.ndarray = run_at_least(side > 0, spec.length)
+            fired |= run_at_least(side < 0, spec.length)
+            return fired
         case "trend":
             return _trend(np.asarray(x, dtype=float), spec.length)
         case "alternate":
