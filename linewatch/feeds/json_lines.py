@@ -30,8 +30,9 @@ class JsonRows:
     """
 
     def __init__(self, feed: FeedConfig, columns: list[str] | None,
-                 names_seen: dict[str, None]) -> None:
+                 names_seen: dict[str, None], keep_times: bool = True) -> None:
         self.feed = feed
+        self.keep_times = keep_times
         self.columns = columns
         self.names_seen = names_seen
         self.decimal_comma = feed.decimal == ","
@@ -58,7 +59,7 @@ class JsonRows:
                 (k for k in obj if is_time_name(k)), None
             )
         t = obj.get(self.time_key) if self.time_key is not None else None
-        time = None if t is None else (str(t).strip() or None)
+        time = None if t is None or not self.keep_times else (str(t).strip() or None)
         nc = self.feed.name_column
         if nc in obj:
             self._long(obj, nc, line_no, time, out)

@@ -101,11 +101,13 @@ class RowParser:
         columns: list[str] | None = None,
         *,
         require_columns: bool = False,
+        keep_times: bool = True,
     ) -> None:
         self.feed = feed
         self.file = file
         self.columns = list(columns) if columns is not None else None
         self.require_columns = require_columns
+        self.keep_times = keep_times  # False: every time is None (a reader that needs none)
         self.decimal_comma = feed.decimal == ","
         self.previous_header: tuple[str, ...] | None = None  # kept across `reset`
         self.reset()
@@ -122,7 +124,7 @@ class RowParser:
         self.usable = True
         self.headerless = False  # began with data and no header to go by (said once)
         self.names_seen: dict[str, None] = {}  # long rows and JSON keys, in order of appearance
-        self.json = JsonRows(self.feed, self.columns, self.names_seen)
+        self.json = JsonRows(self.feed, self.columns, self.names_seen, self.keep_times)
 
     @property
     def ready(self) -> bool:
@@ -278,7 +280,7 @@ class RowParser:
         return bool(wanted)
 
     def _time_of(self, fields: list[str]) -> str | None:
-        if self.time_idx is None:
+        if self.time_idx is None or not self.keep_times:
             return None
         return fields[self.time_idx].strip() or None
 

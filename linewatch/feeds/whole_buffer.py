@@ -125,7 +125,7 @@ class _FastLong(_WholeBuffer):
         ncols = len(p.header)
         ns, ne = _field_span(p.name_idx, ncols, fs, fe, fb, pos)
         vs, ve = _field_span(p.value_idx, ncols, fs, fe, fb, pos)
-        if p.time_idx is not None:
+        if p.time_idx is not None and p.keep_times:
             ts, te = _field_span(p.time_idx, ncols, fs, fe, fb, pos)
         else:
             ts = te = np.zeros(len(fast), dtype=np.int64)
@@ -244,20 +244,21 @@ class _FastWide(_WholeBuffer):
         fbase = base[fast]
         del base
         fstarts, fends = starts[fast], ends[fast]
+        time_idx = p.time_idx if p.keep_times else None
         spans = [_field_span(j, ncols, fstarts, fends, fbase, pos)
                  for j in [j for _, j in p.wanted]
-                 + ([p.time_idx] if p.time_idx is not None else [])]
-        if p.time_idx is not None:
+                 + ([time_idx] if time_idx is not None else [])]
+        ts: np.ndarray | None = None
+        te: np.ndarray | None = None
+        if time_idx is not None:
             ts, te = spans.pop()
-        else:
-            ts = te = np.zeros(len(fast), dtype=np.int64)
         del fstarts, fends
         del pos, fbase, ends
         ok = np.ones(len(fast), dtype=bool)
         converted: list[np.ndarray] = []
         for k in range(len(spans)):
             s, e = spans[k]
-            spans[k] = (ts[:0], ts[:0])  # let each span go once converted
+            spans[k] = (s[:0], s[:0])  # let each span go once converted
             vals, good = _convert(arr, s, e, p.decimal_comma)
             del s, e
             ok &= good
@@ -265,7 +266,8 @@ class _FastWide(_WholeBuffer):
         if not ok.all():
             slow[fast[~ok]] = True
             fast = fast[ok]
-            ts, te = ts[ok], te[ok]
+            if ts is not None and te is not None:
+                ts, te = ts[ok], te[ok]
             converted = [c[ok] for c in converted]
         first_no = self.lines_before + 1
         fast_lines = fast + first_no
@@ -401,13 +403,13 @@ def _merge(
     fast_lines: np.ndarray,
     converted: list[np.ndarray],
     data: bytes,
-    ts: np.ndarray,
-    te: np.ndarray,
+    ts: np.ndarray | None,
+    te: np.ndarray | None,
 ) -> Batch:
     """Prefix rows, then fast rows with the line-by-line rows put back in file order.
 
     In the wide layout a row gives every wanted column or none, so all characteristics share
-    one set of lines and one TimeColumn.
+    one set of lines and one TimeColumn (`ts`, `te` None: no times were read).
     """
     assert p.wanted is not None
     batch = Batch(file=p.file, rejected=prefix.rejected + rest.rejected,
@@ -420,20 +422,27 @@ def _merge(
     slow_t = rest.times.get(key, [])
     npre = len(pre_l)
     at = np.searchsorted(fast_lines, slow_l)
-    lines = np.insert(fast_lines, at, slow_l)
-    s, e = np.insert(ts, at, 0), np.insert(te, at, 0)
-    extra: dict[int, str | None] = dict(enumerate(pre_t))
-    for k, (pos, t) in enumerate(zip(at.tolist(), slow_t, strict=True)):
-        extra[npre + pos + k] = t
+    # a clean file has no line-by-line rows: nothing to put back, no copy
+    lines = np.insert(fast_lines, at, slow_l) if len(at) else fast_lines
     if npre:
         lines = np.concatenate([np.asarray(pre_l, dtype=np.int64), lines])
-        pad = np.zeros(npre, dtype=np.int64)
-        s, e = np.concatenate([pad, s]), np.concatenate([pad, e])
     if len(lines) == 0:
         return batch
-    times = TimeColumn(buf=data, starts=s, ends=e, extra=extra)
+    if ts is None or te is None:
+        times = TimeColumn([None] * len(lines))
+    else:
+        s, e = (np.insert(ts, at, 0), np.insert(te, at, 0)) if len(at) else (ts, te)
+        extra: dict[int, str | None] = dict(enumerate(pre_t))
+        for k, (pos, t) in enumerate(zip(at.tolist(), slow_t, strict=True)):
+            extra[npre + pos + k] = t
+        if npre:
+            pad = np.zeros(npre, dtype=s.dtype)
+            s, e = np.concatenate([pad, s]), np.concatenate([pad, e])
+        times = TimeColumn(buf=data, starts=s, ends=e, extra=extra)
     for (name, _), vals in zip(p.wanted, converted, strict=True):
-        v = np.insert(vals, at, np.asarray(rest.values.get(name, []), dtype=np.float64))
+        v = vals
+        if len(at):
+            v = np.insert(vals, at, np.asarray(rest.values.get(name, []), dtype=np.float64))
         if npre:
             v = np.concatenate([np.asarray(prefix.values.get(name, []), dtype=np.float64), v])
         batch.values[name] = v

@@ -37,21 +37,24 @@ def read_bytes(source: str) -> tuple[str, bytes]:
         raise LinewatchError(f"{source}: cannot read ({exc.strerror or exc})") from None
 
 
-def read_log(source: str, feed: FeedConfig, columns: list[str] | None = None) -> Batch:
+def read_log(source: str, feed: FeedConfig, columns: list[str] | None = None, *,
+             times: bool = True) -> Batch:
     """Read a whole log (path or '-') into one Batch, fast; same result as RowParser.
 
     A last line without a newline is a row here (a finished file); unknown columns and a
-    missing header raise LinewatchError naming what there is.
+    missing header raise LinewatchError naming what there is. `times=False` leaves the time
+    text unread (every time None) for a caller that needs none.
     """
     name, data = read_bytes(source)
-    return parse_log_bytes(data, name, feed, columns)
+    return parse_log_bytes(data, name, feed, columns, times=times)
 
 
 def parse_log_bytes(
-    data: bytes, file: str, feed: FeedConfig, columns: list[str] | None = None
+    data: bytes, file: str, feed: FeedConfig, columns: list[str] | None = None, *,
+    times: bool = True,
 ) -> Batch:
     """`read_log` on bytes already in memory."""
-    parser = RowParser(feed, file, columns, require_columns=True)
+    parser = RowParser(feed, file, columns, require_columns=True, keep_times=times)
     if feed.layout == "jsonl":
         lines = data.split(b"\n")
         if lines and lines[-1] == b"":

@@ -117,6 +117,25 @@ def test_fast_reader_equals_per_line_parser(case: tuple[bytes, str], mode: str) 
     assert_same(fast, slow)
 
 
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(log_files())
+def test_reading_without_times_changes_nothing_but_the_times(case: tuple[bytes, str]) -> None:
+    data, encoding = case
+    feed = FeedConfig(paths=[], encoding=encoding)
+    try:
+        timed = parse_log_bytes(data, "log.csv", feed, None)
+    except Exception:
+        return  # refused alike: the other test holds the two readers to the same errors
+    untimed = parse_log_bytes(data, "log.csv", feed, None, times=False)
+    assert (untimed.rows, untimed.rejected, untimed.notices) == (
+        timed.rows, timed.rejected, timed.notices)
+    assert list(untimed.values) == list(timed.values)
+    for c in timed.values:
+        assert np.array_equal(untimed.values[c], timed.values[c])
+        assert np.array_equal(untimed.lines[c], timed.lines[c])
+        assert list(untimed.times[c]) == [None] * len(timed.values[c])
+
+
 @settings(max_examples=200, deadline=None)
 @given(st.lists(IN_RANGE, min_size=1, max_size=200), st.booleans())
 def test_numbers_are_read_as_python_float_reads_them(texts: list[str], semicolon: bool) -> None:
