@@ -14,8 +14,16 @@ import math
 from typing import Any
 
 from linewatch.config.loading import FeedConfig
+from linewatch.domain.records import Notice
 from linewatch.feeds.batch import BatchBuilder
-from linewatch.feeds.values import float_of, in_range, is_time_name, out_of_range, parse_number
+from linewatch.feeds.values import (
+    float_of,
+    in_range,
+    is_time_name,
+    lacking,
+    out_of_range,
+    parse_number,
+)
 from linewatch.feeds.values import shown as shown_text
 
 _MISSING = object()
@@ -30,8 +38,10 @@ class JsonRows:
     """
 
     def __init__(self, feed: FeedConfig, columns: list[str] | None,
-                 names_seen: dict[str, None], keep_times: bool = True) -> None:
+                 names_seen: dict[str, None], keep_times: bool = True,
+                 expected: list[str] | None = None) -> None:
         self.feed = feed
+        self.expected = expected  # keys asked for while every key is read (see RowParser)
         self.keep_times = keep_times
         self.columns = columns
         self.names_seen = names_seen
@@ -97,6 +107,10 @@ class JsonRows:
                 out.reject(line_no, "no number in any key")
                 return
             self.wanted_keys = keys
+            if self.expected is not None and (missing := lacking(self.expected, list(obj),
+                                                                 "key")):
+                out.notices.append(Notice(out.file, line_no, (
+                    f"{missing[0]} (keys: {', '.join(obj)})")))
         got: list[float] = []
         for k in keys:
             v = self._number(obj.get(k))

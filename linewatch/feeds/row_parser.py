@@ -38,7 +38,13 @@ from linewatch.domain.errors import LinewatchError
 from linewatch.domain.records import Notice
 from linewatch.feeds.batch import Batch, BatchBuilder
 from linewatch.feeds.json_lines import JsonRows
-from linewatch.feeds.values import float_of, is_time_name, parse_number, value_problem
+from linewatch.feeds.values import (
+    float_of,
+    is_time_name,
+    lacking,
+    parse_number,
+    value_problem,
+)
 
 MAX_LINE_BYTES = 1 << 20
 BOM = b"\xef\xbb\xbf"
@@ -91,7 +97,9 @@ class RowParser:
     `columns` lists the wanted columns (wide) or characteristic names (long); None takes every
     numeric column. With `require_columns` a header lacking a wanted column raises
     LinewatchError (the batch command); otherwise the header line is rejected with the reason
-    and the columns that are there are used (a live feed must keep going).
+    and the columns that are there are used (a live feed must keep going). `expected` names
+    columns asked for while every column is read (one list for several feeds, each holding
+    some): a wide header or first JSON object lacking one gets a notice listing what it has.
     """
 
     def __init__(
@@ -102,10 +110,12 @@ class RowParser:
         *,
         require_columns: bool = False,
         keep_times: bool = True,
+        expected: list[str] | None = None,
     ) -> None:
         self.feed = feed
         self.file = file
         self.columns = list(columns) if columns is not None else None
+        self.expected = list(expected) if expected and columns is None else None
         self.require_columns = require_columns
         self.keep_times = keep_times  # False: every time is None (a reader that needs none)
         self.decimal_comma = feed.decimal == ","
@@ -124,7 +134,8 @@ class RowParser:
         self.usable = True
         self.headerless = False  # began with data and no header to go by (said once)
         self.names_seen: dict[str, None] = {}  # long rows and JSON keys, in order of appearance
-        self.json = JsonRows(self.feed, self.columns, self.names_seen, self.keep_times)
+        self.json = JsonRows(self.feed, self.columns, self.names_seen, self.keep_times,
+                             self.expected)
 
     @property
     def ready(self) -> bool:
@@ -256,6 +267,8 @@ class RowParser:
             self.wanted = [(c, names.index(c)) for c in self.columns if c in names]
             if not self.wanted:
                 self.usable = False
+        elif self.expected is not None:
+            problems += lacking(self.expected, names)
         if problems:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:

@@ -63,3 +63,15 @@ def value_problem(text: str, column: str, decimal_comma: bool) -> str:
 def is_time_name(name: str) -> bool:
     """A column or key named like a time (`TIME_NAMES`, any case, blanks ignored)."""
     return name.strip().lower() in TIME_NAMES
+
+
+def lacking(expected: list[str], names: list[str], word: str = "column") -> list[str]:
+    """The problem of a file that lacks columns asked for ("no column 'x'"), saying when
+    nothing asked for is there at all; empty when it has them all."""
+    missing = [c for c in expected if c not in names]
+    if not missing:
+        return []
+    problem = f"no {word} " + ", ".join(f"'{c}'" for c in missing)
+    if len(missing) == len(expected):
+        problem += ", so nothing is charted from this file"
+    return [problem]
