@@ -37,6 +37,7 @@ from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import AlarmView, FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
 from linewatch.engine.rulebook import BEYOND, RULES, resolve_rules
+from linewatch.engine.spec import out_of_spec
 from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 
@@ -277,14 +278,9 @@ class AlarmBook:
         measurements; the alarm counts the parts below LSL and above USL."""
         if not len(values):
             return []
-        fired: dict[str, list[int]] = {"usl": [], "lsl": []}
-        for k, v in enumerate(values):
-            if usl is not None and v > usl:
-                fired["usl"].append(first_index + k)
-            elif lsl is not None and v < lsl:
-                fired["lsl"].append(first_index + k)
+        found = out_of_spec(values, lsl, usl, first_index)
         return self._observe(
-            characteristic, SPEC_CHART, first_index, first_index + len(values) - 1, fired, now,
+            characteristic, SPEC_CHART, found.first, found.last, found.fired(), now,
             (OUT_OF_SPEC,), lambda _rules: OUT_OF_SPEC, clear_after,
         )
 

@@ -18,9 +18,10 @@ import pytest
 from linewatch.config.loading import FeedConfig
 from linewatch.domain.errors import BadLimits
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
 from linewatch.engine.limits import estimate_limits
+from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 from linewatch.feeds.row_parser import RowParser
 from linewatch.feeds.whole_file import read_log
 from linewatch.present.scales import cell_of, fraction_of, padded_span
