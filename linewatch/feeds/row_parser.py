@@ -34,7 +34,7 @@ import math
 import re
 
 from linewatch.config.model import FeedConfig
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import FeedError
 from linewatch.domain.records import Notice
 from linewatch.feeds.batch import Batch, BatchBuilder
 from linewatch.feeds.json_lines import JsonRows
@@ -225,7 +225,7 @@ class RowParser:
                 return True
             problem = "first line holds numbers and times, not a header of column names"
             if self.require_columns:
-                raise LinewatchError(f"{self.file}: line {line_no}: {problem}")
+                raise FeedError(f"{self.file}: line {line_no}: {problem}")
             # a live feed: said once for the file, with what to do, and the lines counted
             if not self.headerless:
                 self.headerless = True
@@ -272,7 +272,7 @@ class RowParser:
         if problems:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:
-                raise LinewatchError(f"{self.file}: {message}")
+                raise FeedError(f"{self.file}: {message}")
             if not self.usable:
                 message += "; nothing is read from this file"
             out.notices.append(Notice(self.file, line_no, message))  # no row is lost
