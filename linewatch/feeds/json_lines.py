@@ -48,6 +48,9 @@ class JsonRows:
         self.decimal_comma = feed.decimal == ","
         self.time_key: str | None = None
         self.wanted_keys: list[str] | None = None
+        # asked-for keys the file's first object lacked: said once, then skipped (not a
+        # rejection on every row) until an object carries them
+        self.absent: set[str] | None = None
 
     @property
     def ready(self) -> bool:
@@ -111,6 +114,19 @@ class JsonRows:
                                                                  "key")):
                 out.notices.append(Notice(out.file, line_no, (
                     f"{missing[0]} (keys: {', '.join(obj)})")))
+        if self.columns is not None and self.absent is None:
+            self.absent = {k for k in self.columns if k not in obj}
+            if self.absent:
+                shown = ", ".join(f"'{k}'" for k in self.columns if k in self.absent)
+                rest = "; nothing is read from this file" if len(self.absent) == len(
+                    self.columns) else ""
+                out.notices.append(Notice(out.file, line_no, (
+                    f"no key {shown} (keys: {', '.join(obj)}){rest}")))
+        if self.absent:
+            self.absent -= obj.keys()
+            keys = [k for k in keys if k not in self.absent]
+            if not keys:
+                return
         got: list[float] = []
         for k in keys:
             v = self._number(obj.get(k))
