@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError
 from linewatch.domain.records import MAX_MAGNITUDE
@@ -34,21 +35,6 @@ from linewatch.engine.rulebook import (
     resolve_rules,
 )
 
-DEFAULT_REASONS: tuple[str, ...] = (
-    "tool wear",
-    "material lot change",
-    "gauge or measurement error",
-    "adjustment made",
-    "no cause found",
-)
-
-ALARM_KINDS = ("out-of-spec", "beyond-limits", "run-rule", "feed-health")
-DEFAULT_PRIORITIES: dict[str, int] = {
-    "out-of-spec": 1,
-    "beyond-limits": 2,
-    "run-rule": 3,
-    "feed-health": 4,
-}
 LAYOUTS = ("wide", "long", "jsonl")
 DISPERSIONS = ("range", "stdev")
 DEFAULT_WATCH_BASELINE = 25
@@ -77,7 +63,7 @@ class CharacteristicConfig:
     sigma: float | None = None
     rules: list[str] = field(default_factory=lambda: parse_rule_list(DEFAULT_RULES))
     run_lengths: dict[str, int] = field(default_factory=dict)
-    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    reasons: list[str] = field(default_factory=list)  # empty: the alarm policy's defaults
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
@@ -89,12 +75,6 @@ class CharacteristicConfig:
         if self.dispersion:
             return self.dispersion
         return "range" if self.subgroup_size <= 9 else "stdev"
-
-    def plan_for(self, rule: str | None) -> str:
-        """The reaction plan to show for an alarm of `rule` (per-rule text first)."""
-        if rule and rule in self.reaction_plans:
-            return self.reaction_plans[rule]
-        return self.reaction_plan
 
 
 @dataclass(slots=True)
@@ -118,7 +98,7 @@ class AlarmConfig:
     priorities: dict[str, int] = field(default_factory=lambda: dict(DEFAULT_PRIORITIES))
     hook: list[str] = field(default_factory=list)
     hook_timeout: float = 5.0
-    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    reasons: list[str] = field(default_factory=list)  # empty: the alarm policy's defaults
     flood_alarms: int = DEFAULT_FLOOD_ALARMS
     flood_window: float = DEFAULT_FLOOD_WINDOW
     shelve_max: float = DEFAULT_SHELVE_MAX
@@ -271,13 +251,13 @@ def _read_alarms(path: str, table: Any) -> AlarmConfig:
                    "flood_window", "shelve_max"})
     prio = dict(DEFAULT_PRIORITIES)
     pr = _Reader(path, "alarms.priorities", r.sub_table("priorities"))
-    pr.check_known(set(ALARM_KINDS))
-    for kind in ALARM_KINDS:
+    pr.check_known(set(AlarmKind))
+    for kind in AlarmKind:
         value = pr.integer(kind, None, 1, 99)
         if value is not None:
             prio[kind] = value
-    reasons = r.string_list("reasons", list(DEFAULT_REASONS))
-    if not reasons:
+    reasons = r.string_list("reasons")
+    if "reasons" in r.table and not reasons:
         raise r.fail("reasons", "needs at least one reason")
     timeout = r.duration("hook_timeout", 5.0)
     if timeout <= 0:
@@ -364,10 +344,10 @@ def _read_characteristic(
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
-    plans_reader.check_known(set(RULES) | {"out-of-spec", "feed-health"})
+    plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
     reasons = r.string_list("reasons", default_reasons)
-    if not reasons:
+    if "reasons" in r.table and not reasons:
         raise r.fail("reasons", "needs at least one reason")
     return CharacteristicConfig(
         name=name,

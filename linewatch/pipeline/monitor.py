@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, cast
 
-from linewatch.alarms.book import SYSTEM_ACTOR, AlarmEvent
+from linewatch.alarms.lifecycle import SYSTEM_ACTOR, AlarmEvent
 from linewatch.config.loading import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.errors import LinewatchError
@@ -692,11 +692,13 @@ def request_new_baseline(store: Store, characteristic: str, start_index: int,
 
 def _stopped_payload(problem: str, now: float) -> dict[str, Any]:
     """What the hook receives about a "monitoring stopped" alarm that could not be stored."""
-    from linewatch.alarms.book import FEED_CHART, FEED_HEALTH, MONITOR_SUBJECT, STOPPED_RULE
+    from linewatch.alarms.lifecycle import FEED_CHART, MONITOR_SUBJECT, STOPPED_RULE
+    from linewatch.domain.alarm_states import MOST_URGENT, AlarmKind, AlarmState
     from linewatch.domain.clock import iso_time
 
-    return {"id": None, "kind": FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
-            "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": 1, "state": "unacknowledged",
+    return {"id": None, "kind": AlarmKind.FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
+            "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": MOST_URGENT,
+            "state": AlarmState.UNACKNOWLEDGED,
             "raised_at": iso_time(now), "action": "raised",
             "description": f"monitoring stopped: {problem}", "detail": problem,
             "reaction_plan": "", "stored": False}

@@ -44,12 +44,11 @@ def run(args: argparse.Namespace) -> int:
 def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     import time
 
-    from linewatch.alarms.book import urgency
     from linewatch.domain.clock import iso_time
     from linewatch.domain.jsonl import dumps
 
     now = time.time()
-    records = sorted(book.alarms(include_closed=args.all), key=urgency)
+    records = book.ranked(include_closed=args.all, now=now)
     out = sys.stdout
     if args.format == "jsonl":
         for alarm in records:
@@ -58,7 +57,7 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     if not records:
         out.write("no alarms\n" if args.all else "no open alarms\n")
         return 0
-    from linewatch.alarms.book import rule_summary
+    from linewatch.alarms.wording import rule_summary
 
     header = ("ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART", "FIRST", "POINTS",
               "EPISODES", "SIGNALS", "ACK")

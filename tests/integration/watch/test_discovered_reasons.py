@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import threading
 
-from linewatch.config.loading import DEFAULT_REASONS, parse_config
+from linewatch.alarms.policy import DEFAULT_REASONS
+from linewatch.config.loading import parse_config
 from linewatch.pipeline.monitor import Monitor, WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import wait_until
