@@ -6,7 +6,8 @@ import contextlib
 from typing import TYPE_CHECKING
 
 from linewatch.domain.alarm_states import AlarmKind
-from linewatch.engine.rulebook import RULES, RuleListError, resolve_rules
+from linewatch.domain.errors import RuleListError
+from linewatch.engine.rulebook import RULES, resolve_rules
 
 if TYPE_CHECKING:
     from linewatch.config.loading import Config

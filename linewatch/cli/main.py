@@ -8,9 +8,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
-EXIT_OK = 0
-EXIT_SIGNALS = 1
-EXIT_USAGE = 2
+from linewatch.domain import exit_codes
 
 
 def _add_chart_options(p: argparse.ArgumentParser) -> None:
@@ -161,7 +159,8 @@ def build_parser() -> argparse.ArgumentParser:
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
     u.add_argument("--anchor", action="append", default=[], metavar="FILE",
                    help="an anchor file or a shift report holding the trail's head, to check "
-                        "the trail still holds what it held then (repeatable)")
+                        "the trail still holds what it held then (repeatable; the config's "
+                        "monitor.audit_anchor_file is always read too)")
     u.add_argument("--key", metavar="FILE",
                    help="the audit key file, to check the entries signed with it (default: "
                         "the config's monitor.audit_key_file)")
@@ -230,34 +229,41 @@ def main(argv: Sequence[str] | None = None) -> int:
             import traceback
 
             traceback.print_exc()
-            return EXIT_SIGNALS  # the interpreter's own code for an uncaught exception
+            return exit_codes.SIGNALS  # the interpreter's own code for an uncaught exception
 
 
 def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
-    from linewatch.domain.errors import LinewatchError
-    from linewatch.domain.safe_text import visible
-
     try:
         if args.command is None:
             module = importlib.import_module("linewatch.cli.commands.default")
         else:
             module = importlib.import_module(_COMMANDS[args.command])
         return int(module.run(args) or 0)
-    except LinewatchError as exc:
-        print(f"linewatch: {visible(exc)}", file=sys.stderr)
-        return EXIT_USAGE
-    except KeyboardInterrupt:
-        return 130
-    except BrokenPipeError:
-        return 0
-    except Exception as exc:
-        damage = _store_damage(exc)
-        if damage is None:
-            raise
-        print(f"linewatch: {damage}", file=sys.stderr)
-        return EXIT_USAGE
+    except (Exception, KeyboardInterrupt) as exc:
+        code, line = exit_code_for(exc)
+        if line is not None:
+            print(f"linewatch: {line}", file=sys.stderr)
+        return code
+
+
+def exit_code_for(exc: BaseException) -> tuple[int, str | None]:
+    """The one mapping from what reached the command line to an exit code and the line to show
+    (None: nothing to say). An exception that is none of these is a bug and is raised again."""
+    from linewatch.domain.errors import LinewatchError
+    from linewatch.domain.safe_text import visible
+
+    if isinstance(exc, LinewatchError):
+        return exit_codes.USAGE, visible(exc)
+    if isinstance(exc, KeyboardInterrupt):
+        return exit_codes.INTERRUPTED, None
+    if isinstance(exc, BrokenPipeError):
+        return exit_codes.OK, None
+    damage = _store_damage(exc)
+    if damage is None:
+        raise exc
+    return exit_codes.USAGE, damage
 
 
 def _store_damage(exc: BaseException) -> str | None:

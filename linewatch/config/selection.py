@@ -17,10 +17,10 @@ from linewatch.config.loading import (
     FeedConfig,
     load_config,
 )
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
 from linewatch.engine.characteristic import ChartSetup
-from linewatch.engine.rulebook import RuleListError, parse_rule_list, resolve_rules
+from linewatch.engine.rulebook import parse_rule_list, resolve_rules
 
 
 def load_optional_config(path: str | None) -> Config:

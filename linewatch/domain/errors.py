@@ -1,4 +1,16 @@
-"""Exceptions that the command line turns into one-line messages and exit code 2."""
+"""The one exception tree. Everything linewatch raises on purpose is a `LinewatchError`; the
+command line maps each kind to its exit code in one place (`cli.main.exit_code_for`) and shows
+one line, never a traceback.
+
+    LinewatchError            a problem the user can fix                      exit 2
+      ConfigError             a config file: names the file, the key, the problem
+      FeedError               a log cannot be read as a feed (no header, not a file)
+      RuleListError           a rule list names an unknown rule or set
+      NotEnoughData           too few points to estimate control limits
+        BadLimits             limits that are not finite numbers
+      StoreError              the store cannot be opened or is not a linewatch store
+        LeaseLost             this instance no longer collects (another one took over)
+"""
 
 
 class LinewatchError(Exception):
@@ -16,10 +28,27 @@ class ConfigError(LinewatchError):
         self.problem = problem
 
 
+class FeedError(LinewatchError):
+    """A log cannot be read as a feed: not a regular file, no header to go by."""
+
+
+class RuleListError(LinewatchError, ValueError):
+    """A rule list names an unknown rule or set, or a length that makes no sense (a ValueError
+    too, so a config reader that catches bad values catches it)."""
+
+
 class NotEnoughData(LinewatchError):
     """Too few points to estimate control limits."""
 
 
-class BadLimits(LinewatchError):
+class BadLimits(NotEnoughData):
     """Control limits that are not finite numbers (values too extreme to chart); such limits
     never reach the store."""
+
+
+class StoreError(LinewatchError):
+    """The store cannot be opened or is not a linewatch store."""
+
+
+class LeaseLost(StoreError):
+    """This instance no longer holds the lease: another one collects now."""

@@ -21,6 +21,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
+from linewatch.domain.errors import RuleListError
+
 # Rule kinds: the evaluators implement exactly these.
 BEYOND = "beyond"  # one point beyond the 3σ limits
 SIDE_RUN = "side-run"  # `length` in a row on one side of CL
@@ -98,10 +100,6 @@ RULE_SETS: dict[str, tuple[str, ...]] = {
     "western-electric": ("we1", "we2", "we3", "we4"),
 }
 DEFAULT_RULES = "western-electric"
-
-
-class RuleListError(ValueError):
-    """A rule list names an unknown rule or set, or a length that makes no sense."""
 
 
 def parse_rule_list(text: str | list[str] | tuple[str, ...]) -> list[str]:

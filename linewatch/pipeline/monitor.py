@@ -372,7 +372,7 @@ class Monitor:
         records: list[dict[str, Any]] = []
         raised: list[AlarmEvent] = []
         touched: set[str] = set()
-        from linewatch.store.lease import LeaseLost
+        from linewatch.domain.errors import LeaseLost
 
         try:
             with self.store.transaction():

@@ -22,7 +22,7 @@ from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from linewatch.domain.errors import LinewatchError
+from linewatch.domain.errors import StoreError
 from linewatch.store.schema import MIGRATIONS
 
 if TYPE_CHECKING:
@@ -35,10 +35,6 @@ DB_NAME = "linewatch.db"
 BUSY_TIMEOUT_MS = 10_000
 PRIVATE_MODES = (0o700, 0o600)  # directory, files: owner only
 SHARED_MODES = (0o770, 0o660)  # directory, files: owner and group (a shared line PC)
-
-
-class StoreError(LinewatchError):
-    """The store cannot be opened or is not a linewatch store."""
 
 
 def _prepare(directory: Path, shared_group: bool) -> Path:

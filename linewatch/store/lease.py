@@ -15,15 +15,13 @@ import uuid
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from linewatch.domain.errors import LeaseLost
+
 if TYPE_CHECKING:
     from linewatch.store.db import Store
 
 RENEW_EVERY = 0.5  # seconds between renewals by the collector (and attempts by viewers)
 EXPIRES_AFTER = 3.0  # seconds after the last renewal that the lease lapses
-
-
-class LeaseLost(RuntimeError):
-    """This instance no longer holds the lease: another one collects now."""
 
 
 @dataclass(frozen=True, slots=True)

@@ -179,6 +179,8 @@ def run(args: argparse.Namespace) -> int:
         from linewatch.cli.commands.check_text import render_text
 
         write(render_text(analyses, rejected, several_files, skipped))
+    from linewatch.domain import exit_codes
+
     if skipped:  # an input problem, as when no characteristic can be charted at all
-        return 2
-    return 1 if any(len(a.result.table) for a in analyses) else 0
+        return exit_codes.USAGE
+    return exit_codes.SIGNALS if any(len(a.result.table) for a in analyses) else exit_codes.OK

@@ -17,6 +17,7 @@ from textual.binding import Binding, BindingType
 from textual.notifications import SeverityLevel
 from textual.screen import Screen
 
+from linewatch.domain import exit_codes
 from linewatch.domain.safe_text import visible
 from linewatch.faces.tui.glyphs import Glyphs, pick_glyphs
 from linewatch.faces.tui.screens.base import LineScreen
@@ -25,7 +26,7 @@ from linewatch.faces.tui.screens.feeds import FeedScreen
 from linewatch.faces.tui.screens.queue import AlarmQueueScreen
 from linewatch.present import view
 
-EXIT_CRASH = 70  # the screen died on an internal error (EX_SOFTWARE of sysexits.h)
+EXIT_CRASH = exit_codes.CRASH  # the screen died on an internal error
 REFRESH_HZ = 10.0
 RETRY_AFTER = 2.0  # seconds before asking again for a snapshot that failed
 BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell

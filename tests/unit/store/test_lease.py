@@ -32,8 +32,8 @@ def test_one_holder_at_a_time_and_expiry(store: Store) -> None:
 
 
 def test_a_replaced_collector_cannot_write_its_batch(store: Store) -> None:
+    from linewatch.domain.errors import LeaseLost
     from linewatch.domain.records import FeedEvent
-    from linewatch.store.lease import LeaseLost
 
     a, b = Lease(store, "a"), Lease(store, "b")
     assert a.try_acquire(now=100.0)
