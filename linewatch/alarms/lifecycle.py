@@ -34,8 +34,10 @@ STOPPED_RULE = "stopped"
 SPEC_CHART = "individuals"  # out-of-spec alarms are about individual measurements
 FEED_CHART = "feed"
 # Feed events that raise a feed-health alarm, and those that return it to normal.
-FEED_RAISE = {"stale": "stale", "stuck": "stuck", "unreadable": "unreadable"}
-FEED_CLEAR = {"resumed": "stale", "unstuck": "stuck", "readable": "unreadable"}
+FEED_RAISE = {"stale": "stale", "stuck": "stuck", "unreadable": "unreadable",
+              "no-header": "no-header"}
+FEED_CLEAR = {"resumed": "stale", "unstuck": "stuck", "readable": "unreadable",
+              "header": "no-header"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,10 +107,10 @@ class Lifecycle:
     def observe_feed(
         self, event: FeedEvent, now: float | None = None, characteristic: str | None = None
     ) -> list[AlarmEvent]:
-        """A feed event: stale / stuck / unreadable raise a feed-health alarm (one per feed and
-        cause; a condition that comes back before the alarm was closed re-raises it); resumed /
-        unstuck / readable return it to normal. The alarm belongs to `characteristic` when
-        given (a stuck gauge), else to the file."""
+        """A feed event: stale / stuck / unreadable / no-header raise a feed-health alarm (one
+        per feed and cause; a condition that comes back before the alarm was closed re-raises
+        it); resumed / unstuck / readable / header return it to normal. The alarm belongs to
+        `characteristic` when given (a stuck gauge), else to the file."""
         now = time.time() if now is None else now
         subject = characteristic or event.file
         events: list[AlarmEvent] = []

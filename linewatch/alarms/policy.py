@@ -33,6 +33,12 @@ DEFAULT_REASONS: tuple[str, ...] = (
 )
 """Acknowledgement reasons offered when neither the characteristic nor [alarms] lists any."""
 
+# What to do about a feed-health cause when the config gives no reaction plan for it.
+DEFAULT_FEED_PLANS = {
+    "no-header": ("Have the logger write a line of column names first (e.g. time,od,wall), "
+                  "or add one at the top of the file: it is then read from the start."),
+}
+
 CONTROL_KINDS = (AlarmKind.BEYOND_LIMITS, AlarmKind.RUN_RULE)
 """The kinds one control-chart alarm can have (it escalates from one to the other)."""
 
@@ -142,7 +148,10 @@ class AlarmPolicy:
             if c is not None:
                 return plan_for(c, key)
         settings = self.remembered(alarm.characteristic)
-        return plan_for(settings, key) if settings is not None else ""
+        plan = plan_for(settings, key) if settings is not None else ""
+        if not plan and alarm.kind == AlarmKind.FEED_HEALTH:
+            plan = DEFAULT_FEED_PLANS.get(alarm.rule, "")
+        return plan
 
     def shelve_limit(self) -> float:
         """The longest shelving time allowed (seconds)."""

@@ -21,6 +21,7 @@ _FEED_WORDS = {
     "stale": "no new row for too long (stale feed)",
     "stuck": "the same value repeated again and again (stuck gauge)",
     "unreadable": "the file cannot be read",
+    "no-header": "no header line: the file's lines are not read",
     "stopped": "monitoring stopped: the collector keeps failing",
 }
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import tomllib
+from dataclasses import dataclass
 from pathlib import Path
 
 from hypothesis import given
@@ -20,6 +21,7 @@ from linewatch.domain.alarm_states import (
     OPEN_STATES,
     AlarmKind,
     AlarmState,
+    by_urgency,
     urgency,
     urgency_rank,
 )
@@ -90,3 +92,19 @@ def test_within_a_priority_the_newest_comes_first() -> None:
 
 def test_an_unknown_state_is_never_ranked_out_of_sight() -> None:
     assert urgency_rank("something-new", 3) == urgency_rank(AlarmState.UNACKNOWLEDGED, 3)
+
+
+@dataclass(frozen=True)
+class _Alarm:
+    id: int
+    state: str
+    priority: int
+    raised_at: float
+
+
+@given(st.lists(st.builds(_Alarm, st.integers(1, 50), states, st.integers(1, 5),
+                          st.sampled_from([0.0, 1.0, 2.0, 3.5])), max_size=40))
+def test_the_fast_sort_is_the_urgency_order(alarms: list[_Alarm]) -> None:
+    # small ranges on purpose: many ties on priority and raise time, and repeated ids
+    by_key = sorted(alarms, key=lambda a: urgency(a.state, a.priority, a.raised_at, a.id))
+    assert by_urgency(alarms) == by_key

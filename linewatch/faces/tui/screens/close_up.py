@@ -170,9 +170,10 @@ class CloseUpScreen(LineScreen):
 
     def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
         unit = f" [{cv.unit}]" if cv.unit else ""
-        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}",
-                                    f"{STATE_WORDS.get(cv.state, cv.state)}, "
-                                    f"{count(cv.points, 'reading')}")
+        extra = f"{STATE_WORDS.get(cv.state, cv.state)}, {count(cv.points, 'reading')}"
+        if cv.limits_refused:  # not "learning": more readings will not bring limits
+            extra = f"limits refused, {count(cv.points, 'reading')}: {cv.limits_refused}"
+        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}", extra)
 
     def _draw_figures(self) -> None:
         cv = self.detail
@@ -194,7 +195,8 @@ class CloseUpScreen(LineScreen):
         ))
         self.query_one("#closeup-phases", Static).update(Group(
             Text("phases of limits", "bold"),
-            phase_table(cv.phases) if cv.phases else Text("no limits yet", palette.LABEL),
+            phase_table(cv.phases) if cv.phases else Text(
+                "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
         ))
         self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
         self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
@@ -203,9 +205,8 @@ class CloseUpScreen(LineScreen):
         """This characteristic's open alarms, so the close-up answers 'why is it red'."""
         from linewatch.domain.clock import time_of_day
         from linewatch.faces.tui.formatting import ALARM_STATE_WORDS
-        from linewatch.faces.tui.screens.queue import sorted_alarms
 
-        mine = [a for a in sorted_alarms(self.lw.line.alarms)
+        mine = [a for a in self.lw.alarms_in_order()
                 if a.characteristic == name and a.state != view.NORMAL]
         text = Text(end="")
         text.append(f"open alarms ({len(mine)})\n", "bold")
@@ -221,7 +222,13 @@ class CloseUpScreen(LineScreen):
     def _cursor_text(self, cv: view.CharacteristicView) -> Text:
         loc = cv.location
         text = Text(end="")
-        if cv.baseline_needed:
+        if cv.limits_refused:
+            text.append(f"limits refused: {visible(cv.limits_refused)}\n",
+                        palette.STATE_STYLE[view.STATE_REFUSED])
+            text.append("more readings will not change this baseline: start a new baseline (n) "
+                        "where the readings vary, or give known limits (center and sigma in "
+                        "the config)\n", palette.LABEL)
+        elif cv.baseline_needed:
             text.append(f"learning: {count(cv.baseline_needed, point_word(cv))} more before "
                         "limits exist\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])

@@ -10,7 +10,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.widgets import DataTable, Static
 
-from linewatch.domain.alarm_states import AlarmKind, urgency
+from linewatch.domain.alarm_states import AlarmKind, by_urgency
 from linewatch.domain.clock import day_and_time, time_of_day
 from linewatch.domain.safe_text import visible, visible_lines
 from linewatch.faces.tui import palette
@@ -29,8 +29,9 @@ KIND_WORDS: dict[str, str] = {
 
 
 def sorted_alarms(alarms: list[view.AlarmView]) -> list[view.AlarmView]:
-    """Open before shelved before closed, then priority 1 first, then newest first."""
-    return sorted(alarms, key=lambda a: urgency(a.state, a.priority, a.raised_at, a.id))
+    """Open before shelved before closed, then priority 1 first, then newest first (the higher
+    id first on the same second): the domain's one urgency order, in its fast form."""
+    return by_urgency(alarms)
 
 
 def reasons_for(alarm: view.AlarmView) -> list[str]:
@@ -105,6 +106,7 @@ class AlarmQueueScreen(TableScreen):
         super().__init__()
         self._ids: list[int] = []  # the alarms of the rows built, in order
         self._alarms: list[view.AlarmView] = []  # the whole queue, in order
+        self._alarms_of: view.LineSnapshot | None = None  # the picture `_alarms` come from
         self._start = 0  # the queue position of the first row built
         self._columns_for = 0
 
@@ -132,10 +134,9 @@ class AlarmQueueScreen(TableScreen):
         table.add_column("state", key="state", width=9)
 
     def show_line(self) -> None:
-        line = self.lw.line
-        alarms = sorted_alarms(line.alarms)
         keep = self.highlighted()
-        self._alarms = alarms
+        alarms = self.lw.alarms_in_order()
+        self._alarms, self._alarms_of = alarms, self.lw.line
         size = self._window_size()
         where = None if keep is None else next(
             (i for i, a in enumerate(alarms) if a.id == keep.id), None)
@@ -213,6 +214,8 @@ class AlarmQueueScreen(TableScreen):
         if not 0 <= row < len(self._ids):
             return None
         wanted = self._ids[row]
+        if self._alarms_of is self.lw.line:  # the rows are of the current picture
+            return self._alarms[self._start + row]
         return next((a for a in self.lw.line.alarms if a.id == wanted), None)
 
     @on(DataTable.RowHighlighted, "#queue-table")

@@ -10,6 +10,7 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.events import Resize
+from textual.screen import Screen
 from textual.widgets import Footer
 from textual.widgets._footer import FooterKey
 
@@ -58,13 +59,17 @@ def fit_keys(
 
 
 class KeyFooter(Footer):
-    """A Footer that always fits on one line of the terminal."""
+    """A Footer that always fits on one line of the terminal, and is rebuilt only when the keys
+    it shows change: Textual asks on every focus change and every showing of the screen, and a
+    rebuild holds back the screen's frames until its keys are mounted again (switching views
+    waited for three rebuilds of the same keys)."""
 
     _fitted_for = -1
+    _drawn: tuple[object, ...] | None = None  # the keys on show, as `_keys` gave them
+    _update_asked = False
 
-    def compose(self) -> ComposeResult:
-        if not getattr(self, "_bindings_ready", True):
-            return
+    def _keys(self) -> tuple[list[tuple[Binding, str, bool, str]], bool]:
+        """(binding, key shown, enabled, tooltip) of each key that fits, and whether compactly."""
         seen: set[str] = set()
         keys: list[tuple[Binding, str]] = []
         state: dict[str, tuple[bool, str]] = {}
@@ -76,20 +81,49 @@ class KeyFooter(Footer):
         width = self.size.width or self.app.size.width
         self._fitted_for = width
         chosen, compact = fit_keys(keys, width, self._here())
+        return [(b, shown, *state[b.action]) for b, shown in chosen], compact
+
+    @staticmethod
+    def _signature(keys: list[tuple[Binding, str, bool, str]], compact: bool) -> tuple[object, ...]:
+        return (compact, *((b.key, shown, b.description, b.action, enabled, tooltip)
+                           for b, shown, enabled, tooltip in keys))
+
+    def compose(self) -> ComposeResult:
+        if not getattr(self, "_bindings_ready", True):
+            return
+        keys, compact = self._keys()
+        self._drawn = self._signature(keys, compact)
         self.compact = compact
-        for binding, shown in chosen:
-            enabled, tooltip = state[binding.action]
+        for binding, shown, enabled, tooltip in keys:
             yield FooterKey(binding.key, shown, binding.description, binding.action,
                             disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
 
+    def bindings_changed(self, screen: Screen[object]) -> None:
+        self._bindings_ready = True
+        if screen.app.app_focus and self.is_attached and screen is self.screen:
+            self._ask_update()
+
+    def _ask_update(self) -> None:
+        """Look again after the next refresh; requests until then are one look."""
+        if not self._update_asked:
+            self._update_asked = True
+            self.call_after_refresh(self._update_keys)
+
+    async def _update_keys(self) -> None:
+        self._update_asked = False
+        if self.is_attached and self._signature(*self._keys()) != self._drawn:
+            await self.recompose()
+
     def _here(self) -> str | None:
-        """The action of the view on screen, when it is a view's own first screen."""
-        app = self.app
-        stack = app.screen_stack
-        if stack and self.screen is stack[0]:
-            return f"show('{app.current_mode}')"
+        """The action that leads to this footer's screen, when the screen is one of the views
+        (its mode's own screen). Asked of the screen, not of the mode on show, so a view built
+        or left in the background gets the same keys as when it is on show."""
+        screen = type(self.screen)
+        for mode, base in self.app.MODES.items():
+            if base is screen:
+                return f"show('{mode}')"
         return None
 
     def on_resize(self, event: Resize) -> None:
         if event.size.width != self._fitted_for:
-            self.call_after_refresh(self.recompose)
+            self._ask_update()
