@@ -217,3 +217,7 @@ class AlarmBook:
     def describe(self, alarm: AlarmRecord) -> str:
         """The alarm's condition in plain words."""
         return self.listing.describe(alarm)
+
+    def reaction_plan(self, alarm: AlarmRecord) -> str:
+        """The configured text telling the operator what to do about this alarm."""
+        return self.policy.reaction_plan(alarm)
