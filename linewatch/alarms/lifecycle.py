@@ -23,6 +23,7 @@ from linewatch.domain.alarm_states import AlarmKind, AlarmState
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.records import FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
+from linewatch.engine.spec import out_of_spec
 
 if TYPE_CHECKING:
     from linewatch.store.alarm_rows import AlarmRecord
@@ -93,14 +94,9 @@ class Lifecycle:
         measurements; the alarm counts the parts below LSL and above USL."""
         if not len(values):
             return []
-        fired: dict[str, list[int]] = {"usl": [], "lsl": []}
-        for k, v in enumerate(values):
-            if usl is not None and v > usl:
-                fired["usl"].append(first_index + k)
-            elif lsl is not None and v < lsl:
-                fired["lsl"].append(first_index + k)
+        found = out_of_spec(values, lsl, usl, first_index)
         return self._observe(
-            characteristic, SPEC_CHART, first_index, first_index + len(values) - 1, fired, now,
+            characteristic, SPEC_CHART, found.first, found.last, found.fired(), now,
             (AlarmKind.OUT_OF_SPEC,), lambda _rules: AlarmKind.OUT_OF_SPEC, clear_after,
         )
 

@@ -19,8 +19,8 @@ from linewatch.config.loading import (
 )
 from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.characteristic import ChartSetup
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 
 
 def load_optional_config(path: str | None) -> Config:

@@ -29,7 +29,9 @@ from linewatch.config.selection import chart_setup
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
 from linewatch.domain.records import FeedEvent, Limits
-from linewatch.engine.characteristic import CharacteristicEngine, Firing, LiveOutput
+from linewatch.engine.live import CharacteristicEngine, LiveOutput
+from linewatch.engine.live_state import restore_engine, save_state
+from linewatch.engine.setup import Firing
 from linewatch.store.lease import RENEW_EVERY
 
 if TYPE_CHECKING:  # imported lazily at run time: a viewer never needs them
@@ -203,7 +205,7 @@ class Monitor:
             if c is None:
                 continue
             setup = chart_setup(c, self.plan.baseline)
-            self.engines[name] = CharacteristicEngine.from_state(setup, json.loads(text))
+            self.engines[name] = restore_engine(setup, json.loads(text))
         self.emit({"type": "role", "role": "collector", "instance": self.instance})
 
     def _char_config(self, name: str) -> CharacteristicConfig | None:
@@ -388,7 +390,7 @@ class Monitor:
                     self._process_chunk(chunk, now, records, raised, touched)
                 for name in sorted(touched):
                     eng = self.engines[name]
-                    self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
+                    self.store.ingest.save_engine(name, json.dumps(save_state(eng)), now)
         except LeaseLost:
             self._step_down()
             return
@@ -680,7 +682,7 @@ class Monitor:
             raised += self._observe_judged(name, out, now)
             for f in out.firings:
                 self.emit(_signal_record(name, f))
-            self.store.ingest.save_engine(name, json.dumps(eng.to_state()), now)
+            self.store.ingest.save_engine(name, json.dumps(save_state(eng)), now)
             self.emit({"type": "baseline", "characteristic": name, "start_index": eng.phase_start,
                        "reason": req["reason"]})
 

@@ -25,7 +25,8 @@ from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
 from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
 from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
-from linewatch.engine.characteristic import ChartSetup, HistoryResult, analyse_history
+from linewatch.engine.batch import HistoryResult, analyse_history
+from linewatch.engine.setup import ChartSetup
 
 
 @dataclass(slots=True)
@@ -75,7 +76,7 @@ def _read_all(
 
 def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
              result: HistoryResult, rejected: int) -> dict[str, Any]:
-    from linewatch.engine.budget import average_run_length
+    from linewatch.engine.budget.rates import average_run_length
     from linewatch.engine.summary import summarize
 
     s = summarize(values, sigma_within=result.limits.sigma_within, lsl=c.lsl, usl=c.usl)

@@ -10,7 +10,7 @@ import argparse
 import signal
 import sys
 import threading
-from datetime import datetime, timedelta
+from datetime import datetime
 from pathlib import Path
 from types import FrameType
 
@@ -22,7 +22,7 @@ def run(args: argparse.Namespace) -> int:
     """Write logs until --duration has passed or SIGINT/SIGTERM arrives; exit 0."""
     from linewatch.domain.durations import format_duration, parse_duration
     from linewatch.simulation.line import EXTRUSION_LINE, Note, generate
-    from linewatch.simulation.writer import write_feeds
+    from linewatch.simulation.writer import continue_after, existing_logs, write_feeds
 
     if not args.rate > 0:
         raise LinewatchError(f"--rate must be more than 0 rows per second, got {args.rate}")
@@ -52,10 +52,10 @@ def run(args: argparse.Namespace) -> int:
         signal.signal(signal.SIGTERM, request_stop)
 
     start = datetime.now().astimezone()
-    existing = [out / g.file for g in EXTRUSION_LINE.gauges if (out / g.file).exists()]
-    stamps = [t for t in (_last_stamp(p) for p in existing) if t is not None]
-    if stamps:  # earlier runs may have run ahead of the clock (--speed > 1)
-        start = max([start, *(t + timedelta(seconds=1) for t in stamps)])
+    existing = existing_logs(out)
+    after = continue_after(existing)
+    if after is not None:  # earlier runs may have run ahead of the clock (--speed > 1)
+        start = max(start, after)
     files = ", ".join(g.file for g in EXTRUSION_LINE.gauges)
     until = f" for {format_duration(duration)}" if duration is not None else " (Ctrl-C stops)"
     print(f"simulating the extrusion line into {out}: {files}{until}", flush=True)
@@ -90,20 +90,3 @@ def run(args: argparse.Namespace) -> int:
     )
     return 0
 
-
-def _last_stamp(path: Path) -> datetime | None:
-    """The newest time stamp among the last rows of a log written by the simulator."""
-    import re
-
-    with path.open("rb") as fh:
-        fh.seek(0, 2)
-        fh.seek(max(0, fh.tell() - 4096))
-        tail = fh.read().decode("utf-8", errors="replace")
-    found = re.findall(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(?:\.\d+)?[+-]\d\d:\d\d", tail)
-    stamps = []
-    for text in found:
-        try:
-            stamps.append(datetime.fromisoformat(text))
-        except ValueError:
-            continue
-    return max(stamps) if stamps else None

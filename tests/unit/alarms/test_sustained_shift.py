@@ -18,9 +18,10 @@ import numpy as np
 import pytest
 
 from linewatch.alarms.book import AlarmBook
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup, Firing
 from linewatch.engine.episodes import episodes
+from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup, Firing
 from linewatch.store.db import Store
 
 CENTER, SIGMA = 10.0, 0.1
