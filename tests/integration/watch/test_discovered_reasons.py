@@ -7,7 +7,8 @@ import threading
 
 from linewatch.alarms.policy import DEFAULT_REASONS
 from linewatch.config.loading import parse_config
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import wait_until
 
