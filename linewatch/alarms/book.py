@@ -28,7 +28,7 @@ from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
 from linewatch.store.actor import Actor
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.db import Store
 

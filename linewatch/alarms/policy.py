@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from typing import TYPE_CHECKING, Protocol
 
-from linewatch.config.loading import (
+from linewatch.config.model import (
     DEFAULT_FLOOD_ALARMS,
     DEFAULT_FLOOD_WINDOW,
     DEFAULT_SHELVE_MAX,
@@ -20,7 +20,7 @@ from linewatch.domain.errors import LinewatchError
 from linewatch.engine.rulebook import BEYOND, RULES
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.points import CharacteristicSettings
 

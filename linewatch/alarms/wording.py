@@ -10,7 +10,7 @@ from linewatch.domain.errors import RuleListError
 from linewatch.engine.rulebook import RULES, resolve_rules
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.alarm_rows import AlarmRecord
 
 _SPEC_WORDS = {

@@ -15,7 +15,7 @@ if TYPE_CHECKING:
     from linewatch.alarms.book import AlarmBook
     from linewatch.alarms.hooks import HookOutcome, HookRunner
     from linewatch.alarms.lifecycle import AlarmEvent
-    from linewatch.config.loading import AlarmConfig
+    from linewatch.config.model import AlarmConfig
     from linewatch.store.db import Store
 
 Emit = Callable[[dict[str, Any]], None]

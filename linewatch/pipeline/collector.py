@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any, cast
 
 from linewatch.alarms.book import AlarmBook
 from linewatch.alarms.lifecycle import SYSTEM_ACTOR, AlarmEvent
-from linewatch.config.loading import CharacteristicConfig
+from linewatch.config.model import CharacteristicConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
 from linewatch.domain.records import FeedEvent, Limits

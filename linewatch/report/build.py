@@ -19,7 +19,7 @@ from linewatch.domain.records import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHAR
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.report.alarm_performance import AlarmPerformance, Episode
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.audit import Verdict
