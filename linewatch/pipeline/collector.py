@@ -17,7 +17,8 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, cast
 
-from linewatch.alarms.book import SYSTEM_ACTOR, AlarmBook, AlarmEvent
+from linewatch.alarms.book import AlarmBook
+from linewatch.alarms.lifecycle import SYSTEM_ACTOR, AlarmEvent
 from linewatch.config.model import CharacteristicConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
