@@ -1,8 +1,8 @@
 """The optional alarm hook: a command (an argument list, never a shell string) started with the
 alarm as JSON on its standard input — to switch a stack light or send a message.
 
-Calls wait in a bounded queue, most urgent priority first (lower number = more urgent), oldest
-first within a priority, and at most `max_running` hooks run at once on background threads. A
+Calls wait in a bounded queue in the domain's urgency order (`urgency_rank`: priority 1 first),
+oldest first within a rank, and at most `max_running` hooks run at once on background threads. A
 burst never loses a priority-1 or -2 call: when the queue is full, the least urgent queued call
 of priority 3 or lower gives way, and the drops are reported as one counted outcome. A hook that
 fails, cannot start or hangs is killed (with its whole process group) and reported through the
@@ -23,8 +23,10 @@ import subprocess
 import threading
 import time
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
+
+from linewatch.domain.alarm_states import MOST_URGENT, urgency_rank
 
 MAX_RUNNING = 4  # hooks running at once; further calls wait in the queue
 MAX_QUEUED = 64  # calls waiting; beyond this, priority 3 and lower give way
@@ -51,18 +53,26 @@ class HookOutcome:
 class _Call:
     """One queued hook call, ordered most urgent first, then oldest first."""
 
-    priority: int
+    rank: tuple[int, int]  # urgency_rank of the alarm
     seq: int
-    alarm_id: int | None
-    payload: bytes
+    priority: int = field(compare=False)
+    alarm_id: int | None = field(compare=False)
+    payload: bytes = field(compare=False)
 
 
 def _priority_of(alarm: dict[str, Any]) -> int:
     """The alarm's priority; a missing or odd one counts as most urgent (never dropped)."""
     value = alarm.get("priority")
     if isinstance(value, bool) or not isinstance(value, int):
-        return 1
+        return MOST_URGENT
     return value
+
+
+def _call(alarm: dict[str, Any], seq: int, payload: bytes) -> _Call:
+    priority = _priority_of(alarm)
+    state = alarm.get("state")
+    rank = urgency_rank(state if isinstance(state, str) else "", priority)
+    return _Call(rank, seq, priority, alarm.get("id"), payload)
 
 
 class HookRunner:
@@ -103,7 +113,7 @@ class HookRunner:
         payload = json.dumps(alarm, default=str).encode("utf-8")
         with self._cond:
             self._seq += 1
-            call = _Call(_priority_of(alarm), self._seq, alarm.get("id"), payload)
+            call = _call(alarm, self._seq, payload)
             if len(self._queue) >= self.max_queued and self._running >= self.max_running:
                 dropped = self._make_room(call)
                 if dropped is not None:

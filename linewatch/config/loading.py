@@ -16,8 +16,6 @@ from typing import Any, TypeVar
 from linewatch.config.choices import DECIMAL_MARKS, DELIMITERS, DISPERSIONS, LAYOUTS
 from linewatch.config.fields import field_default, field_names
 from linewatch.config.model import (
-    ALARM_KINDS,
-    DEFAULT_PRIORITIES,
     AlarmConfig,
     CharacteristicConfig,
     Config,
@@ -25,6 +23,7 @@ from linewatch.config.model import (
     MonitorConfig,
 )
 from linewatch.config.syslog_target import parse_syslog_target
+from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
@@ -158,7 +157,7 @@ class _Reader:
 
     def reasons(self, name: str, default: Any = _FROM_MODEL) -> list[str]:
         reasons = self.string_list(name, default)
-        if not reasons:
+        if name in self.table and not reasons:  # none given: the alarm policy's defaults
             raise self.fail(name, "needs at least one reason")
         return reasons
 
@@ -199,8 +198,8 @@ def _read_alarms(path: str, table: Any) -> AlarmConfig:
     r.check_known()
     prio = dict(DEFAULT_PRIORITIES)
     pr = _Reader(path, "alarms.priorities", r.sub_table("priorities"))
-    pr.check_known(set(ALARM_KINDS))
-    for kind in ALARM_KINDS:
+    pr.check_known(set(AlarmKind))
+    for kind in AlarmKind:
         value = pr.optional_integer(kind, 1, 99, default=None)
         if value is not None:
             prio[kind] = value
@@ -280,7 +279,7 @@ def _read_characteristic(
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
-    plans_reader.check_known(set(RULES) | {"out-of-spec", "feed-health"})
+    plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
     return CharacteristicConfig(
         name=name,

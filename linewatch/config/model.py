@@ -22,24 +22,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from linewatch.config.choices import DecimalMark, Delimiter, Dispersion, Layout
+from linewatch.domain.alarm_states import DEFAULT_PRIORITIES
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
 from linewatch.engine.rulebook import DEFAULT_RULES, parse_rule_list
 
-DEFAULT_REASONS: tuple[str, ...] = (
-    "tool wear",
-    "material lot change",
-    "gauge or measurement error",
-    "adjustment made",
-    "no cause found",
-)
-
-ALARM_KINDS = ("out-of-spec", "beyond-limits", "run-rule", "feed-health")
-DEFAULT_PRIORITIES: dict[str, int] = {
-    "out-of-spec": 1,
-    "beyond-limits": 2,
-    "run-rule": 3,
-    "feed-health": 4,
-}
 DEFAULT_WATCH_BASELINE = 25
 DEFAULT_STALE_AFTER = 600.0
 DEFAULT_STUCK_REPEATS = 10
@@ -67,7 +53,7 @@ class CharacteristicConfig:
     sigma: float | None = None
     rules: list[str] = field(default_factory=lambda: parse_rule_list(DEFAULT_RULES))
     run_lengths: dict[str, int] = field(default_factory=dict)
-    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    reasons: list[str] = field(default_factory=list)  # empty: the alarm policy's defaults
     reaction_plan: str = ""
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
@@ -79,12 +65,6 @@ class CharacteristicConfig:
         if self.dispersion:
             return self.dispersion
         return "range" if self.subgroup_size <= 9 else "stdev"
-
-    def plan_for(self, rule: str | None) -> str:
-        """The reaction plan to show for an alarm of `rule` (per-rule text first)."""
-        if rule and rule in self.reaction_plans:
-            return self.reaction_plans[rule]
-        return self.reaction_plan
 
 
 @dataclass(slots=True)
@@ -108,7 +88,7 @@ class AlarmConfig:
     priorities: dict[str, int] = field(default_factory=lambda: dict(DEFAULT_PRIORITIES))
     hook: list[str] = field(default_factory=list)
     hook_timeout: float = DEFAULT_HOOK_TIMEOUT
-    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    reasons: list[str] = field(default_factory=list)  # empty: the alarm policy's defaults
     flood_alarms: int = DEFAULT_FLOOD_ALARMS
     flood_window: float = DEFAULT_FLOOD_WINDOW
     shelve_max: float = DEFAULT_SHELVE_MAX

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from linewatch.domain.alarm_states import AlarmState
+
 CHART_INDIVIDUALS = "individuals"
 CHART_MOVING_RANGE = "moving-range"
 CHART_XBAR = "xbar"
@@ -89,12 +91,12 @@ class AlarmView:
     """One alarm as the alarm list shows it."""
 
     id: int
-    kind: str  # out-of-spec | beyond-limits | run-rule | feed-health
+    kind: str  # an AlarmKind
     characteristic: str
     chart: str
     rule: str
     description: str
-    state: str
+    state: AlarmState
     priority: int
     raised_at: float  # epoch seconds
     first_index: int | None = None

@@ -12,8 +12,9 @@ from collections.abc import Callable, Iterable
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from linewatch.alarms.book import AlarmBook, AlarmEvent
+    from linewatch.alarms.book import AlarmBook
     from linewatch.alarms.hooks import HookOutcome, HookRunner
+    from linewatch.alarms.lifecycle import AlarmEvent
     from linewatch.config.model import AlarmConfig
     from linewatch.store.db import Store
 

@@ -308,11 +308,13 @@ def store_replaced(exc: BaseException) -> bool:
 
 def stopped_payload(problem: str, now: float) -> dict[str, Any]:
     """What the hook receives about a "monitoring stopped" alarm that could not be stored."""
-    from linewatch.alarms.book import FEED_CHART, FEED_HEALTH, MONITOR_SUBJECT, STOPPED_RULE
+    from linewatch.alarms.lifecycle import FEED_CHART, MONITOR_SUBJECT, STOPPED_RULE
+    from linewatch.domain.alarm_states import MOST_URGENT, AlarmKind, AlarmState
     from linewatch.domain.clock import iso_time
 
-    return {"id": None, "kind": FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
-            "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": 1, "state": "unacknowledged",
+    return {"id": None, "kind": AlarmKind.FEED_HEALTH, "characteristic": MONITOR_SUBJECT,
+            "chart": FEED_CHART, "rule": STOPPED_RULE, "priority": MOST_URGENT,
+            "state": AlarmState.UNACKNOWLEDGED,
             "raised_at": iso_time(now), "action": "raised",
             "description": f"monitoring stopped: {problem}", "detail": problem,
             "reaction_plan": "", "stored": False}

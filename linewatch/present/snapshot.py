@@ -19,7 +19,7 @@ from linewatch.domain.records import FeedEvent
 from linewatch.engine.charts import chart_names, plotted_series
 from linewatch.present.view import (
     ACKNOWLEDGED,
-    SHELVED,
+    RETURNED_UNACKNOWLEDGED,
     STATE_ALARM,
     STATE_LEARNING,
     STATE_OK,
@@ -189,7 +189,7 @@ def _seconds_per_point(recs: list[PointRecord], n: int) -> float | None:
 def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bool,
            now: float) -> str:
     states = [a.state(now) for a in open_alarms]
-    if UNACKNOWLEDGED in states or any(s == "returned-unacknowledged" for s in states):
+    if UNACKNOWLEDGED in states or RETURNED_UNACKNOWLEDGED in states:
         return STATE_ALARM
     if v.stale or v.stuck:
         return STATE_STALE
@@ -274,8 +274,7 @@ def build_snapshot(store: Store, alarms: AlarmBook, chars: list[CharacteristicCo
     open_now = alarms.alarms()  # read once for every row, not once per characteristic
     views = [characteristic_view(store, alarms, c, now, stale_after=stale_after,
                                  open_now=open_now) for c in chars]
-    alarm_views: list[AlarmView] = alarms.views(now=now)
-    alarm_views.sort(key=lambda a: (a.state == SHELVED, a.priority, -a.raised_at))
+    alarm_views: list[AlarmView] = alarms.views(now=now)  # most urgent first
     flood = alarms.flood()
     return LineSnapshot(version=version, title=title, role=role, characteristics=views,
                         alarms=alarm_views, feeds=feed_views(store, now, stale_after),

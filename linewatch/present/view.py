@@ -11,26 +11,17 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Protocol
 
-# The alarm states and the alarm record live in the domain; the faces read them here too.
-from linewatch.domain.alarm_states import (
-    ACKNOWLEDGED as ACKNOWLEDGED,
-)
-from linewatch.domain.alarm_states import (
-    NORMAL as NORMAL,
-)
-from linewatch.domain.alarm_states import (
-    OPEN_STATES as OPEN_STATES,
-)
-from linewatch.domain.alarm_states import (
-    RETURNED_UNACKNOWLEDGED as RETURNED_UNACKNOWLEDGED,
-)
-from linewatch.domain.alarm_states import (
-    SHELVED as SHELVED,
-)
-from linewatch.domain.alarm_states import (
-    UNACKNOWLEDGED as UNACKNOWLEDGED,
-)
+# The alarm kinds, states and the alarm record live in the domain; the faces read them here.
+from linewatch.domain.alarm_states import OPEN_STATES as OPEN_STATES
+from linewatch.domain.alarm_states import AlarmKind as AlarmKind
+from linewatch.domain.alarm_states import AlarmState as AlarmState
 from linewatch.domain.records import AlarmView as AlarmView
+
+UNACKNOWLEDGED = AlarmState.UNACKNOWLEDGED
+ACKNOWLEDGED = AlarmState.ACKNOWLEDGED
+RETURNED_UNACKNOWLEDGED = AlarmState.RETURNED_UNACKNOWLEDGED
+SHELVED = AlarmState.SHELVED
+NORMAL = AlarmState.NORMAL
 
 # Overall state of a characteristic on the overview, worst first.
 STATE_ALARM = "alarm"  # an unacknowledged alarm

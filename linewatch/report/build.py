@@ -321,8 +321,8 @@ def build_report(
     now: float | None = None,
 ) -> ShiftReport:
     """Gather the report of [since, until) from `store` (nothing is written)."""
-    from linewatch.alarms.book import AlarmBook, rule_summary
-    from linewatch.config.model import DEFAULT_FLOOD_ALARMS, DEFAULT_FLOOD_WINDOW
+    from linewatch.alarms.book import AlarmBook
+    from linewatch.alarms.wording import rule_summary
     from linewatch.engine.summary import summarize
     from linewatch.report.alarm_performance import (
         alarm_performance,
@@ -346,8 +346,7 @@ def build_report(
         if ep.alarm_id in listed and ep.started_at < end
         and (ep.returned_at is None or ep.returned_at >= since)
     ]
-    flood_alarms = config.alarms.flood_alarms if config is not None else DEFAULT_FLOOD_ALARMS
-    flood_window = config.alarms.flood_window if config is not None else DEFAULT_FLOOD_WINDOW
+    flood_alarms, flood_window = book.policy.flood_limit(), book.policy.flood_window()
     # Rates over the time the store kept a record: a period reaching back before the first
     # entry would dilute them with time nobody watched.
     began = store.audit.first_at()

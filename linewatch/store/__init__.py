@@ -12,5 +12,5 @@
 - lease.py       `Lease`: which instance collects
 - actor.py       who acts (OS user, SSH client address)
 
-The alarm lifecycle itself lives in `linewatch.alarms.book`.
+The alarm lifecycle itself lives in `linewatch.alarms.lifecycle`.
 """

@@ -1,18 +1,12 @@
 """Alarm rows and their derived ISA-18.2 / IEC 62682 state. The lifecycle rules (when to raise,
-extend, return, close) live in `linewatch.alarms.book`; this module only stores and reads."""
+extend, return, close) live in `linewatch.alarms.lifecycle`; this module only stores and reads."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING, Any
 
-from linewatch.domain.alarm_states import (
-    ACKNOWLEDGED,
-    NORMAL,
-    RETURNED_UNACKNOWLEDGED,
-    SHELVED,
-    UNACKNOWLEDGED,
-)
+from linewatch.domain.alarm_states import AlarmState
 
 if TYPE_CHECKING:
     from linewatch.store.db import Store
@@ -55,13 +49,13 @@ class AlarmRecord:
     escalated_at: float | None = None
     episode_first: int | None = None  # first firing of the current (latest) episode
 
-    def state(self, now: float) -> str:
+    def state(self, now: float) -> AlarmState:
         """shelved while shelved_until lies ahead; otherwise from (active, acknowledged)."""
         if self.closed_at is None and self.shelved_until is not None and self.shelved_until > now:
-            return SHELVED
+            return AlarmState.SHELVED
         if self.active:
-            return ACKNOWLEDGED if self.acknowledged else UNACKNOWLEDGED
-        return NORMAL if self.acknowledged else RETURNED_UNACKNOWLEDGED
+            return AlarmState.ACKNOWLEDGED if self.acknowledged else AlarmState.UNACKNOWLEDGED
+        return AlarmState.NORMAL if self.acknowledged else AlarmState.RETURNED_UNACKNOWLEDGED
 
     @property
     def is_open(self) -> bool:

@@ -229,7 +229,7 @@ class Store:
 
     @cached_property
     def alarms(self) -> AlarmRows:
-        """Alarm rows (the lifecycle logic lives in linewatch.alarms.book)."""
+        """Alarm rows (the lifecycle logic lives in linewatch.alarms.lifecycle)."""
         from linewatch.store.alarm_rows import AlarmRows
 
         return AlarmRows(self)

@@ -68,12 +68,6 @@ class CharacteristicSettings:
     subgroup_size: int | None = None  # None: written by a linewatch that did not store it
     dispersion: str | None = None
 
-    def plan_for(self, rule: str | None) -> str:
-        """The reaction plan for `rule` (per-rule text first), as the config defines it."""
-        if rule and rule in self.reaction_plans:
-            return self.reaction_plans[rule]
-        return self.reaction_plan
-
 
 class History:
     """Points, limits, feed events and characteristic settings."""

@@ -49,12 +49,11 @@ def run(options: AlarmsOptions) -> int:
 def _list(book: AlarmBook, options: AlarmListOptions) -> int:
     import time
 
-    from linewatch.alarms.book import urgency
     from linewatch.domain.clock import iso_time
     from linewatch.domain.jsonl import dumps
 
     now = time.time()
-    records = sorted(book.alarms(include_closed=options.all), key=urgency)
+    records = book.ranked(include_closed=options.all, now=now)
     out = sys.stdout
     if options.format == "jsonl":
         for alarm in records:
@@ -63,7 +62,7 @@ def _list(book: AlarmBook, options: AlarmListOptions) -> int:
     if not records:
         out.write("no alarms\n" if options.all else "no open alarms\n")
         return 0
-    from linewatch.alarms.book import rule_summary
+    from linewatch.alarms.wording import rule_summary
 
     header = ("ID", "PRI", "STATE", "RAISED", "CHARACTERISTIC", "CHART", "FIRST", "POINTS",
               "EPISODES", "SIGNALS", "ACK")

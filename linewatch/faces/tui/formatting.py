@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from linewatch.domain.alarm_states import AlarmKind
 from linewatch.engine import rulebook
 from linewatch.present import view
 
@@ -126,11 +127,11 @@ def alarm_counts(alarm: view.AlarmView) -> str:
     alarm ("individuals: we2 ×44 we3 ×37, 4 episodes"), the parts to quarantine for an
     out-of-spec alarm ("5 above USL, 2 below LSL"), the condition for feed health."""
     episodes = f", {alarm.episodes} episodes" if alarm.episodes > 1 else ""
-    if alarm.kind == "out-of-spec":
+    if alarm.kind == AlarmKind.OUT_OF_SPEC:
         parts = [f"{n} {side}" for n, side in ((alarm.above_usl, "above USL"),
                                                 (alarm.below_lsl, "below LSL")) if n]
         return (", ".join(parts) or "outside the specification") + episodes
-    if alarm.kind == "feed-health":
+    if alarm.kind == AlarmKind.FEED_HEALTH:
         return (alarm.description or alarm.rule) + episodes
     return f"{alarm.chart}: {alarm.counts or alarm.rule}{episodes}"
 
@@ -139,7 +140,7 @@ def alarm_subject(alarm: view.AlarmView) -> str:
     """What an alarm is about, short: a feed-health alarm on a file shows the file's base name
     (the full path stays in the alarm's detail line)."""
     subject = alarm.characteristic
-    if alarm.kind == "feed-health" and ("/" in subject or "\\" in subject):
+    if alarm.kind == AlarmKind.FEED_HEALTH and ("/" in subject or "\\" in subject):
         return base_name(subject)
     return subject
 

@@ -23,7 +23,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from linewatch.alarms.book import LIST_KEYS, AlarmBook
+from linewatch.alarms.book import AlarmBook
+from linewatch.alarms.listing import LIST_KEYS
 from linewatch.config.loading import parse_config
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.records import FeedEvent

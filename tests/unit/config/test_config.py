@@ -8,8 +8,8 @@ import sys
 
 import pytest
 
+from linewatch.alarms.policy import DEFAULT_REASONS, offered_reasons, plan_for
 from linewatch.config.loading import load_config, parse_config
-from linewatch.config.model import DEFAULT_REASONS
 from linewatch.domain.errors import ConfigError
 
 GOOD = """
@@ -56,10 +56,10 @@ def test_a_good_config_is_read_with_its_defaults(tmp_path):
     assert cfg.feeds[0].paths == [str(tmp_path / "logs/od_*.csv")]  # relative to the file
     od, wall = cfg.characteristics
     assert od.rules == ["we1", "we2", "we3", "we4", "n3"] and od.run_lengths == {"we4": 7}
-    assert od.plan_for("we1") == "Stop the puller." and od.plan_for("we2") == "Check the die."
+    assert plan_for(od, "we1") == "Stop the puller." and plan_for(od, "we2") == "Check the die."
     assert od.effective_dispersion == "range"  # n <= 9 (common practice)
     assert wall.column == "wall" and wall.effective_dispersion == "stdev"  # n >= 10
-    assert wall.reasons == list(DEFAULT_REASONS)
+    assert offered_reasons(wall.reasons, cfg.alarms.reasons) == list(DEFAULT_REASONS)
     assert len(cfg.digest) == 64
 
 

@@ -10,7 +10,8 @@ from datetime import UTC
 from pathlib import Path
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import RowParser, read_log
+from linewatch.feeds.row_parser import RowParser
+from linewatch.feeds.whole_file import read_log
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up
 
 DUP = "time,od,od,wall\n" + "".join(f"t{k},{12 + k / 100},{13 + k / 100},2.{k}\n"
@@ -146,6 +147,25 @@ def test_watch_says_a_wanted_column_is_missing_and_lists_the_columns_there(
     out, _ = stop(proc)
     (ev,) = [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
     assert "'nosuch'" in ev["detail"] and "time, x" in ev["detail"]
+
+
+def test_a_wanted_key_missing_from_json_lines_is_said_once_not_rejected_on_every_row(
+        tmp_path: Path) -> None:
+    """As for a CSV header: a JSON-lines file whose objects lack an asked-for key gets one
+    warning naming the keys there are, not one rejected row per object."""
+    p = tmp_path / "b.jsonl"
+    p.write_text("".join(json.dumps({"time": f"t{k}", "x": 5 + k / 10}) + "\n"
+                         for k in range(40)))
+    state = tmp_path / "state"
+    proc = start_watch([str(p)], state, "--column", "nosuch", "--column", "x")
+    wait_caught_up(state, p)
+    out, _ = stop(proc)
+    recs = records(out)
+    (ev,) = [r for r in recs if r["type"] == "feed" and r["event"] == "warning"]
+    assert "'nosuch'" in ev["detail"] and "time, x" in ev["detail"]
+    assert [r for r in recs if r["type"] == "rejected"] == []
+    (x,) = [r for r in recs if r["type"] == "summary" and r["characteristic"] == "x"]
+    assert x["points"] == 40  # the key that is there is read from every row
 
 
 def _headerless_rows(start: int, n: int) -> str:

@@ -170,12 +170,12 @@ def test_example_config_shows_every_key() -> None:
     from dataclasses import fields
 
     from linewatch.config.model import (
-        ALARM_KINDS,
         AlarmConfig,
         CharacteristicConfig,
         FeedConfig,
         MonitorConfig,
     )
+    from linewatch.domain.alarm_states import AlarmKind
 
     text = (ROOT / "config" / "linewatch.example.toml").read_text(encoding="utf-8")
     shown = set(re.findall(r"^(?:# )?([\w-]+) = ", text, flags=re.M))
@@ -183,4 +183,4 @@ def test_example_config_shows_every_key() -> None:
     for model in (MonitorConfig, AlarmConfig, FeedConfig, CharacteristicConfig):
         missing = {f.name for f in fields(model)} - shown
         assert not missing, f"{model.__name__}: {missing}"
-    assert set(ALARM_KINDS) <= shown
+    assert set(AlarmKind) <= shown
