@@ -38,8 +38,7 @@ def _sig(x: float, digits: int = 3) -> float:
 
 
 # --- CUSUM: Montgomery, Introduction to Statistical Quality Control, the table of ARLs of the
-# two-sided tabular CUSUM with k = 1/2 (h = 4 and h = 5); the 1σ and in-control values are those
-# the table prints, the others quoted from memory of the same table.
+# two-sided tabular CUSUM with k = 1/2 (h = 4 and h = 5); all values quoted from memory.
 
 
 @pytest.mark.parametrize(
@@ -79,6 +78,7 @@ def test_head_start_shortens_the_run_to_a_shift_from_the_start():
 
 
 # --- EWMA: Lucas & Saccucci, Technometrics 32(1), 1990, in-control ARLs with asymptotic limits
+# (quoted from memory)
 
 
 @pytest.mark.parametrize(
@@ -135,8 +135,8 @@ def test_shifted_zone_probabilities_match_scipy():
 
 
 def test_shewhart_beyond_limits_at_one_sigma():
-    # Montgomery (ARL of the Shewhart chart, 3σ limits): 43.9 at a 1σ shift; equal to
-    # 1/(Φ(−2) + Φ(−4)) from scipy (common practice)
+    # Montgomery (ARL of the Shewhart chart, 3σ limits): 43.9 at a 1σ shift (quoted from
+    # memory); equal to 1/(Φ(−2) + Φ(−4)) from scipy (common practice)
     arl = markov_run_length([RULES["we1"]], 1.0)
     assert round(arl, 1) == 43.9
     assert arl == pytest.approx(1 / (stats.norm.cdf(-2) + stats.norm.cdf(-4)), rel=1e-12)
