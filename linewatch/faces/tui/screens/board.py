@@ -189,7 +189,7 @@ class BoardScreen(LineScreen):
     def _signature(self, cv: view.CharacteristicView) -> tuple[object, ...]:
         loc = cv.location
         width = self._widths["recent"]
-        tail = (len(loc.values), loc.values[-1:], loc.rules[-width:]) if loc else ()
+        tail = (len(loc.values), loc.values[-1:], loc.marks[-width:]) if loc else ()
         return (cv.state, cv.last_value, cv.decimals, cv.points, cv.open_alarms, cv.cpk,
                 cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
@@ -218,7 +218,7 @@ class BoardScreen(LineScreen):
         if cv.subgroup_size > 1:
             name.append(f" n={cv.subgroup_size}", palette.LABEL)
         loc = cv.location
-        spark = SparkCell(loc.values if loc else [], loc.rules if loc else [],
+        spark = SparkCell(loc.values if loc else [], loc.marks if loc else [],
                           self._widths["recent"], g).to_text()
         if cv.state == view.STATE_LEARNING or (cv.cpk is None and cv.baseline_needed):
             gauge: Text = Text(f"learning limits\n{cv.baseline_needed} more points",

@@ -280,8 +280,9 @@ class AlarmQueueScreen(TableScreen):
             return
 
         def done(choice: AckChoice | None) -> None:
-            if choice and self.ask("acknowledge", [a.id], choice.reason, choice.note)[0]:
-                self.notify(f"alarm #{a.id} acknowledged: {choice.reason}")
+            if choice:
+                self.ask("acknowledge", [a.id], choice.reason, choice.note,
+                         done=lambda _: f"alarm #{a.id} acknowledged: {choice.reason}")
 
         self.app.push_screen(
             AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", reasons_for(a)), done
@@ -301,11 +302,9 @@ class AlarmQueueScreen(TableScreen):
         )
 
         def done(choice: AckChoice | None) -> None:
-            if not choice:
-                return
-            done, n = self.ask("acknowledge_characteristic", name, choice.reason, choice.note)
-            if done:
-                self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
+            if choice:
+                self.ask("acknowledge_characteristic", name, choice.reason, choice.note,
+                         done=lambda n: f"{n} alarms of {name} acknowledged: {choice.reason}")
 
         self.app.push_screen(
             AckPanel(f"all {count} alarm{'' if count == 1 else 's'} of {alarm_subject(a)}",
@@ -321,8 +320,9 @@ class AlarmQueueScreen(TableScreen):
             return
 
         def done(choice: ShelveChoice | None) -> None:
-            if choice and self.ask("shelve", a.id, choice.seconds, choice.reason)[0]:
-                self.notify(f"alarm #{a.id} shelved for {choice.text}")
+            if choice:
+                self.ask("shelve", a.id, choice.seconds, choice.reason,
+                         done=lambda _: f"alarm #{a.id} shelved for {choice.text}")
 
         self.app.push_screen(ShelvePanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}"),
                              done)
@@ -334,8 +334,7 @@ class AlarmQueueScreen(TableScreen):
         if a.state != view.SHELVED:
             self.notify(f"alarm #{a.id} is not shelved")
             return
-        if self.ask("unshelve", a.id)[0]:
-            self.notify(f"alarm #{a.id} unshelved")
+        self.ask("unshelve", a.id, done=lambda _: f"alarm #{a.id} unshelved")
 
     def action_close_up(self) -> None:
         a = self.highlighted()
