@@ -15,7 +15,7 @@ import time
 from collections.abc import Callable
 from typing import Any, ClassVar
 
-from textual import on, work
+from textual import events, on, work
 from textual.app import App
 from textual.binding import Binding, BindingType
 from textual.notifications import SeverityLevel
@@ -36,6 +36,9 @@ from linewatch.present import view
 
 EXIT_CRASH = exit_codes.CRASH  # the screen died on an internal error
 REFRESH_HZ = 10.0  # pictures taken at most this often
+REDRAW_SHARE = 0.1  # redrawing a new picture takes at most this share of the loop's time
+KEY_QUIET = 0.3  # seconds after a key before a new picture is taken: keys come first...
+LONGEST_WAIT = 2.0  # ...but no change waits longer than this for its picture
 RETRY_AFTER = 2.0  # seconds before asking again for a snapshot that failed
 BELL_PRIORITIES = (1, 2)  # a new unacknowledged alarm of these priorities rings the bell
 
@@ -93,12 +96,15 @@ class LinewatchApp(App[int]):
         self._taking = False  # a snapshot worker is running
         self._last_pull = -1.0  # perf_counter when the last picture was asked for
         self._pull_timer: Timer | None = None
+        self._changed_since: float | None = None  # perf_counter when a change began to wait
+        self._last_key = -1.0  # perf_counter of the last key
+        self._retry_at = 0.0  # no picture before this after one failed
         self._first_problem = ""  # why the first picture could not be read, told once mounted
         # alarm id -> (episodes, priority) in the last picture; None before the first
         self._alarms_seen: dict[int, tuple[int, int]] | None = None
         self._flooding = False
         self._drawing_since = 0.0
-        self._quiet_until = 0.0
+        self._quiet_until = 0.0  # the loop is left to keys until then after a redraw
         self.wanted_feed: str | None = None  # a file the feed pulse highlights when shown next
         self.crashed_with: BaseException | None = None  # what took the screen down, if anything
 
@@ -185,14 +191,23 @@ class LinewatchApp(App[int]):
         self._woken = False
         self._schedule_pull()
 
+    async def on_event(self, event: events.Event) -> None:
+        if isinstance(event, events.Key):  # every key passes the app first
+            self._last_key = time.perf_counter()
+        await super().on_event(event)
+
     def _schedule_pull(self) -> None:
-        """Take the next picture now, or when the pace allows (at most REFRESH_HZ, never while
-        one is being taken, and not before the loop has had as long for keys as the last
-        redraw took)."""
+        """Take the next picture now, or when the pace allows: at most REFRESH_HZ, never while
+        one is being taken, redraws taking at most REDRAW_SHARE of the loop, and not while
+        the operator is pressing keys (KEY_QUIET) unless the change has waited LONGEST_WAIT."""
         if self._taking or self._pull_timer is not None or not self._changed:
             return
         now = time.perf_counter()
-        due = max(self._quiet_until, self._last_pull + 1.0 / REFRESH_HZ) - now
+        if self._changed_since is None:
+            self._changed_since = now
+        pace = max(self._quiet_until, self._last_pull + 1.0 / REFRESH_HZ)
+        calm = min(self._last_key + KEY_QUIET, self._changed_since + LONGEST_WAIT)
+        due = max(pace, calm, self._retry_at) - now
         if due <= 0:
             self._pull_line()
         else:
@@ -205,6 +220,7 @@ class LinewatchApp(App[int]):
     def _pull_line(self) -> None:
         """Start reading a new picture in a worker thread."""
         self._changed = False
+        self._changed_since = None
         self._taking = True
         self._last_pull = time.perf_counter()
         self._take_line()
@@ -230,7 +246,7 @@ class LinewatchApp(App[int]):
         """Keep the last picture and ask again after a pause."""
         self._taking = False
         self._changed = True
-        self._quiet_until = time.perf_counter() + RETRY_AFTER
+        self._retry_at = time.perf_counter() + RETRY_AFTER
         self.notify(f"cannot read the line: {message.problem}", title="retrying",
                     severity="error", timeout=RETRY_AFTER)
         self._schedule_pull()
@@ -255,10 +271,12 @@ class LinewatchApp(App[int]):
             self.call_after_refresh(self._drawn)
 
     def _drawn(self) -> None:
-        """Leave the loop at least as long for keys as the last redraw took (a heavy line then
-        redraws less often instead of queueing redraws behind the operator's keypresses)."""
+        """Leave the loop to keys long enough that redraws take at most REDRAW_SHARE of its
+        time (a heavy line then redraws less often instead of queueing redraws behind the
+        operator's keypresses)."""
         now = time.perf_counter()
-        self._quiet_until = now + (now - self._drawing_since)
+        took = now - self._drawing_since
+        self._quiet_until = now + took * (1.0 - REDRAW_SHARE) / REDRAW_SHARE
 
     def _ring_for_new_alarms(self, line: view.LineSnapshot) -> None:
         """Ring for an urgent alarm raised, re-raised (a new episode) or escalated since the
