@@ -198,7 +198,7 @@ async def test_home_and_end_move_the_close_up_cursor_to_the_first_and_newest_poi
 
 
 async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_charts() -> None:
-    from textual.widgets._footer import FooterKey
+    from linewatch.faces.tui.widgets.key_footer import KeyCap
 
     from .conftest import make_app
 
@@ -208,7 +208,7 @@ async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_char
             await pilot.press("down", "enter")
             await settled(pilot)
             await settled(pilot)
-            keys = {k.key for k in app.screen.query(FooterKey)}
+            keys = {k.key for k in app.screen.query(KeyCap)}
             assert ("pagedown" in keys) is offered, (size, keys)
 
 

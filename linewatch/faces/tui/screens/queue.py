@@ -19,14 +19,6 @@ from linewatch.faces.tui.widgets.key_footer import KeyFooter
 from linewatch.faces.tui.widgets.top_bar import TopBar
 from linewatch.present import view
 
-DEFAULT_REASONS = [
-    "tool wear",
-    "material lot change",
-    "gauge or measurement error",
-    "adjustment made",
-    "no cause found",
-]
-
 KIND_WORDS = {
     "out-of-spec": "OUT OF SPEC",
     "beyond-limits": "beyond limits",
@@ -39,11 +31,6 @@ def sorted_alarms(alarms: list[view.AlarmView]) -> list[view.AlarmView]:
     """Open before shelved before closed, then priority 1 first, then newest first."""
     return sorted(alarms, key=lambda a: (a.state == view.NORMAL, a.state == view.SHELVED,
                                          a.priority, -a.raised_at, -a.id))
-
-
-def reasons_for(alarm: view.AlarmView) -> list[str]:
-    """The characteristic's reason codes, or the defaults when the config gives none."""
-    return list(alarm.reasons) or list(DEFAULT_REASONS)
 
 
 WINDOW_PAGES = 3  # rows built at once: this many screenfuls (at least MIN_WINDOW rows)
@@ -285,7 +272,7 @@ class AlarmQueueScreen(TableScreen):
                          done=lambda _: f"alarm #{a.id} acknowledged: {choice.reason}")
 
         self.app.push_screen(
-            AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", reasons_for(a)), done
+            AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", list(a.reasons)), done
         )
 
     def action_acknowledge_all(self) -> None:
@@ -308,7 +295,7 @@ class AlarmQueueScreen(TableScreen):
 
         self.app.push_screen(
             AckPanel(f"all {count} alarm{'' if count == 1 else 's'} of {alarm_subject(a)}",
-                     reasons_for(a)),
+                     list(a.reasons)),
             done,
         )
 

@@ -7,11 +7,15 @@ least needed keys until the row fits; `?` (the keys help, which lists everything
 
 from __future__ import annotations
 
+from typing import ClassVar
+
+from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.events import Resize
+from textual.reactive import reactive
+from textual.widget import Widget
 from textual.widgets import Footer
-from textual.widgets._footer import FooterKey
 
 # Dropped first to last when the row does not fit, after the view you are on.
 SPARE_ACTIONS = (
@@ -57,14 +61,87 @@ def fit_keys(
     return keys, True
 
 
+class KeyCap(Widget):
+    """One key in the footer: the key, then what it does, coloured by the theme's footer
+    colours through its component classes; a click presses the key."""
+
+    ALLOW_SELECT = False
+    COMPONENT_CLASSES: ClassVar[set[str]] = {"key-cap--key", "key-cap--description"}
+    DEFAULT_CSS = """
+    KeyCap {
+        width: auto;
+        height: 1;
+        text-wrap: nowrap;
+        background: $footer-item-background;
+        .key-cap--key {
+            color: $footer-key-foreground;
+            background: $footer-key-background;
+            text-style: bold;
+            padding: 0 1;
+        }
+        .key-cap--description {
+            padding: 0 1 0 0;
+            color: $footer-description-foreground;
+            background: $footer-description-background;
+        }
+        &:hover {
+            pointer: pointer;
+            color: $footer-key-foreground;
+            background: $block-hover-background;
+        }
+        &.-disabled {
+            text-style: dim;
+        }
+        &.-compact {
+            margin-right: 1;
+            .key-cap--key {
+                padding: 0;
+            }
+            .key-cap--description {
+                padding: 0 0 0 1;
+            }
+        }
+    }
+    """
+
+    compact = reactive(True, toggle_class="-compact")
+
+    def __init__(self, key: str, key_display: str, description: str, *, disabled: bool = False,
+                 tooltip: str = "") -> None:
+        super().__init__(classes="-disabled" if disabled else "")
+        self.key = key
+        self.key_display = key_display
+        self.description = description
+        self.inactive = disabled
+        self.set_reactive(Widget.shrink, False)
+        if tooltip:
+            self.tooltip = tooltip
+
+    def render(self) -> Text:
+        key = self.get_component_styles("key-cap--key").padding
+        words = self.get_component_styles("key-cap--description").padding
+        text = Text.assemble(
+            (" " * key.left + self.key_display + " " * key.right,
+             self.get_component_rich_style("key-cap--key")),
+            (" " * words.left + self.description + " " * words.right,
+             self.get_component_rich_style("key-cap--description")),
+        )
+        text.stylize_before(self.rich_style)
+        return text
+
+    def on_mouse_down(self) -> None:
+        if self.inactive:
+            self.app.bell()
+        else:
+            self.app.simulate_key(self.key)
+
+
 class KeyFooter(Footer):
     """A Footer that always fits on one line of the terminal."""
 
     _fitted_for = -1
 
     def compose(self) -> ComposeResult:
-        if not getattr(self, "_bindings_ready", True):
-            return
         seen: set[str] = set()
         keys: list[tuple[Binding, str]] = []
         state: dict[str, tuple[bool, str]] = {}
@@ -79,8 +156,8 @@ class KeyFooter(Footer):
         self.compact = compact
         for binding, shown in chosen:
             enabled, tooltip = state[binding.action]
-            yield FooterKey(binding.key, shown, binding.description, binding.action,
-                            disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
+            yield KeyCap(binding.key, shown, binding.description, disabled=not enabled,
+                         tooltip=tooltip).data_bind(compact=Footer.compact)
 
     def _here(self) -> str | None:
         """The action of the view on screen, when it is a view's own first screen."""
