@@ -58,8 +58,10 @@ SYSTEM_ACTOR = "linewatch"  # the actor of automatic transitions (raised, return
 SPEC_CHART = "individuals"  # out-of-spec alarms are about individual measurements
 FEED_CHART = "feed"
 # Feed events that raise a feed-health alarm, and those that return it to normal.
-FEED_RAISE = {"stale": "stale", "stuck": "stuck", "unreadable": "unreadable"}
-FEED_CLEAR = {"resumed": "stale", "unstuck": "stuck", "readable": "unreadable"}
+FEED_RAISE = {"stale": "stale", "stuck": "stuck", "unreadable": "unreadable",
+              "no-header": "no-header"}
+FEED_CLEAR = {"resumed": "stale", "unstuck": "stuck", "readable": "unreadable",
+              "header": "no-header"}
 
 _SPEC_WORDS = {
     "usl": "a measurement above the upper specification limit",
@@ -69,7 +71,13 @@ _FEED_WORDS = {
     "stale": "no new row for too long (stale feed)",
     "stuck": "the same value repeated again and again (stuck gauge)",
     "unreadable": "the file cannot be read",
+    "no-header": "no header line: the file's lines are not read",
     "stopped": "monitoring stopped: the collector keeps failing",
+}
+# What to do about a feed-health cause when the config gives no reaction plan for it.
+_FEED_PLANS = {
+    "no-header": ("Have the logger write a line of column names first (e.g. time,od,wall), "
+                  "or add one at the top of the file: it is then read from the start."),
 }
 
 # Keys of `linewatch alarms list --format jsonl`, in order.
@@ -194,7 +202,10 @@ class AlarmBook:
             if c is not None:
                 return c.plan_for(key)
         settings = self.store.history.settings(alarm.characteristic)
-        return settings.plan_for(key) if settings is not None else ""
+        plan = settings.plan_for(key) if settings is not None else ""
+        if not plan and alarm.kind == FEED_HEALTH:
+            plan = _FEED_PLANS.get(alarm.rule, "")
+        return plan
 
     def describe(self, alarm: AlarmRecord) -> str:
         """The alarm's condition in plain words."""
@@ -280,10 +291,10 @@ class AlarmBook:
     def observe_feed(
         self, event: FeedEvent, now: float | None = None, characteristic: str | None = None
     ) -> list[AlarmEvent]:
-        """A feed event: stale / stuck / unreadable raise a feed-health alarm (one per feed and
-        cause; a condition that comes back before the alarm was closed re-raises it); resumed /
-        unstuck / readable return it to normal. The alarm belongs to `characteristic` when
-        given (a stuck gauge), else to the file."""
+        """A feed event: stale / stuck / unreadable / no-header raise a feed-health alarm (one
+        per feed and cause; a condition that comes back before the alarm was closed re-raises
+        it); resumed / unstuck / readable / header return it to normal. The alarm belongs to
+        `characteristic` when given (a stuck gauge), else to the file."""
         now = time.time() if now is None else now
         subject = characteristic or event.file
         events: list[AlarmEvent] = []

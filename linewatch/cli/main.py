@@ -159,7 +159,8 @@ def build_parser() -> argparse.ArgumentParser:
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
     u.add_argument("--anchor", action="append", default=[], metavar="FILE",
                    help="an anchor file or a shift report holding the trail's head, to check "
-                        "the trail still holds what it held then (repeatable)")
+                        "the trail still holds what it held then (repeatable; the config's "
+                        "monitor.audit_anchor_file is always read too)")
     u.add_argument("--key", metavar="FILE",
                    help="the audit key file, to check the entries signed with it (default: "
                         "the config's monitor.audit_key_file)")

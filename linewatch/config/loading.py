@@ -3,7 +3,8 @@
 Layout of a config file (all tables optional; see config/*.toml for commented examples):
 
     [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline,
-                       shared_group, audit_anchor_file, audit_anchor_every, audit_key_file
+                       shared_group, audit_anchor_file, audit_anchor_syslog,
+                       audit_anchor_every, audit_key_file
     [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
                        shelve_max
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
@@ -130,6 +131,7 @@ class MonitorConfig:
     baseline: int = DEFAULT_WATCH_BASELINE
     shared_group: bool = False
     audit_anchor_file: str | None = None  # append the trail's head here (outside the store)
+    audit_anchor_syslog: str | None = None  # ... and/or to syslog: "local", a socket, HOST:PORT
     audit_anchor_every: int = DEFAULT_ANCHOR_EVERY  # ... also every N entries (0: report/stop)
     audit_key_file: str | None = None  # HMAC key for new audit entries (outside the store)
 
@@ -240,8 +242,17 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
     r = _Reader(path, "monitor", table)
     r.check_known(
         {"state_dir", "poll_seconds", "stale_after", "stuck_repeats", "bell", "baseline",
-         "shared_group", "audit_anchor_file", "audit_anchor_every", "audit_key_file"}
+         "shared_group", "audit_anchor_file", "audit_anchor_syslog", "audit_anchor_every",
+         "audit_key_file"}
     )
+    syslog = r.string("audit_anchor_syslog") or None
+    if syslog is not None:
+        from linewatch.store.anchors import parse_syslog_target
+
+        try:
+            parse_syslog_target(syslog)
+        except ValueError as exc:
+            raise r.fail("audit_anchor_syslog", str(exc)) from None
     poll = r.duration("poll_seconds", 0.0)
     return MonitorConfig(
         state_dir=r.string("state_dir"),
@@ -253,6 +264,7 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
         or DEFAULT_WATCH_BASELINE,
         shared_group=r.boolean("shared_group", False),
         audit_anchor_file=r.string("audit_anchor_file") or None,
+        audit_anchor_syslog=syslog,
         audit_anchor_every=r.integer("audit_anchor_every", DEFAULT_ANCHOR_EVERY, 0, 10_000_000)
         or 0,
         audit_key_file=r.string("audit_key_file") or None,

@@ -298,14 +298,14 @@ class CharacteristicEngine:
             disp = np.array([d.value for _, d in base if d is not None])
         try:
             return estimate_limits(loc, disp, self.setup.subgroup_size, self.setup.dispersion)
-        except BadLimits as exc:
-            # not finite (values too extreme): never applied or stored; said once, and the
-            # other characteristics go on
+        except (BadLimits, NotEnoughData) as exc:
+            # refused for this phase: not finite (values too extreme), or σ̂ = 0 (every
+            # baseline value alike). The baseline is these points whatever comes after, so
+            # more points cannot help (a new baseline or known limits can): said once, kept
+            # in `problem`, and the other characteristics go on
             if self.problem is None:
                 self.problem = out.problem = str(exc)
             return None
-        except NotEnoughData:
-            return None  # σ̂ = 0 so far: keep collecting, the baseline grows
 
     # -- feeding ------------------------------------------------------------------------------
     def push(
@@ -484,6 +484,7 @@ class CharacteristicEngine:
             raise ValueError(f"point {start_index} is too far back (oldest kept: {oldest})")
         self.phase += 1
         self.phase_start = start_index
+        self.problem = None  # the new phase's baseline is judged afresh
         self.phase_baseline = baseline or self.setup.baseline or self.phase_baseline
         disp_by_index = {d.index: d for d in self.disp_history}
         self.waiting = [
@@ -532,6 +533,7 @@ class CharacteristicEngine:
             "phase_start": self.phase_start,
             "phase_baseline": self.phase_baseline,
             "next_index": self.next_index,
+            "problem": self.problem,
             "limits": _limits_to_dict(self.limits) if self.limits else None,
             "waiting": [[_point_to_list(p), _point_to_list(d)] for p, d in self.waiting],
             "history": [[_point_to_list(p), _point_to_list(disp_by_index.get(p.index))]
@@ -553,6 +555,7 @@ class CharacteristicEngine:
         engine.phase_start = state["phase_start"]
         engine.phase_baseline = state["phase_baseline"]
         engine.next_index = state["next_index"]
+        engine.problem = state.get("problem")
         loc_c, disp_c = engine.loc_chart, engine.disp_chart
         for p, d in state["history"]:
             engine.loc_history.append(_point_from_list(loc_c, p))

@@ -284,7 +284,9 @@ class RowParser:
     `columns` lists the wanted columns (wide) or characteristic names (long); None takes every
     numeric column. With `require_columns` a header lacking a wanted column raises
     LinewatchError (the batch command); otherwise the header line is rejected with the reason
-    and the columns that are there are used (a live feed must keep going).
+    and the columns that are there are used (a live feed must keep going). `expected` names
+    columns asked for while every column is read (one list for several feeds, each holding
+    some): a wide header or first JSON object lacking one gets a notice listing what it has.
     """
 
     def __init__(
@@ -294,10 +296,12 @@ class RowParser:
         columns: list[str] | None = None,
         *,
         require_columns: bool = False,
+        expected: list[str] | None = None,
     ) -> None:
         self.feed = feed
         self.file = file
         self.columns = list(columns) if columns is not None else None
+        self.expected = list(expected) if expected and columns is None else None
         self.require_columns = require_columns
         self.decimal_comma = feed.decimal == ","
         self.previous_header: tuple[str, ...] | None = None  # kept across `reset`
@@ -464,6 +468,8 @@ class RowParser:
             self.wanted = [(c, names.index(c)) for c in self.columns if c in names]
             if not self.wanted:
                 self.usable = False
+        elif self.expected is not None:
+            problems += _lacking(self.expected, names)
         if problems:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:
@@ -588,6 +594,9 @@ class RowParser:
                 out.reject(line_no, "no number in any key")
                 return
             self.wanted_keys = keys
+            if self.expected is not None and (lacking := _lacking(self.expected, list(obj), "key")):
+                out.notices.append(Notice(self.file, line_no, (
+                    f"{lacking[0]} (keys: {', '.join(obj)})")))
         got: list[float] = []
         for k in keys:
             v = self._json_number(obj.get(k))
@@ -602,6 +611,18 @@ class RowParser:
 
 
 _MISSING = object()
+
+
+def _lacking(expected: list[str], names: list[str], word: str = "column") -> list[str]:
+    """The problem of a file that lacks columns asked for ("no column 'x'"), saying when
+    nothing asked for is there at all; empty when it has them all."""
+    missing = [c for c in expected if c not in names]
+    if not missing:
+        return []
+    problem = f"no {word} " + ", ".join(f"'{c}'" for c in missing)
+    if len(missing) == len(expected):
+        problem += ", so nothing is charted from this file"
+    return [problem]
 
 
 def _finite_json(v: int | float) -> bool:

@@ -154,9 +154,10 @@ def _find_inode(folder: str, dev: int, inode: int) -> str | None:
 class _Followed:
     """One path: its open handle, position, partial line and parser."""
 
-    def __init__(self, path: str, feed: FeedConfig, columns: list[str] | None) -> None:
+    def __init__(self, path: str, feed: FeedConfig, columns: list[str] | None,
+                 expected: list[str] | None = None) -> None:
         self.path = path
-        self.parser = RowParser(feed, path, columns)
+        self.parser = RowParser(feed, path, columns, expected=expected)
         self.fd: int | None = None
         self.dev = self.inode = 0
         self.head = b""  # first bytes of the open file (fingerprint)
@@ -361,7 +362,8 @@ class Tailer:
 
     `saved` maps paths to the states a previous run committed; `patterns` are extra patterns
     read with `default_feed` (wide CSV, detected delimiter, unless given); `shrink_grace` is
-    how long a shortened file that still begins like ours may take to grow back.
+    how long a shortened file that still begins like ours may take to grow back; `expected`
+    names columns to look for in each file without limiting what is read (see RowParser).
     """
 
     def __init__(
@@ -374,6 +376,7 @@ class Tailer:
         shrink_grace: float = SHRINK_GRACE,
         max_open: int | None = None,
         should_stop: Callable[[], bool] | None = None,
+        expected: list[str] | None = None,
     ) -> None:
         self.shrink_grace = shrink_grace
         self.should_stop = should_stop  # asked during pattern expansion (SIGTERM)
@@ -386,6 +389,9 @@ class Tailer:
         # open files, the one with the oldest news first (the first to be put to rest)
         self._open: dict[str, _Followed] = {}
         self.columns = list(columns) if columns is not None else None
+        # columns asked for though every numeric column is read (several feeds): a file
+        # lacking one says so once, listing its columns
+        self.expected = list(expected) if expected is not None else None
         self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
         extra_feed = default_feed or FeedConfig(paths=list(patterns))
         self._patterns += [(p, extra_feed) for p in patterns]
@@ -550,7 +556,7 @@ class Tailer:
                 found = True
                 f = self._followed.get(path)
                 if f is None:
-                    f = self._followed[path] = _Followed(path, feed, self.columns)
+                    f = self._followed[path] = _Followed(path, feed, self.columns, self.expected)
                     self._feed_of[path] = feed
                     f.gone = True
             if found:
@@ -717,7 +723,7 @@ class Tailer:
         if os.path.abspath(renamed) in self._followed:
             return None
         self._saved.pop(path)
-        old = _Followed(renamed, self._feed_of[path], self.columns)
+        old = _Followed(renamed, self._feed_of[path], self.columns, self.expected)
         events: list[FeedEvent] = []
         if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
                                       saved.offset, saved.next_line, saved.header)):

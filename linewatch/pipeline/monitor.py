@@ -51,6 +51,7 @@ FAILURES_BEFORE_ALARM = 3  # failed passes in a row before "monitoring stopped" 
 MAX_BACKOFF = 30.0  # seconds between retries after repeated failures, at most
 UNREAD_LINES = "unread-lines:{file}"  # meta key: lines of a file with no header to go by
 TIME_COUNTS = "time-stamps:{file}"  # meta key: "<went backwards>,<not readable>" of a file
+LIMITS_REFUSED = "limits-refused:{name}"  # meta key: why this phase's limits were refused
 
 
 @dataclass(slots=True)
@@ -63,6 +64,7 @@ class WatchPlan:
     columns: list[str] | None  # columns to keep (None: every numeric column)
     baseline: int
     title: str = ""
+    asked: list[str] | None = None  # columns named on the command line (`--column`)
     overrides: Callable[[CharacteristicConfig], CharacteristicConfig] = field(
         default=lambda c: c
     )
@@ -184,10 +186,14 @@ class Monitor:
         saved = self.store.ingest.files()
         # One column list serves every feed; with several feeds each file holds only some of
         # the characteristics, so every numeric column is read and the unknown ones dropped here.
+        # Columns asked for by name are still looked for in every file, and a file lacking
+        # one says so (a `warning` feed event listing the columns it has).
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
+        expected = self.plan.asked if columns is None else None
         stop = self._stop
         self.tailer = Tailer(self.plan.feeds, columns, saved,
-                             should_stop=None if stop is None else stop.is_set)
+                             should_stop=None if stop is None else stop.is_set,
+                             expected=expected)
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         mon = self.config.monitor
         self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
@@ -415,6 +421,8 @@ class Monitor:
                 key = UNREAD_LINES.format(file=batch.file)
                 total = int(self.store.get_meta(key) or 0) + batch.unread
                 self.store.set_meta(key, str(total))
+            if batch.rows:
+                self._headed(batch.file, now, records, raised)
             for r in batch.rejected:
                 records.append(rejected_record(r))
                 self.store.history.add_feed_event(
@@ -436,6 +444,20 @@ class Monitor:
                 self._count_times(batch)
         if chunk.state is not None:
             self.store.ingest.save_file(chunk.state, now)
+
+    def _headed(self, file: str, now: float, records: list[dict[str, Any]],
+                raised: list[AlarmEvent]) -> None:
+        """Rows of a file counted as having no header are read now (a header was added, or
+        the file was replaced by one with a header): say so, return its no-header alarm and
+        clear the count, so the file no longer shows as unread."""
+        key = UNREAD_LINES.format(file=file)
+        before = int(self.store.get_meta(key) or 0)
+        if not before:
+            return
+        self.store.set_meta(key, "0")
+        records.append(self._record_feed_event(FeedEvent(
+            "header", file, f"a header to go by now: its rows are read; {before:,} lines "
+            "without one were counted before"), now, raised))
 
     def _count_times(self, batch: Batch) -> None:
         """Count the batch's time stamps that go backwards or cannot be read (the rows are
@@ -482,6 +504,7 @@ class Monitor:
         records: list[dict[str, Any]] = []
         if out.problem is not None:  # this characteristic has no limits; the others go on
             records.append({"type": "error", "characteristic": name, "problem": out.problem})
+            self.store.set_meta(LIMITS_REFUSED.format(name=name), out.problem)
         if out.limits is not None:
             self._record_limits(name, eng, out.limits, now)
             records.extend(limits_record(name, lim)
@@ -534,6 +557,7 @@ class Monitor:
     ) -> None:
         """Put new limits on the history: the first phase's as set by linewatch from its
         baseline, a later phase's with the reason and person that asked for it."""
+        self.store.set_meta(LIMITS_REFUSED.format(name=name), "")  # limits exist now
         reason, actor, asked = "baseline", SYSTEM_ACTOR, False
         if eng.phase > 0:
             raw = self.store.get_meta(PHASE_REQUEST.format(name=name, phase=eng.phase))
@@ -641,10 +665,14 @@ class Monitor:
                 {"start_index": eng.phase_start, "phase": eng.phase, "reason": req["reason"]},
                 at=now, actor=req.get("actor"),
             )
+            self.store.set_meta(LIMITS_REFUSED.format(name=name), "")  # judged afresh
             self.store.set_meta(PHASE_REQUEST.format(name=name, phase=eng.phase),
                                 json.dumps({"reason": req["reason"], "actor": req.get("actor"),
                                             "start": eng.phase_start}))
             out = eng.settle()  # the new phase may already hold enough points for limits
+            if out.problem is not None:  # ... or be refused again
+                self.store.set_meta(LIMITS_REFUSED.format(name=name), out.problem)
+                self.emit({"type": "error", "characteristic": name, "problem": out.problem})
             if out.limits is not None:
                 self._record_limits(name, eng, out.limits, now)
                 for lim in (out.limits.location, out.limits.dispersion):

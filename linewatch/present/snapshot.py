@@ -25,6 +25,7 @@ from linewatch.present.view import (
     STATE_ALARM,
     STATE_LEARNING,
     STATE_OK,
+    STATE_REFUSED,
     STATE_STALE,
     STATE_WATCH,
     UNACKNOWLEDGED,
@@ -154,7 +155,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
                                   [r.value for r in recs[-RESOLUTION_READINGS:]])
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
-    if not limits_hist:
+    from linewatch.pipeline.monitor import LIMITS_REFUSED
+
+    v.limits_refused = store.get_meta(LIMITS_REFUSED.format(name=c.name)) or ""
+    if not limits_hist and not v.limits_refused:  # (refused: more points cannot help)
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
     if detail:
         from linewatch.present.close_up import with_figures
@@ -213,6 +217,8 @@ def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bo
         return STATE_ALARM
     if v.stale or v.stuck:
         return STATE_STALE
+    if v.limits_refused:
+        return STATE_REFUSED
     if ACKNOWLEDGED in states or (v.cpk is not None and v.cpk < 1.0):
         return STATE_WATCH
     if not has_limits:
@@ -251,8 +257,11 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.last_rejects = [r[0] for r in reversed(store.query(
             "SELECT detail FROM feed_events WHERE file = ? AND kind = 'rejected' AND at >= ? "
             "ORDER BY at DESC, id DESC LIMIT 5", (path, day)))]
-        fv.notes = [e.detail for e in mine
-                    if e.kind in ("warning", "no-header", "skipped", "bounded")][-3:]
+        # a no-header notice is past once the file got a header (a `header` event after it)
+        headed = max((k for k, e in enumerate(mine) if e.kind == "header"), default=-1)
+        fv.notes = [e.detail for k, e in enumerate(mine)
+                    if e.kind in ("warning", "no-header", "skipped", "bounded")
+                    and not (e.kind == "no-header" and k < headed)][-3:]
         fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
         fv.rejected += fv.unread
         counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
@@ -272,6 +281,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
                      "bounded": "bounded"}.get(latest, "following")
         if fv.unread and fv.status == "following":
             fv.status = "no header"  # its lines cannot be read until it has one
+        elif fv.status == "following" and any(e.kind == "warning" for e in mine):
+            fv.status = "warning"  # read, but worth a look (a column asked for is not there)
         out.append(fv)
     return out
 

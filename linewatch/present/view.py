@@ -36,6 +36,7 @@ from linewatch.domain.records import AlarmView as AlarmView
 STATE_ALARM = "alarm"  # an unacknowledged alarm
 STATE_WATCH = "watch"  # acknowledged but still active alarm, or Cpk below 1.00
 STATE_STALE = "stale"  # no new row for stale_after, or a stuck gauge
+STATE_REFUSED = "refused"  # this phase's limits were refused (σ̂ = 0, values too extreme)
 STATE_LEARNING = "learning"  # collecting baseline points, no limits yet
 STATE_OK = "ok"
 
@@ -133,6 +134,7 @@ class CharacteristicView:
     points: int = 0
     rejected: int = 0
     baseline_needed: int = 0  # plotted points still needed before limits exist
+    limits_refused: str = ""  # why this phase's limits were refused ("" when they were not)
     location: ChartView | None = None
     dispersion: ChartView | None = None
     recent_mean: float | None = None
@@ -162,7 +164,8 @@ class FeedView:
     rotations: int = 0
     truncations: int = 0
     stale: bool = False
-    # following | waiting | missing | unreadable | stale | no header | skipped | bounded
+    # following | warning | waiting | missing | unreadable | stale | no header | skipped |
+    # bounded
     status: str = "following"
     last_rejects: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)  # the last warnings about the file

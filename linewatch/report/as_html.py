@@ -4,7 +4,6 @@ nothing fetched), laid out to read well on screen and printed on A4."""
 from __future__ import annotations
 
 from collections.abc import Callable
-from html import escape
 
 from linewatch.domain.clock import clock_time, local_time, short_time
 from linewatch.domain.durations import format_span
@@ -24,7 +23,7 @@ from linewatch.report.build import (
     reading,
     rules_text,
 )
-from linewatch.report.svg_charts import control_chart_svg
+from linewatch.report.svg_charts import control_chart_svg, escape
 
 STYLE = """
 :root { --ink: #1d2329; --muted: #5b6570; --rule: #c9d0d6; --warn: #b3261e; --ok: #1e6b3a;

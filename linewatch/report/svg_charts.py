@@ -4,11 +4,20 @@ drawn as larger hollow squares so they stand out in grey print too."""
 
 from __future__ import annotations
 
+import html
 from collections.abc import Callable
-from html import escape
 
+from linewatch.domain.safe_text import visible
 from linewatch.present.scales import fraction_of, padded_span
 from linewatch.report.build import ChartTrace, num
+
+
+def escape(text: str) -> str:
+    """Text for HTML and SVG (the report's one escape): control characters shown as the
+    terminal shows them (`\\x1b`, see safe_text.py), then HTML-escaped, so neither a browser
+    nor a terminal that prints the file obeys anything from the data, a file name or a note."""
+    return html.escape(visible(text))
+
 
 WIDTH, HEIGHT = 680, 180
 LEFT, RIGHT, TOP, BOTTOM = 8, 86, 10, 22

@@ -8,24 +8,31 @@ or a printout:
     linewatch-audit-anchor v1 entries=42 head=<64 hex> at=2026-03-02T14:00:00+01:00 why=report
     store=/var/lib/linewatch/line3
 
-`parse_anchors` finds such lines anywhere in a text, so any report can be given to
-`audit verify --anchor`. The store's path is percent-encoded (it may hold spaces) and comes
-last.
+`parse_anchors` finds such lines anywhere in a text, so any report (or a syslog file that
+received anchors) can be given to `audit verify --anchor`. The store's path is percent-encoded
+(it may hold spaces) and comes last.
+
+Destinations, when configured: an append-only file (`audit_anchor_file`) and syslog
+(`audit_anchor_syslog`: the local daemon through /dev/log, another Unix socket, or HOST:PORT
+over UDP), so the anchors also reach a log host the line PC's accounts cannot rewrite.
 """
 
 from __future__ import annotations
 
 import os
 import re
+import sys
 from dataclasses import dataclass
 from datetime import datetime
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, ClassVar
 from urllib.parse import quote, unquote
 
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
+    import logging.handlers
+
     from linewatch.config.loading import MonitorConfig
     from linewatch.store.db import Store
 
@@ -89,6 +96,124 @@ def append_anchor(path: str | Path, line: str) -> None:
         os.close(fd)
 
 
+SYSLOG_IDENT = "linewatch-audit"  # the syslog tag of anchor messages (facility user, notice)
+LOCAL_SYSLOG = "/dev/log"
+
+
+def parse_syslog_target(text: str) -> str | tuple[str, int]:
+    """Where `audit_anchor_syslog` sends: "local" (the daemon's /dev/log), an absolute path
+    to a Unix socket, or HOST:PORT (IPv6 as [ADDR]:PORT) over UDP. ValueError says why not."""
+    t = text.strip()
+    if t == "local":
+        return LOCAL_SYSLOG
+    if t.startswith("/"):
+        return t
+    m = re.fullmatch(
+        r"\[(?P<v6>[0-9A-Fa-f:.]+)\]:(?P<port>\d+)|(?P<host>[^\s:\[\]/]+):(?P<p>\d+)", t
+    )
+    if not m:
+        raise ValueError(
+            f"{text!r} is not a syslog destination: use \"local\" (/dev/log), the path of a "
+            "Unix socket, or HOST:PORT for UDP (e.g. \"loghost.plant:514\")"
+        )
+    port = int(m["port"] or m["p"])
+    if not 0 < port < 65536:
+        raise ValueError(f"{text!r}: the port must be 1 to 65535")
+    return (m["v6"] or m["host"], port)
+
+
+class SyslogAnchors:
+    """Sends anchor lines to syslog through the standard library's SysLogHandler (RFC 3164
+    framing: `<13>linewatch-audit: LINE`, facility user, severity notice). The socket is
+    opened at the first anchor, so commands that never anchor open nothing."""
+
+    def __init__(self, target: str) -> None:
+        self.target = target
+        self.address = parse_syslog_target(target)
+        self._handler: logging.handlers.SysLogHandler | None = None
+
+    def send(self, line: str) -> str | None:
+        """Send one anchor; returns a problem to report (no daemon, no route) or None."""
+        import logging
+
+        try:
+            if self._handler is None:
+                self._handler = _syslog_handler(self.address)
+            handler = self._handler
+            handler.failure = None  # type: ignore[attr-defined]
+            handler.handle(logging.LogRecord(SYSLOG_IDENT, logging.INFO, __file__, 0, line,
+                                             None, None))
+            failure = handler.failure  # type: ignore[attr-defined]
+        except OSError as exc:  # the socket cannot be made (no /dev/log, no such host)
+            failure = exc
+        if failure is None:
+            return None
+        self.close()  # opened afresh at the next anchor: the daemon may be back by then
+        reason = getattr(failure, "strerror", None) or failure
+        where = self.target if self.target != "local" else f"local, {LOCAL_SYSLOG}"
+        return f"cannot send the audit anchor to syslog ({where}): {reason}"
+
+    def close(self) -> None:
+        if self._handler is not None:
+            self._handler.close()
+            self._handler = None
+
+
+def _syslog_handler(address: str | tuple[str, int]) -> logging.handlers.SysLogHandler:
+    """A SysLogHandler that keeps a failed send in `.failure` instead of printing a traceback
+    (logging's default), so the caller reports it in its own words."""
+    import logging.handlers
+
+    class Recording(logging.handlers.SysLogHandler):
+        failure: BaseException | None = None
+        priority_map: ClassVar[dict[str, str]] = {
+            **logging.handlers.SysLogHandler.priority_map, "INFO": "notice"}
+
+        def handleError(self, record: logging.LogRecord) -> None:
+            self.failure = sys.exc_info()[1] or OSError("not sent")
+
+    handler = Recording(address=address, facility=logging.handlers.SysLogHandler.LOG_USER)
+    handler.ident = f"{SYSLOG_IDENT}: "
+    handler.append_nul = False  # RFC 3164 framing; the NUL some daemons once needed is not
+    return handler
+
+
+class AnchorSinks:
+    """Every configured anchor destination (file, syslog); writing to one that fails never
+    stops the others."""
+
+    def __init__(self, path: str | None = None, syslog: str | None = None) -> None:
+        self.path = path
+        self.syslog = SyslogAnchors(syslog) if syslog else None
+
+    def __bool__(self) -> bool:
+        return bool(self.path or self.syslog)
+
+    def send(self, line: str) -> list[str]:
+        """Write `line` to each destination; the problems (none: all written)."""
+        problems = []
+        if self.path:
+            try:
+                append_anchor(self.path, line)
+            except OSError as exc:
+                problems.append(
+                    f"cannot write the audit anchor to {self.path}: {exc.strerror or exc}")
+        if self.syslog is not None:
+            problem = self.syslog.send(line)
+            if problem:
+                problems.append(problem)
+        return problems
+
+    def close(self) -> None:
+        if self.syslog is not None:
+            self.syslog.close()
+
+
+def sinks_for(monitor: MonitorConfig) -> AnchorSinks:
+    """The anchor destinations the config names (possibly none)."""
+    return AnchorSinks(monitor.audit_anchor_file, monitor.audit_anchor_syslog)
+
+
 def outside(directory: str | Path, path: str | Path) -> bool:
     """True when `path` is not inside the state directory (an anchor or key kept in the
     store's own folder is lost or rewritten along with it)."""
@@ -101,8 +226,9 @@ def configure_audit(store: Store, monitor: MonitorConfig, source: str = "config"
     Anchorer | None
 ):
     """Apply the config's audit settings to an open store: the key (when `audit_key_file` is
-    set) signs new entries; the returned Anchorer (when `audit_anchor_file` is set) writes
-    anchors. Both files must lie outside the state directory (ConfigError otherwise)."""
+    set) signs new entries; the returned Anchorer (when `audit_anchor_file` or
+    `audit_anchor_syslog` is set) writes anchors. Both files must lie outside the state
+    directory (ConfigError otherwise)."""
     from linewatch.domain.errors import ConfigError
     from linewatch.store.audit import load_key
 
@@ -116,32 +242,31 @@ def configure_audit(store: Store, monitor: MonitorConfig, source: str = "config"
             )
     if monitor.audit_key_file:
         store.audit.use_key(load_key(monitor.audit_key_file))
-    if monitor.audit_anchor_file:
-        return Anchorer(store, monitor.audit_anchor_file, monitor.audit_anchor_every)
-    return None
+    sinks = sinks_for(monitor)
+    return Anchorer(store, sinks, monitor.audit_anchor_every) if sinks else None
 
 
 class Anchorer:
-    """Writes the trail's head to the anchor file: on request (a report, a stop) and whenever
-    `every` entries have been added since the last anchor it wrote."""
+    """Writes the trail's head to the anchor destinations: on request (a report, a stop) and
+    whenever `every` entries have been added since the last anchor it wrote."""
 
-    def __init__(self, store: Store, path: str, every: int) -> None:
+    def __init__(self, store: Store, sinks: AnchorSinks, every: int) -> None:
         self.store = store
-        self.path = path
+        self.sinks = sinks
         self.every = every
         self._last: int | None = None
 
     def write(self, why: str, head: tuple[int, str] | None = None) -> str | None:
-        """Append an anchor of `head` (default: the trail's head now); returns a problem to
-        report (the file cannot be written) or None. Never raises for the file."""
+        """Send an anchor of `head` (default: the trail's head now) to every destination;
+        returns the problems to report (a file or syslog that cannot be written) or None.
+        Never raises for a destination."""
         import time
 
         entries, digest = head if head is not None else self.store.audit.head()
         line = anchor_line(self.store.directory, entries, digest, time.time(), why)
-        try:
-            append_anchor(self.path, line)
-        except OSError as exc:
-            return f"cannot write the audit anchor to {self.path}: {exc.strerror or exc}"
+        problems = self.sinks.send(line)
+        if problems:
+            return "; ".join(problems)
         self._last = entries
         return None
 

@@ -79,6 +79,10 @@ class Verdict:
     first_broken: int | None
     message: str
     checks: str = "chain only"
+    entries: int = 0  # entries in the trail
+    signed_checked: int = 0  # keyed entries whose MAC was recomputed with the key given
+    anchors_compared: int = 0  # anchors of this store the trail was held to
+    latest_anchor: Anchor | None = None  # the one recording the most entries
 
     def __iter__(self) -> Iterator[Any]:  # allows `ok, seq, message = trail.verify()`
         return iter((self.ok, self.first_broken, self.message))
@@ -287,27 +291,31 @@ class AuditTrail:
         checks = ["chain"]
         if with_key:
             checks.append("key")
-            message += f"; {with_key} entries signed with the key check out"
+            message += (f"; {with_key} {'entry' if with_key == 1 else 'entries'} signed with "
+                        f"the key check{'s' if with_key == 1 else ''} out")
         if foreign:
             message += (
                 f"; {unchecked} signed entries could not be checked without their key "
                 f"(id {', '.join(sorted(foreign))}): only their links were"
             )
+        newest: Anchor | None = None
+        mine: list[Anchor] = []
         if anchors is not None:
             broken = self._against_anchors(entries, anchors)
             if broken is not None:
                 return broken
-            mine = self._anchors_for_me(anchors)
-            newest = max(mine, key=lambda a: a.entries)
+            mine = self.anchors_for(anchors)
+            newest = max(reversed(mine), key=lambda a: a.entries)  # ties: the later one
             checks.append("anchors")
             message += (
                 f"; agrees with {len(mine)} anchor{'s' if len(mine) != 1 else ''} "
                 f"(the largest: {newest.entries} entries at {newest.at})"
             )
         label = " + ".join(checks) if len(checks) > 1 else "chain only"
-        return Verdict(True, None, message, label)
+        return Verdict(True, None, message, label, count, with_key, len(mine), newest)
 
-    def _anchors_for_me(self, anchors: Sequence[Anchor]) -> list[Anchor]:
+    def anchors_for(self, anchors: Sequence[Anchor]) -> list[Anchor]:
+        """The anchors that name this store's state directory."""
         from linewatch.store.anchors import store_key
 
         me = store_key(self.store.directory)
@@ -317,7 +325,7 @@ class AuditTrail:
         Verdict | None
     ):
         """The first disagreement between the trail and the anchors of this store, or None."""
-        mine = self._anchors_for_me(anchors)
+        mine = self.anchors_for(anchors)
         if not mine:
             named = sorted({a.store for a in anchors})
             return Verdict(
@@ -334,13 +342,16 @@ class AuditTrail:
                 return Verdict(
                     False, count + 1,
                     f"{where} records {a.entries} entries but the trail holds {count}: "
-                    "entries were removed or the store was replaced",
+                    "the store is behind its anchor (truncated or rolled back to an older "
+                    "copy, or replaced)",
+                    entries=count, anchors_compared=len(mine), latest_anchor=a,
                 )
             if a.entries and entries[a.entries - 1].hash != a.head:
                 return Verdict(
                     False, a.entries,
                     f"entry {a.entries} is not the one {where} records: the trail was "
                     "rewritten up to there",
+                    entries=count, anchors_compared=len(mine), latest_anchor=a,
                 )
         return None
 

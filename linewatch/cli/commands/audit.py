@@ -10,48 +10,124 @@ from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
+    from linewatch.config.loading import Config
+    from linewatch.store.anchors import Anchor
+    from linewatch.store.audit import Verdict
     from linewatch.store.db import Store
 
 
 
 
-def _verify(store: Store, args: argparse.Namespace) -> int:
+def _gather_anchors(args: argparse.Namespace, config: Config | None) -> tuple[
+    list[Anchor] | None, list[str], str
+]:
+    """The anchors to hold the trail to: the config's anchor file (when it names one) and every
+    --anchor, each file read once. Returns (anchors or None, the sources read, why there are
+    none). An --anchor that cannot be read or holds no anchor is a usage error; a configured
+    file not written yet is reported, not an error."""
+    from pathlib import Path
+
+    from linewatch.store.anchors import parse_anchors, read_anchor_file
+
+    anchors: list[Anchor] = []
+    sources: list[str] = []
+    seen: set[Path] = set()
+    missing = "no anchor file is configured (monitor.audit_anchor_file) and no --anchor given"
+    configured = config.monitor.audit_anchor_file if config is not None else None
+    if configured:
+        path = Path(configured).expanduser()
+        seen.add(path.resolve())
+        try:
+            found = parse_anchors(path.read_text(encoding="utf-8", errors="replace"), str(path))
+        except FileNotFoundError:
+            found = []
+            missing = f"the configured anchor file {path} does not exist"
+        except OSError as exc:
+            raise LinewatchError(
+                f"monitor.audit_anchor_file {path}: cannot read: {exc.strerror or exc}"
+            ) from None
+        else:
+            missing = f"the configured anchor file {path} holds no anchor yet"
+        if found:
+            anchors += found
+            sources.append(f"{path} (configured)")
+    for given in args.anchor:
+        if Path(given).expanduser().resolve() in seen:
+            continue
+        seen.add(Path(given).expanduser().resolve())
+        found = read_anchor_file(given)
+        if not found:
+            raise LinewatchError(
+                f"--anchor {given}: holds no audit anchor (a line beginning "
+                "'linewatch-audit-anchor v1'; an anchor file, or a shift report)"
+            )
+        anchors += found
+        sources.append(given)
+    return (anchors or None), sources, missing
+
+
+def _check_lines(store: Store, verdict: Verdict, key_given: bool, sources: list[str],
+                 missing: str) -> list[str]:
+    """One plain line per check: what was compared, and what could not be detected."""
+    lines = []
+    if verdict.ok:
+        lines.append(f"  chain: intact, {verdict.entries} entries linked from the first")
+    if verdict.signed_checked:
+        n = verdict.signed_checked
+        lines.append(f"  key: used (id {store.audit.key_id}); {n} signed "
+                     f"{'entry checks' if n == 1 else 'entries check'} out, so nobody without "
+                     "the key re-hashed them")
+    elif not key_given:
+        lines.append("  key: no key given (monitor.audit_key_file or --key): a trail edited "
+                     "and re-hashed by someone with write access passes the chain check")
+    if sources:
+        latest = verdict.latest_anchor
+        n = verdict.anchors_compared
+        text = (f"  anchors: {n} anchor{'s' if n != 1 else ''} of this store from "
+                f"{', '.join(sources)}")
+        if latest is not None and verdict.ok:
+            text += f"; the latest ({latest.entries} entries at {latest.at}) matches the trail"
+        elif latest is not None:
+            text += (f"; the one of {latest.at} ({latest.entries} entries) does not match the "
+                     "trail")
+        lines.append(text)
+    else:
+        lines.append(f"  anchors: none available ({missing}): a truncated or re-hashed store "
+                     "could not be detected")
+    return lines
+
+
+def _verify(store: Store, args: argparse.Namespace, config: Config | None) -> int:
     """Print the verdict and the checks it rests on; 0 intact, 1 broken or not checkable."""
-    from linewatch.store.anchors import read_anchor_file
     from linewatch.store.audit import load_key
 
     if args.key:
         store.audit.use_key(load_key(args.key))
-    anchors = None
-    if args.anchor:
-        anchors = []
-        for path in args.anchor:
-            found = read_anchor_file(path)
-            if not found:
-                raise LinewatchError(
-                    f"--anchor {path}: holds no audit anchor (a line beginning "
-                    "'linewatch-audit-anchor v1'; an anchor file, or a shift report)"
-                )
-            anchors += found
-    verdict = store.audit.verify(anchors)
+    anchors, sources, missing = _gather_anchors(args, config)  # before the trail is read:
+    verdict = store.audit.verify(anchors)  # an anchor written meanwhile is never ahead of it
+    details = _check_lines(store, verdict, store.audit.key is not None, sources, missing)
     if verdict.ok:
         print(f"audit trail intact: {verdict.message}")
+        print("\n".join(details))
         print(f"checked: {verdict.checks} ({_LEVELS[verdict.checks]})")
         return 0
     where = f" at entry {verdict.first_broken}" if verdict.first_broken is not None else ""
     print(f"audit trail BROKEN{where}: {verdict.message}")
+    print("\n".join(details))
     return 1
 
 
 _LEVELS = {
     "chain only": "accidental damage and naive edits are caught; a trail emptied, shortened or "
-                  "re-hashed by someone with write access is not: give --anchor FILE",
-    "chain + anchors": "also catches removal or rewriting before the newest anchor; a re-hash of "
-                       "entries written since it is not caught",
-    "chain + key": "also catches a re-hash by anyone without the key; a trail emptied or cut "
-                   "short is not: give --anchor FILE",
-    "chain + key + anchors": "catches edits, re-hashes without the key, and removal or "
-                             "rewriting before the newest anchor",
+                  "re-hashed by someone with write access is not: set "
+                  "monitor.audit_anchor_file or give --anchor FILE",
+    "chain + anchors": "also catches a trail truncated, rolled back or rewritten before the "
+                       "newest anchor; a re-hash of entries written since it is not caught",
+    "chain + key": "also catches a re-hash by anyone without the key; a trail emptied, cut "
+                   "short or rolled back is not: set monitor.audit_anchor_file or give "
+                   "--anchor FILE",
+    "chain + key + anchors": "catches edits, re-hashes without the key, and a trail "
+                             "truncated, rolled back or rewritten before the newest anchor",
 }
 
 
@@ -60,10 +136,10 @@ def run(args: argparse.Namespace) -> int:
     from linewatch.cli.commands._store_args import open_existing
 
     since = parse_since(args.since) if getattr(args, "since", None) else None
-    store, _config = open_existing(args)
+    store, config = open_existing(args)
     try:
         if args.audit_command == "verify":
-            return _verify(store, args)
+            return _verify(store, args, config)
         if args.audit_command == "export":
             sys.stdout.write(store.audit.export(since, args.format))
             return 0

@@ -39,17 +39,18 @@ def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
 
 
 def _write_anchor(store: Store, config: Config | None, line: str) -> None:
-    """Append the report's anchor to the config's anchor file (if any); a failure is told on
-    stderr and does not stop the report."""
-    if config is None or not config.monitor.audit_anchor_file:
+    """Send the report's anchor to the config's anchor destinations (file, syslog; if any); a
+    failure is told on stderr and does not stop the report."""
+    if config is None:
         return
-    from linewatch.store.anchors import append_anchor
+    from linewatch.store.anchors import sinks_for
 
+    sinks = sinks_for(config.monitor)
     try:
-        append_anchor(config.monitor.audit_anchor_file, line)
-    except OSError as exc:
-        print(f"linewatch: cannot write the audit anchor to {config.monitor.audit_anchor_file}: "
-              f"{exc.strerror or exc}", file=sys.stderr)
+        for problem in sinks.send(line) if sinks else []:
+            print(f"linewatch: {problem}", file=sys.stderr)
+    finally:
+        sinks.close()
 
 
 def run(args: argparse.Namespace) -> int:

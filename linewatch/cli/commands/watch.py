@@ -48,8 +48,10 @@ def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
         args.column or config.characteristics) else []
     columns = [c.column for c in chars] if chars else None
     baseline = args.baseline or config.monitor.baseline
+    asked = [c.column for c in chars] if args.column else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
-                     baseline=baseline, overrides=lambda c: apply_overrides(c, args))
+                     baseline=baseline, overrides=lambda c: apply_overrides(c, args),
+                     asked=asked)
 
 
 def run(args: argparse.Namespace, title: str = "") -> int:

@@ -10,6 +10,7 @@ STATE_WORDS = {
     view.STATE_ALARM: "ALARM",
     view.STATE_WATCH: "watch",
     view.STATE_STALE: "stale",
+    view.STATE_REFUSED: "refused",
     view.STATE_LEARNING: "learn",
     view.STATE_OK: "ok",
 }
@@ -19,8 +20,9 @@ STATE_ORDER = {
     view.STATE_ALARM: 0,
     view.STATE_WATCH: 1,
     view.STATE_STALE: 2,
-    view.STATE_LEARNING: 3,
-    view.STATE_OK: 4,
+    view.STATE_REFUSED: 3,
+    view.STATE_LEARNING: 4,
+    view.STATE_OK: 5,
 }
 
 ALARM_STATE_WORDS = {
@@ -33,8 +35,9 @@ ALARM_STATE_WORDS = {
 
 
 def needs_attention(state: str) -> bool:
-    """Alarm, watch and stale characteristics are the ones an operator must look at."""
-    return STATE_ORDER.get(state, 4) <= STATE_ORDER[view.STATE_STALE]
+    """Alarm, watch, stale and refused (no limits) characteristics are the ones an operator
+    must look at."""
+    return STATE_ORDER.get(state, 5) <= STATE_ORDER[view.STATE_REFUSED]
 
 
 def fmt_value(value: float | None, digits: int = 4) -> str:

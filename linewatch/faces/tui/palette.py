@@ -12,6 +12,7 @@ STATE_STYLE = {
     view.STATE_ALARM: "bold white on dark_red",
     view.STATE_WATCH: "bold yellow",
     view.STATE_STALE: "magenta",
+    view.STATE_REFUSED: "bold magenta",
     view.STATE_LEARNING: "cyan",
     view.STATE_OK: "green",
 }

@@ -151,6 +151,7 @@ def test_with_a_key_acknowledgements_are_signed_and_a_keyless_one_is_refused(
     assert refused.returncode == 2 and "signed with a key" in refused.stderr
     keyed = linewatch("audit", "verify", "-c", str(config))
     assert keyed.returncode == 0 and "checked: chain + key" in keyed.stdout
+    assert "1 signed entry checks out" in keyed.stdout  # the one acknowledgement
     report = linewatch("report", "-c", str(config), "-o", str(tmp_path / "r.md"))
     assert report.returncode == 0, report.stderr
     anchors = (tmp_path / "anchors.log").read_text()
@@ -167,3 +168,130 @@ def test_an_anchor_file_inside_the_state_directory_is_refused(tmp_path: Path) ->
     out = linewatch("audit", "verify", "-c", str(config))
     assert out.returncode == 2
     assert "monitor.audit_anchor_file" in out.stderr and "inside the state directory" in out.stderr
+
+
+# -- the configured anchor file, read by `verify` without --anchor -------------------------------
+
+def anchored_line(tmp_path: Path) -> Path:
+    """A line whose config names an anchor file; a report has written one anchor to it."""
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\naudit_anchor_file = "trail/anchors.log"\n')
+    (tmp_path / "trail").mkdir()
+    line_with_alarms(tmp_path / "state")
+    made = linewatch("report", "-c", str(config), "-o", str(tmp_path / "shift.md"))
+    assert made.returncode == 0, made.stderr
+    return config
+
+
+def test_verify_compares_with_the_configured_anchor_file_and_says_so(tmp_path: Path) -> None:
+    config = anchored_line(tmp_path)
+    with Store(tmp_path / "state", create=False) as store:
+        entries, _ = store.audit.head()
+    out = linewatch("audit", "verify", "-c", str(config))
+    assert out.returncode == 0, out.stdout
+    assert "checked: chain + anchors" in out.stdout
+    lines = out.stdout.splitlines()
+    anchors = next(x for x in lines if x.strip().startswith("anchors:"))
+    assert str(tmp_path / "trail" / "anchors.log") in anchors and "configured" in anchors
+    assert "1 anchor" in anchors and f"latest ({entries} entries" in anchors
+    assert "matches" in anchors
+    key = next(x for x in lines if x.strip().startswith("key:"))
+    assert "no key" in key and "re-hash" in key
+
+
+def test_a_store_emptied_with_a_configured_anchor_file_is_broken(tmp_path: Path) -> None:
+    """Truncated to 0 bytes while stopped: the chain alone sees an empty, intact trail; the
+    configured anchor file still records the entries, so verify fails without being told."""
+    config = anchored_line(tmp_path)
+    emptied(tmp_path / "state")
+    out = linewatch("audit", "verify", "-c", str(config))
+    assert out.returncode == 1, out.stdout
+    assert "BROKEN at entry 1" in out.stdout and "intact: 0 entries" not in out.stdout
+    assert "truncated or rolled back" in out.stdout
+
+
+def test_a_store_rolled_back_to_an_older_copy_is_caught_by_the_configured_anchors(
+    tmp_path: Path,
+) -> None:
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\naudit_anchor_file = "anchors.log"\n')
+    line_with_alarms(tmp_path / "state")
+    old = (tmp_path / "state" / DB_NAME).read_bytes()  # a copy kept by whoever wants to undo
+    acked = linewatch("alarms", "ack", "2", "--reason", "tool wear", "-c", str(config))
+    assert acked.returncode == 0, acked.stderr
+    assert linewatch("report", "-c", str(config), "-o", str(tmp_path / "r.md")).returncode == 0
+    (tmp_path / "state" / DB_NAME).write_bytes(old)
+    for extra in ("-wal", "-shm"):
+        (tmp_path / "state" / (DB_NAME + extra)).unlink(missing_ok=True)
+    out = linewatch("audit", "verify", "-c", str(config))
+    assert out.returncode == 1 and "truncated or rolled back" in out.stdout, out.stdout
+
+
+def test_without_any_anchor_verify_says_what_it_could_not_detect(tmp_path: Path) -> None:
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\naudit_anchor_file = "anchors.log"\n')
+    line_with_alarms(tmp_path / "state")
+    out = linewatch("audit", "verify", "-c", str(config))  # configured, but nothing written yet
+    assert out.returncode == 0, out.stdout
+    anchors = next(x for x in out.stdout.splitlines() if x.strip().startswith("anchors:"))
+    assert "does not exist" in anchors
+    assert "truncated or re-hashed store could not be detected" in anchors
+    plain = linewatch("audit", "verify", "--state-dir", str(tmp_path / "state"))
+    anchors = next(x for x in plain.stdout.splitlines() if x.strip().startswith("anchors:"))
+    assert "none" in anchors and "could not be detected" in anchors
+
+
+def test_the_configured_anchor_file_and_an_anchor_argument_are_read_once_each(
+    tmp_path: Path,
+) -> None:
+    config = anchored_line(tmp_path)
+    out = linewatch("audit", "verify", "-c", str(config), "--anchor",
+                    str(tmp_path / "trail" / "anchors.log"), "--anchor", str(tmp_path / "shift.md"))
+    assert out.returncode == 0, out.stdout
+    anchors = next(x for x in out.stdout.splitlines() if x.strip().startswith("anchors:"))
+    assert "2 anchors" in anchors and "shift.md" in anchors
+
+
+def test_a_report_sends_its_anchor_to_syslog_and_the_log_host_copy_verifies(
+    tmp_path: Path,
+) -> None:
+    """A UDP socket on 127.0.0.1 stands in for the log host; what it received, saved as a
+    file, is an anchor file for `verify --anchor` (RFC 3164 framing, PRI 13 = user.notice)."""
+    import socket
+
+    host = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
+    host.bind(("127.0.0.1", 0))
+    host.settimeout(10.0)
+    try:
+        config = tmp_path / "line.toml"
+        config.write_text('[monitor]\nstate_dir = "state"\n'
+                          f'audit_anchor_syslog = "127.0.0.1:{host.getsockname()[1]}"\n')
+        line_with_alarms(tmp_path / "state")
+        made = linewatch("report", "-c", str(config), "-o", str(tmp_path / "shift.md"))
+        assert made.returncode == 0 and made.stderr == "", made.stderr
+        message = host.recvfrom(65536)[0].decode("utf-8")
+    finally:
+        host.close()
+    assert message.startswith("<13>linewatch-audit: linewatch-audit-anchor v1 ")
+    assert "why=report" in message
+    with Store(tmp_path / "state", create=False) as store:
+        entries, head = store.audit.head()
+    assert f"entries={entries} head={head} " in message
+    kept = tmp_path / "loghost-syslog"
+    kept.write_text(f"Dec  3 14:00:00 linepc {message[4:]}\n")  # as a daemon files it
+    emptied(tmp_path / "state")
+    out = linewatch("audit", "verify", "-c", str(config), "--anchor", str(kept))
+    assert out.returncode == 1 and "truncated or rolled back" in out.stdout, out.stdout
+
+
+def test_a_syslog_that_cannot_be_reached_is_told_and_the_report_still_made(
+    tmp_path: Path,
+) -> None:
+    config = tmp_path / "line.toml"
+    config.write_text('[monitor]\nstate_dir = "state"\n'
+                      f'audit_anchor_syslog = "{tmp_path / "no-daemon.sock"}"\n')
+    line_with_alarms(tmp_path / "state")
+    made = linewatch("report", "-c", str(config), "-o", str(tmp_path / "shift.md"))
+    assert made.returncode == 0 and (tmp_path / "shift.md").exists()
+    assert made.stderr.startswith("linewatch: cannot send the audit anchor to syslog")
+    assert "Traceback" not in made.stderr and len(made.stderr.splitlines()) == 1

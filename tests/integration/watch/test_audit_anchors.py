@@ -53,6 +53,38 @@ def test_collector_anchors_every_n_entries_and_at_stop(tmp_path: Path) -> None:
     assert verify.returncode == 0 and "chain + anchors" in verify.stdout, verify.stdout
 
 
+def test_collector_sends_anchors_to_syslog_every_n_entries_and_at_stop(tmp_path: Path) -> None:
+    """A UDP socket on 127.0.0.1 plays the log host of `audit_anchor_syslog`."""
+    import socket
+
+    host = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
+    host.bind(("127.0.0.1", 0))
+    host.settimeout(15.0)
+    log = tmp_path / "od.csv"
+    log.write_text(HEADER + "".join(rows_text(process_series(200, seed=5))))
+    (tmp_path / "line.toml").write_text(
+        f'[monitor]\naudit_anchor_syslog = "127.0.0.1:{host.getsockname()[1]}"\n'
+        "audit_anchor_every = 3\n"
+    )
+    state = tmp_path / "state"
+    try:
+        with (tmp_path / "out.jsonl").open("w") as out:
+            proc = start_watch([str(log)], state, "-c", str(tmp_path / "line.toml"), stdout=out)
+        wait_caught_up(state, log)
+        messages = [host.recvfrom(65536)[0].decode()]  # the first periodic anchor
+        _, err = stop(proc)
+        assert proc.returncode == 0, err
+        while "why=stop" not in messages[-1]:
+            messages.append(host.recvfrom(65536)[0].decode())
+    finally:
+        host.close()
+    with Store(state, create=False) as store:
+        entries, head = store.audit.head()
+    assert "why=every" in messages[0]
+    assert f"entries={entries} head={head} " in messages[-1]
+    assert all(m.startswith("<13>linewatch-audit: linewatch-audit-anchor v1 ") for m in messages)
+
+
 def test_the_screens_acknowledgements_are_signed_with_the_configured_key(tmp_path: Path) -> None:
     """The screen acts through a store connection of its own: it must sign as the collector
     does, or every acknowledgement on a keyed line is refused."""

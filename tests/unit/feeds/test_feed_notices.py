@@ -3,6 +3,7 @@ file, by `check` (a warning on stderr) and by `watch` (a feed event, shown in th
 
 from __future__ import annotations
 
+import json
 import subprocess
 import sys
 from datetime import UTC
@@ -145,3 +146,117 @@ def test_watch_says_a_wanted_column_is_missing_and_lists_the_columns_there(
     out, _ = stop(proc)
     (ev,) = [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
     assert "'nosuch'" in ev["detail"] and "time, x" in ev["detail"]
+
+
+def _headerless_rows(start: int, n: int) -> str:
+    return "".join(f"2026-03-02T06:{k // 60 % 60:02d}:{k % 60:02d},{12 + k / 1000}\n"
+                   for k in range(start, start + n))
+
+
+def test_a_file_with_no_header_raises_one_feed_alarm_that_returns_once_it_is_read(
+        tmp_path: Path) -> None:
+    """One condition, one alarm (common practice of alarm management, ISA-18.2): 276 lines
+    without a header are one feed-health alarm, not 276; lines appended under the same
+    condition add none; a header added at the top gets the file read and the alarm returns."""
+    from linewatch.alarms.book import AlarmBook
+    from linewatch.store.db import Store
+
+    p = tmp_path / "nh.csv"
+    p.write_text(_headerless_rows(0, 276))
+    state = tmp_path / "state"
+    proc = start_watch([str(p)], state)
+    wait_caught_up(state, p)
+    with p.open("a") as f:  # more of the same: still the one condition
+        f.write(_headerless_rows(276, 30))
+    wait_caught_up(state, p)
+    out, _ = stop(proc)
+    raised = [r for r in records(out) if r["type"] == "alarm" and r["rule"] == "no-header"]
+    assert {r["id"] for r in raised} == {raised[0]["id"]}
+    with Store(state, create=False) as store:
+        book = AlarmBook(store)
+        (alarm,) = book.alarms(include_closed=True)
+        assert (alarm.kind, alarm.characteristic, alarm.rule) == ("feed-health", str(p),
+                                                                  "no-header")
+        assert alarm.active and alarm.signals == 1
+        assert "column names" in book.reaction_plan(alarm)  # says what to do
+    listed = subprocess.run([sys.executable, "-m", "linewatch", "alarms", "list",
+                             "--state-dir", str(state), "--format", "jsonl"],
+                            capture_output=True, text=True, timeout=60)
+    assert [json.loads(line)["rule"] for line in listed.stdout.splitlines()] == ["no-header"]
+
+    p.write_text("time,od\n" + _headerless_rows(0, 306))  # a header put at the top
+    proc = start_watch([str(p)], state)
+    wait_caught_up(state, p)
+    out, _ = stop(proc)
+    recs = records(out)
+    assert [r for r in recs if r["type"] == "feed" and r["event"] == "header"]
+    assert next(r for r in recs if r["type"] == "summary")["points"] == 306
+    with Store(state, create=False) as store:
+        (alarm,) = [a for a in AlarmBook(store).alarms(include_closed=True)
+                    if a.kind == "feed-health"]
+        assert not alarm.active  # returned to normal, still waiting for an acknowledgement
+        (fv,) = _feed_views(store)
+    assert fv.status == "following" and fv.unread == 0
+
+
+def _feed_views(store):
+    import time as _time
+
+    from linewatch.present.snapshot import feed_views
+
+    return feed_views(store, _time.time(), 0)
+
+
+def test_with_several_feeds_each_file_lacking_a_wanted_column_says_so_with_its_columns(
+        tmp_path: Path) -> None:
+    """Several feeds read every numeric column; a `--column` name is still looked for in each
+    file, and only the files lacking it are named, each with the columns it has."""
+    from linewatch.store.db import Store
+
+    a, b, j = tmp_path / "a.csv", tmp_path / "b.csv", tmp_path / "c.jsonl"
+    a.write_text("time,od,wall\n" + "".join(f"t{k},{12 + k / 100},1.5\n" for k in range(30)))
+    b.write_text("time;ovality\n" + "".join(f"t{k};1,{k % 7}\n" for k in range(30)))
+    j.write_text("".join(json.dumps({"time": f"t{k}", "fill": 500 + k % 3}) + "\n"
+                         for k in range(30)))
+    cfg = tmp_path / "line.toml"
+    cfg.write_text(f'[[feed]]\npaths = ["{a}"]\n[[feed]]\npaths = ["{b}"]\n'
+                   f'[[feed]]\npaths = ["{j}"]\nlayout = "jsonl"\n')
+    state = tmp_path / "state"
+    proc = start_watch([], state, "-c", str(cfg), "--column", "od", "--column", "nosuch")
+    for p in (a, b, j):
+        wait_caught_up(state, p)
+    out, _ = stop(proc)
+    recs = records(out)
+    warned = {r["file"]: r["detail"] for r in recs
+              if r["type"] == "feed" and r["event"] == "warning"}
+    assert set(warned) == {str(a), str(b), str(j)}
+    assert "'nosuch'" in warned[str(a)] and "'od'" not in warned[str(a)]
+    assert "time, od, wall" in warned[str(a)] and "nothing is charted" not in warned[str(a)]
+    assert "'od', 'nosuch'" in warned[str(b)] and "time, ovality" in warned[str(b)]
+    assert "nothing is charted" in warned[str(b)]
+    assert "no key 'od', 'nosuch'" in warned[str(j)] and "time, fill" in warned[str(j)]
+    assert next(r for r in recs if r["type"] == "summary" and r["characteristic"] == "od")[
+        "points"] == 30
+    with Store(state, create=False) as store:  # the feeds view shows it under each file
+        views = {fv.file: fv for fv in _feed_views(store)}
+    assert all(any("no " in n for n in views[str(p)].notes) for p in (a, b, j))
+    assert {views[str(p)].status for p in (a, b, j)} == {"warning"}
+
+
+def test_a_wanted_column_present_in_every_file_of_several_feeds_is_not_flagged(
+        tmp_path: Path) -> None:
+    a, b = tmp_path / "a.csv", tmp_path / "b.csv"
+    for p in (a, b):
+        p.write_text("time,od\n" + "".join(f"t{k},{12 + k / 100}\n" for k in range(10)))
+    cfg = tmp_path / "line.toml"
+    cfg.write_text(f'[[feed]]\npaths = ["{a}"]\n[[feed]]\npaths = ["{b}"]\n')
+    state = tmp_path / "state"
+    proc = start_watch([], state, "-c", str(cfg), "--column", "od")
+    for p in (a, b):
+        wait_caught_up(state, p)
+    out, _ = stop(proc)
+    assert not [r for r in records(out) if r["type"] == "feed" and r["event"] == "warning"]
+    from linewatch.store.db import Store
+
+    with Store(state, create=False) as store:
+        assert {fv.status for fv in _feed_views(store)} == {"following"}

@@ -362,3 +362,16 @@ def test_a_trail_re_signed_with_another_key_is_a_break_for_the_key_holder(store:
     raw.close()
     ok, first, message = store.audit.verify()
     assert (ok, first) == (False, 2) and "signed with another key" in message
+
+
+def test_of_anchors_with_the_same_count_the_later_is_the_latest(store: Store) -> None:
+    """A stop anchor after a periodic one with no entry between: verify names the stop."""
+    from linewatch.store.anchors import anchor_line, parse_anchors
+
+    fill(store, 3)
+    entries, head = store.audit.head()
+    text = "\n".join(anchor_line(store.directory, entries, head, at, why)
+                     for at, why in ((1000.0, "every"), (2000.0, "stop")))
+    verdict = store.audit.verify(parse_anchors(text))
+    assert verdict.ok and verdict.anchors_compared == 2
+    assert verdict.latest_anchor is not None and verdict.latest_anchor.why == "stop"

@@ -46,7 +46,7 @@ HEADERS = {
 def column_widths(total: int) -> dict[str, int]:
     """Share `total` columns among the board's cells (each cell adds 2 of padding)."""
     usable = max(40, total - 2 * len(COLUMNS) - 2)
-    fixed = {"state": 8, "name": 16 if usable < 90 else 22, "age": 5}
+    fixed = {"state": 9, "name": 16 if usable < 90 else 22, "age": 5}
     rest = usable - sum(fixed.values())
     margin = max(20, min(32, rest * 2 // 5))
     return {**fixed, "margin": margin, "recent": max(8, rest - margin)}
@@ -67,7 +67,7 @@ class BoardScreen(LineScreen):
         Binding("slash", "filter", "Filter", key_display="/",
                 tooltip="show only characteristics whose name contains the text"),
         Binding("exclamation_mark", "attention", "Attention", key_display="!",
-                tooltip="show only alarm, watch and stale rows (again: show all)"),
+                tooltip="show only alarm, watch, stale and refused rows (again: show all)"),
         Binding("escape", "clear_filter", "Clear filter", show=False,
                 tooltip="clear the name filter and the attention switch"),
     ]
@@ -193,6 +193,7 @@ class BoardScreen(LineScreen):
         return (cv.state, cv.last_value, cv.decimals, cv.points, cv.open_alarms, cv.cpk,
                 cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
+                cv.limits_refused,
                 cv.pending_phase_start, tail,
                 format_age(self.lw.age_now(cv.last_row_age)))
 
@@ -209,6 +210,8 @@ class BoardScreen(LineScreen):
         state.append("\n")
         if cv.open_alarms:
             state.append(f"{cv.open_alarms} open", "bold")
+        elif cv.limits_refused:  # more points cannot help: not "learning"
+            state.append("no limits", palette.STATE_STYLE[view.STATE_REFUSED])
         elif cv.pending_phase_start is not None:  # limits are being learned again
             state.append("learning", palette.STATE_STYLE[view.STATE_LEARNING])
         name = Text(visible(cv.name), "bold", end="", no_wrap=True, overflow="ellipsis")
@@ -220,8 +223,12 @@ class BoardScreen(LineScreen):
         loc = cv.location
         spark = SparkCell(loc.values if loc else [], loc.marks if loc else [],
                           self._widths["recent"], g).to_text()
-        if cv.state == view.STATE_LEARNING or (cv.cpk is None and cv.baseline_needed):
-            gauge: Text = Text(f"learning limits\n{cv.baseline_needed} more points",
+        gauge: Text
+        if cv.limits_refused:  # why, in the gauge's place (the close-up says what to do)
+            gauge = Text(f"limits refused: {visible(cv.limits_refused)}",
+                         palette.STATE_STYLE[view.STATE_REFUSED], end="")
+        elif cv.state == view.STATE_LEARNING or (cv.cpk is None and cv.baseline_needed):
+            gauge = Text(f"learning limits\n{cv.baseline_needed} more points",
                                palette.STATE_STYLE[view.STATE_LEARNING], end="")
         else:
             gauge = margin_gauge(cv, self._widths["margin"], g, wide=self._widths["margin"] >= 26)

@@ -210,9 +210,10 @@ class CloseUpScreen(LineScreen):
 
     def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
         unit = f" [{cv.unit}]" if cv.unit else ""
-        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}",
-                                    f"{STATE_WORDS.get(cv.state, cv.state)}, "
-                                    f"{count(cv.points, 'reading')}")
+        extra = f"{STATE_WORDS.get(cv.state, cv.state)}, {count(cv.points, 'reading')}"
+        if cv.limits_refused:  # not "learning": more readings will not bring limits
+            extra = f"limits refused, {count(cv.points, 'reading')}: {cv.limits_refused}"
+        self.query_one(TopBar).show(self.lw.line, f"close-up {cv.name}{unit}", extra)
 
     def _draw_figures(self) -> None:
         cv = self.detail
@@ -228,7 +229,8 @@ class CloseUpScreen(LineScreen):
         self.query_one("#closeup-box", Static).update(Group(Text(heading, "bold"), box))
         self.query_one("#closeup-phases", Static).update(Group(
             Text("phases of limits", "bold"),
-            phase_table(cv.phases) if cv.phases else Text("no limits yet", palette.LABEL),
+            phase_table(cv.phases) if cv.phases else Text(
+                "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
         ))
         self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
         self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
@@ -255,7 +257,13 @@ class CloseUpScreen(LineScreen):
     def _cursor_text(self, cv: view.CharacteristicView) -> Text:
         loc = cv.location
         text = Text(end="")
-        if cv.baseline_needed:
+        if cv.limits_refused:
+            text.append(f"limits refused: {visible(cv.limits_refused)}\n",
+                        palette.STATE_STYLE[view.STATE_REFUSED])
+            text.append("more readings will not change this baseline: start a new baseline (n) "
+                        "where the readings vary, or give known limits (center and sigma in "
+                        "the config)\n", palette.LABEL)
+        elif cv.baseline_needed:
             text.append(f"learning: {count(cv.baseline_needed, point_word(cv))} more before "
                         "limits exist\n",
                         palette.STATE_STYLE[view.STATE_LEARNING])

@@ -106,10 +106,11 @@ class FeedScreen(TableScreen):
         g = self.lw.glyphs
         bad = f.stale or f.status in ("missing", "unreadable", "stale", "no header",
                                       "skipped", "bounded")
-        mark = g.state[view.STATE_STALE] if bad else g.state[view.STATE_OK]
+        state = (view.STATE_STALE if bad else
+                 view.STATE_WATCH if f.status == "warning" else view.STATE_OK)
         return [
-            Text(f"{mark} {visible(f.status)}",
-                 "reverse" if bad else palette.STATE_STYLE[view.STATE_OK]),
+            Text(f"{g.state[state]} {visible(f.status)}",
+                 "reverse" if bad else palette.STATE_STYLE[state]),
             Text(visible(name)),  # a file name: never markup
             f"{f.rows:,}",
             f"{f.rows_per_second:.1f}",
