@@ -148,6 +148,8 @@ async def picture_mode() -> None:
         reading = (source.taken - taken_before) / (time.perf_counter() - t_read)
         stop.set()
         publisher.join()
+        while app.line.version != source.picture.version:  # the last picture drawn
+            await asyncio.sleep(0.1)
         await asyncio.sleep(0.5)
         idle = await idle_cpu()
     print(f"[picture] {CHARACTERISTICS} characteristics, a new picture every "
@@ -223,10 +225,10 @@ async def store_mode() -> None:
                 acks = await acknowledgements(app, Path(tmp) / "state")
                 writing.set()
                 writer.join()
-                while True:  # until the collector has read everything and rests
+                while True:  # until the collector rests and the screen has drawn its last word
                     version = monitor.version
                     await asyncio.sleep(1.0)
-                    if monitor.version == version:
+                    if monitor.version == version == app.line.version:
                         break
                 idle = await idle_cpu()
             print(f"[store] {CHARACTERISTICS} characteristics in one CSV log, 10 rows a second, "

@@ -273,10 +273,10 @@ class LinewatchApp(App[int]):
     def _drawn(self) -> None:
         """Leave the loop to keys long enough that redraws take at most REDRAW_SHARE of its
         time (a heavy line then redraws less often instead of queueing redraws behind the
-        operator's keypresses)."""
+        operator's keypresses), but never longer than LONGEST_WAIT."""
         now = time.perf_counter()
         took = now - self._drawing_since
-        self._quiet_until = now + took * (1.0 - REDRAW_SHARE) / REDRAW_SHARE
+        self._quiet_until = now + min(LONGEST_WAIT, took * (1.0 - REDRAW_SHARE) / REDRAW_SHARE)
 
     def _ring_for_new_alarms(self, line: view.LineSnapshot) -> None:
         """Ring for an urgent alarm raised, re-raised (a new episode) or escalated since the

@@ -179,6 +179,8 @@ class CloseUpScreen(LineScreen):
         if self.drawable:
             self._place_cursor()
             self._draw()
+            # fitted again once laid out: the detail can land before a resize's new layout
+            self.call_after_refresh(self._draw_figures)
         self._next_read()
 
     def _next_read(self) -> None:
