@@ -31,7 +31,7 @@ from linewatch.faces.tui.glyphs import Glyphs, pick_glyphs
 from linewatch.faces.tui.screens.base import LineScreen
 from linewatch.faces.tui.screens.board import BoardScreen
 from linewatch.faces.tui.screens.feeds import FeedScreen
-from linewatch.faces.tui.screens.queue import AlarmQueueScreen
+from linewatch.faces.tui.screens.queue import AlarmQueueScreen, sorted_alarms
 from linewatch.present import view
 
 EXIT_CRASH = exit_codes.CRASH  # the screen died on an internal error
@@ -90,6 +90,7 @@ class LinewatchApp(App[int]):
         self.title = visible(title)
         self.line = view.LineSnapshot(title=title)
         self.line_taken_at = clock()
+        self._ordered: tuple[view.LineSnapshot, list[view.AlarmView]] | None = None
         self.bells_rung = 0
         self._changed = False  # the source moved on since the picture being taken or shown
         self._woken = False  # a LineChanged is on its way to the loop
@@ -157,6 +158,7 @@ class LinewatchApp(App[int]):
         if self._first_problem:
             self._line_unread(messages.LineUnread(self._first_problem))
         self.set_interval(1.0, self._tick_clock)
+        self.call_after_refresh(self._prepare_queue)
 
     def _leave_on_hangup(self) -> None:
         """A closed terminal or SSH session (SIGHUP) or a SIGTERM quits the screen the normal
@@ -295,7 +297,9 @@ class LinewatchApp(App[int]):
                 self.bells_rung += 1
                 self.bell()
         self._flooding = flooding
-        self._alarms_seen = {**(self._alarms_seen or {}), **seen}
+        # only this picture's alarms: a closed alarm never comes back under its id (its next
+        # episode opens a new one), so remembering every alarm of the shift would only grow
+        self._alarms_seen = seen
 
     def _tick_clock(self) -> None:
         top = self.top_line_screen()
@@ -309,16 +313,42 @@ class LinewatchApp(App[int]):
                 return screen
         return None
 
+    def alarms_in_order(self) -> list[view.AlarmView]:
+        """The current picture's alarms in queue order (`sorted_alarms`), sorted once per
+        picture: the queue, the board's side list and the close-up each want it on every
+        redraw. The list is shared: read it, never change it."""
+        if self._ordered is None or self._ordered[0] is not self.line:
+            self._ordered = (self.line, sorted_alarms(self.line.alarms))
+        return self._ordered[1]
+
     def age_now(self, age: float | None) -> float | None:
         """A snapshot's age moved on to now, so a silent feed keeps getting older on screen."""
         if age is None:
             return None
         return age + max(0.0, self.clock() - self.line_taken_at)
 
+    def _prepare_queue(self, visit: int = 1) -> None:
+        """Build the alarm queue while the board is up, before anyone asks for it. A screen's
+        first showing composes its widgets and runs Textual's style pass over the whole app
+        twice (tens of milliseconds, more under load); paid here, the operator's first `a`
+        only switches to a queue that is already built. The first visit builds and mounts it,
+        the second (once it is mounted) lets Textual bring its styles up to date. Each visit
+        switches there and straight back in one go, so no frame shows it; it is given up
+        once the operator has left the board."""
+        if not self.is_running or self.current_mode != "board" or len(self.screen_stack) > 1:
+            return
+        self.switch_mode("alarms")
+        self.switch_mode("board")
+        if visit == 1:
+            self.call_after_refresh(self._prepare_queue, 2)
+
     def action_show(self, mode: str) -> None:
         """Go to one of the three main views, leaving close-ups and dialogs of the others."""
         if self.current_mode != mode:
             self.switch_mode(mode)
+            top = self.top_line_screen()
+            if top is not None and top.drawn_version != self.line.version:
+                top.redraw()  # now, so the first frame is of this picture, not the last one
             return
         while len(self.screen_stack) > 1:  # already in that view: back to its own screen
             self.pop_screen()

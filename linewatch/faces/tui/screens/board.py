@@ -243,12 +243,10 @@ class BoardScreen(LineScreen):
         return text
 
     def _draw_side(self, line: view.LineSnapshot) -> None:
-        from linewatch.faces.tui.screens.queue import sorted_alarms
-
         g = self.lw.glyphs
         alarms = Text(end="")
         alarms.append("open alarms\n", "bold underline")
-        open_ = [a for a in sorted_alarms(line.alarms) if a.state != view.NORMAL]
+        open_ = [a for a in self.lw.alarms_in_order() if a.state != view.NORMAL]
         for a in open_[:12]:
             alarms.append(f"P{a.priority} ", "bold" if a.priority <= 2 else "")
             alarms.append(f"{ALARM_STATE_WORDS.get(a.state, a.state):<9} ",

@@ -241,9 +241,8 @@ class CloseUpScreen(LineScreen):
         """This characteristic's open alarms, so the close-up answers 'why is it red'."""
         from linewatch.domain.clock import time_of_day
         from linewatch.faces.tui.formatting import ALARM_STATE_WORDS
-        from linewatch.faces.tui.screens.queue import sorted_alarms
 
-        mine = [a for a in sorted_alarms(self.lw.line.alarms)
+        mine = [a for a in self.lw.alarms_in_order()
                 if a.characteristic == name and a.state != view.NORMAL]
         text = Text(end="")
         text.append(f"open alarms ({len(mine)})\n", "bold")

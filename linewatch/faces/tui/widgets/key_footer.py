@@ -14,6 +14,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.events import Resize
 from textual.reactive import reactive
+from textual.screen import Screen
 from textual.widget import Widget
 from textual.widgets import Footer
 
@@ -33,7 +34,7 @@ KEPT_ACTIONS = ("keys_help", "leave")
 
 
 def key_width(key_display: str, description: str, compact: bool) -> int:
-    """Cells one key takes in the footer (FooterKey's padding, and the compact margin)."""
+    """Cells one key takes in the footer (KeyCap's padding, and the compact margin)."""
     return len(key_display) + len(description) + (2 if compact else 3)
 
 
@@ -106,10 +107,11 @@ class KeyCap(Widget):
 
     compact = reactive(True, toggle_class="-compact")
 
-    def __init__(self, key: str, key_display: str, description: str, *, disabled: bool = False,
-                 tooltip: str = "") -> None:
+    def __init__(self, key: str, key_display: str, description: str, action: str, *,
+                 disabled: bool = False, tooltip: str = "") -> None:
         super().__init__(classes="-disabled" if disabled else "")
         self.key = key
+        self.action = action
         self.key_display = key_display
         self.description = description
         self.inactive = disabled
@@ -137,11 +139,17 @@ class KeyCap(Widget):
 
 
 class KeyFooter(Footer):
-    """A Footer that always fits on one line of the terminal."""
+    """A Footer that always fits on one line of the terminal, and is rebuilt only when the keys
+    it shows change: Textual asks on every focus change and every showing of the screen, and a
+    rebuild holds back the screen's frames until its keys are mounted again (switching views
+    waited for three rebuilds of the same keys)."""
 
     _fitted_for = -1
+    _drawn: tuple[object, ...] | None = None  # the keys on show, as `_keys` gave them
+    _update_asked = False
 
-    def compose(self) -> ComposeResult:
+    def _keys(self) -> tuple[list[tuple[Binding, str, bool, str]], bool]:
+        """(binding, key shown, enabled, tooltip) of each key that fits, and whether compactly."""
         seen: set[str] = set()
         keys: list[tuple[Binding, str]] = []
         state: dict[str, tuple[bool, str]] = {}
@@ -153,20 +161,49 @@ class KeyFooter(Footer):
         width = self.size.width or self.app.size.width
         self._fitted_for = width
         chosen, compact = fit_keys(keys, width, self._here())
+        return [(b, shown, *state[b.action]) for b, shown in chosen], compact
+
+    @staticmethod
+    def _signature(keys: list[tuple[Binding, str, bool, str]], compact: bool) -> tuple[object, ...]:
+        return (compact, *((b.key, shown, b.description, b.action, enabled, tooltip)
+                           for b, shown, enabled, tooltip in keys))
+
+    def compose(self) -> ComposeResult:
+        if not getattr(self, "_bindings_ready", True):
+            return
+        keys, compact = self._keys()
+        self._drawn = self._signature(keys, compact)
         self.compact = compact
-        for binding, shown in chosen:
-            enabled, tooltip = state[binding.action]
-            yield KeyCap(binding.key, shown, binding.description, disabled=not enabled,
-                         tooltip=tooltip).data_bind(compact=Footer.compact)
+        for binding, shown, enabled, tooltip in keys:
+            yield KeyCap(binding.key, shown, binding.description, binding.action,
+                         disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
+
+    def bindings_changed(self, screen: Screen[object]) -> None:
+        self._bindings_ready = True
+        if screen.app.app_focus and self.is_attached and screen is self.screen:
+            self._ask_update()
+
+    def _ask_update(self) -> None:
+        """Look again after the next refresh; requests until then are one look."""
+        if not self._update_asked:
+            self._update_asked = True
+            self.call_after_refresh(self._update_keys)
+
+    async def _update_keys(self) -> None:
+        self._update_asked = False
+        if self.is_attached and self._signature(*self._keys()) != self._drawn:
+            await self.recompose()
 
     def _here(self) -> str | None:
-        """The action of the view on screen, when it is a view's own first screen."""
-        app = self.app
-        stack = app.screen_stack
-        if stack and self.screen is stack[0]:
-            return f"show('{app.current_mode}')"
+        """The action that leads to this footer's screen, when the screen is one of the views
+        (its mode's own screen). Asked of the screen, not of the mode on show, so a view built
+        or left in the background gets the same keys as when it is on show."""
+        screen = type(self.screen)
+        for mode, base in self.app.MODES.items():
+            if base is screen:
+                return f"show('{mode}')"
         return None
 
     def on_resize(self, event: Resize) -> None:
         if event.size.width != self._fitted_for:
-            self.call_after_refresh(self.recompose)
+            self._ask_update()

@@ -12,10 +12,9 @@ from linewatch.faces.tui.formatting import to_acknowledge
 from linewatch.present import view
 
 
-def acknowledge_words(alarms: list[view.AlarmView], short: bool = False) -> str:
-    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge'; `short` for a narrow
-    terminal: '5 to ack, 2 active'."""
-    waiting, active = to_acknowledge(alarms)
+def acknowledge_words(waiting: int, active: int, short: bool = False) -> str:
+    """'5 to acknowledge (2 still active)', or 'nothing to acknowledge', from the counts of
+    `to_acknowledge`; `short` for a narrow terminal: '5 to ack, 2 active'."""
     if not waiting:
         return "nothing to ack" if short else "nothing to acknowledge"
     if short:
@@ -30,13 +29,21 @@ class TopBar(Static):
     what waits for you stay readable."""
 
     _last: tuple[view.LineSnapshot, str, str] | None = None
+    _counted: tuple[view.LineSnapshot, tuple[int, int]] | None = None
+
+    def _to_acknowledge(self, line: view.LineSnapshot) -> tuple[int, int]:
+        """`to_acknowledge` of the picture, counted once per picture (a queue of 30,000
+        alarms is drawn again on each page and resize)."""
+        if self._counted is None or self._counted[0] is not line:
+            self._counted = (line, to_acknowledge(line.alarms))
+        return self._counted[1]
 
     def show(self, line: view.LineSnapshot, where: str, extra: str = "") -> None:
         self._last = (line, where, extra)
         self.update(self._compose_text(line, where, extra), layout=False)  # always one line
 
     def _compose_text(self, line: view.LineSnapshot, where: str, extra: str) -> Text:
-        waiting, _active = to_acknowledge(line.alarms)
+        waiting, active = self._to_acknowledge(line)
         loud = "bold reverse" if waiting else ""
         head: list[tuple[str, str]] = [(line.title, "bold"), (where, "")]
         if line.role == "viewer":
@@ -58,7 +65,7 @@ class TopBar(Static):
         width = self.size.width or (self.app.size.width if self.is_attached else 0)
         # narrower and narrower: first without the title, then with the alarm count in short
         for drop, short in ((0, False), (1, False), (1, True)):
-            parts = [*head[drop:], *alerts, (acknowledge_words(line.alarms, short), loud),
+            parts = [*head[drop:], *alerts, (acknowledge_words(waiting, active, short), loud),
                      *tail]
             if not width or sum(len(p) + 3 for p, _ in parts) <= width:
                 break
