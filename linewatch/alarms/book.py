@@ -23,7 +23,7 @@ from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
-from linewatch.config.loading import (
+from linewatch.config.model import (
     DEFAULT_FLOOD_ALARMS,
     DEFAULT_FLOOD_WINDOW,
     DEFAULT_PRIORITIES,
@@ -37,11 +37,12 @@ from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import AlarmView, FeedEvent
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_episode
 from linewatch.engine.rulebook import BEYOND, RULES, resolve_rules
+from linewatch.engine.spec import out_of_spec
 from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.db import Store
 
 OUT_OF_SPEC = "out-of-spec"
@@ -277,14 +278,9 @@ class AlarmBook:
         measurements; the alarm counts the parts below LSL and above USL."""
         if not len(values):
             return []
-        fired: dict[str, list[int]] = {"usl": [], "lsl": []}
-        for k, v in enumerate(values):
-            if usl is not None and v > usl:
-                fired["usl"].append(first_index + k)
-            elif lsl is not None and v < lsl:
-                fired["lsl"].append(first_index + k)
+        found = out_of_spec(values, lsl, usl, first_index)
         return self._observe(
-            characteristic, SPEC_CHART, first_index, first_index + len(values) - 1, fired, now,
+            characteristic, SPEC_CHART, found.first, found.last, found.fired(), now,
             (OUT_OF_SPEC,), lambda _rules: OUT_OF_SPEC, clear_after,
         )
 
@@ -340,20 +336,20 @@ class AlarmBook:
             count = self.store.alarms.raised_since(now - window)
             state = self.flood()
             if state is None and count > limit:
-                self.store.set_meta(FLOOD_KEY, json.dumps({"since": now, "count": count,
+                self.store.meta.set(FLOOD_KEY, json.dumps({"since": now, "count": count,
                                                            "peak": count}))
                 self.store.audit.append("flood-started", "alarms",
                                         {"count": count, "window": window, "limit": limit},
                                         at=now, actor=SYSTEM_ACTOR)
                 events.append(AlarmEvent("flood-started", None))
             elif state is not None and count <= limit:
-                self.store.set_meta(FLOOD_KEY, "")
+                self.store.meta.set(FLOOD_KEY, "")
                 self.store.audit.append("flood-ended", "alarms",
                                         {"since": state.since, "peak": state.peak},
                                         at=now, actor=SYSTEM_ACTOR)
                 events.append(AlarmEvent("flood-ended", None))
             elif state is not None and (count != state.count):
-                self.store.set_meta(FLOOD_KEY, json.dumps(
+                self.store.meta.set(FLOOD_KEY, json.dumps(
                     {"since": state.since, "count": count, "peak": max(count, state.peak)}))
         return events
 
@@ -363,7 +359,7 @@ class AlarmBook:
 
     def flood(self) -> Flood | None:
         """The flood going on now (as the collector last judged it), or None."""
-        raw = self.store.get_meta(FLOOD_KEY)
+        raw = self.store.meta.get(FLOOD_KEY)
         if not raw:
             return None
         d = json.loads(raw)

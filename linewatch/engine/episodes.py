@@ -4,9 +4,9 @@ A chart's firing points (any rule), in order, form episodes. An episode returns 
 `clear_after`-th consecutive quiet plotted point after its last firing (`clear_after = 1`: at the
 first quiet point); a firing after that opens the next episode. So two firings belong to the same
 episode when fewer than `clear_after` quiet points lie between them. The same definition serves
-out-of-spec measurements (counted in measurements). The alarm lifecycle (`linewatch.alarms.book`)
-applies it incrementally; this vectorised form is what a whole history gives, and a property test
-holds the two equal.
+out-of-spec readings (`engine.spec`, counted in readings). The alarm lifecycle
+(`linewatch.alarms`) applies it incrementally; this vectorised form is what a whole history
+gives, and property tests hold the two equal.
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """The one definition of every run rule: its id, kind, parameters and plain-language meaning.
 
 Both evaluators (vectorised in `rules.py`, incremental in `stream.py`) and the false-alarm budget
-(`budget.py`) read these specs; none of them hard-codes a rule's numbers.
+(`budget/`) read these specs; none of them hard-codes a rule's numbers.
 
 Conventions (tests pin each one):
 - z = (x − CL)/σ of the plotted statistic; "beyond kσ" is |z| > k on the named side (a point exactly

@@ -24,6 +24,7 @@ from __future__ import annotations
 import heapq
 import json
 import math
+import re
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
@@ -278,6 +279,21 @@ def process_state(g: Gauge, active: list[Cause], tc: float) -> tuple[float, floa
 
 def _stamp(start: datetime, t: float) -> str:
     return (start + timedelta(seconds=t)).isoformat(timespec="milliseconds")
+
+
+# What `_stamp` writes: ISO 8601 with milliseconds and the UTC offset.
+_STAMP_PATTERN = re.compile(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(?:\.\d+)?[+-]\d\d:\d\d")
+
+
+def latest_stamp(text: str) -> datetime | None:
+    """The newest time stamp the simulator wrote in `text` (e.g. the tail of a log)."""
+    stamps = []
+    for found in _STAMP_PATTERN.findall(text):
+        try:
+            stamps.append(datetime.fromisoformat(found))
+        except ValueError:
+            continue
+    return max(stamps) if stamps else None
 
 
 def gauge_actions(

@@ -21,7 +21,11 @@ from pathlib import Path
 
 import numpy as np
 
+from linewatch.simulation.line import EXTRUSION_LINE
+
 START = datetime(2026, 3, 2, 6, 0, 0, tzinfo=timezone(timedelta(hours=1)))
+# The invented line's gauges (their means and σ are defined once, in the scenario).
+OD, WALL, FILL = (EXTRUSION_LINE.gauge(k) for k in ("od", "wall", "fill"))
 
 
 @dataclass(frozen=True, slots=True)
@@ -90,10 +94,10 @@ def extrusion_wide(seed: int) -> Built:
     """Wide comma CSV: diameter (subgroups of 5), wall and melt temperature in one row."""
     rng = np.random.default_rng(seed)
     n = 300
-    od = 12.000 + 0.012 * rng.standard_normal(n)
-    od[150:] += 2.0 * 0.012  # material lot change
-    wall = 1.500 + 0.010 * rng.standard_normal(n)
-    wall[60:180] += np.linspace(0.0, 4.0, 120) * 0.010  # die wear, then a die change
+    od = OD.mean + OD.sigma * rng.standard_normal(n)
+    od[150:] += 2.0 * OD.sigma  # material lot change
+    wall = WALL.mean + WALL.sigma * rng.standard_normal(n)
+    wall[60:180] += np.linspace(0.0, 4.0, 120) * WALL.sigma  # die wear, then a die change
     melt = 215.0 + 0.8 * rng.standard_normal(n)
     melt[100:130] = 215.0 + 3.5 * 0.8 * rng.standard_normal(30)  # heater band cycling
     names = ("od_mm", "wall_mm", "melt_temp_c")
@@ -137,12 +141,14 @@ def wall_station(seed: int) -> Built:
     """Semicolon CSV with decimal comma from the older wall station (Nelson rules)."""
     rng = np.random.default_rng(seed)
     n = 320
-    wall = 1.500 + 0.010 * rng.standard_normal(n)
-    wall[120:150] = 1.500 + 0.0015 * rng.standard_normal(30)  # station averaging readings
+    wall = WALL.mean + WALL.sigma * rng.standard_normal(n)
+    wall[120:150] = WALL.mean + 0.0015 * rng.standard_normal(30)  # station averaging readings
     ramp = np.arange(8)
-    wall[200:208] = 1.500 + 0.010 * (0.6 * ramp - 2.0) + 0.0005 * rng.standard_normal(8)
+    wall[200:208] = (WALL.mean + WALL.sigma * (0.6 * ramp - 2.0)
+                     + 0.0005 * rng.standard_normal(8))
     sign = np.where(np.arange(20) % 2 == 0, 1.0, -1.0)
-    wall[250:270] = 1.500 + 0.010 * (1.4 * sign + 0.1 * rng.standard_normal(20))  # two heads
+    two_heads = 1.4 * sign + 0.1 * rng.standard_normal(20)  # out of step with each other
+    wall[250:270] = WALL.mean + WALL.sigma * two_heads
     oval = 1.20 + 0.15 * rng.standard_normal(n)
     oval[160:] += 1.5 * 0.15  # puller belt pressure changed
     names = ("wall_mm", "ovality_pct")
@@ -227,9 +233,9 @@ def fill_scale(seed: int) -> Built:
     """JSON lines from the packing scale: fill weight (Nelson) and sealing-jaw temperature."""
     rng = np.random.default_rng(seed)
     n = 360
-    fill = 500.5 + 1.2 * rng.standard_normal(n)
+    fill = FILL.mean + FILL.sigma * rng.standard_normal(n)
     fill[100:125] = 500.9  # display frozen
-    fill[220:] -= 2.0 * 1.2  # auger flights worn: under-fill
+    fill[220:] -= 2.0 * FILL.sigma  # auger flights worn: under-fill
     seal = 165.0 + 0.5 * rng.standard_normal(n)
     seal[300:303] += 5.0 * 0.5  # heater controller overshoot
     out = _Lines()

@@ -13,10 +13,20 @@ import threading
 import time
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
+from datetime import datetime, timedelta
 from pathlib import Path
 from typing import BinaryIO
 
-from linewatch.simulation.line import Action, Header, Note, Rotate, Row
+from linewatch.simulation.line import (
+    EXTRUSION_LINE,
+    Action,
+    Header,
+    Note,
+    Rotate,
+    Row,
+    Scenario,
+    latest_stamp,
+)
 
 PARTIAL_PAUSE = 0.03  # seconds between the two pieces of a split row
 
@@ -74,7 +84,10 @@ def write_feeds(
     on_note: Callable[[Note], None] | None = None,
     clock: Callable[[], float] = time.monotonic,
 ) -> WriteStats:
-    """Write `actions` into `folder` at `speed`; return what was written."""
+    """Write `actions` into `folder` at `speed`; return what was written.
+
+    A split row's second piece follows `PARTIAL_PAUSE` later, or sooner when the next action is
+    due, so partial lines never hold back the pace (at high speeds there are many of them)."""
     if not speed > 0:
         raise ValueError("speed must be more than 0")
     stop = stop or threading.Event()
@@ -82,34 +95,66 @@ def write_feeds(
     files = LogFiles(folder)
     stats = WriteStats()
     began = clock()
+    rest: _Rest | None = None  # the unwritten second piece of a split row
     try:
         for action in actions:
             due = max(0.0, action.t / speed)
             if duration is not None and due >= duration:
+                _finish(files, rest, stop, 0.0, began, clock)  # the last row, complete now
+                rest = None
                 remaining = duration - (clock() - began)
                 if remaining > 0:
                     stop.wait(remaining)
                 break
+            if rest is not None:
+                _finish(files, rest, stop, min(rest.at, due), began, clock)
+                rest = None
             wait = due - (clock() - began)
             if wait > 0 and stop.wait(wait):
                 break
             if stop.is_set():
                 break
-            _apply(files, action, stats, on_note)
+            rest = _apply(files, action, stats, on_note, clock() - began)
     finally:
+        if rest is not None:  # rows always end complete
+            files.write(rest.file, rest.data)
         files.close()
         stats.seconds = clock() - began
     return stats
 
 
-def _apply(
-    files: LogFiles, action: Action, stats: WriteStats, on_note: Callable[[Note], None] | None
+@dataclass(frozen=True, slots=True)
+class _Rest:
+    """The second piece of a split row, to be written at `at` (seconds into the run)."""
+
+    file: str
+    data: bytes
+    at: float
+
+
+def _finish(
+    files: LogFiles, rest: _Rest | None, stop: threading.Event, at: float, began: float,
+    clock: Callable[[], float],
 ) -> None:
+    """Write `rest` at `at` seconds into the run (at once when stopping)."""
+    if rest is None:
+        return
+    wait = at - (clock() - began)
+    if wait > 0:
+        stop.wait(wait)
+    files.write(rest.file, rest.data)
+
+
+def _apply(
+    files: LogFiles, action: Action, stats: WriteStats, on_note: Callable[[Note], None] | None,
+    now: float,
+) -> _Rest | None:
+    """Carry out one action; a split row returns its second piece, still to be written."""
+    rest = None
     if isinstance(action, Row):
         if action.split:
             files.write(action.file, action.data[: action.split])
-            time.sleep(PARTIAL_PAUSE)
-            files.write(action.file, action.data[action.split :])
+            rest = _Rest(action.file, action.data[action.split :], now + PARTIAL_PAUSE)
             stats.split_rows += 1
         else:
             files.write(action.file, action.data)
@@ -123,3 +168,25 @@ def _apply(
         stats.rotations += 1
     elif isinstance(action, Note) and on_note is not None:
         on_note(action)
+    return rest
+
+def existing_logs(folder: Path, scenario: Scenario = EXTRUSION_LINE) -> list[Path]:
+    """The scenario's logs that `folder` already holds (a run then continues them)."""
+    return [folder / g.file for g in scenario.gauges if (folder / g.file).exists()]
+
+
+def continue_after(logs: list[Path]) -> datetime | None:
+    """A time just after the newest row of `logs`: a continued run stamps its first live row no
+    earlier, so no log's time stamps go backwards, even after an earlier run went ahead of the
+    clock (speed > 1). None when no row of theirs carries a time stamp."""
+    stamps = [t for t in (_tail_stamp(p) for p in logs) if t is not None]
+    return max(stamps) + timedelta(seconds=1) if stamps else None
+
+
+def _tail_stamp(path: Path) -> datetime | None:
+    """The newest time stamp among the last rows of a log written by the simulator."""
+    with path.open("rb") as fh:
+        fh.seek(0, 2)
+        fh.seek(max(0, fh.tell() - 4096))
+        tail = fh.read().decode("utf-8", errors="replace")
+    return latest_stamp(tail)

@@ -17,14 +17,13 @@ import sys
 SNIPPET = """
 import time
 t0 = time.perf_counter()
-from linewatch.engine import budget
+from linewatch.engine.budget import rates, simulation
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
 specs = [s for s in resolve_rules(parse_rule_list({rules!r})) if s.id not in {drop!r}]
-run = budget.simulate_run_length if {fresh!r} else budget.average_run_length
+run = simulation.simulate_run_length if {fresh!r} else rates.average_run_length
 r = run(specs)
 t1 = time.perf_counter()
-budget._cached.cache_clear()
-budget.alarm_rate.cache_clear()
+rates.clear_caches()
 run(specs)
 t2 = time.perf_counter()
 print(f"{{r.method:<26}} ARL {{r.arl:10.2f}}  cold {{t1 - t0:6.3f}} s  warm {{t2 - t1:6.3f}} s")

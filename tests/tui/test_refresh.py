@@ -3,7 +3,6 @@ alarms only. Notifications come from a real background thread, as the monitor se
 
 from __future__ import annotations
 
-import asyncio
 import copy
 import dataclasses
 import threading
@@ -12,7 +11,7 @@ import time
 import pytest
 from textual.widgets import DataTable, Static
 
-from linewatch.faces.tui.app import LinewatchApp
+from linewatch.faces.tui.app import REFRESH_HZ, LinewatchApp
 from linewatch.faces.tui.screens.queue import AlarmQueueScreen
 from linewatch.faces.tui.widgets.top_bar import TopBar
 from linewatch.present import view
@@ -66,7 +65,11 @@ async def test_an_idle_screen_takes_no_snapshot(app: LinewatchApp, source: FakeS
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause()
         before = source.snapshot_calls
-        await asyncio.sleep(0.5)
+        # a timer at the refresh pace, started after the app's own on the same loop: once it
+        # has ticked five times, the refresh timer has had its chances too
+        ticks: list[float] = []
+        app.set_interval(1.0 / REFRESH_HZ, lambda: ticks.append(time.monotonic()))
+        await until(lambda: len(ticks) >= 5)
         assert source.snapshot_calls == before
 
 

@@ -14,7 +14,7 @@ from linewatch.present.figures import fmt_ppm
 if TYPE_CHECKING:
     from linewatch.cli.commands.check import Analysis, NotCharted
     from linewatch.domain.records import Rejected
-    from linewatch.engine.characteristic import Firing
+    from linewatch.engine.setup import Firing
 
 MAX_LISTED = 12  # signals listed per rule before "... and N more"
 

@@ -50,11 +50,15 @@ def test_sigkill_at_random_moments_loses_and_doubles_nothing(tmp_path):
     while not done.is_set() or kills < 3:
         time.sleep(rnd.uniform(0.3, 0.9))
         if kills == 1 and acked is None:
-            # acknowledge one alarm from the shell between two crashes
-            listed = subprocess.run(
-                [sys.executable, "-m", "linewatch", "alarms", "list", "--format", "jsonl",
-                 "--state-dir", str(crashed)], capture_output=True, text=True, timeout=60)
-            opened = records(listed.stdout)
+            # acknowledge one alarm from the shell between two crashes: the collector is
+            # running, so wait until it has raised one (a busy machine starts it slowly)
+            deadline = time.monotonic() + 60
+            opened: list[dict] = []
+            while not opened and time.monotonic() < deadline:
+                listed = subprocess.run(
+                    [sys.executable, "-m", "linewatch", "alarms", "list", "--format", "jsonl",
+                     "--state-dir", str(crashed)], capture_output=True, text=True, timeout=60)
+                opened = records(listed.stdout)
             if opened:
                 acked = opened[0]["id"]
                 subprocess.run(

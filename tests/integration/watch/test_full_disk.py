@@ -51,7 +51,9 @@ def test_a_full_disk_is_reported_and_collection_resumes_when_space_returns(
                 time.sleep(0.2)
         # said at once, as a record, and the collector is still there
         reader.wait_for(lambda r: r.get("type") == "error" and "full" in str(r), timeout=15)
-        time.sleep(2.0)  # a few retries while still full
+        # a few retries while still full, each reported
+        reader.wait_for(lambda r: r.get("type") == "error" and r.get("failures", 0) >= 2,
+                        timeout=15)
         assert proc.poll() is None, "the collector died on a full disk"
         small_disk.free()
         wait_caught_up(state, log, timeout=60)  # back-off is bounded: it resumes

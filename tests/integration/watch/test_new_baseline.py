@@ -11,7 +11,8 @@ import time
 import numpy as np
 
 from linewatch.config.loading import parse_config
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import HEADER, rows_text, wait_until
 
@@ -103,7 +104,11 @@ def test_a_new_baseline_while_rows_arrive_never_stops_collection(tmp_path):
             time.sleep(0.2)
         wait_until(lambda: len(face.store.history.points("od")) == 80)
         wait_until(lambda: face.detail("od").pending_phase_start is None)
-        time.sleep(1.5)  # a few more passes, in which the stall showed
+        # later passes, in which the stall showed: each stores what it read
+        for k in range(80, 90, 5):
+            with log.open("a") as f:
+                f.writelines(rows_text(more[:5], start=k))
+            wait_until(lambda k=k: len(face.store.history.points("od")) == k + 5)
     finally:
         stop.set()
         worker.join(timeout=10)

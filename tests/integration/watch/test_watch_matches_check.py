@@ -49,15 +49,20 @@ def test_signals_of_watch_equal_those_of_check_for_pieces_written_live(tmp_path)
 def test_an_unterminated_last_line_is_not_a_point(tmp_path):
     log = tmp_path / "line.csv"
     log.write_text(HEADER + "".join(rows_text(process_series(30, seed=2))) + "2026-03-02,P,10.5")
-    proc = start_watch([str(log)], tmp_path / "state", "--baseline", "10")
+    other = tmp_path / "other.csv"  # a second log: its rows show that later passes ran
+    other.write_text("time,part,width\n")
+    proc = start_watch([str(log), str(other)], tmp_path / "state", "--baseline", "10")
     complete = len((HEADER + "".join(rows_text(process_series(30, seed=2)))).encode())
     deadline = time.monotonic() + 30
     while offset_of(tmp_path / "state", log) != complete and time.monotonic() < deadline:
         time.sleep(0.05)
-    time.sleep(0.3)  # the partial line stays unread however long we wait
-    assert offset_of(tmp_path / "state", log) == complete
+    with other.open("a") as f:
+        f.write("2026-03-02T06:00:00,P0,5.0\n")
+    wait_caught_up(tmp_path / "state", other)  # a pass after the partial line was seen
+    assert offset_of(tmp_path / "state", log) == complete  # the partial line stays unread
     out, _ = stop(proc)
-    summary = next(r for r in records(out) if r["type"] == "summary")
+    summary = next(r for r in records(out) if r["type"] == "summary"
+                   and r["characteristic"] == "od")
     assert summary["points"] == 30
 
 

@@ -15,9 +15,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from linewatch.alarms.book import AlarmBook
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup, analyse_history
+from linewatch.engine.batch import analyse_history
 from linewatch.engine.episodes import episodes
+from linewatch.engine.live import CharacteristicEngine
+from linewatch.engine.live_state import restore_engine, save_state
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 from linewatch.store.db import Store
 
 SETUP = ChartSetup(name="od", rules=tuple(resolve_rules(parse_rule_list("western-electric"), {})),
@@ -60,7 +63,7 @@ def test_live_episodes_equal_the_definition_over_check_s_firings(values, chunks,
             size = next(sizes)
             # a restart before every chunk: the engine from its saved state, a fresh book
             eng = (CharacteristicEngine(SETUP) if state is None
-                   else CharacteristicEngine.from_state(SETUP, state))
+                   else restore_engine(SETUP, state))
             with Store(Path(tmp) / "s") as store:
                 book = AlarmBook(store)
                 out = eng.push(x[k:k + size])
@@ -70,7 +73,7 @@ def test_live_episodes_equal_the_definition_over_check_s_firings(values, chunks,
                 for chart, (lo, hi) in out.judged.items():
                     book.observe_chart("od", chart, lo, hi, fired.get(chart, {}), now=float(k),
                                        clear_after=clear_after)
-            state = json.loads(json.dumps(eng.to_state()))
+            state = json.loads(json.dumps(save_state(eng)))
             k += size
         with Store(Path(tmp) / "s") as store:
             for chart in ("individuals", "moving-range"):

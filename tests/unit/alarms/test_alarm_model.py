@@ -586,8 +586,9 @@ def test_a_new_baseline_while_rows_arrive_never_stops_the_alarm_book(
     the new baseline window beyond the new limits. Fed as the collector feeds it (push, then
     each chart's judged range and firings; `settle` right after the request), every firing lies
     in its judged range, the book never raises, and the alarm counts every firing point once."""
-    from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
+    from linewatch.engine.live import CharacteristicEngine
     from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+    from linewatch.engine.setup import ChartSetup
 
     rng = np.random.default_rng(9)
     values = rng.normal(10.0, 0.1, 200)

@@ -11,17 +11,26 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from linewatch.engine import budget
-from linewatch.engine.budget import (
-    MARKOV,
+from linewatch.engine.batch import analyse_history
+from linewatch.engine.budget.automata import automaton
+from linewatch.engine.budget.chain import MARKOV, markov_run_length
+from linewatch.engine.budget.rates import (
+    SIMULATED,
+    alarm_rate,
+    average_run_length,
+    rule_set_key,
+    zigzag,
+)
+from linewatch.engine.budget.simulation import (
     SIMULATION,
     SIMULATION_LOWER_BOUND,
-    average_run_length,
-    markov_run_length,
+    first_signals,
     simulate_run_length,
 )
 from linewatch.engine.rulebook import RULES, RuleSpec, parse_rule_list, resolve_rules
 from linewatch.engine.rules import classify, evaluate
+from linewatch.engine.setup import ChartSetup
+from linewatch.engine.stream import ChartLimitsState, ChartRules
 
 
 def rules(*ids: str) -> list[RuleSpec]:
@@ -113,19 +122,19 @@ def test_alarm_rates_of_simple_rules_match_closed_forms():
     # counting runs): beyond 3σ: p(1 − p); L in a row on one side: exactly L then a break,
     # 2·(1/2)^L·(1/2) = 2^−L; L in a row within 1σ: q^L·(1 − q). p and q from scipy.stats.norm.
     p = 2 * stats.norm.sf(3.0)
-    assert budget.alarm_rate(RULES["n1"]) == pytest.approx(p * (1 - p), rel=1e-12)
+    assert alarm_rate(RULES["n1"]) == pytest.approx(p * (1 - p), rel=1e-12)
     for length in (2, 7, 9):
         (spec,) = resolve_rules(["n2"], {"n2": length})
-        assert budget.alarm_rate(spec) == pytest.approx(2.0**-length, rel=1e-12)
+        assert alarm_rate(spec) == pytest.approx(2.0**-length, rel=1e-12)
     q = stats.norm.cdf(1.0) - stats.norm.cdf(-1.0)
-    assert budget.alarm_rate(RULES["n7"]) == pytest.approx(q**15 * (1 - q), rel=1e-12)
+    assert alarm_rate(RULES["n7"]) == pytest.approx(q**15 * (1 - q), rel=1e-12)
 
 
 def test_zigzag_numbers():
     # Euler zigzag numbers A_n (alternating permutations), OEIS A000111; quoted from memory.
     published = [1, 1, 1, 2, 5, 16, 61, 272, 1385, 7936, 50521, 353792, 2702765, 22368256,
                  199360981, 1903757312]  # fmt: skip
-    assert [budget._zigzag(n) for n in range(16)] == published
+    assert [zigzag(n) for n in range(16)] == published
 
 
 def test_alarm_rates_agree_with_a_long_series_through_the_evaluator():
@@ -138,15 +147,33 @@ def test_alarm_rates_agree_with_a_long_series_through_the_evaluator():
     for spec in specs:
         fires = evaluate(spec, x, 0.0, 1.0)
         starts = int(fires[0]) + int(np.count_nonzero(fires[1:] & ~fires[:-1]))
-        expected = budget.alarm_rate(spec) * n
+        expected = alarm_rate(spec) * n
         assert abs(starts - expected) < 4.5 * math.sqrt(expected) + 1, spec.id
 
 
-def test_set_rate_is_the_sum_over_its_rules():
-    specs = rules("we1", "we2", "we3", "we4")
+@pytest.mark.parametrize("text", ["western-electric", "nelson"])
+def test_set_rate_matches_alarms_counted_on_a_long_in_control_chart(text: str):
+    # The set's false alarms per 1,000 points against a chart that keeps running: 1,000,000
+    # seeded in-control individuals through the batch path with known limits (CL 0, σ 1), every
+    # maximal stretch of consecutive points at which one rule fires counted as one alarm. The
+    # tolerance is 4.5 standard errors from 20 batch means (alarms cluster, so no Poisson SE).
+    specs = tuple(resolve_rules(parse_rule_list(text)))
+    n, batches = 1_000_000, 20
+    x = np.random.default_rng(2024).standard_normal(n)
+    setup = ChartSetup("x", 1, "range", specs, None, 0.0, 1.0)
+    table = analyse_history(x, setup).table
+    on_location = table.chart == 0
+    starts = np.zeros(n, np.int64)
+    for r in range(len(specs)):
+        fired = np.zeros(n, bool)
+        fired[table.index[on_location & (table.rule == r)]] = True
+        starts += fired & ~np.concatenate(([False], fired[:-1]))
+    per_batch = starts.reshape(batches, -1).sum(axis=1)
+    counted = int(per_batch.sum())
+    se = float(per_batch.std(ddof=1)) * math.sqrt(batches)
     result = average_run_length(specs)
-    total = sum(budget.alarm_rate(s) for s in specs)
-    assert result.false_alarms_per_1000 == pytest.approx(1000 * total, rel=1e-12)
+    expected = result.false_alarms_per_1000 * n / 1000
+    assert abs(counted - expected) < 4.5 * se, (counted, expected, se)
     # a chart that keeps running sees more alarms than one restarted after each (1000/ARL)
     assert result.false_alarms_per_1000 > 1000 / result.arl
 
@@ -178,7 +205,7 @@ ZONE_SPECS = [
 @pytest.mark.parametrize("spec", ZONE_SPECS, ids=lambda s: s.id)
 def test_rule_automaton_fires_exactly_where_the_evaluator_does(spec: RuleSpec):
     rng = np.random.default_rng(7)
-    automaton = budget._automaton(spec)
+    auto = automaton(spec)
     for _ in range(300):
         # wide spread so that every zone, both sides and long runs all occur
         x = rng.normal(0.0, rng.choice([0.6, 1.3, 2.2]), size=40)
@@ -186,8 +213,8 @@ def test_rule_automaton_fires_exactly_where_the_evaluator_does(spec: RuleSpec):
         expected = evaluate(spec, x, 0.0, 1.0)
         state, got = 0, np.zeros(x.size, bool)
         for i, sym in enumerate(_symbols(x)):
-            got[i] = automaton.fires[state, sym]
-            state = automaton.next[state, sym]
+            got[i] = auto.fires[state, sym]
+            state = auto.next[state, sym]
         assert np.array_equal(got, expected), x
 
 
@@ -201,7 +228,7 @@ def test_simulation_isolates_each_run():
     series = rng.normal(0.0, 0.8, size=(200, 30))
     series[::7, :] = np.linspace(-0.5, 0.5, 30)  # some rising rows: trends at the start
     series[1::7, :] = 0.5  # one-sided rows
-    got = budget._first_signals(specs, series)
+    got = first_signals(specs, series)
     for row, first in zip(series, got, strict=True):
         alone = np.zeros(row.size, bool)
         for spec in specs:
@@ -259,18 +286,46 @@ def test_order_rules_are_simulated_and_reproducible():
 
 @pytest.mark.parametrize("text", ["nelson", "nelson,western-electric"])
 def test_stored_simulations_regenerate_exactly(text: str):
+    # The stored pairs claim to be the default seeded simulation: regenerate them.
     specs = resolve_rules(parse_rule_list(text))
-    stored = budget.SIMULATED[budget.rule_set_key(specs)]
+    stored = SIMULATED[rule_set_key(specs)]
     fresh = simulate_run_length(specs)  # default replicates and seed
     assert (fresh.arl, fresh.std_error) == pytest.approx(stored, rel=1e-12)
     # the same figure whatever the order of the rules
     assert simulate_run_length(specs[::-1]).arl == pytest.approx(stored[0], rel=1e-12)
-    assert average_run_length(specs).arl == stored[0]
+    # and what `check` reports is that simulation
+    result = average_run_length(specs)
+    assert (result.arl, result.std_error, result.method) == (fresh.arl, fresh.std_error,
+                                                              fresh.method)
 
 
-def test_unfinished_simulation_is_reported_as_a_lower_bound(monkeypatch: pytest.MonkeyPatch):
-    monkeypatch.setattr(budget, "MAX_SIMULATED_POINTS", 200_000)
-    result = simulate_run_length(resolve_rules(["n4"], {"n4": 40}), replicates=200, seed=1)
+@pytest.mark.parametrize("text", ["nelson", "nelson,western-electric"])
+def test_simulated_arl_agrees_with_restarted_runs_of_the_incremental_rules(text: str):
+    # An independent estimate by another method: 8,000 runs of the point-by-point counters of
+    # stream.py (not the vectorised evaluator the simulation uses), each from an empty history
+    # until the first signal, on a different seed. The two estimates must agree within 4
+    # standard errors of their difference (run lengths are near-geometric, common practice).
+    specs = resolve_rules(parse_rule_list(text))
+    x = np.random.default_rng(31).standard_normal(2_000_000)
+    lengths: list[int] = []
+    pos = 0
+    for _ in range(8000):
+        live = ChartRules(specs, ChartLimitsState(0.0, 1.0))
+        start = pos
+        while not live.push(float(x[pos])):
+            pos += 1
+        pos += 1
+        lengths.append(pos - start)
+    runs = np.array(lengths)
+    mean, se = float(runs.mean()), float(runs.std(ddof=1)) / math.sqrt(runs.size)
+    result = average_run_length(specs)
+    assert result.std_error is not None
+    assert abs(result.arl - mean) < 4 * math.hypot(result.std_error, se), (result.arl, mean, se)
+
+
+def test_unfinished_simulation_is_reported_as_a_lower_bound():
+    result = simulate_run_length(resolve_rules(["n4"], {"n4": 40}), replicates=200, seed=1,
+                                 max_points=200_000)
     assert result.method == SIMULATION_LOWER_BOUND
     assert result.arl >= 512  # every run went at least past its first block of points
 
@@ -296,7 +351,7 @@ def test_default_set_needs_no_scipy():
     # Lazy imports keep `check` fast: the default set's chain is solved with numpy alone.
     code = (
         "import sys\n"
-        "from linewatch.engine.budget import average_run_length\n"
+        "from linewatch.engine.budget.rates import average_run_length\n"
         "from linewatch.engine.rulebook import parse_rule_list, resolve_rules\n"
         "r = average_run_length(resolve_rules(parse_rule_list('western-electric')))\n"
         "print(round(r.arl, 2), any(m.split('.')[0] == 'scipy' for m in sys.modules))\n"

@@ -2,8 +2,9 @@
 
 Part (a) recomputes d2, d3 and c4 independently of `constants.py` (Gauss–Legendre quadrature of the
 range distribution of n standard normal values; c4 from scipy.special.gamma) and demands agreement
-with the stored literals to 1e-9 relative. Part (b) compares every factor with the published table
-at its printed precision.
+with the stored literals to 1e-9 relative. Part (b) derives every other factor from those by its
+definition and holds both the code and the published table to it. Part (c) compares every factor
+the code gives with the published table at its printed precision.
 """
 
 from __future__ import annotations
@@ -142,13 +143,9 @@ def _printed() -> list[tuple[int, str, float]]:
     return rows
 
 
-def test_table_covers_every_size_and_factor():
-    assert len(_printed()) == len(SIZES) * len(FACTORS)
-
-
-@pytest.mark.parametrize(("n", "name", "printed"), _printed())
-def test_factor_matches_printed_table(n: int, name: str, printed: float):
-    function, decimals = FACTORS[name]
+def _printed_tolerance(name: str) -> float:
+    """How far an exact factor may lie from its printed figure."""
+    _, decimals = FACTORS[name]
     # ±1 in the last printed digit: printed values sometimes come from rounded inputs
     # (e.g. D4 for n = 3 is printed 2.574, exactly 2.5746).
     units = 1.0
@@ -157,5 +154,53 @@ def test_factor_matches_printed_table(n: int, name: str, printed: float):
         # 5.891 = 3.689 + 3·0.734, exactly 5.8894), so the rounding of the inputs can move them by
         # up to 0.5 + 3·0.5 units, plus 0.5 for their own rounding: allow 2.5 units.
         units = 2.5
-    tolerance = units * 10.0**-decimals * (1.0 + 1e-9)
-    assert abs(function(n) - printed) <= tolerance, (name, n, function(n), printed)
+    return units * 10.0**-decimals * (1.0 + 1e-9)
+
+
+def _from_definitions(n: int, d2: float, d3: float) -> dict[str, float]:
+    """Every factor of the table from its definition (Montgomery, Introduction to Statistical
+    Quality Control, ch. 6; common practice), given d2 and d3 of the range distribution and c4
+    from scipy.special.gamma: 3σ limits on the mean, the range and s."""
+    c4 = math.sqrt(2.0 / (n - 1)) * gamma(n / 2.0) / gamma((n - 1) / 2.0)
+    spread_s = 3.0 * math.sqrt(1.0 - c4 * c4)  # 3·SD(s)/σ
+    return {
+        "A2": 3.0 / (d2 * math.sqrt(n)),
+        "A3": 3.0 / (c4 * math.sqrt(n)),
+        "c4": c4,
+        "B3": max(0.0, 1.0 - spread_s / c4),
+        "B4": 1.0 + spread_s / c4,
+        "B5": max(0.0, c4 - spread_s),
+        "B6": c4 + spread_s,
+        "d2": d2,
+        "d3": d3,
+        "D1": max(0.0, d2 - 3.0 * d3),
+        "D2": d2 + 3.0 * d3,
+        "D3": max(0.0, 1.0 - 3.0 * d3 / d2),
+        "D4": 1.0 + 3.0 * d3 / d2,
+    }
+
+
+def test_the_code_charts_exactly_the_published_sizes():
+    # The printed table runs n = 2..25; the code refuses sizes outside it (see above).
+    assert sorted({n for n, _, _ in _printed()}) == list(SIZES)
+
+
+@pytest.mark.parametrize("n", SIZES)
+def test_every_factor_follows_its_definition(
+    n: int, range_moments: dict[int, tuple[float, float]]
+):
+    # The code's derived factors against the definitions evaluated here from the quadrature
+    # d2, d3 above, and the published table against the same definitions (a misquoted figure
+    # fails here even if the code agreed with it).
+    exact = _from_definitions(n, *range_moments[n])
+    printed = {name: value for m, name, value in _printed() if m == n}
+    for name, (function, _) in FACTORS.items():
+        assert function(n) == pytest.approx(exact[name], rel=1e-9, abs=1e-12), (name, n)
+        assert abs(exact[name] - printed[name]) <= _printed_tolerance(name), (name, n)
+
+
+@pytest.mark.parametrize(("n", "name", "printed"), _printed())
+def test_factor_matches_printed_table(n: int, name: str, printed: float):
+    function, _ = FACTORS[name]
+    got = function(n)
+    assert abs(got - printed) <= _printed_tolerance(name), (name, n, got, printed)

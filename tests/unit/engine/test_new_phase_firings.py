@@ -7,8 +7,9 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
+from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 
 
 def _setup() -> ChartSetup:

@@ -4,8 +4,10 @@ it after a restart from its saved state, and judges a new baseline afresh."""
 
 from __future__ import annotations
 
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
+from linewatch.engine.live import CharacteristicEngine
+from linewatch.engine.live_state import restore_engine, save_state
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 
 
 def _setup() -> ChartSetup:
@@ -21,7 +23,7 @@ def test_a_constant_baseline_is_refused_once_kept_over_a_restart_and_reset_by_a_
     later = eng.push([5.0 + (k % 3) / 100 for k in range(30)])  # varied, but not the baseline
     assert later.limits is None and later.problem is None  # said once
     assert eng.problem == out.problem and eng.baseline_needed == 0
-    restored = CharacteristicEngine.from_state(_setup(), eng.to_state())
+    restored = restore_engine(_setup(), save_state(eng))
     assert restored.problem == out.problem  # a restart does not forget (nor say it again)
     restored.new_baseline(20)  # from the varied points on
     assert restored.problem is None

@@ -10,9 +10,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from linewatch.engine.characteristic import ChartSetup, analyse_history
+from linewatch.engine.batch import analyse_history
 from linewatch.engine.rulebook import RULES, parse_rule_list, resolve_rules
 from linewatch.engine.rules import evaluate
+from linewatch.engine.setup import ChartSetup
 
 
 def fires(rule: str, values, **lengths) -> list[int]:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import json
 
 import numpy as np
 import pytest
@@ -10,10 +11,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from linewatch.domain.errors import NotEnoughData
-from linewatch.engine import characteristic
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup, analyse_history
+from linewatch.engine.batch import analyse_history
+from linewatch.engine.live import CharacteristicEngine
+from linewatch.engine.live_state import restore_engine, save_state
 from linewatch.engine.rulebook import RULES, resolve_rules
 from linewatch.engine.rules import evaluate
+from linewatch.engine.setup import ChartSetup
 from linewatch.engine.stream import ChartLimitsState, ChartRules
 
 # Values on a coarse grid hit the centre line, the zone edges and ties often.
@@ -94,16 +97,8 @@ def test_live_engine_matches_history_for_any_chunking(
 ):
     # the live engine judges large chunks in one vectorised pass and small ones point by point;
     # both must equal the history's verdict
-    old, characteristic.VECTOR_MIN = characteristic.VECTOR_MIN, vector_min
-    try:
-        _live_equals_history(values, n, dispersion, baseline, cuts)
-    finally:
-        characteristic.VECTOR_MIN = old
-
-
-def _live_equals_history(values, n, dispersion, baseline, cuts):
     setup = ChartSetup("x", n, dispersion, tuple(resolve_rules(list(RULES))), baseline)
-    live = CharacteristicEngine(setup)
+    live = CharacteristicEngine(setup, vector_min=vector_min)
     firings = []
     limits = None
     judged: dict[str, list[tuple[int, int]]] = {}
@@ -139,23 +134,15 @@ def _live_equals_history(values, n, dispersion, baseline, cuts):
     st.lists(st.integers(0, 200), max_size=6),
 )
 def test_a_saved_and_restored_engine_continues_exactly(values, n, baseline, cuts):
-    old, characteristic.VECTOR_MIN = characteristic.VECTOR_MIN, 4  # both paths, small chunks
-    try:
-        _restored_engine_continues(values, n, baseline, cuts)
-    finally:
-        characteristic.VECTOR_MIN = old
-
-
-def _restored_engine_continues(values, n, baseline, cuts):
-    import json
-
     setup = ChartSetup("x", n, "range", tuple(resolve_rules(list(RULES))), baseline)
-    straight = CharacteristicEngine(setup)
+    small = 4  # chunks of 4 points or more take the vectorised path: both paths, small chunks
+    straight = CharacteristicEngine(setup, vector_min=small)
     expected = straight.push(values).firings
     got = []
-    engine = CharacteristicEngine(setup)
+    engine = CharacteristicEngine(setup, vector_min=small)
     for chunk in _chunks(values, cuts):
         got.extend(engine.push(chunk).firings)
         # as after a crash: only what went through JSON survives
-        engine = CharacteristicEngine.from_state(setup, json.loads(json.dumps(engine.to_state())))
+        state = json.loads(json.dumps(save_state(engine)))
+        engine = restore_engine(setup, state, vector_min=small)
     assert got == expected

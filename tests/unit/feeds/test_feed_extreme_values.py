@@ -15,12 +15,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import BadLimits
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.characteristic import CharacteristicEngine, ChartSetup
 from linewatch.engine.limits import estimate_limits
+from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
+from linewatch.engine.setup import ChartSetup
 from linewatch.feeds.formats import RowParser, read_log
 from linewatch.present.scales import cell_of, fraction_of, padded_span
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up

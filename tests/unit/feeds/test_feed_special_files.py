@@ -40,7 +40,9 @@ def test_watch_says_which_matched_paths_it_does_not_read_and_why(tmp_path: Path)
     state = tmp_path / "state"
     proc = start_watch([str(tmp_path / "*.csv")], state)
     wait_caught_up(state, good)
-    time.sleep(2.5)  # a second poll must not say it again
+    later = tmp_path / "f.csv"  # found by a later expansion of the pattern, which must not
+    later.write_text("time,od\nt3,12.2\n")  # report the skipped paths again
+    wait_caught_up(state, later)
     out, _ = stop(proc)
     skipped = {r["file"]: r["detail"] for r in records(out)
                if r["type"] == "feed" and r["event"] == "skipped"}

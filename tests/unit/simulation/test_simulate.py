@@ -38,7 +38,7 @@ from linewatch.simulation.line import (
     collect,
     generate,
 )
-from linewatch.simulation.writer import write_feeds
+from linewatch.simulation.writer import PARTIAL_PAUSE, write_feeds
 
 START = datetime(2026, 3, 2, 6, 0, 0, tzinfo=timezone(timedelta(hours=1)))
 RATE = 5.0
@@ -288,6 +288,20 @@ def test_writer_honours_duration_and_writes_complete_rotated_files(tmp_path: Pat
     assert speed * (stats.seconds - 1.5) < simulated <= speed * stats.seconds + 1
 
 
+def test_partial_lines_do_not_hold_back_the_pace(tmp_path: Path) -> None:
+    # At a high speed the split rows' pauses add up to more than the whole run: they must
+    # overlap the schedule, not be slept one after the other (which took seconds longer).
+    stats = write_feeds(tmp_path, generate(3, RATE, START), speed=300.0, duration=1.0)
+    assert stats.split_rows * PARTIAL_PAUSE > 2.0  # the pauses alone, if slept in turn
+    assert stats.seconds < stats.split_rows * PARTIAL_PAUSE
+    for g in EXTRUSION_LINE.gauges:  # every split row was completed
+        written = b"".join(p.read_bytes() for p in (tmp_path / f"{g.file}.1", tmp_path / g.file)
+                           if p.exists())
+        assert written.endswith(b"\n")
+        _, expected = collect(generate(3, RATE, START), ONE_CYCLE * 3)
+        assert _file_bytes(expected, g.file).startswith(written)
+
+
 def test_writer_stops_at_once_when_asked(tmp_path: Path) -> None:
     stop = threading.Event()
     timer = threading.Timer(0.5, stop.set)
@@ -325,10 +339,12 @@ def test_cli_stops_cleanly_on_sigterm(tmp_path: Path) -> None:
         text=True,
     )
     try:
+        # SIGTERM once every gauge has written (not after a guessed pause)
+        logs = [tmp_path / g.file for g in EXTRUSION_LINE.gauges]
         deadline = time.monotonic() + 15
-        while not (tmp_path / "fill_scale.jsonl").exists() and time.monotonic() < deadline:
+        while (not all(p.exists() and p.stat().st_size for p in logs)
+               and time.monotonic() < deadline):
             time.sleep(0.05)
-        time.sleep(0.3)
         proc.send_signal(signal.SIGTERM)
         _out, err = proc.communicate(timeout=10)
     finally:

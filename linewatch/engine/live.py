@@ -1,8 +1,10 @@
-"""One characteristic from raw values to limits and signals: batch (history) and live.
+"""The live engine: one characteristic charted as its values arrive, in any chunking.
 
-`analyse_history` is the vectorised path used by `check`; `CharacteristicEngine` is the live path
-used by `watch`, fed values in any chunking. Given the same values and the same baseline, both
-produce the same limits and the same signals (a property test holds them to it).
+`CharacteristicEngine` is what `watch` feeds: it plots points, forms each phase's limits from its
+baseline, judges new points with the incremental rule counters (a few points) or one numpy pass
+over the recent tail (a chunk of `vector_min` points or more), and starts new phases. Whatever the
+chunking it gives the limits and firings of the batch path (`engine.batch`); its saved form is
+`engine.live_state`.
 """
 
 from __future__ import annotations
@@ -10,26 +12,18 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 
 from linewatch.domain.errors import BadLimits, NotEnoughData
-from linewatch.engine.charts import chart_names, plotted_series, subgroup_stats
-from linewatch.engine.limits import (
-    MIN_BASELINE,
-    ChartLimits,
-    LimitSet,
-    estimate_limits,
-    given_limits,
-)
-from linewatch.engine.rulebook import BEYOND, RuleSpec
+from linewatch.engine.charts import plotted_series, subgroup_stats
+from linewatch.engine.limits import MIN_BASELINE, LimitSet, estimate_limits, given_limits
 from linewatch.engine.rules import classify, evaluate_classified
-from linewatch.engine.stream import ChartLimitsState, ChartRules, lookback
+from linewatch.engine.setup import ChartSetup, Firing, limit_state
+from linewatch.engine.stream import ChartRules, lookback
 
-VECTOR_MIN = 32  # judge this many new points or more in one vectorised pass
+VECTOR_MIN = 32  # default: judge this many new points or more in one vectorised pass
 HISTORY_KEEP = 2000  # plotted points kept in memory per chart (a new baseline reaches back)
-STATE_HISTORY = 500  # of those, how many are saved with the engine state
 
 
 def _fire_chunk(
@@ -63,159 +57,6 @@ def _judge_vectorised(
         point.rules = hits.get(k, [])
 
 
-def _limits_to_dict(lim: LimitSet) -> dict[str, Any]:
-    def chart(c: ChartLimits) -> list[Any]:
-        return [c.chart, c.center, c.ucl, c.lcl, c.sigma]
-
-    return {"location": chart(lim.location), "dispersion": chart(lim.dispersion),
-            "sigma_within": lim.sigma_within, "source": lim.source}
-
-
-def _limits_from_dict(d: dict[str, Any]) -> LimitSet:
-    return LimitSet(ChartLimits(*d["location"]), ChartLimits(*d["dispersion"]),
-                    d["sigma_within"], d["source"])
-
-
-def _point_to_list(p: PlottedPoint | None) -> list[Any] | None:
-    if p is None:
-        return None
-    return [p.index, p.value, p.row, p.phase, p.judged, p.rules, p.meta]
-
-
-def _point_from_list(chart: str, a: list[Any]) -> PlottedPoint:
-    """A point saved by `_point_to_list` (callers skip the None of a missing dispersion point)."""
-    return PlottedPoint(chart, a[0], a[1], a[2], a[3], a[4], list(a[5]), a[6])
-
-
-@dataclass(frozen=True, slots=True)
-class ChartSetup:
-    """How one characteristic is charted."""
-
-    name: str
-    subgroup_size: int = 1
-    dispersion: str = "range"
-    rules: tuple[RuleSpec, ...] = ()
-    baseline: int | None = None  # plotted points; None: all points (batch only)
-    center: float | None = None
-    sigma: float | None = None
-
-    @property
-    def charts(self) -> tuple[str, str]:
-        return chart_names(self.subgroup_size, self.dispersion)
-
-    @property
-    def dispersion_rules(self) -> tuple[RuleSpec, ...]:
-        """Dispersion charts get only the beyond-limits test of the selected sets."""
-        return tuple(r for r in self.rules if r.kind == BEYOND)
-
-
-@dataclass(frozen=True, slots=True)
-class Firing:
-    """A rule fired at a plotted point (row position is into the values fed so far)."""
-
-    chart: str
-    rule: str
-    index: int
-    row: int
-    value: float
-    meta: object = None  # what the caller attached to the row (live path: file, line, time)
-
-
-@dataclass(frozen=True, slots=True)
-class FiringTable:
-    """Firings of a whole history as parallel arrays, ordered by point, chart, then rule."""
-
-    index: np.ndarray
-    chart: np.ndarray  # position in `charts`
-    rule: np.ndarray  # position in `rules`
-    row: np.ndarray
-    value: np.ndarray
-    charts: tuple[str, ...]
-    rules: tuple[str, ...]
-
-    def __len__(self) -> int:
-        return int(self.index.shape[0])
-
-
-@dataclass(slots=True)
-class HistoryResult:
-    """What `analyse_history` found."""
-
-    limits: LimitSet
-    location: np.ndarray
-    dispersion: np.ndarray
-    table: FiringTable
-    leftover: int  # values of a trailing incomplete subgroup, left out
-
-    @property
-    def firings(self) -> list[Firing]:
-        """The firings as records (the table is the fast form for large histories)."""
-        t = self.table
-        return [
-            Firing(t.charts[c], t.rules[r], i, w, v)
-            for i, c, r, w, v in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
-                                     t.row.tolist(), t.value.tolist(), strict=True)
-        ]
-
-
-def _limit_state(lim: ChartLimits) -> ChartLimitsState:
-    if lim.asymmetric:
-        return ChartLimitsState(lim.center, lim.sigma, lim.ucl, lim.lcl)
-    return ChartLimitsState(lim.center, lim.sigma)
-
-
-def _evaluate_series(
-    values: np.ndarray, lim: ChartLimits, specs: Iterable[RuleSpec]
-) -> dict[str, np.ndarray]:
-    st = _limit_state(lim)
-    x = np.asarray(values, dtype=float)
-    side, level = classify(x, st.center, st.sigma, st.ucl, st.lcl)  # once for every rule
-    return {s.id: evaluate_classified(s, x, side, level) for s in specs}
-
-
-def analyse_history(values: np.ndarray, setup: ChartSetup) -> HistoryResult:
-    """Limits and rule firings over a whole series of individual values (vectorised)."""
-    x = np.asarray(values, dtype=float)
-    n = setup.subgroup_size
-    loc, disp = plotted_series(x, n, setup.dispersion)
-    leftover = x.shape[0] - (x.shape[0] // n) * n if n > 1 else 0
-    if setup.sigma is not None and setup.center is not None:
-        limits = given_limits(setup.center, setup.sigma, n, setup.dispersion)
-    else:
-        b = loc.values.shape[0] if setup.baseline is None else setup.baseline
-        if loc.values.shape[0] < max(b, MIN_BASELINE):
-            need = max(b, MIN_BASELINE) * n
-            raise NotEnoughData(
-                f"too few points for limits on {setup.name}: {x.shape[0] - leftover} values, "
-                f"{need} needed"
-            )
-        disp_base = disp.values[: b - 1] if n == 1 else disp.values[:b]
-        limits = estimate_limits(loc.values[:b], disp_base, n, setup.dispersion)
-    rule_ids = tuple(r.id for r in setup.rules)
-    parts: list[tuple[np.ndarray, int, int, np.ndarray, np.ndarray]] = []
-    for c, (series, lim, specs) in enumerate((
-        (loc, limits.location, setup.rules),
-        (disp, limits.dispersion, setup.dispersion_rules),
-    )):
-        for rule_id, fired in _evaluate_series(series.values, lim, specs).items():
-            pos = np.flatnonzero(fired)
-            parts.append((series.indices[pos], c, rule_ids.index(rule_id), series.rows[pos],
-                          series.values[pos]))
-    if parts:
-        index = np.concatenate([p[0] for p in parts])
-        chart = np.concatenate([np.full(p[0].shape[0], p[1], dtype=np.int8) for p in parts])
-        rule = np.concatenate([np.full(p[0].shape[0], p[2], dtype=np.int16) for p in parts])
-        row = np.concatenate([p[3] for p in parts])
-        value = np.concatenate([p[4] for p in parts])
-        order = np.lexsort((rule, chart, index))
-        table = FiringTable(index[order], chart[order], rule[order], row[order], value[order],
-                            setup.charts, rule_ids)
-    else:
-        empty = np.zeros(0, dtype=np.int64)
-        table = FiringTable(empty, empty, empty, empty, np.zeros(0), setup.charts, rule_ids)
-    return HistoryResult(limits, loc.values, disp.values, table, leftover)
-
-
 @dataclass(slots=True)
 class PlottedPoint:
     """A live plotted point with the rules that fired at it (empty until judged)."""
@@ -242,12 +83,18 @@ class LiveOutput:
 
 
 class CharacteristicEngine:
-    """Live charting of one characteristic: feed values in order, in any chunking."""
+    """Live charting of one characteristic: feed values in order, in any chunking.
 
-    def __init__(self, setup: ChartSetup) -> None:
+    `vector_min` is the chunk size (in plotted points) from which new points are judged in one
+    numpy pass instead of point by point; both ways give the same firings."""
+
+    def __init__(self, setup: ChartSetup, vector_min: int = VECTOR_MIN) -> None:
         if setup.baseline is None and setup.sigma is None:
             raise ValueError("a live engine needs a baseline length or known limits")
+        if vector_min < 1:
+            raise ValueError(f"vector_min must be at least 1, got {vector_min}")
         self.setup = setup
+        self.vector_min = vector_min
         self.loc_chart, self.disp_chart = setup.charts
         self.values_seen = 0
         self.pending: list[float] = []
@@ -274,10 +121,20 @@ class CharacteristicEngine:
     # -- limits -------------------------------------------------------------------------------
     def _apply_limits(self, limits: LimitSet) -> None:
         self.limits = limits
-        self.loc_rules = ChartRules(self.setup.rules, _limit_state(limits.location))
-        self.disp_rules = ChartRules(self.setup.dispersion_rules, _limit_state(limits.dispersion))
+        self.loc_rules = ChartRules(self.setup.rules, limit_state(limits.location))
+        self.disp_rules = ChartRules(self.setup.dispersion_rules, limit_state(limits.dispersion))
         self.loc_fed.clear()
         self.disp_fed.clear()
+
+    def resume(self, limits: LimitSet, loc_fed: Iterable[float], disp_fed: Iterable[float]) -> None:
+        """Take `limits` as this phase's limits, with the rule counters rebuilt from the values
+        judged against them most recently (`loc_fed`, `disp_fed`: as after a restart)."""
+        self._apply_limits(limits)
+        assert self.loc_rules is not None and self.disp_rules is not None
+        self.loc_fed.extend(loc_fed)
+        self.disp_fed.extend(disp_fed)
+        self.loc_rules.replay(list(self.loc_fed))
+        self.disp_rules.replay(list(self.disp_fed))
 
     @property
     def baseline_needed(self) -> int:
@@ -317,7 +174,7 @@ class CharacteristicEngine:
         carried on the plotted point (a subgroup's from its last row) and on its firings."""
         out = LiveOutput()
         if (self.limits is not None and not self.waiting
-                and len(values) >= VECTOR_MIN * self.setup.subgroup_size):
+                and len(values) >= self.vector_min * self.setup.subgroup_size):
             self._push_judged_chunk(values, meta, out)
             return out
         queue: list[tuple[PlottedPoint, PlottedPoint | None]] = []
@@ -347,7 +204,7 @@ class CharacteristicEngine:
             self.next_index += 1
             self._plot(loc, disp, out, queue)
             rest = len(values) - k - 1
-            if self.limits is not None and not self.waiting and rest >= VECTOR_MIN * n:
+            if self.limits is not None and not self.waiting and rest >= self.vector_min * n:
                 # limits formed inside this chunk: the rest goes the vectorised way
                 self._judge_all(queue, out)
                 queue = []
@@ -454,7 +311,7 @@ class CharacteristicEngine:
             if not points:
                 continue
             fresh.extend(points)
-            if len(points) >= VECTOR_MIN:
+            if len(points) >= self.vector_min:
                 _judge_vectorised(points, rules, fed)
             else:
                 for point in points:
@@ -512,69 +369,3 @@ class CharacteristicEngine:
         pending, self.waiting = self.waiting, []
         self._judge_all(pending, out)
         return out
-
-    # -- persistence --------------------------------------------------------------------------
-    def signature(self) -> str:
-        """What the saved state depends on; a state saved under another setup is not reused."""
-        s = self.setup
-        rules = ",".join(f"{r.id}:{r.length}" for r in s.rules)
-        return f"{s.subgroup_size}|{s.dispersion}|{rules}|{s.baseline}|{s.center}|{s.sigma}"
-
-    def to_state(self) -> dict[str, Any]:
-        """A JSON-ready snapshot from which `from_state` rebuilds this engine exactly."""
-        disp_by_index = {d.index: d for d in self.disp_history}
-        hist = list(self.loc_history)[-STATE_HISTORY:]
-        return {
-            "signature": self.signature(),
-            "values_seen": self.values_seen,
-            "pending": self.pending,
-            "prev_value": self.prev_value,
-            "phase": self.phase,
-            "phase_start": self.phase_start,
-            "phase_baseline": self.phase_baseline,
-            "next_index": self.next_index,
-            "problem": self.problem,
-            "limits": _limits_to_dict(self.limits) if self.limits else None,
-            "waiting": [[_point_to_list(p), _point_to_list(d)] for p, d in self.waiting],
-            "history": [[_point_to_list(p), _point_to_list(disp_by_index.get(p.index))]
-                        for p in hist],
-            "loc_fed": list(self.loc_fed),
-            "disp_fed": list(self.disp_fed),
-        }
-
-    @classmethod
-    def from_state(cls, setup: ChartSetup, state: dict[str, Any]) -> CharacteristicEngine:
-        """Rebuild an engine saved by `to_state`; a state from another setup starts afresh."""
-        engine = cls(setup)
-        if state.get("signature") != engine.signature():
-            return engine
-        engine.values_seen = state["values_seen"]
-        engine.pending = list(state["pending"])
-        engine.prev_value = state["prev_value"]
-        engine.phase = state["phase"]
-        engine.phase_start = state["phase_start"]
-        engine.phase_baseline = state["phase_baseline"]
-        engine.next_index = state["next_index"]
-        engine.problem = state.get("problem")
-        loc_c, disp_c = engine.loc_chart, engine.disp_chart
-        for p, d in state["history"]:
-            engine.loc_history.append(_point_from_list(loc_c, p))
-            if d is not None:
-                engine.disp_history.append(_point_from_list(disp_c, d))
-        by_index = {p.index: p for p in engine.loc_history}
-        dby_index = {d.index: d for d in engine.disp_history}
-        engine.waiting = []
-        for p, d in state["waiting"]:
-            lp = by_index.get(p[0]) or _point_from_list(loc_c, p)
-            dp = None if d is None else (dby_index.get(d[0]) or _point_from_list(disp_c, d))
-            engine.waiting.append((lp, dp))
-        if state["limits"] is None:
-            engine.limits = engine.loc_rules = engine.disp_rules = None
-        else:
-            engine._apply_limits(_limits_from_dict(state["limits"]))
-            assert engine.loc_rules is not None and engine.disp_rules is not None
-            engine.loc_rules.replay(state["loc_fed"])
-            engine.disp_rules.replay(state["disp_fed"])
-            engine.loc_fed.extend(state["loc_fed"])
-            engine.disp_fed.extend(state["disp_fed"])
-        return engine
