@@ -34,10 +34,10 @@ def draw_box_plot(
     for c in range(col(fig.whisker_low), col(fig.whisker_high) + 1):
         cells[c] = (glyphs.whisker, palette.LABEL)
     for c in range(col(fig.q1), col(fig.q3) + 1):
-        cells[c] = (glyphs.box_fill, "cyan")
-    cells[col(fig.q1)] = (glyphs.box_edge, "bold cyan")
-    cells[col(fig.q3)] = (glyphs.box_edge, "bold cyan")
-    cells[col(fig.median)] = (glyphs.median, "bold white")
+        cells[c] = (glyphs.box_fill, palette.BOX)
+    cells[col(fig.q1)] = (glyphs.box_edge, palette.BOX_EDGE)
+    cells[col(fig.q3)] = (glyphs.box_edge, palette.BOX_EDGE)
+    cells[col(fig.median)] = (glyphs.median, palette.MEDIAN)
     for v in outliers:
         cells[col(v)] = (glyphs.outlier, palette.SIGNAL)
     if lsl is not None:
