@@ -49,15 +49,17 @@ class Expansion:
     pseudo: set[str] = field(default_factory=set)  # pseudo file system roots not entered
     truncated: str | None = None  # "files" or "entries" when a limit was reached
     stopped: bool = False  # should_stop() said so before the end
+    max_matches: int = MAX_MATCHES  # the bounds this expansion ran under
+    max_visited: int = MAX_VISITED
 
     @property
     def bounded(self) -> str | None:
         """What was left out, in words; None when the expansion was complete."""
         said: list[str] = []
         if self.truncated == "files":
-            said.append(f"stopped at {MAX_MATCHES:,} matching files")
+            said.append(f"stopped at {self.max_matches:,} matching files")
         elif self.truncated == "entries":
-            said.append(f"stopped after looking at {MAX_VISITED:,} folder entries")
+            said.append(f"stopped after looking at {self.max_visited:,} folder entries")
         if self.pseudo:
             said.append(f"pseudo file systems not read: {', '.join(sorted(self.pseudo))}")
         if self.stopped:
@@ -75,10 +77,11 @@ def _matcher(part: str) -> Callable[[str], bool]:
     return lambda name: (hidden_ok or not name.startswith(".")) and rx.match(name) is not None
 
 
-def expand(pattern: str, should_stop: Callable[[], bool] | None = None) -> Expansion:
+def expand(pattern: str, should_stop: Callable[[], bool] | None = None,
+           max_matches: int = MAX_MATCHES, max_visited: int = MAX_VISITED) -> Expansion:
     """The existing paths `pattern` matches (files, folders and anything else; absolute,
     sorted), within the bounds above."""
-    out = Expansion()
+    out = Expansion(max_matches=max_matches, max_visited=max_visited)
     full = os.path.abspath(os.path.expanduser(pattern))
     if not glob.has_magic(full):  # one path named exactly: read wherever it is
         if os.path.lexists(full):
@@ -100,7 +103,7 @@ def expand(pattern: str, should_stop: Callable[[], bool] | None = None) -> Expan
                     if out.visited % _CHECK_EVERY == 1 and stop():
                         out.stopped = True
                         raise _Limit
-                    if out.visited > MAX_VISITED:
+                    if out.visited > max_visited:
                         out.truncated = "entries"
                         raise _Limit
                     if in_pseudo_fs(entry.path) is not None:
@@ -112,7 +115,7 @@ def expand(pattern: str, should_stop: Callable[[], bool] | None = None) -> Expan
 
     def add(path: str) -> None:
         found.append(path)
-        if len(found) >= MAX_MATCHES:
+        if len(found) >= max_matches:
             out.truncated = "files"
             raise _Limit
 

@@ -15,7 +15,6 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.feeds import patterns
 from linewatch.feeds.patterns import expand
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up
 
@@ -74,15 +73,11 @@ def test_expansion_matches_what_glob_matches(tree: Path, pattern: str) -> None:
     assert expand(full).paths == want
 
 
-def test_expansion_is_bounded_and_says_how(tree: Path, monkeypatch) -> None:
-    monkeypatch.setattr(patterns, "MAX_MATCHES", 2)
-    e = expand(str(tree / "**" / "*.csv"))
+def test_expansion_is_bounded_and_says_how(tree: Path) -> None:
+    e = expand(str(tree / "**" / "*.csv"), max_matches=2)
     assert len(e.paths) == 2 and "2 matching files" in (e.bounded or "")
-    monkeypatch.setattr(patterns, "MAX_MATCHES", 10_000)
-    monkeypatch.setattr(patterns, "MAX_VISITED", 5)
-    e = expand(str(tree / "**" / "*.csv"))
+    e = expand(str(tree / "**" / "*.csv"), max_visited=5)
     assert e.visited <= 6 and "5 folder entries" in (e.bounded or "")
-    monkeypatch.setattr(patterns, "MAX_VISITED", 200_000)
     e = expand("/proc/**")
     assert e.paths == [] and "/proc" in (e.bounded or "")
     assert expand("/**/*.csv", should_stop=lambda: True).stopped
