@@ -1,0 +1,112 @@
+"""Stepped limits (one centre, σ and pair of limits per point) and the standardised statistic.
+
+When subgroup sizes vary, every point has its own limits. The run rules are not rewritten for
+that: a point is turned into z = (statistic − centre) / σ of that point, and the z series is
+judged against centre 0, σ 1 and limits ±3 by the existing evaluators (`rules.py` for history,
+`stream.py` live), so zones step with the limits. For a chart with symmetric limits this is
+exact. A lower limit clipped at a natural bound (0 for a range, SD or count, 1 above for a
+proportion) never disagrees with ±3 either: the statistic cannot pass the bound, and the clipped
+side of ±3 lies beyond it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+import numpy as np
+
+from linewatch.engine.limits import ChartLimits
+from linewatch.engine.rulebook import RuleSpec
+from linewatch.engine.rules import classify, evaluate_classified
+from linewatch.engine.setup import limit_state
+
+Z_LIMIT = 3.0  # the limits of the standardised chart, in σ of the plotted statistic
+
+
+@dataclass(frozen=True, slots=True)
+class StepLimits:
+    """Per-point centre line, σ of the plotted statistic, and control limits (parallel arrays)."""
+
+    center: np.ndarray
+    sigma: np.ndarray
+    ucl: np.ndarray
+    lcl: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.center.shape[0])
+
+    @property
+    def varies(self) -> bool:
+        """Whether the limits step (differ between points)."""
+        return bool(len(self)) and bool(
+            np.any(self.ucl != self.ucl[0]) or np.any(self.lcl != self.lcl[0])
+            or np.any(self.center != self.center[0])
+        )
+
+    def point(self, i: int) -> tuple[float, float, float, float]:
+        """(centre, σ, UCL, LCL) of point `i`."""
+        return (float(self.center[i]), float(self.sigma[i]), float(self.ucl[i]),
+                float(self.lcl[i]))
+
+    def select(self, keep: np.ndarray) -> StepLimits:
+        """The limits of the points at positions (or mask) `keep`."""
+        return StepLimits(self.center[keep], self.sigma[keep], self.ucl[keep], self.lcl[keep])
+
+
+def symmetric_steps(center: np.ndarray, sigma: np.ndarray, lower: float = -np.inf,
+                    upper: float = np.inf) -> StepLimits:
+    """centre ± 3σ per point, each limit clipped to the statistic's natural range [lower, upper]."""
+    c = np.asarray(center, dtype=float)
+    s = np.asarray(sigma, dtype=float)
+    c, s = np.broadcast_arrays(c, s)
+    ucl = np.minimum(c + Z_LIMIT * s, upper)
+    lcl = np.maximum(c - Z_LIMIT * s, lower)
+    return StepLimits(c.copy(), s.copy(), ucl, lcl)
+
+
+def standardise(values: np.ndarray, steps: StepLimits) -> np.ndarray:
+    """z_i = (value_i − centre_i) / σ_i: the chart the run rules judge when limits step."""
+    z: np.ndarray = (np.asarray(values, dtype=float) - steps.center) / steps.sigma
+    return z
+
+
+def standard_point(value: float, center: float, sigma: float) -> float:
+    """z of one live point (the scalar twin of `standardise`)."""
+    return (value - center) / sigma
+
+
+def z_limits(chart: str) -> ChartLimits:
+    """The limits the standardised series of `chart` is judged against: centre 0, σ 1, ±3
+    (a dispersion chart keeps its name, so only its beyond-limits test applies)."""
+    return ChartLimits(chart, 0.0, Z_LIMIT, -Z_LIMIT, 1.0)
+
+
+@dataclass(frozen=True, slots=True)
+class SteppedSeries:
+    """One chart's plotted points with their sizes and per-point limits. `indices` are the
+    subgroup positions (a dispersion chart skips subgroups of one value, so they can jump);
+    `rows` the position of each subgroup's last value in the input."""
+
+    chart: str
+    values: np.ndarray
+    sizes: np.ndarray
+    indices: np.ndarray
+    rows: np.ndarray
+    limits: StepLimits
+
+    def __len__(self) -> int:
+        return int(self.values.shape[0])
+
+    def z(self) -> np.ndarray:
+        """The standardised points the run rules judge."""
+        return standardise(self.values, self.limits)
+
+
+def evaluate_stepped(series: SteppedSeries, specs: Iterable[RuleSpec]) -> dict[str, np.ndarray]:
+    """Where each rule fires on a chart with stepped limits: the existing evaluator over z_i
+    against centre 0, σ 1, ±3 (one bool per point, keyed by rule id)."""
+    z = series.z()
+    st = limit_state(z_limits(series.chart))
+    side, level = classify(z, st.center, st.sigma, st.ucl, st.lcl)
+    return {s.id: evaluate_classified(s, z, side, level) for s in specs}
