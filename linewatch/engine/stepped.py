@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 from dataclasses import dataclass
+from math import isfinite
 
 import numpy as np
 
@@ -22,6 +23,7 @@ from linewatch.engine.rules import classify, evaluate_classified
 from linewatch.engine.setup import limit_state
 
 Z_LIMIT = 3.0  # the limits of the standardised chart, in σ of the plotted statistic
+_ROUNDING = 8 * 2.220446049250313e-16  # a few units in the last place of each operand
 
 
 @dataclass(frozen=True, slots=True)
@@ -66,14 +68,29 @@ def symmetric_steps(center: np.ndarray, sigma: np.ndarray, lower: float = -np.in
 
 
 def standardise(values: np.ndarray, steps: StepLimits) -> np.ndarray:
-    """z_i = (value_i − centre_i) / σ_i: the chart the run rules judge when limits step."""
-    z: np.ndarray = (np.asarray(values, dtype=float) - steps.center) / steps.sigma
-    return z
+    """z_i = (value_i − centre_i) / σ_i: the chart the run rules judge when limits step.
+
+    A z within rounding error of a zone edge or limit (±1, ±2, ±3) is set to it, so a point
+    exactly on its limit (a count of 230 in 400 against 0.5 + 3·0.025) stays "on the limit, not
+    beyond" as the rules' convention says, whatever the last bit of the division."""
+    v = np.asarray(values, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        z = (v - steps.center) / steps.sigma
+        edge = np.round(z)
+        slack = _ROUNDING * ((np.abs(v) + np.abs(steps.center)) / steps.sigma + np.abs(z))
+        snap = (np.abs(edge) <= Z_LIMIT) & (np.abs(z - edge) <= slack)
+    out: np.ndarray = np.where(snap, edge, z)
+    return out
 
 
 def standard_point(value: float, center: float, sigma: float) -> float:
-    """z of one live point (the scalar twin of `standardise`)."""
-    return (value - center) / sigma
+    """z of one live point, edges snapped alike (the scalar twin of `standardise`)."""
+    z = (value - center) / sigma
+    if not isfinite(z):
+        return z
+    edge = round(z)
+    slack = _ROUNDING * ((abs(value) + abs(center)) / sigma + abs(z))
+    return float(edge) if abs(edge) <= Z_LIMIT and abs(z - edge) <= slack else z
 
 
 def z_limits(chart: str) -> ChartLimits:

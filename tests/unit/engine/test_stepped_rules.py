@@ -10,6 +10,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from linewatch.engine.attribute_charts import attribute_chart, given_attribute
 from linewatch.engine.batch import analyse_history
 from linewatch.engine.rulebook import RULES, resolve_rules
 from linewatch.engine.rules import evaluate
@@ -31,13 +32,15 @@ BEYOND_ONLY = tuple(s for s in ALL if s.kind == "beyond")
 
 @settings(max_examples=300, deadline=None)
 @given(
-    st.lists(st.floats(-1e6, 1e6, allow_nan=False), max_size=120),
+    st.lists(st.integers(-10**6, 10**6), max_size=120),
     st.integers(-4, 4),
     st.booleans(),
 )
 def test_standardised_firings_equal_the_fixed_limit_firings_for_any_series(values, power, asym):
-    # centre 0 and σ a power of two: z = x/σ is exact, so any disagreement would be the method's
-    x = np.array(values, dtype=float)
+    # values on a grid of 1/64 that meets the zone edges and limits exactly, centre 0 and σ a
+    # power of two: z = x/σ is exact, so any disagreement would be the method's (a value within
+    # rounding error of an edge counts as on it in the stepped path)
+    x = np.array(values, dtype=float) / 64.0
     sigma = 2.0**power
     steps = StepLimits(np.zeros(x.shape), np.full(x.shape, sigma), np.full(x.shape, 3 * sigma),
                        np.full(x.shape, -3 * sigma))
@@ -91,7 +94,9 @@ def test_constant_size_firings_equal_the_fixed_size_path_with_phase_one_x_bar_r(
 
 @settings(max_examples=150, deadline=None)
 @given(
-    st.lists(st.tuples(st.integers(1, 12), st.floats(-4, 4, allow_nan=False)), max_size=100),
+    st.lists(st.tuples(st.integers(1, 12), st.one_of(st.floats(-4, 4, allow_nan=False),
+                                                      st.sampled_from([-3.0, -2.0, 1.0, 3.0]))),
+             max_size=100),
 )
 def test_the_live_twin_gives_the_history_firings_on_stepped_limits(points):
     sizes = np.array([n for n, _ in points], dtype=np.int64)
@@ -105,3 +110,15 @@ def test_the_live_twin_gives_the_history_firings_on_stepped_limits(points):
         center, sigma, _, _ = series.limits.point(i)
         fired = set(live.push(standard_point(value, center, sigma)))
         assert fired == {rule for rule, flags in expected.items() if flags[i]}
+
+
+def test_a_point_exactly_on_its_limit_is_not_beyond_it():
+    # 230 of 400 against p̄ = 0.5 is 0.575 = 0.5 + 3·√(0.25/400) exactly; the float division
+    # puts z a few units in the last place away from 3
+    chart = attribute_chart("p", np.array([230, 170]), np.array([400, 400]),
+                            given_attribute("p", 0.5))
+    raw = (chart.values - chart.limits.center) / chart.limits.sigma
+    assert raw[0] != 3.0
+    assert chart.z().tolist() == [3.0, -3.0]
+    assert not evaluate_stepped(chart, BEYOND_ONLY)["n1"].any()
+    assert standard_point(float(chart.values[0]), 0.5, float(chart.limits.sigma[0])) == 3.0
