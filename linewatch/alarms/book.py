@@ -336,20 +336,20 @@ class AlarmBook:
             count = self.store.alarms.raised_since(now - window)
             state = self.flood()
             if state is None and count > limit:
-                self.store.set_meta(FLOOD_KEY, json.dumps({"since": now, "count": count,
+                self.store.meta.set(FLOOD_KEY, json.dumps({"since": now, "count": count,
                                                            "peak": count}))
                 self.store.audit.append("flood-started", "alarms",
                                         {"count": count, "window": window, "limit": limit},
                                         at=now, actor=SYSTEM_ACTOR)
                 events.append(AlarmEvent("flood-started", None))
             elif state is not None and count <= limit:
-                self.store.set_meta(FLOOD_KEY, "")
+                self.store.meta.set(FLOOD_KEY, "")
                 self.store.audit.append("flood-ended", "alarms",
                                         {"since": state.since, "peak": state.peak},
                                         at=now, actor=SYSTEM_ACTOR)
                 events.append(AlarmEvent("flood-ended", None))
             elif state is not None and (count != state.count):
-                self.store.set_meta(FLOOD_KEY, json.dumps(
+                self.store.meta.set(FLOOD_KEY, json.dumps(
                     {"since": state.since, "count": count, "peak": max(count, state.peak)}))
         return events
 
@@ -359,7 +359,7 @@ class AlarmBook:
 
     def flood(self) -> Flood | None:
         """The flood going on now (as the collector last judged it), or None."""
-        raw = self.store.get_meta(FLOOD_KEY)
+        raw = self.store.meta.get(FLOOD_KEY)
         if not raw:
             return None
         d = json.loads(raw)

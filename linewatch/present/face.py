@@ -29,12 +29,8 @@ class MonitorFace:
         self._lock = threading.Lock()
 
     def _characteristics(self) -> list[CharacteristicConfig]:
-        known = dict(self.monitor.char_configs)
-        if not self.monitor.plan.characteristics:
-            for name in self.store.history.characteristics_with_points():
-                if name not in known:
-                    known[name] = self.monitor.plan.discovered(name)
-        return list(known.values())
+        return self.monitor.characteristics.including(
+            self.store.history.characteristics_with_points)
 
     # -- SnapshotSource --
     def snapshot(self) -> LineSnapshot:

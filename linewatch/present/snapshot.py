@@ -153,9 +153,8 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
                                   [r.value for r in recs[-RESOLUTION_READINGS:]])
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
-    from linewatch.pipeline.monitor import LIMITS_REFUSED
 
-    v.limits_refused = store.get_meta(LIMITS_REFUSED.format(name=c.name)) or ""
+    v.limits_refused = store.ingest.limits_refused(c.name)
     if not limits_hist and not v.limits_refused:  # (refused: more points cannot help)
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
     # the label follows the condition (the gauge recovered), not the unacknowledged alarm
@@ -166,25 +165,8 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
 
 def _pending_phase(store: Store, name: str, limits_hist: list[LimitsRecord]) -> int | None:
     """Where a new phase asked for starts, while its limits are not in yet (else None)."""
-    import json
-
-    from linewatch.pipeline.monitor import BASELINE_REQUEST, PHASE_REQUEST
-
-    rows = store.meta_starting(PHASE_REQUEST.format(name=name, phase=""))
-    asked = store.get_meta(BASELINE_REQUEST + name)
-    if asked is not None:
-        rows.insert(0, (BASELINE_REQUEST + name, asked))
     newest_phase = max((r.limits.phase for r in limits_hist), default=0)
-    for key, value in rows:
-        if not value:
-            continue
-        request = json.loads(value)
-        if key == BASELINE_REQUEST + name:
-            return int(request["start"])  # not yet taken up by the collector
-        phase = int(key.rsplit(":", 1)[1])
-        if phase > newest_phase and "start" in request:
-            return int(request["start"])
-    return None
+    return store.requests.waiting_start(name, newest_phase)
 
 
 def _seconds_per_point(recs: list[PointRecord], n: int) -> float | None:
@@ -256,11 +238,11 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         fv.notes = [e.detail for k, e in enumerate(mine)
                     if e.kind in ("warning", "no-header", "skipped", "bounded")
                     and not (e.kind == "no-header" and k < headed)][-3:]
-        fv.unread = int(store.get_meta(f"unread-lines:{path}") or 0)  # (monitor.py keeps it)
+        fv.unread = store.ingest.unread_lines(path)
         fv.rejected += fv.unread
-        counts = store.get_meta(f"time-stamps:{path}")  # kept by the collector (monitor.py)
+        counts = store.ingest.time_counts(path)
         if counts:
-            fv.times_backwards, fv.times_unreadable = (int(x) for x in counts.split(","))
+            fv.times_backwards, fv.times_unreadable = counts
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting", "skipped", "bounded")]

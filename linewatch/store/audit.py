@@ -197,11 +197,7 @@ class AuditTrail:
                 "key_id) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (seq, at, actor, action, subject, body, prev, digest, self.key_id),
             )
-            conn.execute(
-                "INSERT INTO meta (key, value) VALUES (?, ?) "
-                "ON CONFLICT (key) DO UPDATE SET value = excluded.value",
-                (_HEAD_KEY, f"{seq}:{digest}"),
-            )
+            self.store.meta.set(_HEAD_KEY, f"{seq}:{digest}")
         return AuditEntry(seq, at, actor, action, subject, body, prev, digest, self.key_id)
 
     def entries(self, since: float | None = None) -> list[AuditEntry]:
@@ -219,7 +215,7 @@ class AuditTrail:
         rewritten after an anchor was made. The verdict says which checks could be made."""
         with self.store.snapshot():  # entries and head from one commit, whoever writes now
             entries = self.entries()
-            head = self.store.get_meta(_HEAD_KEY)
+            head = self.store.meta.get(_HEAD_KEY)
         prev = GENESIS
         expected_seq = 1
         count = 0

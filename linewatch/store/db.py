@@ -29,7 +29,9 @@ if TYPE_CHECKING:
     from linewatch.store.alarm_rows import AlarmRows
     from linewatch.store.audit import AuditTrail
     from linewatch.store.ingest import IngestState
+    from linewatch.store.meta import Meta
     from linewatch.store.points import History
+    from linewatch.store.requests import BaselineRequests
 
 DB_NAME = "linewatch.db"
 BUSY_TIMEOUT_MS = 10_000
@@ -184,28 +186,7 @@ class Store:
         a snapshot source compares it about once a second to know when to rebuild."""
         return (self.data_version(), self._commits)
 
-    # -- metadata ---------------------------------------------------------------------------
-
-    def get_meta(self, key: str) -> str | None:
-        """A value of the key-value `meta` table."""
-        row = self.query("SELECT value FROM meta WHERE key = ?", (key,))
-        return row[0][0] if row else None
-
-    def meta_starting(self, prefix: str) -> list[tuple[str, str]]:
-        """(key, value) of the `meta` keys that begin with `prefix`, exactly (LIKE would read
-        a '_' or '%' in a characteristic's name as a wildcard, and ignore case)."""
-        rows = self.query("SELECT key, value FROM meta WHERE substr(key, 1, ?) = ? ORDER BY key",
-                          (len(prefix), prefix))
-        return [(r[0], r[1]) for r in rows]
-
-    def set_meta(self, key: str, value: str) -> None:
-        """Set a value of the key-value `meta` table."""
-        with self.transaction() as conn:
-            conn.execute(
-                "INSERT INTO meta (key, value) VALUES (?, ?) "
-                "ON CONFLICT (key) DO UPDATE SET value = excluded.value",
-                (key, value),
-            )
+    # -- migrations -------------------------------------------------------------------------
 
     @property
     def schema_version(self) -> int:
@@ -259,6 +240,20 @@ class Store:
         from linewatch.store.audit import AuditTrail
 
         return AuditTrail(self)
+
+    @cached_property
+    def requests(self) -> BaselineRequests:
+        """New-baseline requests, from any instance or the shell to the collector."""
+        from linewatch.store.requests import BaselineRequests
+
+        return BaselineRequests(self)
+
+    @cached_property
+    def meta(self) -> Meta:
+        """The few single values of the key-value `meta` table."""
+        from linewatch.store.meta import Meta
+
+        return Meta(self)
 
 
 def _is_busy(exc: sqlite3.OperationalError) -> bool:

@@ -179,4 +179,46 @@ MIGRATIONS: tuple[str, ...] = (
         PRIMARY KEY (characteristic, idx, chart, rule)
     ) WITHOUT ROWID;
     """,
+    # 9: new-baseline requests get a table of their own (they were `meta` keys named
+    # "baseline-request:<name>" and "phase-request:<name>:<phase>"). Requests not yet taken up
+    # are brought over as pending, carried-out ones as done with the phase they started (when
+    # they were asked is not known); the old keys go. A characteristic's name is the key
+    # between the prefix and, for a phase request, the last ':' (rtrim of the phase's digits).
+    """
+    CREATE TABLE baseline_requests (
+        id             INTEGER PRIMARY KEY,
+        characteristic TEXT NOT NULL,
+        start_index    INTEGER NOT NULL CHECK (start_index >= 0),
+        reason         TEXT NOT NULL,
+        actor          TEXT,
+        asked_at       REAL,
+        state          TEXT NOT NULL DEFAULT 'pending'
+                       CHECK (state IN ('pending', 'done', 'failed', 'replaced')),
+        phase          INTEGER,
+        settled_at     REAL,
+        problem        TEXT NOT NULL DEFAULT ''
+    );
+    CREATE INDEX baseline_requests_by_state ON baseline_requests (state, characteristic);
+    CREATE INDEX baseline_requests_by_phase ON baseline_requests (characteristic, phase);
+    INSERT INTO baseline_requests (characteristic, start_index, reason, actor, state, phase)
+        SELECT substr(rtrim(key, '0123456789'), 15, length(rtrim(key, '0123456789')) - 15),
+               json_extract(value, '$.start'), coalesce(json_extract(value, '$.reason'), ''),
+               json_extract(value, '$.actor'), 'done',
+               CAST(substr(key, length(rtrim(key, '0123456789')) + 1) AS INTEGER)
+        FROM meta
+        WHERE substr(key, 1, 14) = 'phase-request:' AND json_valid(value)
+              AND json_type(value, '$.start') = 'integer' AND json_extract(value, '$.start') >= 0
+              AND substr(key, length(rtrim(key, '0123456789')) + 1) != ''
+        ORDER BY key;
+    INSERT INTO baseline_requests (characteristic, start_index, reason, actor, state)
+        SELECT substr(key, 18), json_extract(value, '$.start'),
+               coalesce(json_extract(value, '$.reason'), ''), json_extract(value, '$.actor'),
+               'pending'
+        FROM meta
+        WHERE substr(key, 1, 17) = 'baseline-request:' AND json_valid(value)
+              AND json_type(value, '$.start') = 'integer' AND json_extract(value, '$.start') >= 0
+        ORDER BY key;
+    DELETE FROM meta
+        WHERE substr(key, 1, 14) = 'phase-request:' OR substr(key, 1, 17) = 'baseline-request:';
+    """,
 )

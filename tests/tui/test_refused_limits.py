@@ -14,7 +14,8 @@ from textual.widgets import DataTable, Static
 from linewatch.config.loading import parse_config
 from linewatch.faces.tui.app import LinewatchApp
 from linewatch.faces.tui.widgets.top_bar import TopBar
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present import view
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import wait_until

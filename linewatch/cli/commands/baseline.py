@@ -18,7 +18,6 @@ def run(args: argparse.Namespace) -> int:
     """Check the request against the store, then leave it for the collector."""
     from linewatch.alarms.book import AlarmBook
     from linewatch.cli.commands._store_args import open_existing
-    from linewatch.pipeline.monitor import request_new_baseline
 
     store, config = open_existing(args)
     try:
@@ -37,7 +36,7 @@ def run(args: argparse.Namespace) -> int:
                 f"--at {start}: {visible(name)} has plotted points 0..{plotted - 1}; "
                 f"a new phase can start at 0..{plotted} (--now: {plotted})"
             )
-        request_new_baseline(store, name, start, reason)
+        store.requests.ask(name, start, reason)
         print(f"new baseline for {visible(name)} from point {start} asked for; the collector "
               f"sets it on its next beat")
         return 0

@@ -21,12 +21,13 @@ from linewatch.config.selection import (
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.pipeline.monitor import Monitor, WatchPlan
+    from linewatch.pipeline.monitor import Monitor
+    from linewatch.pipeline.plan import WatchPlan
 
 
 def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
     """Feeds and characteristics from the config and the command line."""
-    from linewatch.pipeline.monitor import WatchPlan
+    from linewatch.pipeline.plan import WatchPlan
 
     feeds: list[FeedConfig] = [f for f in config.feeds]
     if args.patterns:

@@ -91,7 +91,8 @@ def test_the_screens_acknowledgements_are_signed_with_the_configured_key(tmp_pat
     import threading
 
     from linewatch.config.loading import parse_config
-    from linewatch.pipeline.monitor import Monitor, WatchPlan
+    from linewatch.pipeline.monitor import Monitor
+    from linewatch.pipeline.plan import WatchPlan
     from linewatch.present.face import MonitorFace
     from linewatch.store.audit import key_id_of
 

@@ -6,7 +6,8 @@ from __future__ import annotations
 import threading
 
 from linewatch.config.loading import DEFAULT_REASONS, parse_config
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import wait_until
 

@@ -11,7 +11,8 @@ import time
 import numpy as np
 
 from linewatch.config.loading import parse_config
-from linewatch.pipeline.monitor import Monitor, WatchPlan
+from linewatch.pipeline.monitor import Monitor
+from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace
 from tests.integration.watch.helpers import HEADER, rows_text, wait_until
 

@@ -2,7 +2,7 @@
 
 A 1.5σ shift held for 300 individuals, charted against known limits (center and σ given) with
 the Western Electric rules, goes through the real live engine and the alarm book the way the
-collector feeds them (`Monitor._process_values` / `_observe_judged`), in several chunkings.
+collector feeds them (`pipeline.collector.Collector`), in several chunkings.
 A trial with the earlier model measured 113 individuals-chart alarms and 19
 out-of-spec alarms for such a shift under the old model (one alarm per stretch of one rule); the
 old count here comes from that definition applied to this series' own firings. The series is a

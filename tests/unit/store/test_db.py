@@ -139,17 +139,6 @@ def test_another_process_commit_changes_data_version(tmp_path: Path) -> None:
         assert [e.event.kind for e in store.history.feed_events()] == ["x", "y"]
 
 
-def test_meta_keys_by_prefix_are_matched_exactly(tmp_path: Path) -> None:
-    """A characteristic called 'od_1' must not pick up requests for 'odx1' or 'OD_1' (SQLite's
-    LIKE would: '_' is its one-character wildcard and it ignores ASCII case, per its docs)."""
-    with Store(tmp_path / "s") as store:
-        for key in ("phase-request:od_1:1", "phase-request:odx1:1", "phase-request:OD_1:2",
-                    "phase-request:od_1:2", "baseline-request:od_1"):
-            store.set_meta(key, "x")
-        assert [k for k, _ in store.meta_starting("phase-request:od_1:")] == [
-            "phase-request:od_1:1", "phase-request:od_1:2"]
-
-
 _OPEN_AT = """
 import sys, time
 from linewatch.store.db import Store
