@@ -58,8 +58,7 @@ class AttributeModel:
                 sigma = np.sqrt(c * (1.0 - c) / n) * self.sigma_z
                 return symmetric_steps(np.full(n.shape, c), sigma, 0.0, 1.0)
             case "np":
-                s = sqrt(n[0] * c * (1.0 - c)) if n.shape[0] else 0.0
-                return symmetric_steps(n * c, np.full(n.shape, s), 0.0, float(self.size or 0))
+                return symmetric_steps(n * c, np.sqrt(n * c * (1.0 - c)), 0.0, n)
             case "c":
                 return symmetric_steps(np.full(n.shape, c), np.full(n.shape, sqrt(c)), 0.0)
             case "u" | "laney-u":

@@ -57,8 +57,9 @@ class StepLimits:
 
 
 def symmetric_steps(center: np.ndarray, sigma: np.ndarray, lower: float = -np.inf,
-                    upper: float = np.inf) -> StepLimits:
-    """centre ± 3σ per point, each limit clipped to the statistic's natural range [lower, upper]."""
+                    upper: float | np.ndarray = np.inf) -> StepLimits:
+    """centre ± 3σ per point, each limit clipped to the statistic's natural range [lower, upper]
+    (`upper` may differ per point: an np chart's count cannot pass its n)."""
     c = np.asarray(center, dtype=float)
     s = np.asarray(sigma, dtype=float)
     c, s = np.broadcast_arrays(c, s)

@@ -84,3 +84,41 @@ def subgroup_stats_of(groups: Sequence[Sequence[float] | np.ndarray]) -> Subgrou
     sizes = np.array([len(g) for g in groups], dtype=np.int64)
     flat = np.concatenate([np.asarray(g, dtype=float) for g in groups]) if groups else np.zeros(0)
     return subgroup_stats(flat, sizes)
+
+
+def window_labels(times: np.ndarray, width: float, offset: float = 0.0) -> np.ndarray:
+    """The clock window each time stamp falls in: floor((t + offset) / width), windows aligned
+    to multiples of `width` seconds (`offset`: the local clock's seconds east of UTC, so a
+    15-minute or hourly window starts on the wall clock's quarter or hour). Rows of one window
+    in a row form one subgroup (`sizes_from_labels`)."""
+    if not width > 0:
+        raise ValueError(f"a window must be longer than 0 seconds, got {width}")
+    labels: np.ndarray = np.floor((np.asarray(times, dtype=float) + offset) / width)
+    return labels
+
+
+def totals_per_subgroup(values: np.ndarray, sizes: np.ndarray) -> np.ndarray:
+    """Sum of each subgroup's values: failures of one-row-per-part results (True counts 1), or
+    the counts and sizes of several count rows that share a subgroup."""
+    n = np.asarray(sizes, dtype=np.int64)
+    x = np.asarray(values, dtype=float)
+    if int(n.sum()) != x.shape[0]:
+        raise ChartDataError(f"subgroup sizes add up to {int(n.sum())}, not {x.shape[0]} values")
+    if n.shape[0] == 0:
+        return np.zeros(0)
+    totals: np.ndarray = np.add.reduceat(x, np.concatenate(([0], np.cumsum(n)[:-1])))
+    return totals
+
+
+def split_on_gaps(labels: Sequence[object] | np.ndarray, times: np.ndarray,
+                  timeout: float) -> np.ndarray:
+    """Run numbers that change where the label changes or where more than `timeout` seconds
+    pass between consecutive rows (the batch twin of a live subgroup closed by its timeout);
+    `sizes_from_labels` of them gives the subgroup sizes."""
+    arr = np.asarray(labels, dtype=object)
+    t = np.asarray(times, dtype=float)
+    if arr.shape[0] == 0:
+        return np.zeros(0, dtype=np.int64)
+    breaks = (arr[1:] != arr[:-1]) | (np.diff(t) > timeout)
+    runs: np.ndarray = np.concatenate(([0], np.cumsum(breaks))).astype(np.int64)
+    return runs

@@ -193,3 +193,13 @@ def test_standardised_beyond_test_equals_each_points_own_limits(points, p_bar):
     flags = evaluate_stepped(chart, tuple(resolve_rules(list(RULES))))
     direct = (chart.values > chart.limits.ucl) | (chart.values < chart.limits.lcl)
     assert flags["n1"].tolist() == direct.tolist()
+
+
+def test_np_chart_with_a_known_proportion_is_clipped_only_at_its_n():
+    # n·p ± 3√(n·p(1 − p)) = 10 ± 9 for n = 100, p = 0.1
+    chart = attribute_chart("np", np.array([4, 20]), np.full(2, 100), given_attribute("np", 0.1))
+    assert chart.limits.ucl.tolist() == pytest.approx([19.0, 19.0])
+    assert chart.limits.lcl.tolist() == pytest.approx([1.0, 1.0])
+    assert _beyond(chart) == [2]
+    small = attribute_chart("np", np.array([1]), np.array([2]), given_attribute("np", 0.5))
+    assert small.limits.ucl.tolist() == [2.0]  # 1 + 3·0.707 is more than the 2 units inspected

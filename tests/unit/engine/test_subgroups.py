@@ -12,7 +12,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from linewatch.domain.errors import ChartDataError
-from linewatch.engine.subgroups import sizes_from_labels, subgroup_stats, subgroup_stats_of
+from linewatch.engine.subgroups import (
+    sizes_from_labels,
+    subgroup_stats,
+    subgroup_stats_of,
+    totals_per_subgroup,
+)
 
 groups = st.lists(
     st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=1, max_size=25),
@@ -52,3 +57,10 @@ def test_sizes_outside_1_to_25_and_a_wrong_total_are_refused_with_the_subgroup_n
 def test_varies_says_whether_the_sizes_differ():
     assert not subgroup_stats(np.arange(10.0), np.array([5, 5])).varies
     assert subgroup_stats(np.arange(9.0), np.array([5, 4])).varies
+
+
+def test_totals_per_subgroup_count_failures_of_one_row_per_part():
+    fails = np.array([False, True, False, True, True, False, False])
+    assert totals_per_subgroup(fails, np.array([3, 4])).tolist() == [1.0, 2.0]
+    with pytest.raises(ChartDataError):
+        totals_per_subgroup(fails, np.array([3, 3]))
