@@ -40,6 +40,7 @@ from linewatch.engine.subgroups import SubgroupStats
 
 SOURCE_BASELINE = "baseline"
 SOURCE_GIVEN = "given"
+_D2_BY_SIZE = np.array([np.nan] * k.MIN_N + [k.d2(n) for n in range(k.MIN_N, k.MAX_N + 1)])
 
 
 @dataclass(frozen=True, slots=True)
@@ -110,7 +111,7 @@ def estimate_model(stats: SubgroupStats, dispersion: str, baseline: int | None =
     with np.errstate(all="ignore"):
         center = float(np.sum(n * stats.means[:b]) / np.sum(n))
         if dispersion == "range":
-            d2 = np.array([k.d2(int(s)) for s in n[multi].tolist()])
+            d2 = _D2_BY_SIZE[n[multi]]
             sigma = float(np.mean(stats.ranges[:b][multi] / d2))
         else:
             nm = n[multi]
