@@ -23,7 +23,7 @@ from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
-from linewatch.config.loading import (
+from linewatch.config.model import (
     DEFAULT_FLOOD_ALARMS,
     DEFAULT_FLOOD_WINDOW,
     DEFAULT_PRIORITIES,
@@ -42,7 +42,7 @@ from linewatch.store.actor import Actor, who
 from linewatch.store.alarm_rows import AlarmRecord
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.db import Store
 
 OUT_OF_SPEC = "out-of-spec"

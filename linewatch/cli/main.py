@@ -1,5 +1,7 @@
-"""Command line: argument parsing only. Each subcommand's work lives in `linewatch.cli.commands.*`,
-imported lazily so that `linewatch --help` and `linewatch check` start quickly."""
+"""Command line: the argument parser and the dispatcher. The parsed arguments become the
+command's typed options (`cli.options`) here and nowhere else; each subcommand's work lives in
+`linewatch.cli.commands.*`, imported lazily so that `linewatch --help` and `linewatch check`
+start quickly. The parser declares no defaults: the options records do."""
 
 from __future__ import annotations
 
@@ -7,7 +9,15 @@ import argparse
 import importlib
 import sys
 from collections.abc import Sequence
+from typing import Any
 
+from linewatch.config.choices import (
+    DECIMAL_MARKS,
+    DISPERSIONS,
+    EXPORT_FORMATS,
+    RECORD_FORMATS,
+    REPORT_FORMATS,
+)
 from linewatch.domain import exit_codes
 
 
@@ -17,7 +27,7 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--column",
         action="append",
-        default=[],
+        dest="columns",
         metavar="NAME",
         help="characteristic column to chart (repeatable; default: every numeric column)",
     )
@@ -42,14 +52,14 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--dispersion",
-        choices=("range", "stdev"),
+        choices=DISPERSIONS,
         help="dispersion chart for subgroups (default: range for n<=9, stdev for n>=10)",
     )
     p.add_argument("--lsl", type=float, metavar="X", help="lower specification limit")
     p.add_argument("--usl", type=float, metavar="X", help="upper specification limit")
     p.add_argument(
         "--decimal",
-        choices=(".", ","),
+        choices=DECIMAL_MARKS,
         help="decimal mark (default: ',' when the delimiter is ';', else '.')",
     )
 
@@ -84,7 +94,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("logs", nargs="+", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
     _add_chart_options(p)
-    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+    p.add_argument("--format", choices=RECORD_FORMATS,
                    help="text for people (default) or one JSON record a line")
 
     p = sub.add_parser(
@@ -106,7 +116,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument(
         "--no-ui", action="store_true", help="print events instead of opening the screen"
     )
-    p.add_argument("--format", choices=("text", "jsonl"), default="text",
+    p.add_argument("--format", choices=RECORD_FORMATS,
                    help="text for people (default) or one JSON record a line")
     p.add_argument("--no-bell", action="store_true", help="no terminal bell on new alarms")
     p.add_argument("--clear-after", type=int, metavar="N",
@@ -117,7 +127,7 @@ def build_parser() -> argparse.ArgumentParser:
     asub = alarms.add_subparsers(dest="alarms_command", metavar="ACTION", required=True)
     a = asub.add_parser("list", help="open alarms (all with --all)")
     a.add_argument("--all", action="store_true", help="include closed alarms")
-    a.add_argument("--format", choices=("text", "jsonl"), default="text",
+    a.add_argument("--format", choices=RECORD_FORMATS,
                    help="a table for people (default) or one JSON record a line")
     _add_state_dir(a)
     a = asub.add_parser("ack", help="acknowledge alarms with a reason")
@@ -127,7 +137,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     a.add_argument("--reason", required=True, metavar="TEXT",
                    help="why it happened: one of the reasons, or its number in the list")
-    a.add_argument("--note", default="", metavar="TEXT",
+    a.add_argument("--note", metavar="TEXT",
                    help="what was seen or done (optional)")
     _add_state_dir(a)
     a = asub.add_parser(
@@ -157,7 +167,7 @@ def build_parser() -> argparse.ArgumentParser:
     audit = sub.add_parser("audit", help="verify or export the tamper-evident audit trail")
     usub = audit.add_subparsers(dest="audit_command", metavar="ACTION", required=True)
     u = usub.add_parser("verify", help="check the hash chain; name the first broken entry")
-    u.add_argument("--anchor", action="append", default=[], metavar="FILE",
+    u.add_argument("--anchor", action="append", metavar="FILE",
                    help="an anchor file or a shift report holding the trail's head, to check "
                         "the trail still holds what it held then (repeatable; the config's "
                         "monitor.audit_anchor_file is always read too)")
@@ -167,7 +177,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
-    u.add_argument("--format", choices=("csv", "jsonl"), default="jsonl",
+    u.add_argument("--format", choices=EXPORT_FORMATS,
                    help="JSON lines (default) or CSV")
     _add_state_dir(u)
 
@@ -176,7 +186,7 @@ def build_parser() -> argparse.ArgumentParser:
     when.add_argument("--since", metavar="DURATION", help="the last DURATION (default 8h)")
     when.add_argument("--from", dest="from_", metavar="WHEN", help="start (ISO date/time)")
     p.add_argument("--to", metavar="WHEN", help="end (ISO date/time; default now)")
-    p.add_argument("--format", choices=("markdown", "html", "csv"), default="markdown",
+    p.add_argument("--format", choices=REPORT_FORMATS,
                    help="Markdown (default), one HTML file with charts, or CSV")
     p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
     _add_state_dir(p)
@@ -184,33 +194,75 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("simulate", help="write invented measurement logs with special causes")
     p.add_argument("--out", required=True, metavar="DIR",
                    help="folder for the logs (made if missing; logs already there are continued)")
-    p.add_argument("--rate", type=float, default=5.0, metavar="ROWS_PER_S",
+    p.add_argument("--rate", type=float, metavar="ROWS_PER_S",
                    help="rows per second of the fastest gauge (default 5)")
-    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+    p.add_argument("--speed", type=float, metavar="FACTOR",
                    help="run the line's clock this many times faster than real time (default 1)")
-    p.add_argument("--seed", type=int, default=1, metavar="N",
+    p.add_argument("--seed", type=int, metavar="N",
                    help="random seed: the same seed writes the same values (default 1)")
     p.add_argument("--duration", metavar="DURATION", help="stop after this long (default: forever)")
 
     p = sub.add_parser("demo", help="open the screen on a simulated line (no setup needed)")
     p.add_argument("--keep", action="store_true", help="keep the temporary folder on exit")
-    p.add_argument("--seed", type=int, default=1, metavar="N",
+    p.add_argument("--seed", type=int, metavar="N",
                    help="random seed of the simulated line (default 1)")
-    p.add_argument("--speed", type=float, default=1.0, metavar="FACTOR",
+    p.add_argument("--speed", type=float, metavar="FACTOR",
                    help="run the simulated line this many times faster than real time (default 1)")
     return parser
 
 
-_COMMANDS = {
-    "check": "linewatch.cli.commands.check",
-    "watch": "linewatch.cli.commands.watch",
-    "alarms": "linewatch.cli.commands.alarms",
-    "audit": "linewatch.cli.commands.audit",
-    "report": "linewatch.cli.commands.report",
-    "simulate": "linewatch.cli.commands.simulate",
-    "demo": "linewatch.cli.commands.demo",
-    "baseline": "linewatch.cli.commands.baseline",
+# (command, action) -> (the module whose run() does it, the name of its options record)
+COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
+    (None, None): ("linewatch.cli.commands.default", "DefaultOptions"),
+    ("check", None): ("linewatch.cli.commands.check", "CheckOptions"),
+    ("watch", None): ("linewatch.cli.commands.watch", "WatchOptions"),
+    ("alarms", "list"): ("linewatch.cli.commands.alarms", "AlarmListOptions"),
+    ("alarms", "ack"): ("linewatch.cli.commands.alarms", "AckOptions"),
+    ("alarms", "shelve"): ("linewatch.cli.commands.alarms", "ShelveOptions"),
+    ("alarms", "unshelve"): ("linewatch.cli.commands.alarms", "UnshelveOptions"),
+    ("baseline", None): ("linewatch.cli.commands.baseline", "BaselineOptions"),
+    ("audit", "verify"): ("linewatch.cli.commands.audit", "VerifyOptions"),
+    ("audit", "export"): ("linewatch.cli.commands.audit", "ExportOptions"),
+    ("report", None): ("linewatch.cli.commands.report", "ReportOptions"),
+    ("simulate", None): ("linewatch.cli.commands.simulate", "SimulateOptions"),
+    ("demo", None): ("linewatch.cli.commands.demo", "DemoOptions"),
 }
+SELECTORS = ("command", "alarms_command", "audit_command")  # which command, not its options
+
+
+def command_of(args: argparse.Namespace) -> tuple[str | None, str | None]:
+    """The (command, action) the parsed arguments chose."""
+    command = args.command
+    action = getattr(args, f"{command}_command", None) if command else None
+    return command, action
+
+
+def options_from(args: argparse.Namespace) -> Any:
+    """The chosen command's options record, built from the parsed arguments: a destination
+    left at None (not given) takes the record's default; lists become tuples; a nested record
+    (the chart overrides) is filled from the same destinations."""
+    from linewatch.cli import options
+
+    _module, record = COMMANDS[command_of(args)]
+    return build_record(getattr(options, record), vars(args))
+
+
+def build_record(cls: type[Any], given: dict[str, Any]) -> Any:
+    """`cls` made from the parsed values in `given` by field name (see `options_from`)."""
+    import dataclasses
+    from typing import get_type_hints
+
+    hints = get_type_hints(cls)
+    values: dict[str, Any] = {}
+    for f in dataclasses.fields(cls):
+        kind = hints[f.name]
+        if isinstance(kind, type) and dataclasses.is_dataclass(kind):
+            values[f.name] = build_record(kind, given)
+            continue
+        value = given.get(f.name)
+        if value is not None:
+            values[f.name] = tuple(value) if isinstance(value, list) else value
+    return cls(**values)
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -236,11 +288,9 @@ def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
-        if args.command is None:
-            module = importlib.import_module("linewatch.cli.commands.default")
-        else:
-            module = importlib.import_module(_COMMANDS[args.command])
-        return int(module.run(args) or 0)
+        options = options_from(args)  # chart options are checked here, before any file is read
+        module = importlib.import_module(COMMANDS[command_of(args)][0])
+        return int(module.run(options) or 0)
     except (Exception, KeyboardInterrupt) as exc:
         code, line = exit_code_for(exc)
         if line is not None:

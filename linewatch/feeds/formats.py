@@ -50,7 +50,7 @@ from typing import Any, overload
 
 import numpy as np
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.records import MAX_MAGNITUDE, Notice, Rejected
 
@@ -310,7 +310,7 @@ class RowParser:
     def reset(self) -> None:
         """Forget the header: the file starts again (truncated, replaced, new file)."""
         self.header: tuple[str, ...] | None = None
-        self.delimiter = "," if self.feed.delimiter == "auto" else self.feed.delimiter
+        self.delimiter: str = "," if self.feed.delimiter == "auto" else self.feed.delimiter
         self.time_idx: int | None = None
         self.time_key: str | None = None
         # wide CSV / JSON: (characteristic, field index or key); None until decided

@@ -37,7 +37,7 @@ import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.records import FeedEvent, FileState
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
 from linewatch.feeds.patterns import Expansion, expand

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from linewatch.alarms.book import AlarmBook, AlarmEvent
     from linewatch.alarms.hooks import HookOutcome, HookRunner
-    from linewatch.config.loading import AlarmConfig
+    from linewatch.config.model import AlarmConfig
     from linewatch.store.db import Store
 
 Emit = Callable[[dict[str, Any]], None]

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, cast
 
 from linewatch.alarms.book import SYSTEM_ACTOR, AlarmBook, AlarmEvent
-from linewatch.config.loading import CharacteristicConfig
+from linewatch.config.model import CharacteristicConfig
 from linewatch.config.selection import chart_setup
 from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
 from linewatch.domain.records import FeedEvent, Limits

@@ -23,7 +23,7 @@ from linewatch.pipeline.plan import Characteristics
 from linewatch.pipeline.roles import RoleLoop
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import CharacteristicConfig
+    from linewatch.config.model import CharacteristicConfig
     from linewatch.pipeline.plan import WatchPlan
     from linewatch.store.anchors import Anchorer
 

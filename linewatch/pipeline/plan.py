@@ -12,7 +12,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 
-from linewatch.config.loading import CharacteristicConfig, Config, FeedConfig
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 
 
 @dataclass(slots=True)

@@ -9,7 +9,7 @@ import threading
 import time
 from collections.abc import Callable
 
-from linewatch.config.loading import CharacteristicConfig
+from linewatch.config.model import CharacteristicConfig
 from linewatch.pipeline.monitor import Monitor
 from linewatch.present.view import CharacteristicView, LineSnapshot
 

@@ -37,7 +37,7 @@ from linewatch.present.view import (
 
 if TYPE_CHECKING:
     from linewatch.alarms.book import AlarmBook
-    from linewatch.config.loading import CharacteristicConfig
+    from linewatch.config.model import CharacteristicConfig
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.db import Store
     from linewatch.store.points import LimitsRecord, PointRecord

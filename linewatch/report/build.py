@@ -19,7 +19,7 @@ from linewatch.domain.records import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHAR
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.report.alarm_performance import AlarmPerformance, Episode
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.audit import Verdict
@@ -322,7 +322,7 @@ def build_report(
 ) -> ShiftReport:
     """Gather the report of [since, until) from `store` (nothing is written)."""
     from linewatch.alarms.book import AlarmBook, rule_summary
-    from linewatch.config.loading import DEFAULT_FLOOD_ALARMS, DEFAULT_FLOOD_WINDOW
+    from linewatch.config.model import DEFAULT_FLOOD_ALARMS, DEFAULT_FLOOD_WINDOW
     from linewatch.engine.summary import summarize
     from linewatch.report.alarm_performance import (
         alarm_performance,

@@ -28,12 +28,13 @@ from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar
 from urllib.parse import quote, unquote
 
+from linewatch.config.syslog_target import LOCAL_SYSLOG, parse_syslog_target
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
     import logging.handlers
 
-    from linewatch.config.loading import MonitorConfig
+    from linewatch.config.model import MonitorConfig
     from linewatch.store.db import Store
 
 MARK = "linewatch-audit-anchor v1"
@@ -97,31 +98,6 @@ def append_anchor(path: str | Path, line: str) -> None:
 
 
 SYSLOG_IDENT = "linewatch-audit"  # the syslog tag of anchor messages (facility user, notice)
-LOCAL_SYSLOG = "/dev/log"
-
-
-def parse_syslog_target(text: str) -> str | tuple[str, int]:
-    """Where `audit_anchor_syslog` sends: "local" (the daemon's /dev/log), an absolute path
-    to a Unix socket, or HOST:PORT (IPv6 as [ADDR]:PORT) over UDP. ValueError says why not."""
-    t = text.strip()
-    if t == "local":
-        return LOCAL_SYSLOG
-    if t.startswith("/"):
-        return t
-    m = re.fullmatch(
-        r"\[(?P<v6>[0-9A-Fa-f:.]+)\]:(?P<port>\d+)|(?P<host>[^\s:\[\]/]+):(?P<p>\d+)", t
-    )
-    if not m:
-        raise ValueError(
-            f"{text!r} is not a syslog destination: use \"local\" (/dev/log), the path of a "
-            "Unix socket, or HOST:PORT for UDP (e.g. \"loghost.plant:514\")"
-        )
-    port = int(m["port"] or m["p"])
-    if not 0 < port < 65536:
-        raise ValueError(f"{text!r}: the port must be 1 to 65535")
-    return (m["v6"] or m["host"], port)
-
-
 class SyslogAnchors:
     """Sends anchor lines to syslog through the standard library's SysLogHandler (RFC 3164
     framing: `<13>linewatch-audit: LINE`, facility user, severity notice). The socket is

@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 from linewatch.domain.records import FeedEvent, Limits
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import CharacteristicConfig
+    from linewatch.config.model import CharacteristicConfig
     from linewatch.store.db import Store
 
 KEEP_SECONDS = 7 * 86400.0

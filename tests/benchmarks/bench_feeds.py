@@ -22,7 +22,7 @@ import threading
 import time
 from pathlib import Path
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import read_log
 from linewatch.feeds.tailer import Tailer
 from linewatch.feeds.watcher import Waker
@@ -51,7 +51,7 @@ def bench_read_log(folder: Path, rows: int) -> None:
     best = min(_timed(lambda: read_log(str(log), feed)) for _ in range(3))
     code = (
         "import resource, sys\n"
-        "from linewatch.config.loading import FeedConfig\n"
+        "from linewatch.config.model import FeedConfig\n"
         "from linewatch.feeds.formats import read_log\n"
         "read_log(sys.argv[1], FeedConfig(paths=[]))\n"
         "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"

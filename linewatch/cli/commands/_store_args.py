@@ -2,24 +2,24 @@
 
 from __future__ import annotations
 
-import argparse
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.cli.options import StoreOptions
+    from linewatch.config.model import Config
     from linewatch.store.db import Store
 
 
-def open_existing(args: argparse.Namespace) -> tuple[Store, Config | None]:
+def open_existing(options: StoreOptions) -> tuple[Store, Config | None]:
     """The store named by --state-dir (or the config's), never created by a shell command."""
     from linewatch.runtime.statedir import open_store, resolve_state_dir
 
     config = None
-    if getattr(args, "config", None):
+    if options.config:
         from linewatch.config.loading import load_config
 
-        config = load_config(args.config)
-    directory = resolve_state_dir(getattr(args, "state_dir", None), config)
+        config = load_config(options.config)
+    directory = resolve_state_dir(options.state_dir, config)
     store = open_store(directory, create=False)
     if config is not None:  # its audit key signs what this command writes
         from linewatch.store.anchors import configure_audit

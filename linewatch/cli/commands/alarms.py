@@ -6,10 +6,16 @@ changes nothing and exits 2 with a one-line message.
 
 from __future__ import annotations
 
-import argparse
 import sys
 from typing import TYPE_CHECKING
 
+from linewatch.cli.options import (
+    AckOptions,
+    AlarmListOptions,
+    AlarmsOptions,
+    ShelveOptions,
+    UnshelveOptions,
+)
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.safe_text import visible
 
@@ -17,31 +23,30 @@ if TYPE_CHECKING:
     from linewatch.alarms.book import AlarmBook
 
 
-def run(args: argparse.Namespace) -> int:
-    """Dispatch to the chosen action; returns the exit code."""
+def run(options: AlarmsOptions) -> int:
+    """Carry out the action `options` is for; returns the exit code."""
     from linewatch.alarms.book import AlarmBook
     from linewatch.cli.commands._store_args import open_existing
 
-    store, config = open_existing(args)
+    store, config = open_existing(options)
     try:
         book = AlarmBook(store, config)
-        action = args.alarms_command
-        if action == "list":
-            return _list(book, args)
-        if action == "ack":
-            return _ack(book, args)
-        if action == "shelve":
-            return _shelve(book, args)
-        if action == "unshelve":
-            book.unshelve(args.id)
-            print(f"alarm {args.id} unshelved")
-            return 0
-        raise LinewatchError(f"unknown action {action!r}")
+        match options:
+            case AlarmListOptions():
+                return _list(book, options)
+            case AckOptions():
+                return _ack(book, options)
+            case ShelveOptions():
+                return _shelve(book, options)
+            case UnshelveOptions():
+                book.unshelve(options.id)
+                print(f"alarm {options.id} unshelved")
+                return 0
     finally:
         store.close()
 
 
-def _list(book: AlarmBook, args: argparse.Namespace) -> int:
+def _list(book: AlarmBook, options: AlarmListOptions) -> int:
     import time
 
     from linewatch.alarms.book import urgency
@@ -49,14 +54,14 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     from linewatch.domain.jsonl import dumps
 
     now = time.time()
-    records = sorted(book.alarms(include_closed=args.all), key=urgency)
+    records = sorted(book.alarms(include_closed=options.all), key=urgency)
     out = sys.stdout
-    if args.format == "jsonl":
+    if options.format == "jsonl":
         for alarm in records:
             out.write(dumps(book.list_record(alarm, now)) + "\n")
         return 0
     if not records:
-        out.write("no alarms\n" if args.all else "no open alarms\n")
+        out.write("no alarms\n" if options.all else "no open alarms\n")
         return 0
     from linewatch.alarms.book import rule_summary
 
@@ -76,18 +81,19 @@ def _list(book: AlarmBook, args: argparse.Namespace) -> int:
     return 0
 
 
-def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
-    if args.characteristic and args.ids:
+def _ack(book: AlarmBook, options: AckOptions) -> int:
+    if options.characteristic and options.ids:
         raise LinewatchError("give alarm ids or --characteristic, not both")
-    if args.characteristic:
-        _known_characteristic(book, args.characteristic)
-        count = book.acknowledge_characteristic(args.characteristic, args.reason, args.note)
+    if options.characteristic:
+        _known_characteristic(book, options.characteristic)
+        count = book.acknowledge_characteristic(
+            options.characteristic, options.reason, options.note)
         print(f"acknowledged {count} alarm{'s' if count != 1 else ''} of "
-              f"{visible(args.characteristic)}")
+              f"{visible(options.characteristic)}")
         return 0
-    if not args.ids:
+    if not options.ids:
         raise LinewatchError("give the ids of the alarms to acknowledge, or --characteristic")
-    for event in book.acknowledge(args.ids, args.reason, args.note):
+    for event in book.acknowledge(options.ids, options.reason, options.note):
         a = event.alarm
         if a is None:
             continue
@@ -98,25 +104,25 @@ def _ack(book: AlarmBook, args: argparse.Namespace) -> int:
     return 0
 
 
-def _shelve(book: AlarmBook, args: argparse.Namespace) -> int:
+def _shelve(book: AlarmBook, options: ShelveOptions) -> int:
     from linewatch.domain.clock import iso_time
     from linewatch.domain.durations import parse_duration
 
     try:
-        seconds = parse_duration(args.duration, need_unit=True)
+        seconds = parse_duration(options.duration, need_unit=True)
     except ValueError as exc:
         raise LinewatchError(f"--for: {exc}") from None
-    if (args.id is None) == (not args.characteristic):
-        raise LinewatchError("give one alarm id or --characteristic NAME")
-    if args.characteristic:
-        name = _known_characteristic(book, args.characteristic)
-        count = book.shelve_characteristic(name, seconds, args.reason)
-        print(f"{visible(name)} shelved for {args.duration} "
+    if options.characteristic and options.id is None:
+        name = _known_characteristic(book, options.characteristic)
+        count = book.shelve_characteristic(name, seconds, options.reason)
+        print(f"{visible(name)} shelved for {options.duration} "
               f"({count} open alarm{'s' if count != 1 else ''}, and any it raises meanwhile)")
         return 0
-    events = book.shelve(args.id, seconds, args.reason)
+    if options.characteristic or options.id is None:
+        raise LinewatchError("give one alarm id or --characteristic NAME")
+    events = book.shelve(options.id, seconds, options.reason)
     shelved = [e.alarm for e in events if e.action == "shelved" and e.alarm is not None]
-    print(f"alarm {args.id} shelved until {iso_time(shelved[-1].shelved_until)}")
+    print(f"alarm {options.id} shelved until {iso_time(shelved[-1].shelved_until)}")
     return 0
 
 

@@ -2,23 +2,21 @@
 
 from __future__ import annotations
 
-import argparse
 import sys
 from typing import TYPE_CHECKING
 
+from linewatch.cli.options import AuditOptions, ExportOptions, VerifyOptions
 from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.anchors import Anchor
     from linewatch.store.audit import Verdict
     from linewatch.store.db import Store
 
 
-
-
-def _gather_anchors(args: argparse.Namespace, config: Config | None) -> tuple[
+def _gather_anchors(options: VerifyOptions, config: Config | None) -> tuple[
     list[Anchor] | None, list[str], str
 ]:
     """The anchors to hold the trail to: the config's anchor file (when it names one) and every
@@ -51,7 +49,7 @@ def _gather_anchors(args: argparse.Namespace, config: Config | None) -> tuple[
         if found:
             anchors += found
             sources.append(f"{path} (configured)")
-    for given in args.anchor:
+    for given in options.anchor:
         if Path(given).expanduser().resolve() in seen:
             continue
         seen.add(Path(given).expanduser().resolve())
@@ -97,13 +95,13 @@ def _check_lines(store: Store, verdict: Verdict, key_given: bool, sources: list[
     return lines
 
 
-def _verify(store: Store, args: argparse.Namespace, config: Config | None) -> int:
+def _verify(store: Store, options: VerifyOptions, config: Config | None) -> int:
     """Print the verdict and the checks it rests on; 0 intact, 1 broken or not checkable."""
     from linewatch.store.audit import load_key
 
-    if args.key:
-        store.audit.use_key(load_key(args.key))
-    anchors, sources, missing = _gather_anchors(args, config)  # before the trail is read:
+    if options.key:
+        store.audit.use_key(load_key(options.key))
+    anchors, sources, missing = _gather_anchors(options, config)  # before the trail is read:
     verdict = store.audit.verify(anchors)  # an anchor written meanwhile is never ahead of it
     details = _check_lines(store, verdict, store.audit.key is not None, sources, missing)
     if verdict.ok:
@@ -131,18 +129,20 @@ _LEVELS = {
 }
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: AuditOptions) -> int:
     """verify: exit 0 when intact, 1 when broken (naming the first broken entry); export: 0."""
     from linewatch.cli.commands._store_args import open_existing
 
-    since = parse_since(args.since) if getattr(args, "since", None) else None
-    store, config = open_existing(args)
+    since = None
+    if isinstance(options, ExportOptions) and options.since:
+        since = parse_since(options.since)  # a bad --since changes nothing: before the store
+    store, config = open_existing(options)
     try:
-        if args.audit_command == "verify":
-            return _verify(store, args, config)
-        if args.audit_command == "export":
-            sys.stdout.write(store.audit.export(since, args.format))
-            return 0
-        raise LinewatchError(f"unknown action {args.audit_command!r}")
+        match options:
+            case VerifyOptions():
+                return _verify(store, options, config)
+            case ExportOptions():
+                sys.stdout.write(store.audit.export(since, options.format))
+                return 0
     finally:
         store.close()

@@ -4,9 +4,9 @@ it out (and audits it) on its next beat."""
 
 from __future__ import annotations
 
-import argparse
 from typing import TYPE_CHECKING
 
+from linewatch.cli.options import BaselineOptions
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.safe_text import visible
 
@@ -14,23 +14,23 @@ if TYPE_CHECKING:
     from linewatch.store.db import Store
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: BaselineOptions) -> int:
     """Check the request against the store, then leave it for the collector."""
     from linewatch.alarms.book import AlarmBook
     from linewatch.cli.commands._store_args import open_existing
 
-    store, config = open_existing(args)
+    store, config = open_existing(options)
     try:
-        name = args.characteristic
+        name = options.characteristic
         known = AlarmBook(store, config).known_characteristics()
         if name not in known:
             listed = ", ".join(visible(k) for k in known) or "none yet"
             raise LinewatchError(f"no characteristic {visible(name)} (known: {listed})")
-        reason = (args.reason or "").strip()
+        reason = (options.reason or "").strip()
         if not reason:
             raise LinewatchError("--reason: a reason is required for a new baseline")
         plotted = _plotted_points(store, name)
-        start = plotted if args.now else args.at
+        start = plotted if options.now or options.at is None else options.at
         if not 0 <= start <= plotted:
             raise LinewatchError(
                 f"--at {start}: {visible(name)} has plotted points 0..{plotted - 1}; "

@@ -4,7 +4,6 @@ characteristic could not be charted: the others are still reported)."""
 
 from __future__ import annotations
 
-import argparse
 import json
 import math
 import sys
@@ -13,13 +12,13 @@ from typing import Any
 
 import numpy as np
 
-from linewatch.config.loading import CharacteristicConfig, FeedConfig
+from linewatch.cli.options import CheckOptions
+from linewatch.config.model import CharacteristicConfig, FeedConfig
 from linewatch.config.selection import (
     chart_setup,
     feed_for_log,
     load_optional_config,
     select_characteristics,
-    validate_chart_options,
 )
 from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
 from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
@@ -105,20 +104,21 @@ class NotCharted:
 
 
 def analyse(
-    args: argparse.Namespace,
+    options: CheckOptions,
 ) -> tuple[list[Analysis], list[Rejected], list[NotCharted]]:
-    """Read the logs named in `args` and chart every selected characteristic; those that
+    """Read the logs `options` names and chart every selected characteristic; those that
     cannot be charted are returned with the reason instead of stopping the others."""
-    validate_chart_options(args)
-    config = load_optional_config(args.config)
-    feeds = [feed_for_log(config, p, args) for p in args.logs]
+    config = load_optional_config(options.config)
+    chart = options.chart
+    logs = list(options.logs)
+    feeds = [feed_for_log(config, p, chart) for p in logs]
     wanted = None
-    if args.column:
-        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in args.column]
+    if chart.columns:
+        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in chart.columns]
     elif config.characteristics:
         wanted = [c.column for c in config.characteristics]
-    cols, rejected = _read_all(args.logs, feeds, wanted)
-    chars = select_characteristics(config, args, list(cols))
+    cols, rejected = _read_all(logs, feeds, wanted)
+    chars = select_characteristics(config, chart, list(cols))
     if not chars:
         raise LinewatchError("no numeric column to chart (name one with --column)")
     out: list[Analysis] = []
@@ -162,11 +162,11 @@ def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
     return out
 
 
-def run(args: argparse.Namespace) -> int:
-    analyses, rejected, skipped = analyse(args)
-    several_files = len(args.logs) > 1
+def run(options: CheckOptions) -> int:
+    analyses, rejected, skipped = analyse(options)
+    several_files = len(options.logs) > 1
     write = sys.stdout.write
-    if args.format == "jsonl":
+    if options.format == "jsonl":
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
         lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
                   for n in skipped]

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-import argparse
+import sys
 from pathlib import Path
 
-from linewatch.domain.errors import LinewatchError
+from linewatch.cli.options import DefaultOptions, WatchOptions
+from linewatch.domain import exit_codes
 
 HOW_TO_START = """no ./linewatch.toml here. To start:
   linewatch demo                          a simulated line, nothing to set up
@@ -15,12 +16,14 @@ HOW_TO_START = """no ./linewatch.toml here. To start:
 Copy config/linewatch.example.toml to ./linewatch.toml to make this the default."""
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: DefaultOptions) -> int:
+    """`linewatch watch -c linewatch.toml`, when that file is here; else how to start, on
+    several lines (our own text: an error's one escaped line would run it together) and the
+    usage exit code."""
     path = Path("linewatch.toml")
     if not path.exists():
-        raise LinewatchError(HOW_TO_START)
+        print(f"linewatch: {HOW_TO_START}", file=sys.stderr)
+        return exit_codes.USAGE
     from linewatch.cli.commands import watch
-    from linewatch.cli.main import build_parser
 
-    watch_args = build_parser().parse_args(["watch", "-c", str(path)])
-    return watch.run(watch_args)
+    return watch.run(WatchOptions(config=str(path)))

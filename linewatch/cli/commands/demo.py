@@ -6,7 +6,6 @@ config is copied beside them, and the store lives there too. Quitting removes th
 
 from __future__ import annotations
 
-import argparse
 import shutil
 import signal
 import tempfile
@@ -14,6 +13,8 @@ import threading
 from datetime import datetime
 from importlib import resources
 from pathlib import Path
+
+from linewatch.cli.options import DemoOptions, WatchOptions
 
 DEMO_RATE = 5.0  # rows per second per gauge
 
@@ -56,9 +57,9 @@ def _exit_on_hangup() -> None:
         signal.signal(sig, leave)
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: DemoOptions) -> int:
+    """The screen on the simulated line; the folder goes when the screen is quit."""
     from linewatch.cli.commands import watch
-    from linewatch.cli.main import build_parser
     from linewatch.runtime.exiting import on_forced_exit
 
     folder = Path(tempfile.mkdtemp(prefix="linewatch-demo-"))
@@ -68,17 +69,15 @@ def run(args: argparse.Namespace) -> int:
 
     def remove_folder() -> None:
         stop.set()
-        if not args.keep:
+        if not options.keep:
             shutil.rmtree(folder, ignore_errors=True)
 
     forget = on_forced_exit(remove_folder)  # runs last: after the collector has stopped
     try:
         config_path = prepare(folder)
-        sim = start_simulator(folder, args.seed, args.speed, stop)
-        watch_args = build_parser().parse_args(
-            ["watch", "-c", str(config_path), "--state-dir", str(folder / "state")]
-        )
-        return watch.run(watch_args, title="demo extrusion line")
+        sim = start_simulator(folder, options.seed, options.speed, stop)
+        watch_options = WatchOptions(config=str(config_path), state_dir=str(folder / "state"))
+        return watch.run(watch_options, title="demo extrusion line")
     finally:
         # leaving anyway: a hang-up now must not cut the clean-up short
         for sig in (signal.SIGHUP, signal.SIGTERM):
@@ -87,7 +86,7 @@ def run(args: argparse.Namespace) -> int:
         stop.set()
         if sim is not None:
             sim.join(timeout=5)
-        if args.keep:
+        if options.keep:
             print(f"linewatch demo: the logs and the store are kept in {folder}")
         else:
             shutil.rmtree(folder, ignore_errors=True)

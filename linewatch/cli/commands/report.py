@@ -2,34 +2,32 @@
 
 from __future__ import annotations
 
-import argparse
 import sys
 import time
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from linewatch.cli.options import ReportOptions
 from linewatch.domain.clock import parse_moment
 from linewatch.domain.errors import LinewatchError
 
 if TYPE_CHECKING:
-    from linewatch.config.loading import Config
+    from linewatch.config.model import Config
     from linewatch.store.db import Store
 
 DEFAULT_SPAN = "8h"
 
 
-
-
-def period(args: argparse.Namespace, now: float) -> tuple[float, float]:
+def period(options: ReportOptions, now: float) -> tuple[float, float]:
     """[since, until) from --since / --from / --to (default: the last 8 hours)."""
     from linewatch.domain.durations import parse_duration
 
-    until = parse_moment(args.to, "--to") if args.to else now
-    if args.from_:
-        since = parse_moment(args.from_, "--from")
+    until = parse_moment(options.to, "--to") if options.to else now
+    if options.from_:
+        since = parse_moment(options.from_, "--from")
     else:
         try:
-            seconds = parse_duration(args.since or DEFAULT_SPAN)
+            seconds = parse_duration(options.since or DEFAULT_SPAN)
         except ValueError as exc:
             raise LinewatchError(f"--since: {exc}") from None
         since = until - seconds
@@ -53,24 +51,24 @@ def _write_anchor(store: Store, config: Config | None, line: str) -> None:
         sinks.close()
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: ReportOptions) -> int:
     """Write the report to -o FILE or standard output; exit 0 (an empty period included)."""
     from linewatch.cli.commands._store_args import open_existing
     from linewatch.report.build import build_report
 
     now = time.time()
-    since, until = period(args, now)
-    store, config = open_existing(args)
+    since, until = period(options, now)
+    store, config = open_existing(options)
     try:
         report = build_report(store, since, until, config, now)
         _write_anchor(store, config, report.audit_anchor)
     finally:
         store.close()
-    if args.format == "html":
+    if options.format == "html":
         from linewatch.report.as_html import render_html
 
         text = render_html(report)
-    elif args.format == "csv":
+    elif options.format == "csv":
         from linewatch.report.as_csv import render_csv
 
         text = render_csv(report)
@@ -78,11 +76,11 @@ def run(args: argparse.Namespace) -> int:
         from linewatch.report.as_markdown import render_markdown
 
         text = render_markdown(report)
-    if args.output:
+    if options.output:
         try:
-            Path(args.output).write_text(text, encoding="utf-8")
+            Path(options.output).write_text(text, encoding="utf-8")
         except OSError as exc:
-            raise LinewatchError(f"-o: cannot write {args.output}: {exc.strerror}") from None
+            raise LinewatchError(f"-o: cannot write {options.output}: {exc.strerror}") from None
     else:
         sys.stdout.write(text)
     return 0

@@ -6,7 +6,6 @@ rows only, so no file's time stamps ever go backwards."""
 
 from __future__ import annotations
 
-import argparse
 import signal
 import sys
 import threading
@@ -14,27 +13,24 @@ from datetime import datetime
 from pathlib import Path
 from types import FrameType
 
+from linewatch.cli.options import SimulateOptions
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.words import count
 
 
-def run(args: argparse.Namespace) -> int:
+def run(options: SimulateOptions) -> int:
     """Write logs until --duration has passed or SIGINT/SIGTERM arrives; exit 0."""
     from linewatch.domain.durations import format_duration, parse_duration
     from linewatch.simulation.line import EXTRUSION_LINE, Note, generate
     from linewatch.simulation.writer import continue_after, existing_logs, write_feeds
 
-    if not args.rate > 0:
-        raise LinewatchError(f"--rate must be more than 0 rows per second, got {args.rate}")
-    if not args.speed > 0:
-        raise LinewatchError(f"--speed must be more than 0, got {args.speed}")
     duration = None
-    if args.duration is not None:
+    if options.duration is not None:
         try:
-            duration = parse_duration(args.duration)
+            duration = parse_duration(options.duration)
         except ValueError as exc:
             raise LinewatchError(f"--duration: {exc}") from None
-    out = Path(args.out)
+    out = Path(options.out)
     if out.exists() and not out.is_dir():
         raise LinewatchError(f"--out: {out} exists and is not a folder")
     try:
@@ -59,7 +55,7 @@ def run(args: argparse.Namespace) -> int:
     files = ", ".join(g.file for g in EXTRUSION_LINE.gauges)
     until = f" for {format_duration(duration)}" if duration is not None else " (Ctrl-C stops)"
     print(f"simulating the extrusion line into {out}: {files}{until}", flush=True)
-    actions = generate(args.seed, args.rate, start)
+    actions = generate(options.seed, options.rate, start)
     if existing:
         print("continuing the logs already there (live rows only, no history)", flush=True)
         actions = (a for a in actions if a.t >= 0)
@@ -73,7 +69,7 @@ def run(args: argparse.Namespace) -> int:
         stats = write_feeds(
             out,
             actions,
-            speed=args.speed,
+            speed=options.speed,
             duration=duration,
             stop=stop,
             on_note=show,

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-import argparse
+import functools
 import signal
 import sys
 import threading
@@ -10,13 +10,13 @@ from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING, Any
 
-from linewatch.config.loading import Config, FeedConfig
+from linewatch.cli.options import WatchOptions
+from linewatch.config.model import Config, FeedConfig
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,
     load_optional_config,
     select_characteristics,
-    validate_chart_options,
 )
 from linewatch.domain.errors import LinewatchError
 
@@ -25,18 +25,19 @@ if TYPE_CHECKING:
     from linewatch.pipeline.plan import WatchPlan
 
 
-def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
+def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
     """Feeds and characteristics from the config and the command line."""
     from linewatch.pipeline.plan import WatchPlan
 
+    chart = options.chart
     feeds: list[FeedConfig] = [f for f in config.feeds]
-    if args.patterns:
+    if options.patterns:
         base = feeds[0] if feeds else FeedConfig(paths=[])
-        if not feeds and all(p.lower().endswith(JSON_SUFFIXES) for p in args.patterns):
+        if not feeds and all(p.lower().endswith(JSON_SUFFIXES) for p in options.patterns):
             base = FeedConfig(paths=[], layout="jsonl")
         extra = FeedConfig(
-            paths=[str(Path(p).expanduser()) for p in args.patterns], layout=base.layout,
-            delimiter=base.delimiter, decimal=args.decimal or base.decimal,
+            paths=[str(Path(p).expanduser()) for p in options.patterns], layout=base.layout,
+            delimiter=base.delimiter, decimal=chart.decimal or base.decimal,
             encoding=base.encoding, time_column=base.time_column, name_column=base.name_column,
             value_column=base.value_column,
         )
@@ -45,27 +46,29 @@ def build_plan(args: argparse.Namespace, config: Config) -> WatchPlan:
         raise LinewatchError(
             "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
         )
-    chars = select_characteristics(config, args, None) if (
-        args.column or config.characteristics) else []
+    chars = select_characteristics(config, chart, None) if (
+        chart.columns or config.characteristics) else []
     columns = [c.column for c in chars] if chars else None
-    baseline = args.baseline or config.monitor.baseline
-    asked = [c.column for c in chars] if args.column else None
+    baseline = chart.baseline or config.monitor.baseline
+    asked = [c.column for c in chars] if chart.columns else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
-                     baseline=baseline, overrides=lambda c: apply_overrides(c, args),
+                     baseline=baseline,
+                     overrides=functools.partial(apply_overrides, overrides=chart),
                      asked=asked)
 
 
-def run(args: argparse.Namespace, title: str = "") -> int:
-    validate_chart_options(args)
-    config = load_optional_config(args.config)
-    plan = build_plan(args, config)
+def run(options: WatchOptions, title: str = "") -> int:
+    """Follow the logs until stopped; `title` names the screen (the demo's line)."""
+    config = load_optional_config(options.config)
+    plan = build_plan(options, config)
     plan.title = title
     from linewatch.runtime.statedir import resolve_state_dir
 
-    state_dir = resolve_state_dir(args.state_dir, config)
-    if args.no_ui:
-        return run_headless(plan, state_dir, args.format, args.poll)
-    return run_screen(plan, state_dir, args.poll, bell=config.monitor.bell and not args.no_bell)
+    state_dir = resolve_state_dir(options.state_dir, config)
+    if options.no_ui:
+        return run_headless(plan, state_dir, options.format, options.poll)
+    return run_screen(plan, state_dir, options.poll,
+                      bell=config.monitor.bell and not options.no_bell)
 
 
 def run_headless(plan: WatchPlan, state_dir: Path, fmt: str, poll: float | None) -> int:

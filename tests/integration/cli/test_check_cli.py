@@ -129,14 +129,13 @@ def test_text_report_names_the_rule_in_plain_words(tmp_path):
 
 
 def test_directly_formatted_signal_lines_equal_the_generic_records(tmp_path):
-    import argparse
+    from linewatch.cli.options import CheckOptions
+    from linewatch.config.overrides import ChartOverrides
 
     rng = np.random.default_rng(11)  # seeded test data
     log = write_log(tmp_path / "a.csv", np.round(rng.normal(0, 1, 400), 4))
-    ns = argparse.Namespace(logs=[str(log)], config=None, column=[], rules="nelson",
-                            center=None, sigma=None, baseline=50, subgroup_size=None,
-                            dispersion=None, lsl=None, usl=None, decimal=None)
-    (a,), _, _ = analyse(ns)
+    options = CheckOptions(logs=(str(log),), chart=ChartOverrides(rules="nelson", baseline=50))
+    (a,), _, _ = analyse(options)
     assert a.result.firings
     expected = [dumps(signal_record("od", f.chart, f.rule, f.index, int(a.column.lines[f.row]),
                                     f.value)) for f in a.result.firings]

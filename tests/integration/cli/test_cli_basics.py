@@ -33,6 +33,9 @@ def test_the_bare_command_without_a_config_here_says_how_to_start(tmp_path):
     assert res.returncode == 2
     assert "linewatch demo" in res.stderr and "linewatch.toml" in res.stderr
     assert "Traceback" not in res.stderr
+    lines = res.stderr.splitlines()  # one way to start a line, readable, no escaped breaks
+    assert any(line.strip().startswith("linewatch demo ") for line in lines[1:])
+    assert "\\x0a" not in res.stderr and len(lines) >= 5
 
 
 def test_the_console_script_is_installed():

@@ -10,7 +10,7 @@ from pathlib import Path
 
 from linewatch.cli.commands.demo import DEMO_RATE, prepare
 from linewatch.cli.commands.watch import build_plan
-from linewatch.cli.main import build_parser
+from linewatch.cli.options import WatchOptions
 from linewatch.config.loading import load_config
 from linewatch.pipeline.monitor import Monitor
 from linewatch.simulation.line import EXTRUSION_LINE, JUNK, ROTATE, SILENT, STUCK, generate
@@ -26,8 +26,8 @@ DATA_CAUSES = [c for c in EXTRUSION_LINE.causes if c.kind not in (JUNK, ROTATE, 
 
 def _run_demo(folder: Path) -> Monitor:
     config_path = prepare(folder)
-    args = build_parser().parse_args(["watch", "-c", str(config_path), "--no-ui"])
-    plan = build_plan(args, load_config(config_path))
+    options = WatchOptions(config=str(config_path), no_ui=True)
+    plan = build_plan(options, load_config(config_path))
     monitor = Monitor(plan, folder / "state", emit=lambda record: None)
     stop = threading.Event()
     collector = threading.Thread(target=monitor.run, args=(stop,), daemon=True)

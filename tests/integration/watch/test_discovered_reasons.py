@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import threading
 
-from linewatch.config.loading import DEFAULT_REASONS, parse_config
+from linewatch.config.loading import parse_config
+from linewatch.config.model import DEFAULT_REASONS
 from linewatch.pipeline.monitor import Monitor
 from linewatch.pipeline.plan import WatchPlan
 from linewatch.present.face import MonitorFace

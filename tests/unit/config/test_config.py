@@ -8,7 +8,8 @@ import sys
 
 import pytest
 
-from linewatch.config.loading import DEFAULT_REASONS, load_config, parse_config
+from linewatch.config.loading import load_config, parse_config
+from linewatch.config.model import DEFAULT_REASONS
 from linewatch.domain.errors import ConfigError
 
 GOOD = """

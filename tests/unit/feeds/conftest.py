@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.records import FeedEvent, Rejected
 from linewatch.feeds.tailer import TailChunk, Tailer
 from linewatch.feeds.watcher import Waker

@@ -15,7 +15,7 @@ import numpy as np
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds import formats
 from linewatch.feeds.formats import FAST_BLOCK_BYTES, RowParser
 from linewatch.feeds.tailer import Tailer

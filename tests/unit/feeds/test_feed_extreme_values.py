@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import BadLimits
 from linewatch.domain.records import MAX_MAGNITUDE
 from linewatch.engine.limits import estimate_limits

@@ -12,7 +12,7 @@ import numpy as np
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import Batch, RowParser, _read_long, parse_log_bytes
 
 NUMBERS = st.one_of(

@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import LinewatchError
 from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser, read_log
 
@@ -298,7 +298,7 @@ def test_user_errors_are_one_line_messages(tmp_path: Path) -> None:
 
 def test_standard_input_is_read_with_a_dash() -> None:
     code = (
-        "from linewatch.config.loading import FeedConfig\n"
+        "from linewatch.config.model import FeedConfig\n"
         "from linewatch.feeds.formats import read_log\n"
         "b = read_log('-', FeedConfig(paths=[]))\n"
         "print(b.file, list(b.values), [float(v) for v in b.values['od']])\n"

@@ -13,7 +13,7 @@ import json
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import RowParser
 
 LAYOUTS = st.sampled_from(["wide", "long", "jsonl"])

@@ -9,7 +9,7 @@ import sys
 from datetime import UTC
 from pathlib import Path
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import RowParser, read_log
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up
 

@@ -13,7 +13,7 @@ from pathlib import Path
 
 import pytest
 
-from linewatch.config.loading import FeedConfig
+from linewatch.config.model import FeedConfig
 from linewatch.feeds.formats import MAX_LINE_BYTES
 from linewatch.feeds.tailer import FINGERPRINT_BYTES, FileState, Tailer
 

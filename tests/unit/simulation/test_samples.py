@@ -169,7 +169,7 @@ def test_example_config_shows_every_key() -> None:
     # Every key the config model reads appears (set or commented out) in the example.
     from dataclasses import fields
 
-    from linewatch.config.loading import (
+    from linewatch.config.model import (
         ALARM_KINDS,
         AlarmConfig,
         CharacteristicConfig,

@@ -15,7 +15,6 @@ from linewatch.store.anchors import (
     Anchorer,
     AnchorSinks,
     parse_anchors,
-    parse_syslog_target,
     store_key,
 )
 from linewatch.store.db import Store
@@ -33,16 +32,6 @@ def loghost() -> Iterator[socket.socket]:
 
 def received(sock: socket.socket, count: int) -> list[str]:
     return [sock.recvfrom(65536)[0].decode("utf-8") for _ in range(count)]
-
-
-def test_targets_local_socket_and_host_port() -> None:
-    assert parse_syslog_target("local") == "/dev/log"
-    assert parse_syslog_target("/run/systemd/journal/syslog") == "/run/systemd/journal/syslog"
-    assert parse_syslog_target("loghost.plant:514") == ("loghost.plant", 514)
-    assert parse_syslog_target("[::1]:5514") == ("::1", 5514)
-    for bad in ("loghost", "loghost:0", "loghost:99999", "udp://x:1", ""):
-        with pytest.raises(ValueError):
-            parse_syslog_target(bad)
 
 
 def test_each_anchor_is_one_user_notice_datagram(store: Store, loghost: socket.socket) -> None:

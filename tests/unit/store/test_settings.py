@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from linewatch.config.loading import CharacteristicConfig
+from linewatch.config.model import CharacteristicConfig
 from linewatch.store.db import Store
 
 

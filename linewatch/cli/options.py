@@ -1,0 +1,176 @@
+"""Each command's options as one typed, frozen record; the fields are the parser's destinations
+by the same names (a test holds the two equal), and their defaults are THE defaults: the parser
+gives none, and the dispatcher in `cli.main` fills a field the command line left out with its
+default here. Commands get one of these, never parsed arguments, so a command that runs another
+(the bare `linewatch`, `demo`) just builds the other's record. A record refuses impossible
+numbers when it is made (LinewatchError naming the option), whoever makes it."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from linewatch.config.choices import ExportFormat, RecordFormat, ReportFormat
+from linewatch.config.overrides import ChartOverrides
+from linewatch.domain.errors import LinewatchError
+
+
+def _check_positive(option: str, value: float, unit: str = "") -> None:
+    """`value` is a finite number above 0, else a LinewatchError naming `option`."""
+    if not math.isfinite(value):
+        raise LinewatchError(f"{option} must be a finite number, got {value}")
+    if not value > 0:
+        raise LinewatchError(f"{option} must be more than 0{unit}, got {value}")
+
+
+def _check_pace(seed: int, speed: float) -> None:
+    """A simulated line's seed and clock speed: a seed of 0 or more, a finite speed above 0."""
+    _check_positive("--speed", speed)
+    if seed < 0:
+        raise LinewatchError(f"--seed must be 0 or more, got {seed}")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class DefaultOptions:
+    """`linewatch` alone: open ./linewatch.toml (it has no options)."""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class CheckOptions:
+    """`linewatch check LOG...`"""
+
+    logs: tuple[str, ...]
+    config: str | None = None
+    chart: ChartOverrides = field(default_factory=ChartOverrides)
+    format: RecordFormat = "text"
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class WatchOptions:
+    """`linewatch watch [PATTERN...]`"""
+
+    patterns: tuple[str, ...] = ()
+    config: str | None = None
+    chart: ChartOverrides = field(default_factory=ChartOverrides)
+    state_dir: str | None = None
+    poll: float | None = None
+    no_ui: bool = False
+    format: RecordFormat = "text"
+    no_bell: bool = False
+
+    def __post_init__(self) -> None:
+        if self.poll is not None and not (math.isfinite(self.poll) and self.poll >= 0):
+            raise LinewatchError(f"--poll must be 0 or more seconds, got {self.poll}")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class StoreOptions:
+    """Where a shell command finds an existing store: --state-dir, or the config's."""
+
+    state_dir: str | None = None
+    config: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class AlarmListOptions(StoreOptions):
+    """`linewatch alarms list`"""
+
+    all: bool = False
+    format: RecordFormat = "text"
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class AckOptions(StoreOptions):
+    """`linewatch alarms ack [ID...] --reason TEXT`"""
+
+    ids: tuple[int, ...] = ()
+    characteristic: str | None = None
+    reason: str
+    note: str = ""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ShelveOptions(StoreOptions):
+    """`linewatch alarms shelve [ID] --for DURATION --reason TEXT`"""
+
+    id: int | None = None
+    characteristic: str | None = None
+    duration: str
+    reason: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class UnshelveOptions(StoreOptions):
+    """`linewatch alarms unshelve ID`"""
+
+    id: int
+
+
+AlarmsOptions = AlarmListOptions | AckOptions | ShelveOptions | UnshelveOptions
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BaselineOptions(StoreOptions):
+    """`linewatch baseline CHARACTERISTIC (--at INDEX | --now) --reason TEXT`"""
+
+    characteristic: str
+    at: int | None = None
+    now: bool = False
+    reason: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class VerifyOptions(StoreOptions):
+    """`linewatch audit verify`"""
+
+    anchor: tuple[str, ...] = ()
+    key: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ExportOptions(StoreOptions):
+    """`linewatch audit export`"""
+
+    since: str | None = None
+    format: ExportFormat = "jsonl"
+
+
+AuditOptions = VerifyOptions | ExportOptions
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ReportOptions(StoreOptions):
+    """`linewatch report`"""
+
+    since: str | None = None  # default: the last 8h (report.DEFAULT_SPAN)
+    from_: str | None = None
+    to: str | None = None
+    format: ReportFormat = "markdown"
+    output: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class SimulateOptions:
+    """`linewatch simulate --out DIR`"""
+
+    out: str
+    rate: float = 5.0
+    speed: float = 1.0
+    seed: int = 1
+    duration: str | None = None
+
+    def __post_init__(self) -> None:
+        _check_positive("--rate", self.rate, " rows per second")
+        _check_pace(self.seed, self.speed)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class DemoOptions:
+    """`linewatch demo`"""
+
+    keep: bool = False
+    seed: int = 1
+    speed: float = 1.0
+
+    def __post_init__(self) -> None:
+        _check_pace(self.seed, self.speed)

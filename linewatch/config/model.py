@@ -1,0 +1,150 @@
+"""The configuration as typed records: what a config file may say, with every default declared
+here once (the TOML reader in `config.loading` takes its defaults from these fields).
+
+Layout of a config file (all tables optional; see config/*.toml for commented examples):
+
+    [monitor]          state_dir, poll_seconds, stale_after, stuck_repeats, bell, baseline,
+                       shared_group, audit_anchor_file, audit_anchor_syslog,
+                       audit_anchor_every, audit_key_file
+    [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
+                       shelve_max
+    [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
+                       value_column
+    [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
+                       center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
+                       clear_after, decimals
+
+Each table's keys are the fields of its record below, by the same names.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from linewatch.config.choices import DecimalMark, Delimiter, Dispersion, Layout
+from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
+from linewatch.engine.rulebook import DEFAULT_RULES, parse_rule_list
+
+DEFAULT_REASONS: tuple[str, ...] = (
+    "tool wear",
+    "material lot change",
+    "gauge or measurement error",
+    "adjustment made",
+    "no cause found",
+)
+
+ALARM_KINDS = ("out-of-spec", "beyond-limits", "run-rule", "feed-health")
+DEFAULT_PRIORITIES: dict[str, int] = {
+    "out-of-spec": 1,
+    "beyond-limits": 2,
+    "run-rule": 3,
+    "feed-health": 4,
+}
+DEFAULT_WATCH_BASELINE = 25
+DEFAULT_STALE_AFTER = 600.0
+DEFAULT_STUCK_REPEATS = 10
+DEFAULT_FLOOD_ALARMS = 10  # more than this many alarms in the flood window is a flood
+DEFAULT_FLOOD_WINDOW = 600.0  # (ISA-18.2 guidance: about 10 alarms in 10 minutes, from memory)
+DEFAULT_SHELVE_MAX = 12 * 3600.0
+DEFAULT_ANCHOR_EVERY = 100
+DEFAULT_HOOK_TIMEOUT = 5.0
+
+
+@dataclass(slots=True)
+class CharacteristicConfig:
+    """One measured characteristic: where its values are, its specs, its chart and rules."""
+
+    name: str
+    column: str
+    unit: str = ""
+    lsl: float | None = None
+    usl: float | None = None
+    target: float | None = None
+    subgroup_size: int = 1
+    dispersion: Dispersion | None = None  # None: range for n <= 9, stdev for n >= 10
+    baseline: int | None = None
+    center: float | None = None
+    sigma: float | None = None
+    rules: list[str] = field(default_factory=lambda: parse_rule_list(DEFAULT_RULES))
+    run_lengths: dict[str, int] = field(default_factory=dict)
+    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    reaction_plan: str = ""
+    reaction_plans: dict[str, str] = field(default_factory=dict)
+    clear_after: int = DEFAULT_CLEAR_AFTER
+    decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+
+    @property
+    def effective_dispersion(self) -> Dispersion:
+        """range for n ≤ 9, stdev for n ≥ 10 (common practice) unless set explicitly."""
+        if self.dispersion:
+            return self.dispersion
+        return "range" if self.subgroup_size <= 9 else "stdev"
+
+    def plan_for(self, rule: str | None) -> str:
+        """The reaction plan to show for an alarm of `rule` (per-rule text first)."""
+        if rule and rule in self.reaction_plans:
+            return self.reaction_plans[rule]
+        return self.reaction_plan
+
+
+@dataclass(slots=True)
+class FeedConfig:
+    """A set of log files (paths may be globs) and how their rows are laid out."""
+
+    paths: list[str]
+    layout: Layout = "wide"
+    delimiter: Delimiter = "auto"
+    decimal: DecimalMark = "."
+    encoding: str = "utf-8"
+    time_column: str | None = None
+    name_column: str = "characteristic"
+    value_column: str = "value"
+
+
+@dataclass(slots=True)
+class AlarmConfig:
+    """How alarms are ranked and announced."""
+
+    priorities: dict[str, int] = field(default_factory=lambda: dict(DEFAULT_PRIORITIES))
+    hook: list[str] = field(default_factory=list)
+    hook_timeout: float = DEFAULT_HOOK_TIMEOUT
+    reasons: list[str] = field(default_factory=lambda: list(DEFAULT_REASONS))
+    flood_alarms: int = DEFAULT_FLOOD_ALARMS
+    flood_window: float = DEFAULT_FLOOD_WINDOW
+    shelve_max: float = DEFAULT_SHELVE_MAX
+
+
+@dataclass(slots=True)
+class MonitorConfig:
+    """Process-wide settings of the watcher."""
+
+    state_dir: str | None = None
+    poll_seconds: float = 0.0  # 0: wake on file-system events
+    stale_after: float = DEFAULT_STALE_AFTER
+    stuck_repeats: int = DEFAULT_STUCK_REPEATS
+    bell: bool = True
+    baseline: int = DEFAULT_WATCH_BASELINE
+    shared_group: bool = False
+    audit_anchor_file: str | None = None  # append the trail's head here (outside the store)
+    audit_anchor_syslog: str | None = None  # ... and/or to syslog: "local", a socket, HOST:PORT
+    audit_anchor_every: int = DEFAULT_ANCHOR_EVERY  # ... also every N entries (0: report/stop)
+    audit_key_file: str | None = None  # HMAC key for new audit entries (outside the store)
+
+
+@dataclass(slots=True)
+class Config:
+    """The whole configuration; `source` is the file it came from (or '' for defaults)."""
+
+    source: str = ""
+    digest: str = ""
+    monitor: MonitorConfig = field(default_factory=MonitorConfig)
+    alarms: AlarmConfig = field(default_factory=AlarmConfig)
+    feeds: list[FeedConfig] = field(default_factory=list)
+    characteristics: list[CharacteristicConfig] = field(default_factory=list)
+
+    def characteristic(self, name: str) -> CharacteristicConfig | None:
+        """The characteristic called `name`, if declared."""
+        for c in self.characteristics:
+            if c.name == name:
+                return c
+        return None
