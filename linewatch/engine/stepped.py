@@ -3,10 +3,11 @@
 When subgroup sizes vary, every point has its own limits. The run rules are not rewritten for
 that: a point is turned into z = (statistic − centre) / σ of that point, and the z series is
 judged against centre 0, σ 1 and limits ±3 by the existing evaluators (`rules.py` for history,
-`stream.py` live), so zones step with the limits. For a chart with symmetric limits this is
-exact. A lower limit clipped at a natural bound (0 for a range, SD or count, 1 above for a
-proportion) never disagrees with ±3 either: the statistic cannot pass the bound, and the clipped
-side of ±3 lies beyond it.
+`stream.py` live), so zones step with the limits. Judging z against ±kσ is judging the
+statistic against its own centre ± kσ_i (a z within rounding of an edge is set to the edge). A
+limit clipped at a natural bound (0 below for a range, SD or count, 1 above for a proportion)
+never disagrees with ±3 either: the statistic cannot pass the bound, and that side's ±3 lies
+beyond it.
 """
 
 from __future__ import annotations
@@ -50,10 +51,6 @@ class StepLimits:
         """(centre, σ, UCL, LCL) of point `i`."""
         return (float(self.center[i]), float(self.sigma[i]), float(self.ucl[i]),
                 float(self.lcl[i]))
-
-    def select(self, keep: np.ndarray) -> StepLimits:
-        """The limits of the points at positions (or mask) `keep`."""
-        return StepLimits(self.center[keep], self.sigma[keep], self.ucl[keep], self.lcl[keep])
 
 
 def symmetric_steps(center: np.ndarray, sigma: np.ndarray, lower: float = -np.inf,
