@@ -57,13 +57,30 @@ def run_length(flags: np.ndarray) -> np.ndarray:
     return idx - last_false
 
 
+def run_at_least(flags: np.ndarray, length: int) -> np.ndarray:
+    """Whether the run of True values ending at each position is at least `length` long: the
+    same as `run_length(flags) >= length`, in about log2(length) passes over booleans (each
+    pass doubles the run it has checked) instead of integer arrays."""
+    out = np.array(flags, dtype=bool)
+    if length <= 0:
+        out[:] = True
+        return out
+    have = 1  # out[i]: the `have` flags ending at i are all set
+    while have < length:
+        step = min(have, length - have)
+        out[step:] &= out[:-step]
+        out[:step] = False
+        have += step
+    return out
+
+
 def window_count(flags: np.ndarray, m: int) -> np.ndarray:
     """How many of the last `m` points (fewer at the start) are flagged, at each position."""
-    cs = np.concatenate(([0], np.cumsum(flags, dtype=np.int64)))
-    n = flags.shape[0]
-    hi = np.arange(1, n + 1)
-    lo = np.maximum(hi - m, 0)
-    counts: np.ndarray = cs[hi] - cs[lo]
+    counts: np.ndarray = np.cumsum(flags, dtype=np.int64)
+    if m > 0 and counts.shape[0] > m:
+        counts[m:] -= counts[:-m].copy()
+    elif m <= 0:
+        counts[:] = 0
     return counts
 
 
@@ -72,9 +89,7 @@ def _trend(x: np.ndarray, length: int) -> np.ndarray:
     if x.shape[0] < 2:
         return out
     d = np.diff(x)
-    up = run_length(d > 0)
-    down = run_length(d < 0)
-    out[1:] = (up >= length - 1) | (down >= length - 1)
+    out[1:] = run_at_least(d > 0, length - 1) | run_at_least(d < 0, length - 1)
     return out
 
 
@@ -86,7 +101,7 @@ def _alternate(x: np.ndarray, length: int) -> np.ndarray:
     # alt[j]: diffs j and j+1 are both non-zero and of opposite sign
     alt = (d[1:] != 0) & (d[:-1] != 0) & (d[1:] == -d[:-1])
     # the run of alternations ending at diff pair (i-2, i-1) covers that many + 2 points
-    out[2:] = run_length(alt) >= length - 2
+    out[2:] = run_at_least(alt, length - 2)
     return out
 
 
@@ -98,7 +113,9 @@ def evaluate_classified(
         case "beyond":
             return level >= LEVEL_BEYOND
         case "side-run":
-            return (run_length(side > 0) >= spec.length) | (run_length(side < 0) >= spec.length)
+            fired: np.ndarray = run_at_least(side > 0, spec.length)
+            fired |= run_at_least(side < 0, spec.length)
+            return fired
         case "trend":
             return _trend(np.asarray(x, dtype=float), spec.length)
         case "alternate":
@@ -111,13 +128,13 @@ def evaluate_classified(
                 down & (window_count(down, spec.length) >= spec.k)
             )
         case "within":
-            return run_length(level == 1) >= spec.length
+            return run_at_least(level == 1, spec.length)
         case "mixture":
             beyond = level >= 2
             both = (window_count(beyond & (side > 0), spec.length) > 0) & (
                 window_count(beyond & (side < 0), spec.length) > 0
             )
-            return (run_length(beyond) >= spec.length) & both
+            return run_at_least(beyond, spec.length) & both
     raise ValueError(f"unknown rule kind {spec.kind!r}")
 
 
@@ -146,6 +163,7 @@ __all__ = [
     "classify",
     "evaluate",
     "evaluate_classified",
+    "run_at_least",
     "run_length",
     "window_count",
 ]

@@ -3,19 +3,11 @@
 Each followed path keeps an open handle, the byte offset just after the last complete line it
 handed out, and the number of the next line. Only complete lines (ending in a newline) are
 parsed; a partial last line waits for its newline (and is never a point if it never gets one).
-Files are identified by device, inode and a fingerprint of their first bytes, so a replaced,
-rotated or truncated file is recognised whatever its name:
-
-- rename-and-create: the old file is read to its end through the still-open handle, then the
-  new file from its start (`rotated`);
-- copy-and-truncate: the file got shorter, or its first bytes changed: read again from 0
-  (`truncated`); a file that got shorter but still begins like ours is given SHRINK_GRACE
-  seconds to grow back first, since copying onto an existing file truncates it before
-  writing the same content again;
-- a file copied over with the same beginning (a sync tool writing a temporary file and renaming
-  it): reading goes on at the same offset (`replaced`);
-- deleted (`vanished`), created again (`appeared`), not readable (`unreadable` / `readable`),
-  a pattern whose folder or file does not exist yet (`waiting`).
+Files are identified by device,
+inode and a fingerprint of their first bytes, so a replaced, rotated or truncated file is
+recognised whatever its name; what happened is decided in `identity.py` from the facts this
+module gathers (deleted: `vanished`; created again: `appeared`; not readable: `unreadable` /
+`readable`; a pattern whose folder or file does not exist yet: `waiting`).
 
 At most `max_open` files are held open. When more match (a folder of archived daily logs), the
 files that have been quiet longest are put to rest: their handle is closed, their state kept,
@@ -30,7 +22,6 @@ from __future__ import annotations
 
 import errno
 import glob
-import hashlib
 import os
 import stat
 import time
@@ -39,10 +30,23 @@ from dataclasses import dataclass, field
 
 from linewatch.config.model import FeedConfig
 from linewatch.domain.records import FeedEvent, FileState
-from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser
+from linewatch.feeds.batch import Batch
+from linewatch.feeds.identity import (
+    FINGERPRINT_BYTES,
+    Seen,
+    copy_goes_on,
+    fingerprint,
+    first_bytes_needed,
+    in_place,
+    kind_of,
+    moved,
+    on_reopen,
+    resting_change,
+)
 from linewatch.feeds.patterns import Expansion, expand
+from linewatch.feeds.row_parser import MAX_LINE_BYTES, RowParser
+from linewatch.feeds.whole_buffer import FAST_BLOCK_BYTES, parse_block
 
-FINGERPRINT_BYTES = 1024
 READ_SIZE = 1 << 20
 DEFAULT_MAX_BYTES = 4 << 20  # read from one file in one poll at most
 POLL_BYTES = 16 << 20  # read from all files in one poll at most (memory stays bounded)
@@ -79,17 +83,6 @@ class TailChunk:
     written_at: float | None = None
 
 
-def _fingerprint(head: bytes) -> str:
-    return f"{len(head)}:{hashlib.sha256(head).hexdigest()}"
-
-
-def _fingerprint_size(fp: str) -> int:
-    try:
-        return int(fp.split(":", 1)[0])
-    except ValueError:
-        return 0
-
-
 def _static_dir(pattern: str) -> str:
     """The deepest folder of `pattern` that has no wildcard in it."""
     parts = os.path.abspath(pattern).split(os.sep)
@@ -117,22 +110,7 @@ def _not_a_log(path: str) -> str | None:
         return None  # unreadable: the reading step says so
     if stat.S_ISREG(mode):
         return None
-    return _kind_of(mode)
-
-
-def _kind_of(mode: int) -> str:
-    """A file type in words."""
-    if stat.S_ISDIR(mode):
-        return "a directory"
-    if stat.S_ISFIFO(mode):
-        return "a named pipe (FIFO)"
-    if stat.S_ISSOCK(mode):
-        return "a socket"
-    if stat.S_ISCHR(mode):
-        return "a character device"
-    if stat.S_ISBLK(mode):
-        return "a block device"
-    return "a special file"
+    return kind_of(mode)
 
 
 def _find_inode(folder: str, dev: int, inode: int) -> str | None:
@@ -151,13 +129,29 @@ def _find_inode(folder: str, dev: int, inode: int) -> str | None:
     return None
 
 
+def _first_bytes(path: str, n: int) -> bytes | None:
+    """The first `n` bytes of the file a name points at now (None when it cannot be read)."""
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:
+        return None
+    try:
+        return os.pread(fd, n, 0)
+    except OSError:
+        return None
+    finally:
+        os.close(fd)
+
+
 class _Followed:
     """One path: its open handle, position, partial line and parser."""
 
     def __init__(self, path: str, feed: FeedConfig, columns: list[str] | None,
-                 expected: list[str] | None = None) -> None:
+                 expected: list[str] | None = None,
+                 fast_from: int = FAST_BLOCK_BYTES) -> None:
         self.path = path
         self.parser = RowParser(feed, path, columns, expected=expected)
+        self.fast_from = fast_from  # blocks this large take the whole-buffer path
         self.fd: int | None = None
         self.dev = self.inode = 0
         self.head = b""  # first bytes of the open file (fingerprint)
@@ -179,7 +173,7 @@ class _Followed:
 
     def state(self) -> FileState:
         return FileState(
-            self.path, self.dev, self.inode, _fingerprint(self.head), self.offset, self.next_line,
+            self.path, self.dev, self.inode, fingerprint(self.head), self.offset, self.next_line,
             self.parser.header,
         )
 
@@ -234,32 +228,11 @@ class _Followed:
         return True
 
     def _resume(self, saved: FileState, size: int, events: list[FeedEvent]) -> None:
-        n = _fingerprint_size(saved.fingerprint)
-        same_start = _fingerprint(self.head[:n]) == saved.fingerprint and len(self.head) >= n
-        same_inode = (saved.dev, saved.inode) == (self.dev, self.inode)
-        if not same_start:
-            if saved.offset:
-                what = "another file" if not same_inode else "new content"
-                events.append(FeedEvent("replaced", self.path, f"{what}: reading from the start"))
+        verdict = on_reopen(saved, Seen(self.dev, self.inode, size, self.head))
+        if verdict.kind is not None:
+            events.append(FeedEvent(verdict.kind, self.path, verdict.detail))
+        if not verdict.resume:
             return
-        if size < saved.offset:
-            events.append(
-                FeedEvent("truncated", self.path, f"shorter than where reading stopped "
-                          f"({size} < {saved.offset} bytes): reading from the start")
-            )
-            return
-        if not same_inode:
-            # the same beginning under a new inode is a copy only when it is long enough to
-            # tell files apart; otherwise it is a new file that starts alike
-            if n < FINGERPRINT_BYTES:
-                events.append(
-                    FeedEvent("replaced", self.path, "another file: reading from the start")
-                )
-                return
-            events.append(
-                FeedEvent("replaced", self.path, f"copied over with the same beginning: "
-                          f"going on at line {saved.next_line}")
-            )
         self.offset = self.pos = saved.offset
         self.next_line = saved.next_line
         if saved.header and self.parser.previous_header is None:
@@ -291,7 +264,7 @@ class _Followed:
             self.pos += len(chunk)
         if not pieces:
             return None, more
-        return self.parser.parse_block(b"".join(pieces), first), more
+        return parse_block(self.parser, b"".join(pieces), first, self.fast_from), more
 
     def _take(self, chunk: bytes, pieces: list[bytes]) -> None:
         """Collect the complete lines of `chunk` (each ending in a newline) into `pieces`."""
@@ -329,32 +302,14 @@ class _Followed:
             self.pending += tail
 
     def changed_in_place(self, size: int, now: float, grace: float) -> tuple[str | None, bool]:
-        """(why the open file must be read again from 0, or None; whether to wait and see).
-
-        A file that got shorter but still begins like ours may be in the middle of being
-        copied over with the same content (a copy onto an existing file truncates it first):
-        wait up to `grace` seconds for it to grow back before calling it truncated.
-        """
+        """(why the open file must be read again from 0, or None; whether to wait and see),
+        as `identity.in_place` judges it."""
         assert self.fd is not None
-        if size < self.pos:
-            n = min(size, len(self.head))
-            if os.pread(self.fd, n, 0) != self.head[:n]:
-                return "shorter than before, with other first bytes: reading from the start", False
-            if self.shrunk_since is None:
-                self.shrunk_since = now
-            if now - self.shrunk_since < grace:
-                return None, True
-            return f"shorter than before ({size} < {self.pos} bytes): reading from the start", False
-        self.shrunk_since = None
-        if len(self.head) < FINGERPRINT_BYTES and size > len(self.head):
-            head = self._read_head(self.fd, size)
-            if head[: len(self.head)] != self.head:
-                return "its first bytes changed: reading from the start", False
-            self.head = head
-            return None, False
-        if self.head and size != self.pos and self._read_head(self.fd, size) != self.head:
-            return "its first bytes changed: reading from the start", False
-        return None, False
+        first = (self._read_head(self.fd, size) if first_bytes_needed(size, self.pos, self.head)
+                 else None)
+        verdict = in_place(size, self.pos, self.head, first, self.shrunk_since, now, grace)
+        self.shrunk_since, self.head = verdict.shrunk_since, verdict.head
+        return verdict.why, verdict.wait
 
 
 class Tailer:
@@ -363,7 +318,8 @@ class Tailer:
     `saved` maps paths to the states a previous run committed; `patterns` are extra patterns
     read with `default_feed` (wide CSV, detected delimiter, unless given); `shrink_grace` is
     how long a shortened file that still begins like ours may take to grow back; `expected`
-    names columns to look for in each file without limiting what is read (see RowParser).
+    names columns to look for in each file without limiting what is read (see RowParser);
+    `fast_block_bytes`: blocks at least this large take the whole-buffer path.
     """
 
     def __init__(
@@ -377,8 +333,10 @@ class Tailer:
         max_open: int | None = None,
         should_stop: Callable[[], bool] | None = None,
         expected: list[str] | None = None,
+        fast_block_bytes: int = FAST_BLOCK_BYTES,
     ) -> None:
         self.shrink_grace = shrink_grace
+        self.fast_block_bytes = fast_block_bytes
         self.should_stop = should_stop  # asked during pattern expansion (SIGTERM)
         # paths a pattern matched that are no regular file, and patterns whose expansion was
         # bounded: each said once (again only when what is said changes)
@@ -556,7 +514,8 @@ class Tailer:
                 found = True
                 f = self._followed.get(path)
                 if f is None:
-                    f = self._followed[path] = _Followed(path, feed, self.columns, self.expected)
+                    f = self._followed[path] = _Followed(path, feed, self.columns, self.expected,
+                                                              self.fast_block_bytes)
                     self._feed_of[path] = feed
                     f.gone = True
             if found:
@@ -604,19 +563,19 @@ class Tailer:
                         out.append(TailChunk(f.path, batch, f.state(), [], more, f.written_at()))
                     if more:
                         return out
-                if st is not None and self._same_copy(f, fst, st):
+                if st is not None and copy_goes_on(
+                        fst.st_nlink, f.head, f.offset, st.st_size,
+                        _first_bytes(f.path, len(f.head)) if fst.st_nlink == 0 else None):
                     return out + self._continue_in_copy(f, st, max_bytes)
                 self._retire(f, fst)
                 renamed = _find_inode(os.path.dirname(f.path), fst.st_dev, fst.st_ino)
                 f.close()
+                kind, detail = moved(st is not None, renamed)
                 if st is None:
                     f.gone = True
-                    detail = f"renamed to {renamed}" if renamed else "deleted"
-                    kind = "rotated" if renamed else "vanished"
                     out.append(TailChunk(f.path, None, None, [FeedEvent(kind, f.path, detail)]))
                     return out
-                detail = f"old file now {renamed}" if renamed else "the old file was removed"
-                events.append(FeedEvent("rotated", f.path, f"{detail}; reading the new one"))
+                events.append(FeedEvent(kind, f.path, detail))
                 if not f.open(events, self._adoptable(f.path, st)):
                     out.append(TailChunk(f.path, None, None, events))
                     return out
@@ -632,20 +591,22 @@ class Tailer:
             waking = f.rest is not None
             if st is None:
                 return out + self._left_while_resting(f) if waking else out
-            if f.rest == (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns):
-                return out  # resting and unchanged
+            change = (None if f.rest is None else
+                      resting_change(f.rest, st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns))
+            if change == "unchanged":
+                return out
             if not self._make_room(f):
                 return [*out, TailChunk(f.path, None, None, [], more=True)]
             was_gone = f.gone
             adopt, f.resume_from = f.resume_from, None
             if f.rest is not None:
-                if f.rest[:2] == (st.st_dev, st.st_ino):
+                if change == "changed":
                     adopt = self._saved.pop(f.path, None)
                 else:  # replaced while resting; a followed new name reads the old file's rest
                     renamed = _find_inode(os.path.dirname(f.path), *f.rest[:2])
                     if renamed and os.path.abspath(renamed) in self._followed:
-                        events.append(FeedEvent("rotated", f.path,
-                                                f"old file now {renamed}; reading the new one"))
+                        kind, detail = moved(True, renamed)
+                        events.append(FeedEvent(kind, f.path, detail))
                 f.rest = None
             if adopt is None:
                 adopt = self._adoptable(f.path, st)
@@ -678,9 +639,8 @@ class Tailer:
         f.rest = None
         f.gone = True
         renamed = _find_inode(os.path.dirname(f.path), dev, inode)
-        event = (FeedEvent("rotated", f.path, f"renamed to {renamed}") if renamed
-                 else FeedEvent("vanished", f.path, "deleted"))
-        return [TailChunk(f.path, None, None, [event])]
+        kind, detail = moved(False, renamed)
+        return [TailChunk(f.path, None, None, [FeedEvent(kind, f.path, detail)])]
 
     def _retire(self, f: _Followed, fst: os.stat_result) -> None:
         """Remember where an old file's reading ended, in case it shows up under a new name."""
@@ -695,7 +655,7 @@ class Tailer:
         hit = self._retired.pop((st.st_dev, st.st_ino), None)
         if hit is not None:
             offset, next_line, head, header = hit
-            return FileState(path, st.st_dev, st.st_ino, _fingerprint(head), offset, next_line,
+            return FileState(path, st.st_dev, st.st_ino, fingerprint(head), offset, next_line,
                              header)
         own = self._saved.get(path)
         if own is not None and (own.dev, own.inode) == (st.st_dev, st.st_ino):
@@ -723,7 +683,8 @@ class Tailer:
         if os.path.abspath(renamed) in self._followed:
             return None
         self._saved.pop(path)
-        old = _Followed(renamed, self._feed_of[path], self.columns, self.expected)
+        old = _Followed(renamed, self._feed_of[path], self.columns, self.expected,
+                        self.fast_block_bytes)
         events: list[FeedEvent] = []
         if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
                                       saved.offset, saved.next_line, saved.header)):
@@ -737,22 +698,6 @@ class Tailer:
                 head, events = [], []
             old.close()
         return None
-
-    def _same_copy(self, f: _Followed, fst: os.stat_result, st: os.stat_result) -> bool:
-        """The name now holds a copy of our file that goes on: the old file was unlinked (not
-        renamed away, as in a rotation) and the new one begins with everything we know of it."""
-        if fst.st_nlink > 0 or not f.head or st.st_size < f.offset:
-            return False
-        if len(f.head) < min(f.offset, FINGERPRINT_BYTES):
-            return False
-        try:
-            fd = os.open(f.path, os.O_RDONLY)
-        except OSError:
-            return False
-        try:
-            return os.pread(fd, len(f.head), 0) == f.head
-        finally:
-            os.close(fd)
 
     def _continue_in_copy(
         self, f: _Followed, st: os.stat_result, max_bytes: int

@@ -30,7 +30,7 @@ from linewatch.pipeline.plan import Characteristics, WatchPlan
 
 if TYPE_CHECKING:
     from linewatch.engine.limits import LimitSet
-    from linewatch.feeds.formats import Batch
+    from linewatch.feeds.batch import Batch
     from linewatch.feeds.tailer import TailChunk
     from linewatch.store.db import Store
     from linewatch.store.requests import BaselineRequest
@@ -171,8 +171,8 @@ class Collector:
                         written: float, out: Outcome) -> None:
         eng = self.engines[name]
         c = self.characteristics.configs[name]
-        values = batch.values[column]
-        lines = batch.lines[column]
+        values: list[float] = batch.values[column].tolist()
+        lines: list[int] = batch.lines[column].tolist()
         times = batch.times.get(column) if batch.times else None
         first = eng.values_seen
         meta = [(batch.file, ln, times[k] if times else None) for k, ln in enumerate(lines)]

@@ -23,9 +23,9 @@ import time
 from pathlib import Path
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import read_log
 from linewatch.feeds.tailer import Tailer
 from linewatch.feeds.watcher import Waker
+from linewatch.feeds.whole_file import read_log
 
 
 def make_log(path: Path, rows: int) -> None:
@@ -52,7 +52,7 @@ def bench_read_log(folder: Path, rows: int) -> None:
     code = (
         "import resource, sys\n"
         "from linewatch.config.model import FeedConfig\n"
-        "from linewatch.feeds.formats import read_log\n"
+        "from linewatch.feeds.whole_file import read_log\n"
         "read_log(sys.argv[1], FeedConfig(paths=[]))\n"
         "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"
     )

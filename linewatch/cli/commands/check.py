@@ -53,15 +53,22 @@ def _read_all(
     paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
 ) -> tuple[dict[str, Column], list[Rejected]]:
     """Read every log into per-characteristic columns plus the rejected rows."""
-    from linewatch.feeds.formats import read_log
+    from linewatch.feeds.whole_file import read_log
 
-    batches = [read_log(p, feed, columns) for p, feed in zip(paths, feeds, strict=True)]
+    # check reports lines, never time stamps: they are left unread
+    batches = [read_log(p, feed, columns, times=False)
+               for p, feed in zip(paths, feeds, strict=True)]
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)
     cols: dict[str, Column] = {}
     files = [b.file for b in batches]
     for name in names:
+        if len(batches) == 1:  # one log: its arrays as they are, no copies
+            b = batches[0]
+            cols[name] = Column(b.values[name], b.lines[name], files,
+                                np.zeros(len(b.values[name]), dtype=np.int32))
+            continue
         vals = [np.asarray(b.values.get(name, []), dtype=float) for b in batches]
         lines = [np.asarray(b.lines.get(name, []), dtype=np.int64) for b in batches]
         fidx = [np.full(len(v), i, dtype=np.int32) for i, v in enumerate(vals)]

@@ -15,7 +15,7 @@ from linewatch.engine.batch import analyse_history
 from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.live_state import restore_engine, save_state
 from linewatch.engine.rulebook import RULES, resolve_rules
-from linewatch.engine.rules import evaluate
+from linewatch.engine.rules import evaluate, run_at_least, run_length, window_count
 from linewatch.engine.setup import ChartSetup
 from linewatch.engine.stream import ChartLimitsState, ChartRules
 
@@ -146,3 +146,23 @@ def test_a_saved_and_restored_engine_continues_exactly(values, n, baseline, cuts
         state = json.loads(json.dumps(save_state(engine)))
         engine = restore_engine(setup, state, vector_min=small)
     assert got == expected
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.booleans(), max_size=80), st.integers(0, 20))
+def test_run_and_window_shortcuts_equal_their_plain_definitions(flags, length) -> None:
+    """The counting shortcuts the vectorised rules use, against the definitions written out
+    point by point: the run of set flags ending at i, and the set flags among the last m."""
+    f = np.array(flags, dtype=bool)
+    runs = []
+    for i in range(len(flags)):
+        k = 0
+        while k <= i and flags[i - k]:
+            k += 1
+        runs.append(k)
+    assert run_length(f).tolist() == runs
+    assert run_at_least(f, length).tolist() == [r >= length for r in runs]
+    assert window_count(f, length).tolist() == [
+        sum(flags[max(0, i - length + 1) : i + 1]) if length > 0 else 0
+        for i in range(len(flags))
+    ]

@@ -16,9 +16,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds import formats
-from linewatch.feeds.formats import FAST_BLOCK_BYTES, RowParser
+from linewatch.feeds.row_parser import RowParser
 from linewatch.feeds.tailer import Tailer
+from linewatch.feeds.whole_buffer import FAST_BLOCK_BYTES
 
 ROWS = st.one_of(
     st.builds(lambda k, v: f"06:{k:02d},T-{k},{v}\n", st.integers(0, 59),
@@ -46,10 +46,8 @@ def reference(data: bytes) -> tuple[list[float], list[int], list[tuple[int, str]
     return vals, list(b.lines.get("od", [])), [(r.line, r.reason) for r in b.rejected]
 
 
-def empty_log(tmp_path: Path, whole_buffer: bool) -> Path:
-    """A new empty log in its own folder (one per example). whole_buffer: every block goes
-    through the numpy path instead of line by line (`write_in_pieces` puts it back)."""
-    formats.FAST_BLOCK_BYTES = 0 if whole_buffer else FAST_BLOCK_BYTES
+def empty_log(tmp_path: Path) -> Path:
+    """A new empty log in its own folder (one per example)."""
     log = Path(tempfile.mkdtemp(dir=tmp_path)) / "log.csv"
     log.write_bytes(b"")
     return log
@@ -58,7 +56,7 @@ def empty_log(tmp_path: Path, whole_buffer: bool) -> Path:
 def write_in_pieces(log: Path, data: bytes, cuts: list[int], tailer: Tailer,
                     drain: Callable[[], None]) -> None:
     """Append `data` cut at `cuts`, draining the tailer after each piece and at the end; then
-    close it and put the fast-path threshold back."""
+    close it."""
     prev = 0
     try:
         for cut in [*cuts, len(data)]:
@@ -69,7 +67,12 @@ def write_in_pieces(log: Path, data: bytes, cuts: list[int], tailer: Tailer,
         drain()
     finally:
         tailer.close()
-        formats.FAST_BLOCK_BYTES = FAST_BLOCK_BYTES
+
+
+def fast_from(whole_buffer: bool) -> int:
+    """The tailer's threshold for the whole-buffer path: 0 sends every block through the numpy
+    path instead of line by line."""
+    return 0 if whole_buffer else FAST_BLOCK_BYTES
 
 
 @settings(max_examples=120, deadline=None,
@@ -79,9 +82,9 @@ def test_any_write_chunking_yields_every_row_once_in_order(
     tmp_path: Path, case, whole_buffer: bool
 ) -> None:
     data, cuts, budget = case
-    log = empty_log(tmp_path, whole_buffer)
+    log = empty_log(tmp_path)
     feed = FeedConfig(paths=[str(log)], encoding="latin-1")
-    tailer = Tailer([feed])
+    tailer = Tailer([feed], fast_block_bytes=fast_from(whole_buffer))
     vals: list[float] = []
     lines: list[int] = []
     rejected: list[tuple[int, str]] = []
@@ -129,8 +132,9 @@ def test_any_write_chunking_of_a_long_layout_log_yields_every_row_once_in_order(
     tmp_path: Path, case, whole_buffer: bool
 ) -> None:
     data, cuts, budget = case
-    log = empty_log(tmp_path, whole_buffer)
-    tailer = Tailer([FeedConfig(paths=[str(log)], **LONG_FEED)])
+    log = empty_log(tmp_path)
+    tailer = Tailer([FeedConfig(paths=[str(log)], **LONG_FEED)],
+                    fast_block_bytes=fast_from(whole_buffer))
     got: dict[str, list[tuple[int, float]]] = {}
     rejected: list[tuple[int, str]] = []
 

@@ -22,7 +22,8 @@ from linewatch.engine.limits import estimate_limits
 from linewatch.engine.live import CharacteristicEngine
 from linewatch.engine.rulebook import parse_rule_list, resolve_rules
 from linewatch.engine.setup import ChartSetup
-from linewatch.feeds.formats import RowParser, read_log
+from linewatch.feeds.row_parser import RowParser
+from linewatch.feeds.whole_file import read_log
 from linewatch.present.scales import cell_of, fraction_of, padded_span
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up
 

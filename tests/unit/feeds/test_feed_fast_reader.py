@@ -13,7 +13,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import Batch, RowParser, _read_long, parse_log_bytes
+from linewatch.feeds.batch import Batch
+from linewatch.feeds.row_parser import RowParser
+from linewatch.feeds.whole_buffer import read_buffer
+from linewatch.feeds.whole_file import parse_log_bytes
 
 NUMBERS = st.one_of(
     st.floats(allow_nan=False, allow_infinity=False, width=64).map(repr),
@@ -114,6 +117,25 @@ def test_fast_reader_equals_per_line_parser(case: tuple[bytes, str], mode: str) 
     assert_same(fast, slow)
 
 
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(log_files())
+def test_reading_without_times_changes_nothing_but_the_times(case: tuple[bytes, str]) -> None:
+    data, encoding = case
+    feed = FeedConfig(paths=[], encoding=encoding)
+    try:
+        timed = parse_log_bytes(data, "log.csv", feed, None)
+    except Exception:
+        return  # refused alike: the other test holds the two readers to the same errors
+    untimed = parse_log_bytes(data, "log.csv", feed, None, times=False)
+    assert (untimed.rows, untimed.rejected, untimed.notices) == (
+        timed.rows, timed.rejected, timed.notices)
+    assert list(untimed.values) == list(timed.values)
+    for c in timed.values:
+        assert np.array_equal(untimed.values[c], timed.values[c])
+        assert np.array_equal(untimed.lines[c], timed.lines[c])
+        assert list(untimed.times[c]) == [None] * len(timed.values[c])
+
+
 @settings(max_examples=200, deadline=None)
 @given(st.lists(IN_RANGE, min_size=1, max_size=200), st.booleans())
 def test_numbers_are_read_as_python_float_reads_them(texts: list[str], semicolon: bool) -> None:
@@ -177,12 +199,12 @@ def test_fast_long_reader_equals_per_line_parser(
         slow = by_line.parse(lines, 1)
     except Exception as exc:  # the per-line parser refused: the fast reader must say the same
         try:
-            _read_long(data, whole)
+            read_buffer(data, whole)
         except Exception as fast_exc:
             assert type(fast_exc) is type(exc) and str(fast_exc) == str(exc)
             return
         raise AssertionError("the fast reader accepted what the per-line parser refused") from exc
-    fast = _read_long(data, whole)
+    fast = read_buffer(data, whole)
     assert_same(fast, slow)
     # the names met, in the order of the file (what an unknown-name message lists)
     assert list(whole.names_seen) == list(by_line.names_seen)

@@ -19,7 +19,9 @@ import pytest
 
 from linewatch.config.model import FeedConfig
 from linewatch.domain.errors import LinewatchError
-from linewatch.feeds.formats import MAX_LINE_BYTES, Batch, RowParser, read_log
+from linewatch.feeds.batch import Batch
+from linewatch.feeds.row_parser import MAX_LINE_BYTES, RowParser
+from linewatch.feeds.whole_file import read_log
 
 WIDE = (
     "time,part,od,wall\n"
@@ -299,7 +301,7 @@ def test_user_errors_are_one_line_messages(tmp_path: Path) -> None:
 def test_standard_input_is_read_with_a_dash() -> None:
     code = (
         "from linewatch.config.model import FeedConfig\n"
-        "from linewatch.feeds.formats import read_log\n"
+        "from linewatch.feeds.whole_file import read_log\n"
         "b = read_log('-', FeedConfig(paths=[]))\n"
         "print(b.file, list(b.values), [float(v) for v in b.values['od']])\n"
     )

@@ -14,7 +14,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import RowParser
+from linewatch.feeds.row_parser import RowParser
 
 LAYOUTS = st.sampled_from(["wide", "long", "jsonl"])
 JSONISH = st.recursive(

@@ -10,7 +10,8 @@ from datetime import UTC
 from pathlib import Path
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import RowParser, read_log
+from linewatch.feeds.row_parser import RowParser
+from linewatch.feeds.whole_file import read_log
 from tests.integration.watch.helpers import records, start_watch, stop, wait_caught_up
 
 DUP = "time,od,od,wall\n" + "".join(f"t{k},{12 + k / 100},{13 + k / 100},2.{k}\n"

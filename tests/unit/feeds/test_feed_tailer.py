@@ -14,8 +14,10 @@ from pathlib import Path
 import pytest
 
 from linewatch.config.model import FeedConfig
-from linewatch.feeds.formats import MAX_LINE_BYTES
-from linewatch.feeds.tailer import FINGERPRINT_BYTES, FileState, Tailer
+from linewatch.domain.records import FileState
+from linewatch.feeds.identity import FINGERPRINT_BYTES
+from linewatch.feeds.row_parser import MAX_LINE_BYTES
+from linewatch.feeds.tailer import Tailer
 
 HEADER = "time,part,od\n"
 
