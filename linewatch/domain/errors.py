@@ -8,6 +8,8 @@ one line, never a traceback.
       RuleListError           a rule list names an unknown rule or set
       NotEnoughData           too few points to estimate control limits
         BadLimits             limits that are not finite numbers
+      ChartDataError          data the chosen chart cannot take (an np chart with varying
+                              sizes, more nonconforming units than inspected, a subgroup of 26)
       StoreError              the store cannot be opened or is not a linewatch store
         LeaseLost             this instance no longer collects (another one took over)
 """
@@ -44,6 +46,11 @@ class NotEnoughData(LinewatchError):
 class BadLimits(NotEnoughData):
     """Control limits that are not finite numbers (values too extreme to chart); such limits
     never reach the store."""
+
+
+class ChartDataError(LinewatchError, ValueError):
+    """Data the chosen chart cannot take; the message says what and, where one fits, which chart
+    would (a ValueError too, so a reader that catches bad values catches it)."""
 
 
 class StoreError(LinewatchError):

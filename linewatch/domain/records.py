@@ -16,6 +16,15 @@ CHART_XBAR = "xbar"
 CHART_RANGE = "range"
 CHART_STDEV = "stdev"
 DISPERSION_CHARTS = (CHART_MOVING_RANGE, CHART_RANGE, CHART_STDEV)
+# Attribute charts: proportion nonconforming, number nonconforming, defects, defects per unit,
+# and Laney's p′ and u′ (limits widened by the between-subgroup variation).
+CHART_P = "p"
+CHART_NP = "np"
+CHART_C = "c"
+CHART_U = "u"
+CHART_LANEY_P = "laney-p"
+CHART_LANEY_U = "laney-u"
+ATTRIBUTE_CHARTS = (CHART_P, CHART_NP, CHART_C, CHART_U, CHART_LANEY_P, CHART_LANEY_U)
 
 # The largest magnitude a reading (or a configured centre, sigma or spec limit) may have.
 # Squares of differences of two such values stay below 4e200, so sums of squares over any

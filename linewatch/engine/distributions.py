@@ -450,3 +450,103 @@ def chi_square_upper_quantile(df: float, upper: float) -> float:
 
     w, dw = _solve(g, _chi_square_start(df, lower, upper))
     return 2.0 * _exp(w) * (1.0 + dw)
+
+
+# --- beta (binomial tails, Clopper–Pearson) -----------------------------------------------------
+
+
+def _log_beta_front(a: float, b: float, x: float, y: float) -> float:
+    """ln(x^a·y^b / B(a, b)) with y = 1 − x given exactly. For a, b ≥ 10 through Stirling's
+    correction around the mode x0 = a/(a + b): a·ln(x/x0) + b·ln(y/y0) is summed as
+    a·(ln(1 + u) − u) + b·(ln(1 + v) − v) with u = x/x0 − 1, v = y/y0 − 1 (the linear parts
+    cancel exactly), so large parameters keep full precision; one large parameter goes through
+    `_lgamma_ratio`. The logarithm of the larger of x, y is taken as log1p of the other."""
+    log_x = math.log(x) if x <= 0.5 else math.log1p(-y)
+    log_y = math.log(y) if y <= 0.5 else math.log1p(-x)
+    if min(a, b) >= _STIRLING_FROM:
+        s = a + b
+
+        def part(c: float, t: float, log_t: float) -> float:
+            # c·(ln(1 + w) − w) with w = t·s/c − 1
+            w = (t * s - c) / c
+            if abs(w) < 0.1:
+                return c * _log1p_minus(w)
+            return c * (log_t + math.log(s / c)) - c * w
+
+        corrections = _stirling_correction(s) - _stirling_correction(a) - _stirling_correction(b)
+        return (part(a, x, log_x) + part(b, y, log_y)
+                + 0.5 * math.log(a * b / (2.0 * math.pi * s)) + corrections)
+    small, big = (a, b) if a <= b else (b, a)
+    log_beta = math.lgamma(small) - _lgamma_ratio(big, small)  # ln Γ(small) + ln Γ(big) − ln Γ(s)
+    return a * log_x + b * log_y - log_beta
+
+
+def _beta_tails(a: float, b: float, x: float, y: float) -> tuple[float, float]:
+    """(I_x(a, b), 1 − I_x(a, b)) for 0 < x < 1, y = 1 − x: the smaller-converging fraction is
+    computed directly and the other tail as 1 minus it."""
+    front = math.exp(_log_beta_front(a, b, x, y))
+    if (a + b) * y >= b:  # the fraction for I_x(a, b) converges fast here
+        lower = front / _beta_fraction(a, b, x, y)
+        return lower, 1.0 - lower
+    upper = front / _beta_fraction(b, a, y, x)
+    return 1.0 - upper, upper
+
+
+def beta_cdf(a: float, b: float, x: float) -> float:
+    """Regularized incomplete beta function I_x(a, b), the Beta(a, b) CDF (a binomial tail:
+    P(X ≥ k) for X ~ Bin(n, p) is I_p(k, n − k + 1))."""
+    a, b, x = _real(a), _real(b), _real(x)
+    if _invalid_df(a) or _invalid_df(b) or math.isnan(x):
+        return _NAN
+    if x <= 0.0:
+        return 0.0
+    if x >= 1.0:
+        return 1.0
+    return _beta_tails(a, b, x, 1.0 - x)[0]
+
+
+def beta_upper(a: float, b: float, x: float) -> float:
+    """1 − I_x(a, b), full relative precision where it is small."""
+    a, b, x = _real(a), _real(b), _real(x)
+    if _invalid_df(a) or _invalid_df(b) or math.isnan(x):
+        return _NAN
+    if x <= 0.0:
+        return 1.0
+    if x >= 1.0:
+        return 0.0
+    return _beta_tails(a, b, x, 1.0 - x)[1]
+
+
+def beta_quantile(a: float, b: float, p: float) -> float:
+    """The x with I_x(a, b) = p, by bisection on w = logit x (x and 1 − x are each formed from w
+    without cancellation, so both ends keep relative precision), solving the smaller tail."""
+    a, b, p = _real(a), _real(b), _real(p)
+    if _invalid_df(a) or _invalid_df(b) or _invalid_probability(p):
+        return _NAN
+    use_lower = p <= 0.5
+    target = math.log(p if use_lower else 1.0 - p)
+
+    def excess(w: float) -> float:
+        # increasing in w
+        x = 1.0 / (1.0 + math.exp(-w)) if w > -_LOG_MAX else 0.0
+        y = 1.0 / (1.0 + math.exp(w)) if w < _LOG_MAX else 0.0
+        if x == 0.0:
+            return -math.inf
+        if y == 0.0:
+            return math.inf
+        lower, upper = _beta_tails(a, b, x, y)
+        if use_lower:
+            return math.log(lower) - target if lower > 0.0 else -math.inf
+        return target - math.log(upper) if upper > 0.0 else math.inf
+
+    lo, hi = -745.0, 745.0
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if excess(mid) < 0.0:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 4.0 * _EPS * max(1.0, abs(mid)):
+            break
+    w = 0.5 * (lo + hi)
+    return 1.0 / (1.0 + math.exp(-w))

@@ -1,21 +1,35 @@
 """What the screen talks to: a `SnapshotSource` and `LineActions` over one `Monitor`.
 
-Snapshots are built from the store on the caller's thread with a connection of its own, so the
-screen never waits for the collector's transaction and never touches its engines."""
+Snapshots are built from the store on the caller's thread (the screen's worker threads) with a
+connection of its own, so the screen never waits for the collector's transaction and never
+touches its engines. A store that is busy or gone is told as a `StoreError` in one line, the
+kind of failure a face expects and shows; anything else is a bug and propagates."""
 
 from __future__ import annotations
 
+import contextlib
+import sqlite3
 import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 
 from linewatch.config.model import CharacteristicConfig
+from linewatch.domain.errors import StoreError
 from linewatch.pipeline.monitor import Monitor
 from linewatch.present.view import CharacteristicView, LineSnapshot
 
 
+@contextlib.contextmanager
+def _store_errors() -> Iterator[None]:
+    """A database error (locked past the busy timeout, disk full, file gone) as a StoreError."""
+    try:
+        yield
+    except sqlite3.Error as exc:
+        raise StoreError(f"{type(exc).__name__}: {exc}") from exc
+
+
 class MonitorFace:
-    """A `SnapshotSource` and `LineActions` over one Monitor, safe to call from the UI thread."""
+    """A `SnapshotSource` and `LineActions` over one Monitor, safe to call from any thread."""
 
     def __init__(self, monitor: Monitor) -> None:
         from linewatch.alarms.book import AlarmBook
@@ -36,7 +50,7 @@ class MonitorFace:
     def snapshot(self) -> LineSnapshot:
         from linewatch.present.snapshot import build_snapshot
 
-        with self._lock:
+        with self._lock, _store_errors():
             snap = build_snapshot(
                 self.store, self.alarms, self._characteristics(), role=self.monitor.role,
                 title=self.monitor.title, version=self.monitor.version,
@@ -49,7 +63,7 @@ class MonitorFace:
     def detail(self, characteristic: str) -> CharacteristicView | None:
         from linewatch.present.snapshot import DETAIL_POINTS, characteristic_view
 
-        with self._lock:
+        with self._lock, _store_errors():
             for c in self._characteristics():
                 if c.name == characteristic:
                     return characteristic_view(
@@ -62,28 +76,29 @@ class MonitorFace:
 
     # -- LineActions --
     def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None:
-        with self._lock:
+        with self._lock, _store_errors():
             self.alarms.acknowledge(alarm_ids, reason, note)
         self.monitor.poke()
 
     def acknowledge_characteristic(self, characteristic: str, reason: str, note: str = "") -> int:
-        with self._lock:
+        with self._lock, _store_errors():
             n = self.alarms.acknowledge_characteristic(characteristic, reason, note)
         self.monitor.poke()
         return n
 
     def shelve(self, alarm_id: int, seconds: float, reason: str) -> None:
-        with self._lock:
+        with self._lock, _store_errors():
             self.alarms.shelve(alarm_id, seconds, reason)
         self.monitor.poke()
 
     def unshelve(self, alarm_id: int) -> None:
-        with self._lock:
+        with self._lock, _store_errors():
             self.alarms.unshelve(alarm_id)
         self.monitor.poke()
 
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
-        self.monitor.new_baseline(characteristic, start_index, reason)
+        with _store_errors():
+            self.monitor.new_baseline(characteristic, start_index, reason)
 
     def close(self) -> None:
         self.store.close()

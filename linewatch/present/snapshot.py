@@ -17,6 +17,8 @@ import numpy as np
 
 from linewatch.domain.records import FeedEvent
 from linewatch.engine.charts import chart_names, plotted_series
+from linewatch.feeds.health import times_text
+from linewatch.present.mark_points import mark_chart
 from linewatch.present.view import (
     ACKNOWLEDGED,
     RETURNED_UNACKNOWLEDGED,
@@ -61,7 +63,7 @@ def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray,
         for lim in mine:  # the newest limits of each phase
             latest[lim.phase] = (lim.start_index, lim.center, lim.ucl, lim.lcl, lim.sigma)
         cv.phase_limits = [latest[p] for p in sorted(latest)]
-    return cv
+    return mark_chart(cv)
 
 
 def _plotted(
@@ -157,6 +159,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     v.limits_refused = store.ingest.limits_refused(c.name)
     if not limits_hist and not v.limits_refused:  # (refused: more points cannot help)
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
+    if detail:
+        from linewatch.present.close_up import with_figures
+
+        with_figures(v)
     # the label follows the condition (the gauge recovered), not the unacknowledged alarm
     v.stuck = any(a.rule == "stuck" and a.active for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)
@@ -243,6 +249,8 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         counts = store.ingest.time_counts(path)
         if counts:
             fv.times_backwards, fv.times_unreadable = counts
+        if fv.times_backwards or fv.times_unreadable:
+            fv.times_note = times_text(fv.times_backwards, fv.times_unreadable)
         state_events = [e.kind for e in mine if e.kind in
                         ("stale", "resumed", "vanished", "appeared", "unreadable", "readable",
                          "waiting", "skipped", "bounded")]

@@ -49,6 +49,10 @@ class ChartView:
     phase_starts: list[int] = field(default_factory=list)
     # every phase's limits, oldest first: (start index, CL, UCL, LCL, sigma of the statistic)
     phase_limits: list[tuple[int, float, float, float, float]] = field(default_factory=list)
+    # the letter marking each point's most urgent kind of pattern ("" none), aligned with
+    # `values` (present.marks), and what each rule that fired here means: id -> (mark, words)
+    marks: list[str] = field(default_factory=list)
+    legend: dict[str, tuple[str, str]] = field(default_factory=dict)
 
 
 @dataclass(slots=True)
@@ -67,6 +71,42 @@ class PhaseStats:
     ppm_out: float | None  # from the overall SD, like Pp and Ppk
     pp: float | None = None
     ppk: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class BoxFigures:
+    """The box plot of recent readings: quartiles, Tukey's 1.5·IQR whiskers, the outliers."""
+
+    points: int
+    q1: float
+    median: float
+    q3: float
+    whisker_low: float
+    whisker_high: float
+    outliers: tuple[float, ...] = ()  # ascending
+    stdev: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class TrendFigures:
+    """A least-squares line over the last plotted points and where it leads."""
+
+    points: int
+    slope: float | None = None
+    r2: float | None = None
+    adj_r2: float | None = None
+    p_value: float | None = None
+    points_to_spec: int | None = None  # None: no significant trend towards a spec limit
+
+
+@dataclass(frozen=True, slots=True)
+class CloseUpFigures:
+    """What the close-up shows beside its charts, computed where the detail is read."""
+
+    box: BoxFigures | None
+    box_of: str  # what the box plot is of: "readings", "subgroup means (n=5)"
+    box_points: int  # how many values it is drawn from (also when too few for a box)
+    trend: TrendFigures
 
 
 @dataclass(slots=True)
@@ -100,6 +140,7 @@ class CharacteristicView:
     seconds_per_point: float | None = None  # mean time between recent plotted points
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
     pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
+    figures: CloseUpFigures | None = None  # box plot and trend, in a detail read only
 
 
 @dataclass(slots=True)
@@ -122,6 +163,7 @@ class FeedView:
     unread: int = 0  # lines not read: the file has no header to go by (also in `rejected`)
     times_backwards: int = 0  # time stamps earlier than the row before (rows kept)
     times_unreadable: int = 0  # time stamps that cannot be read as a time (rows kept)
+    times_note: str = ""  # both counts in words, as the feed events say them ("" when none)
 
 
 @dataclass(slots=True)
@@ -143,8 +185,10 @@ class LineSnapshot:
 
 
 class LineActions(Protocol):
-    """What a face can ask of the monitor. Each call is safe from any thread and returns quickly;
-    it raises `linewatch.domain.errors.LinewatchError` with a one-line message on bad input."""
+    """What a face can ask of the monitor. Each call is safe from any thread; it may wait for
+    the store, so a screen calls it from a worker thread. It raises
+    `linewatch.domain.errors.LinewatchError` with a one-line message on bad input, and
+    `StoreError` when the store is busy or gone."""
 
     def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None: ...
 
@@ -160,14 +204,17 @@ class LineActions(Protocol):
 
 
 class SnapshotSource(Protocol):
-    """Where a face gets its picture. `snapshot()` is cheap and thread-safe; `subscribe` registers a
-    callback called (from any thread, possibly often) with the new version whenever something
-    changed, so the face can schedule a batched redraw instead of polling."""
+    """Where a face gets its picture. `snapshot()` and `detail()` are thread-safe and read the
+    store, so a screen calls them from a worker thread; they raise `StoreError` (a
+    LinewatchError) or OSError when the store cannot be read. `subscribe` registers a callback
+    called (from any thread, possibly often) with the new version whenever something changed,
+    so the face can schedule a batched redraw instead of polling."""
 
     def snapshot(self) -> LineSnapshot: ...
 
     def detail(self, characteristic: str) -> CharacteristicView | None:
-        """The characteristic with its full recent chart history, phases and statistics."""
+        """The characteristic with its full recent chart history, phases, statistics and the
+        close-up's figures."""
         ...
 
     def subscribe(self, callback: Callable[[int], None]) -> None: ...

@@ -15,6 +15,8 @@ from dataclasses import dataclass, field
 
 from linewatch.domain.errors import LinewatchError
 from linewatch.present import view
+from linewatch.present.close_up import with_figures
+from linewatch.present.mark_points import mark_chart
 
 NOW = 1_764_600_000.0  # the fixed clock of every test picture
 
@@ -219,6 +221,10 @@ def build_snapshot() -> view.LineSnapshot:
                       last_rejects=["line 871: weight is not a number: 'ERR'",
                                     "line 874: missing value of 'weight'"]),
     ]
+    for cv in chars:  # each point's pattern mark, as the store's picture carries them
+        for chart in (cv.location, cv.dispersion):
+            if chart is not None:
+                mark_chart(chart)
     return view.LineSnapshot(version=1, title="extrusion line 3", characteristics=chars,
                              alarms=alarms, feeds=feeds)
 
@@ -242,8 +248,8 @@ class FakeSource:
         with self.lock:
             self.detail_calls += 1
             for cv in self.picture.characteristics:
-                if cv.name == characteristic:
-                    return cv
+                if cv.name == characteristic:  # with the close-up's figures, as the store's
+                    return with_figures(cv)
         return None
 
     def subscribe(self, callback: Callable[[int], None]) -> None:

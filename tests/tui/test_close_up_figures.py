@@ -16,8 +16,8 @@ from textual.widgets import Static
 
 from linewatch.faces.tui.app import LinewatchApp
 from linewatch.faces.tui.glyphs import ASCII
-from linewatch.faces.tui.screens.close_up import TREND_WINDOW
 from linewatch.faces.tui.widgets.box_plot import draw_box_plot
+from linewatch.present.close_up import TREND_WINDOW, box_figures
 
 from .fake_line import FakeSource, build_snapshot
 
@@ -42,7 +42,7 @@ async def test_trend_line_matches_scipy_linregress_over_the_window(app: Linewatc
 def test_box_plot_figures_match_the_standard_library_quartiles() -> None:
     values = [2.11, 2.09, 2.14, 2.10, 2.12, 2.08, 2.13, 2.10, 2.30, 2.11]
     q1, med, q3 = statistics.quantiles(values, n=4, method="inclusive")
-    words = draw_box_plot(values, 1.9, 2.4, 60, ASCII).plain.split("\n")[2]
+    words = draw_box_plot(box_figures(values), 1.9, 2.4, 60, ASCII).plain.split("\n")[2]
     found = re.search(r"Q1 (\S+)  median (\S+)  Q3 (\S+)", words)
     assert found is not None
     shown = [float(x) for x in found.groups()]

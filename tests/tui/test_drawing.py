@@ -6,13 +6,14 @@ from __future__ import annotations
 from rich.console import Console
 
 from linewatch.domain.durations import format_age
-from linewatch.faces.tui.formatting import rule_mark
 from linewatch.faces.tui.glyphs import ASCII, UNICODE
 from linewatch.faces.tui.widgets.box_plot import draw_box_plot
 from linewatch.faces.tui.widgets.control_chart import LABEL_WIDTH, draw_control_chart
 from linewatch.faces.tui.widgets.margin_gauge import gauge_bar, margin_gauge
 from linewatch.faces.tui.widgets.spark_cell import SparkCell
 from linewatch.present import view
+from linewatch.present.close_up import box_figures
+from linewatch.present.mark_points import mark_chart, point_mark, point_marks
 
 
 def lines_of(text: object, width: int = 200) -> list[str]:
@@ -24,9 +25,9 @@ def lines_of(text: object, width: int = 200) -> list[str]:
 
 def chart(values: list[float], rules: list[str] | None = None,
           phase_starts: list[int] | None = None) -> view.ChartView:
-    return view.ChartView("individuals", values, list(range(len(values))),
-                          rules or [""] * len(values), center=0.0, ucl=3.0, lcl=-3.0, sigma=1.0,
-                          phase_starts=phase_starts or [0])
+    return mark_chart(view.ChartView(
+        "individuals", values, list(range(len(values))), rules or [""] * len(values),
+        center=0.0, ucl=3.0, lcl=-3.0, sigma=1.0, phase_starts=phase_starts or [0]))
 
 
 def row_with(lines: list[str], label: str) -> int:
@@ -100,7 +101,7 @@ def test_margin_gauge_shows_margin_cpk_and_lower_bound() -> None:
 def test_spark_cell_marks_sit_under_their_points_and_the_newest_is_rightmost() -> None:
     values = [1.0, 2.0, 3.0, 9.0, 2.0]
     rules = ["", "", "", "n5", ""]
-    cell = SparkCell(values, rules, 8, ASCII)
+    cell = SparkCell(values, point_marks(rules), 8, ASCII)
     marks = cell.markers().plain
     assert len(marks) == 8
     assert marks.index("Z") == 8 - 5 + 3  # right-aligned: three pads, then the 4th point
@@ -111,14 +112,15 @@ def test_spark_cell_marks_sit_under_their_points_and_the_newest_is_rightmost() -
 
 
 def test_spark_cell_keeps_only_the_newest_points_that_fit() -> None:
-    cell = SparkCell([float(i) for i in range(50)], [""] * 49 + ["we2"], 10, UNICODE)
+    cell = SparkCell([float(i) for i in range(50)], point_marks([""] * 49 + ["we2"]), 10,
+                     UNICODE)
     assert cell.values == [float(i) for i in range(40, 50)]
     assert cell.markers().plain == " " * 9 + "Z"
 
 
 def test_box_plot_marks_outliers_and_spec_brackets() -> None:
     values = [10.0, 10.2, 9.9, 10.1, 10.0, 9.8, 10.3, 14.0]
-    first = draw_box_plot(values, 9.0, 15.0, 60, ASCII).plain.split("\n")[0]
+    first = draw_box_plot(box_figures(values), 9.0, 15.0, 60, ASCII).plain.split("\n")[0]
     # the box around 10 sits left of the outlier at 14; 9 and 15 are the brackets
     assert first.index("[") < first.index("M") < first.index("o") < first.index("]")
     assert first.rindex("|") < first.index("o")
@@ -132,7 +134,7 @@ def test_small_text_helpers() -> None:
     # the kinds of pattern as the rules are published (Western Electric 1956, Nelson 1984):
     # we2 and n5 are "2 of 3 beyond 2σ" (zone), n2 is "9 in a row on one side", n1 beyond 3σ;
     # a point with several rules shows the most urgent kind
-    assert [rule_mark(r) for r in ("", "we2", "n5,n6", "n2", "n2,n1", "n3", "n4", "n7", "n8",
+    assert [point_mark(r) for r in ("", "we2", "n5,n6", "n2", "n2,n1", "n3", "n4", "n7", "n8",
                                    "spec")] == ["", "Z", "Z", "S", "B", "T", "A", "H", "M", "?"]
 
 

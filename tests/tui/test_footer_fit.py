@@ -7,7 +7,6 @@ import io
 import pytest
 from rich.console import Console
 from textual.widgets import Static
-from textual.widgets._footer import FooterKey
 
 from linewatch.faces.tui.app import LinewatchApp
 from linewatch.faces.tui.screens.board import BoardScreen
@@ -15,7 +14,7 @@ from linewatch.faces.tui.screens.close_up import CloseUpScreen
 from linewatch.faces.tui.screens.feeds import FeedScreen
 from linewatch.faces.tui.screens.keys_help import key_display, key_sections
 from linewatch.faces.tui.screens.queue import AlarmQueueScreen
-from linewatch.faces.tui.widgets.key_footer import fit_keys
+from linewatch.faces.tui.widgets.key_footer import KeyCap, fit_keys
 
 from .conftest import make_app
 
@@ -27,8 +26,8 @@ VIEWS = [
 ]
 
 
-def footer_keys(app: LinewatchApp) -> list[FooterKey]:
-    return list(app.screen.query(FooterKey))
+def footer_keys(app: LinewatchApp) -> list[KeyCap]:
+    return list(app.screen.query(KeyCap))
 
 
 @pytest.mark.parametrize("ascii_only", [False, True], ids=["unicode", "ascii"])

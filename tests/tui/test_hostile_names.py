@@ -30,6 +30,7 @@ from linewatch.faces.tui.screens.shelve_panel import ShelvePanel
 from linewatch.present import view
 
 from .fake_line import NOW, FakeActions, FakeSource, build_snapshot, fixed_clock
+from .waiting import settled
 
 HOSTILE = [
     "[/]",
@@ -100,7 +101,7 @@ def assert_notified(app: LinewatchApp, literal: str) -> None:
 
 
 async def settle(pilot: Pilot[int]) -> None:
-    await pilot.pause()
+    await settled(pilot)
     await pilot.pause()
 
 

@@ -18,7 +18,7 @@ from linewatch.faces.tui.screens.keys_help import KeysHelp
 from linewatch.faces.tui.screens.restart_panel import RestartPanel
 
 from .fake_line import FakeActions, FakeSource, build_snapshot
-from .waiting import until
+from .waiting import settled, until
 
 
 def board_rows(app: LinewatchApp) -> list[str]:
@@ -31,7 +31,7 @@ async def test_enter_opens_the_close_up_of_the_highlighted_row_and_escape_return
 ) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("down", "enter")
-        await pilot.pause()
+        await settled(pilot)
         assert isinstance(app.screen, CloseUpScreen)
         assert app.screen.characteristic == "wall-thickness"
         await pilot.press("escape")
@@ -43,7 +43,7 @@ async def test_new_baseline_at_the_cursor_point_with_a_reason(
 ) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("down", "enter")
-        await pilot.pause()
+        await settled(pilot)
         screen = app.screen
         assert isinstance(screen, CloseUpScreen)
         # the cursor starts on the newest point (index 89 of 90), three steps left is 86
@@ -53,7 +53,7 @@ async def test_new_baseline_at_the_cursor_point_with_a_reason(
         await pilot.press("n")
         assert isinstance(app.screen, RestartPanel)
         await pilot.press(*"new die fitted", "enter")
-        await pilot.pause()
+        await settled(pilot)
         assert actions.calls == [("new_baseline", ("wall-thickness", 86, "new die fitted"))]
 
 
@@ -66,19 +66,19 @@ async def test_new_baseline_point_can_be_typed_and_is_checked(
         assert isinstance(panel, RestartPanel)
         panel.query_one("#restart-at", Input).value = "480"
         await pilot.press(*"lot change", "enter")
-        await pilot.pause()
+        await settled(pilot)
         assert actions.calls == []
         assert "between 0 and 47" in str(panel.query_one("#restart-hint", Static).render())
         panel.query_one("#restart-at", Input).value = "40"
         await pilot.press("enter", "enter")  # fixed point, on to the kept reason, confirm
-        await pilot.pause()
+        await settled(pilot)
         assert actions.calls == [("new_baseline", ("outer-diameter", 40, "lot change"))]
 
 
 async def test_alarm_queue_opens_the_close_up_at_the_alarm(app: LinewatchApp) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("a", "c")
-        await pilot.pause()
+        await settled(pilot)
         screen = app.screen
         assert isinstance(screen, CloseUpScreen)
         assert screen.characteristic == "outer-diameter"
@@ -89,26 +89,26 @@ async def test_filter_by_name_then_clear(app: LinewatchApp) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         assert len(board_rows(app)) == 6
         await pilot.press("slash", *"wall")
-        await pilot.pause()
+        await settled(pilot)
         assert board_rows(app) == ["wall-thickness"]
         await pilot.press("enter")
-        await pilot.pause()
+        await settled(pilot)
         assert board_rows(app) == ["wall-thickness"]
         await pilot.press("enter")
-        await pilot.pause()
+        await settled(pilot)
         assert isinstance(app.screen, CloseUpScreen)
         await pilot.press("escape", "escape")
-        await pilot.pause()
+        await settled(pilot)
         assert len(board_rows(app)) == 6
 
 
 async def test_attention_switch_keeps_alarm_watch_and_stale_rows(app: LinewatchApp) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("exclamation_mark")
-        await pilot.pause()
+        await settled(pilot)
         assert board_rows(app) == ["outer-diameter", "wall-thickness", "fill-weight"]
         await pilot.press("exclamation_mark")
-        await pilot.pause()
+        await settled(pilot)
         assert len(board_rows(app)) == 6
 
 
@@ -132,7 +132,7 @@ async def test_feed_pulse_shows_the_last_rejected_rows(app: LinewatchApp) -> Non
         await pilot.press("f")
         assert isinstance(app.screen, FeedScreen)
         await pilot.press("down", "down")
-        await pilot.pause()
+        await settled(pilot)
         rejects = str(app.screen.query_one("#feed-rejects", Static).render())
         assert "line 871: weight is not a number" in rejects
 
@@ -140,7 +140,7 @@ async def test_feed_pulse_shows_the_last_rejected_rows(app: LinewatchApp) -> Non
 async def test_quit_asks_nothing_when_no_acknowledgement_is_open(app: LinewatchApp) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("a", "q")
-        await pilot.pause()
+        await settled(pilot)
     assert app.return_code == 0
 
 
@@ -155,7 +155,7 @@ async def test_quit_asks_when_an_acknowledgement_is_half_typed(
         assert isinstance(app.screen, AckPanel)
         assert app.screen.query_one("#ack-note", Input).value == "half"
         await pilot.press("ctrl+q", "y")
-        await pilot.pause()
+        await settled(pilot)
     assert app.return_code == 0
     assert actions.calls == []
 
@@ -165,11 +165,11 @@ async def test_a_requested_new_phase_is_announced_until_its_limits_arrive(
 ) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("down", "enter")
-        await pilot.pause()
+        await settled(pilot)
         screen = app.screen
         assert isinstance(screen, CloseUpScreen)
         await pilot.press("left", "n", *"new die fitted", "enter")
-        await pilot.pause()
+        await settled(pilot)
         cursor = screen.query_one("#closeup-cursor", Static)
         assert "new phase from point 88 asked for" in str(cursor.render())
         # the collector has estimated the new phase's limits: a third phase appears
@@ -189,16 +189,16 @@ async def test_home_and_end_move_the_close_up_cursor_to_the_first_and_newest_poi
     first, newest = wall.location.indices[0], wall.location.indices[-1]
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("down", "enter", "home")
-        await pilot.pause()
+        await settled(pilot)
         cursor = app.screen.query_one("#closeup-cursor", Static)
         assert f"point {first} =" in str(cursor.render())
         await pilot.press("end")
-        await pilot.pause()
+        await settled(pilot)
         assert f"point {newest} =" in str(cursor.render())
 
 
 async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_charts() -> None:
-    from textual.widgets._footer import FooterKey
+    from linewatch.faces.tui.widgets.key_footer import KeyCap
 
     from .conftest import make_app
 
@@ -206,9 +206,9 @@ async def test_pgdn_is_offered_for_the_figures_only_when_they_sit_below_the_char
         app = make_app()
         async with app.run_test(size=size) as pilot:
             await pilot.press("down", "enter")
-            await pilot.pause()
-            await pilot.pause()
-            keys = {k.key for k in app.screen.query(FooterKey)}
+            await settled(pilot)
+            await settled(pilot)
+            keys = {k.key for k in app.screen.query(KeyCap)}
             assert ("pagedown" in keys) is offered, (size, keys)
 
 
@@ -216,7 +216,7 @@ async def test_the_board_row_says_learning_while_a_new_phase_s_limits_are_being_
     app: LinewatchApp, source: FakeSource
 ) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause()
+        await settled(pilot)
         table = app.screen.query_one("#board-table", DataTable)
         assert "learning" not in str(table.get_cell("ovality", "state"))
         picture = build_snapshot()

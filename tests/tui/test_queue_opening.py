@@ -8,11 +8,10 @@ import dataclasses
 
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from textual.widgets._footer import FooterKey
 
 from linewatch.faces.tui.app import LinewatchApp
 from linewatch.faces.tui.screens.queue import AlarmQueueScreen, sorted_alarms
-from linewatch.faces.tui.widgets.key_footer import KeyFooter
+from linewatch.faces.tui.widgets.key_footer import KeyCap, KeyFooter
 from linewatch.present import view
 
 from .fake_line import NOW, FakeSource
@@ -53,14 +52,14 @@ async def test_the_queue_is_built_before_the_first_key_and_its_footer_kept(
         await pilot.press("a")
         await pilot.pause()
         assert app.screen is built[0]
-        keys = list(app.screen.query_one(KeyFooter).query(FooterKey))
+        keys = list(app.screen.query_one(KeyFooter).query(KeyCap))
         shown = [k.action for k in keys]
         assert "show('alarms')" not in shown and "show('board')" in shown  # where you are
         await pilot.press("b")
         await pilot.pause()
         await pilot.press("a")
         await pilot.pause()
-        again = list(app.screen.query_one(KeyFooter).query(FooterKey))
+        again = list(app.screen.query_one(KeyFooter).query(KeyCap))
         assert again == keys and all(a is b for a, b in zip(again, keys, strict=True))
 
 

@@ -11,6 +11,7 @@ from linewatch.faces.tui.screens.queue import AlarmQueueScreen, sorted_alarms
 from linewatch.present import view
 
 from .fake_line import NOW, FakeActions, FakeSource
+from .waiting import settled
 
 MANY = 150  # several windows' worth at 80x24
 STATES = [view.UNACKNOWLEDGED, view.ACKNOWLEDGED, view.RETURNED_UNACKNOWLEDGED, view.SHELVED]
@@ -53,7 +54,7 @@ async def test_page_down_reaches_the_last_alarm_and_page_up_the_first(
     order = [a.id for a in sorted_alarms(many_alarms(source))]
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("a")
-        await pilot.pause()
+        await settled(pilot)
         table = queue(app).table
         assert 0 < table.row_count < MANY  # only a window of the queue is built
         seen = [highlighted_id(app)]
@@ -81,7 +82,7 @@ async def test_arrow_keys_walk_every_alarm_once_in_queue_order(
     order = [a.id for a in sorted_alarms(many_alarms(source))]
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("a")
-        await pilot.pause()
+        await settled(pilot)
         walked = [highlighted_id(app)]
         for _ in range(MANY - 1):
             await pilot.press("down")
@@ -104,7 +105,7 @@ async def test_jumps_to_both_ends_and_keys_act_on_the_alarm_paged_to(
     order = sorted_alarms(alarms)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("a")
-        await pilot.pause()
+        await settled(pilot)
         await pilot.press("ctrl+end")
         assert highlighted_id(app) == order[-1].id and cursor_on_screen(app)
         await pilot.press("ctrl+home")
@@ -122,5 +123,5 @@ async def test_jumps_to_both_ends_and_keys_act_on_the_alarm_paged_to(
             target = queue(app).highlighted()
             assert target is not None
         await pilot.press("enter", "1", "enter")
-        await pilot.pause()
+        await settled(pilot)
         assert actions.calls == [("acknowledge", ([target.id], "tool wear", ""))]

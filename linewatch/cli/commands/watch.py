@@ -122,13 +122,16 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
     return out
 
 
+HANGUP_GRACE = 5.0  # seconds the screen's normal way out may take after a hang-up
+
+
 def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
     from linewatch.pipeline.monitor import Monitor
     from linewatch.present.face import MonitorFace
 
     messages: list[dict[str, Any]] = []
-    from linewatch.runtime.exiting import on_forced_exit
+    from linewatch.runtime.exiting import exit_later, on_forced_exit
 
     monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
     face = MonitorFace(monitor)
@@ -145,7 +148,12 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
     try:
         from linewatch.faces.tui.app import run_app
 
-        return run_app(face, face, bell=bell, title=monitor.title)
+        def arm_last_resort(code: int) -> None:
+            """Should the normal way out hang on a terminal that is gone, the clean-ups
+            registered above still run after a grace period and the process ends."""
+            exit_later(code, HANGUP_GRACE)
+
+        return run_app(face, face, bell=bell, title=monitor.title, on_hang_up=arm_last_resort)
     finally:
         forget()
         stop_collecting()

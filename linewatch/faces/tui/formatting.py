@@ -5,7 +5,6 @@ from __future__ import annotations
 import math
 
 from linewatch.domain.alarm_states import AlarmKind
-from linewatch.engine import rulebook
 from linewatch.present import view
 
 STATE_WORDS = {
@@ -69,39 +68,6 @@ def fmt_fixed(value: float | None, decimals: int = 2) -> str:
     if value is None or (isinstance(value, float) and math.isnan(value)):
         return "-"
     return f"{value:.{decimals}f}"
-
-
-
-
-
-
-
-
-# One letter per kind of pattern, most urgent first: it marks a signalling point on the
-# sparklines and charts (the same letter whatever the rule set, so n5 and we2 read alike).
-PATTERN_MARKS: dict[str, tuple[str, str]] = {
-    rulebook.BEYOND: ("B", "beyond a control limit"),
-    rulebook.K_OF_M: ("Z", "several points far out in one zone"),
-    rulebook.SIDE_RUN: ("S", "a run on one side of the centre line"),
-    rulebook.TREND: ("T", "a run steadily up or down"),
-    rulebook.MIXTURE: ("M", "a run avoiding the centre, both sides"),
-    rulebook.WITHIN: ("H", "a run hugging the centre line"),
-    rulebook.ALTERNATE: ("A", "a run alternating up and down"),
-}
-_URGENCY = list(PATTERN_MARKS)
-
-
-def rule_mark(rules: str) -> str:
-    """The letter that marks a signalling point with the most urgent kind of pattern among its
-    rules ('we2' -> 'Z', 'n2,n1' -> 'B'); '?' for a rule id not in the rulebook, '' for none."""
-    kinds = [rulebook.RULES[r].kind if r in rulebook.RULES else None
-             for r in (part.strip() for part in rules.split(",")) if r]
-    if not kinds:
-        return ""
-    known = [k for k in kinds if k in PATTERN_MARKS]
-    if not known:
-        return "?"
-    return PATTERN_MARKS[min(known, key=_URGENCY.index)][0]
 
 
 def base_name(path: str) -> str:

@@ -27,6 +27,9 @@ SPEC = "bold magenta"
 PHASE = "yellow"
 CURSOR = "reverse"
 LABEL = "grey70"
+BOX = "cyan"  # the box plot's quartile box, its edges and the median
+BOX_EDGE = "bold cyan"
+MEDIAN = "bold white"
 SPARK_LOW = "#3a7ca5"
 SPARK_HIGH = "#9fd8ff"
 

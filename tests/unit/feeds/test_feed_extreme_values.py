@@ -112,6 +112,7 @@ def test_every_drawing_copes_with_extreme_values() -> None:
     from linewatch.faces.tui.widgets.margin_gauge import gauge_bar
     from linewatch.faces.tui.widgets.spark_cell import SparkCell
     from linewatch.present import view
+    from linewatch.present.close_up import box_figures
     from linewatch.report.build import ChartTrace
     from linewatch.report.svg_charts import control_chart_svg
 
@@ -125,7 +126,7 @@ def test_every_drawing_copes_with_extreme_values() -> None:
                                center=1e308, ucl=1.7e308, lcl=-1.7e308, sigma=1e308,
                                phase_starts=[0])
         assert draw_control_chart(chart, 20 + LABEL_WIDTH, 12, glyphs, lsl=-1e308, usl=1e308)
-        draw_box_plot([-1e308, 0.0, 1.0, 2.0, 1e308], -1e308, 1e308, 40, glyphs)
+        draw_box_plot(box_figures([-1e308, 0.0, 1.0, 2.0, 1e308]), -1e308, 1e308, 40, glyphs)
     trace = ChartTrace("individuals", list(range(5)), values, [1e308] * 5, [1.7e308] * 5,
                        [-1.7e308] * 5, flagged={0})
     svg = control_chart_svg(trace, -1e308, 1e308)

@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any, cast
+from collections.abc import Callable
+from typing import TYPE_CHECKING, cast
 
 from textual.events import Resize
 from textual.screen import Screen
 from textual.widgets import DataTable
+
+from linewatch.faces.tui.messages import ActionRequest
 
 if TYPE_CHECKING:
     from linewatch.faces.tui.app import LinewatchApp
@@ -45,18 +48,12 @@ class LineScreen(Screen[None]):
         """Draw `app.line`. Subclasses draw, then call this to record the version."""
         self.drawn_version = self.lw.line.version
 
-    def ask(self, call: str, *args: Any) -> tuple[bool, Any]:
-        """Call one of the monitor's actions. A refusal (a one-line LinewatchError) or any other
-        failure becomes a message on screen; the screen keeps running either way."""
-        from linewatch.domain.errors import LinewatchError
-
-        try:
-            return True, getattr(self.lw.actions, call)(*args)
-        except LinewatchError as exc:
-            self.notify(str(exc), title="not done", severity="error")
-        except Exception as exc:  # the store may be busy or gone; never take the screen down
-            self.notify(f"{type(exc).__name__}: {exc}", title="not done", severity="error")
-        return False, None
+    def ask(self, call: str, *args: object, done: Callable[[object], str] | None = None,
+            then: Callable[[object], None] | None = None) -> None:
+        """Ask the monitor for one of its actions, in a worker thread (the app's `request`).
+        When it went through, `done(result)` is told on screen and `then(result)` runs; a
+        refusal (a one-line LinewatchError) or a busy store is told instead."""
+        self.lw.request(ActionRequest(call, args, done, then))
 
     def tick_clock(self) -> None:
         """Once a second: refresh what only time changes (ages). Default: nothing."""

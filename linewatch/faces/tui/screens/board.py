@@ -10,6 +10,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
 from textual.events import Resize
+from textual.reactive import reactive
 from textual.widgets import DataTable, Input, Static
 
 from linewatch.domain.durations import format_age
@@ -72,10 +73,11 @@ class BoardScreen(LineScreen):
                 tooltip="clear the name filter and the attention switch"),
     ]
 
+    filter_text: reactive[str] = reactive("", init=False)  # a name must contain it
+    attention_only: reactive[bool] = reactive(False, init=False)  # alarm, watch, stale rows
+
     def __init__(self) -> None:
         super().__init__()
-        self.filter_text = ""
-        self.attention_only = False
         self._widths = column_widths(80)
         self._row_sigs: dict[str, tuple[object, ...]] = {}
         self._shown: list[str] = []
@@ -189,7 +191,7 @@ class BoardScreen(LineScreen):
     def _signature(self, cv: view.CharacteristicView) -> tuple[object, ...]:
         loc = cv.location
         width = self._widths["recent"]
-        tail = (len(loc.values), loc.values[-1:], loc.rules[-width:]) if loc else ()
+        tail = (len(loc.values), loc.values[-1:], loc.marks[-width:]) if loc else ()
         return (cv.state, cv.last_value, cv.decimals, cv.points, cv.open_alarms, cv.cpk,
                 cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
@@ -221,7 +223,7 @@ class BoardScreen(LineScreen):
         if cv.subgroup_size > 1:
             name.append(f" n={cv.subgroup_size}", palette.LABEL)
         loc = cv.location
-        spark = SparkCell(loc.values if loc else [], loc.rules if loc else [],
+        spark = SparkCell(loc.values if loc else [], loc.marks if loc else [],
                           self._widths["recent"], g).to_text()
         gauge: Text
         if cv.limits_refused:  # why, in the gauge's place (the close-up says what to do)
@@ -296,10 +298,15 @@ class BoardScreen(LineScreen):
         box.value = self.filter_text
         box.focus()
 
+    def watch_filter_text(self) -> None:
+        self.redraw()
+
+    def watch_attention_only(self) -> None:
+        self.redraw()
+
     @on(Input.Changed, "#board-filter")
     def _filter_typed(self, event: Input.Changed) -> None:
         self.filter_text = event.value.strip()
-        self.show_line()
 
     @on(Input.Submitted, "#board-filter")
     def _filter_done(self, event: Input.Submitted) -> None:
@@ -309,7 +316,6 @@ class BoardScreen(LineScreen):
 
     def action_attention(self) -> None:
         self.attention_only = not self.attention_only
-        self.show_line()
 
     def action_clear_filter(self) -> None:
         box = self.query_one("#board-filter", Input)
@@ -317,4 +323,3 @@ class BoardScreen(LineScreen):
         self.filter_text = ""
         self.attention_only = False
         self.table.focus()
-        self.show_line()

@@ -6,18 +6,20 @@ from typing import ClassVar
 
 from rich.console import Group
 from rich.text import Text
+from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.events import Resize
+from textual.message import Message
 from textual.widgets import Static
+from textual.worker import Worker, get_current_worker
 
+from linewatch.domain.errors import LinewatchError
 from linewatch.domain.safe_text import visible
 from linewatch.domain.words import count
-from linewatch.engine.rulebook import RULES
-from linewatch.engine.summary import trend
-from linewatch.faces.tui import palette
-from linewatch.faces.tui.formatting import STATE_WORDS, fmt_span, rule_mark
+from linewatch.faces.tui import messages, palette
+from linewatch.faces.tui.formatting import STATE_WORDS, fmt_span
 from linewatch.faces.tui.screens.base import LineScreen
 from linewatch.faces.tui.widgets.box_plot import draw_box_plot
 from linewatch.faces.tui.widgets.chart_pane import ChartPane
@@ -27,7 +29,6 @@ from linewatch.faces.tui.widgets.top_bar import TopBar
 from linewatch.present import view
 from linewatch.present.figures import fmt_reading
 
-TREND_WINDOW = 30  # points in the trend fit
 WIDE_AT = (140, 40)  # columns and rows from which the figures sit beside the charts
 
 
@@ -94,6 +95,8 @@ class CloseUpScreen(LineScreen):
         self.cursor: int | None = None  # position in location.values
         self.detail: view.CharacteristicView | None = None
         self._detail_key: tuple[object, ...] | None = None  # the line's key when it was read
+        self._reading: Worker[None] | None = None  # the detail being read, if any
+        self._read_again = False  # the line moved on while the detail was being read
         # a new phase asked for here, and how many phases there were then (until one more comes)
         self.requested: tuple[int, int] | None = None
 
@@ -112,10 +115,12 @@ class CloseUpScreen(LineScreen):
                 yield Static(id="closeup-alarms")
         yield KeyFooter()
 
-    def on_mount(self) -> None:
+    async def on_mount(self) -> None:
         self.query_one(CloseUpBody).focus()
         self.ready = True
         self.show_line()
+        if self._reading is not None:  # the first detail, before this screen takes keys; the
+            await self._reading.wait()  # loop stays free meanwhile (it is read in a thread)
 
     def on_resize(self, event: Resize) -> None:
         wide = event.size.width >= WIDE_AT[0] and event.size.height >= WIDE_AT[1]
@@ -141,11 +146,50 @@ class CloseUpScreen(LineScreen):
             self._draw_top_bar(self.detail)  # the line's alarm counts may have moved
             super().show_line()
             return
+        if self._reading is not None and self._reading.is_running:
+            self._read_again = True  # one read at a time; the newest key once this one is in
+        else:
+            self._reading = self._read_detail(key)
+        if self.detail is not None:
+            self._draw_top_bar(self.detail)
+        super().show_line()
+
+    @work(thread=True, exclusive=True, group="detail")
+    def _read_detail(self, key: tuple[object, ...] | None) -> None:
+        """Read the characteristic's detail with its figures (in a thread: SQLite and numpy)
+        and post it back. A store that is busy or gone is expected and told; anything else is
+        a bug, which the app's crash handler takes."""
         try:
-            self.detail = self.lw.source.detail(self.characteristic)
-            self._detail_key = key
-        except Exception as exc:  # keep the last picture; the next change tries again
-            self.notify(f"cannot read {self.characteristic}: {exc}", severity="error")
+            outcome: Message = messages.DetailArrived(
+                self.lw.source.detail(self.characteristic), key)
+        except (LinewatchError, OSError) as exc:
+            outcome = messages.DetailUnread(messages.problem_words(exc))
+        if not get_current_worker().is_cancelled:
+            self.post_message(outcome)
+
+    @on(messages.DetailUnread)
+    def _detail_unread(self, message: messages.DetailUnread) -> None:
+        """Keep the last picture; the next change tries again."""
+        self.notify(f"cannot read {self.characteristic}: {message.problem}", severity="error")
+        self._next_read()
+
+    @on(messages.DetailArrived)
+    def _detail_arrived(self, message: messages.DetailArrived) -> None:
+        self.detail, self._detail_key = message.detail, message.key
+        if self.drawable:
+            self._place_cursor()
+            self._draw()
+            # fitted again once laid out: the detail can land before a resize's new layout
+            self.call_after_refresh(self._draw_figures)
+        self._next_read()
+
+    def _next_read(self) -> None:
+        if self._read_again and self.drawable:
+            self._read_again = False
+            self.show_line()
+
+    def _place_cursor(self) -> None:
+        """On the newest point at first (or the point an alarm asked for), then kept."""
         cv = self.detail
         loc = cv.location if cv else None
         if loc and loc.values:
@@ -154,8 +198,6 @@ class CloseUpScreen(LineScreen):
                 if self.focus_index is not None and self.focus_index in loc.indices:
                     self.cursor = loc.indices.index(self.focus_index)
             self.cursor = min(self.cursor, len(loc.values) - 1)
-        self._draw()
-        super().show_line()
 
     def _draw(self) -> None:
         cv = self.detail
@@ -179,20 +221,14 @@ class CloseUpScreen(LineScreen):
         cv = self.detail
         if cv is None or not self.drawable:  # a resize can queue this just before the screen goes
             return
-        # the spec limits bound single parts, so the box plot shows individual readings;
-        # without them (an older source) it falls back to the plotted points and says so
-        loc = cv.location
-        if cv.recent_values:
-            values, what = cv.recent_values, "readings"
-        else:
-            values = loc.values if loc else []
-            what = "readings" if cv.subgroup_size <= 1 else f"subgroup means (n={cv.subgroup_size})"
+        figures = cv.figures
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
-        box = draw_box_plot(values[-100:], cv.lsl, cv.usl, width, self.lw.glyphs, cv.decimals)
+        box = draw_box_plot(figures.box if figures else None, cv.lsl, cv.usl, width,
+                            self.lw.glyphs, cv.decimals)
         box.end = "\n"  # Textual counts newlines to size a Group
-        self.query_one("#closeup-box", Static).update(Group(
-            Text(f"last {min(len(values), 100)} {what} against the spec limits", "bold"), box,
-        ))
+        heading = (f"last {figures.box_points} {figures.box_of} against the spec limits"
+                   if figures else "box plot")
+        self.query_one("#closeup-box", Static).update(Group(Text(heading, "bold"), box))
         self.query_one("#closeup-phases", Static).update(Group(
             Text("phases of limits", "bold"),
             phase_table(cv.phases) if cv.phases else Text(
@@ -253,23 +289,18 @@ class CloseUpScreen(LineScreen):
             if rules:
                 text.append(f"  signals {rules}", palette.SIGNAL)
             text.append("\n")
-        fired = sorted({r.strip() for rs in ((loc.rules if loc else []) +
-                                             (cv.dispersion.rules if cv.dispersion else []))
-                        for r in rs.split(",") if r.strip()})
-        if fired:
+        legend = {**(loc.legend if loc else {}),
+                  **(cv.dispersion.legend if cv.dispersion else {})}
+        if legend:
             text.append("marks: ", palette.LABEL)
-            parts = []
-            for rule in fired:
-                spec = RULES.get(rule)
-                parts.append(f"{rule_mark(rule)}={rule} {spec.describe() if spec else ''}".strip())
-            text.append("; ".join(parts))
+            text.append("; ".join(f"{mark}={visible(rule)} {words}".strip()
+                                  for rule, (mark, words) in sorted(legend.items())))
         return text
 
     def _trend_text(self, cv: view.CharacteristicView) -> Text:
-        values = cv.location.values[-TREND_WINDOW:] if cv.location else []
+        fit = cv.figures.trend if cv.figures else view.TrendFigures(0)
         text = Text(end="")
-        text.append(f"trend over the last {count(len(values), point_word(cv))}\n", "bold")
-        fit = trend(values, cv.lsl, cv.usl)
+        text.append(f"trend over the last {count(fit.points, point_word(cv))}\n", "bold")
         if fit.slope is None or fit.r2 is None or fit.adj_r2 is None or fit.p_value is None:
             text.append(f"too few {point_word(cv)}s, or no spread", palette.LABEL)
             return text
@@ -323,10 +354,17 @@ class CloseUpScreen(LineScreen):
         phases_now = len(loc.phase_limits)
 
         def done(choice: RestartChoice | None) -> None:
-            if choice and self.ask("new_baseline", cv.name, choice.start_index, choice.reason)[0]:
-                self.notify(f"new baseline for {cv.name} from {point_word(cv)} "
-                            f"{choice.start_index}")
+            if not choice:
+                return
+
+            def asked(_: object) -> None:
                 self.requested = (choice.start_index, phases_now)
-                self._draw()
+                if self.drawable:
+                    self._draw()
+
+            self.ask("new_baseline", cv.name, choice.start_index, choice.reason,
+                     done=lambda _: f"new baseline for {cv.name} from {point_word(cv)} "
+                                    f"{choice.start_index}",
+                     then=asked)
 
         self.app.push_screen(RestartPanel(cv.name, start, last), done)

@@ -16,7 +16,6 @@ from linewatch.faces.tui.formatting import base_name
 from linewatch.faces.tui.screens.base import TableScreen
 from linewatch.faces.tui.widgets.key_footer import KeyFooter
 from linewatch.faces.tui.widgets.top_bar import TopBar
-from linewatch.feeds.health import times_text
 from linewatch.present import view
 
 
@@ -142,9 +141,8 @@ class FeedScreen(TableScreen):
                 text.append(f"no header: {f.unread:,} lines not read\n", palette.SIGNAL)
             for note in f.notes:
                 text.append(f"warning: {visible(note)}\n", palette.SPEC)
-            if f.times_backwards or f.times_unreadable:
-                text.append(times_text(f.times_backwards, f.times_unreadable) + "\n",
-                            palette.SPEC)
+            if f.times_note:
+                text.append(f"{visible(f.times_note)}\n", palette.SPEC)
             if f.last_rejects:
                 text.append(f"last rejected rows ({f.rejected} in all):\n")
                 for reason in f.last_rejects[-5:]:

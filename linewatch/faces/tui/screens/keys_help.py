@@ -13,8 +13,8 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from linewatch.faces.tui.formatting import PATTERN_MARKS
 from linewatch.faces.tui.palette import CPK_THRESHOLDS
+from linewatch.present.marks import PATTERN_MARKS
 
 
 def key_sections() -> list[tuple[str, list[Binding]]]:

@@ -34,11 +34,6 @@ def sorted_alarms(alarms: list[view.AlarmView]) -> list[view.AlarmView]:
     return by_urgency(alarms)
 
 
-def reasons_for(alarm: view.AlarmView) -> list[str]:
-    """The characteristic's reason codes (the alarm policy fills in its defaults)."""
-    return list(alarm.reasons)
-
-
 WINDOW_PAGES = 3  # rows built at once: this many screenfuls (at least MIN_WINDOW rows)
 MIN_WINDOW = 30
 
@@ -275,11 +270,12 @@ class AlarmQueueScreen(TableScreen):
             return
 
         def done(choice: AckChoice | None) -> None:
-            if choice and self.ask("acknowledge", [a.id], choice.reason, choice.note)[0]:
-                self.notify(f"alarm #{a.id} acknowledged: {choice.reason}")
+            if choice:
+                self.ask("acknowledge", [a.id], choice.reason, choice.note,
+                         done=lambda _: f"alarm #{a.id} acknowledged: {choice.reason}")
 
         self.app.push_screen(
-            AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", reasons_for(a)), done
+            AckPanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}", list(a.reasons)), done
         )
 
     def action_acknowledge_all(self) -> None:
@@ -296,15 +292,13 @@ class AlarmQueueScreen(TableScreen):
         )
 
         def done(choice: AckChoice | None) -> None:
-            if not choice:
-                return
-            done, n = self.ask("acknowledge_characteristic", name, choice.reason, choice.note)
-            if done:
-                self.notify(f"{n} alarms of {name} acknowledged: {choice.reason}")
+            if choice:
+                self.ask("acknowledge_characteristic", name, choice.reason, choice.note,
+                         done=lambda n: f"{n} alarms of {name} acknowledged: {choice.reason}")
 
         self.app.push_screen(
             AckPanel(f"all {count} alarm{'' if count == 1 else 's'} of {alarm_subject(a)}",
-                     reasons_for(a)),
+                     list(a.reasons)),
             done,
         )
 
@@ -316,8 +310,9 @@ class AlarmQueueScreen(TableScreen):
             return
 
         def done(choice: ShelveChoice | None) -> None:
-            if choice and self.ask("shelve", a.id, choice.seconds, choice.reason)[0]:
-                self.notify(f"alarm #{a.id} shelved for {choice.text}")
+            if choice:
+                self.ask("shelve", a.id, choice.seconds, choice.reason,
+                         done=lambda _: f"alarm #{a.id} shelved for {choice.text}")
 
         self.app.push_screen(ShelvePanel(f"alarm #{a.id} {alarm_subject(a)}: {a.description}"),
                              done)
@@ -329,8 +324,7 @@ class AlarmQueueScreen(TableScreen):
         if a.state != view.SHELVED:
             self.notify(f"alarm #{a.id} is not shelved")
             return
-        if self.ask("unshelve", a.id)[0]:
-            self.notify(f"alarm #{a.id} unshelved")
+        self.ask("unshelve", a.id, done=lambda _: f"alarm #{a.id} unshelved")
 
     def action_close_up(self) -> None:
         a = self.highlighted()

@@ -4,26 +4,24 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from linewatch.engine.summary import Description, describe
 from linewatch.faces.tui import palette
 from linewatch.faces.tui.formatting import fmt_scaled, fmt_value
 from linewatch.faces.tui.glyphs import Glyphs
 from linewatch.present.figures import fmt_reading
 from linewatch.present.scales import cell_of, padded_span
+from linewatch.present.view import BoxFigures
 
 
 def draw_box_plot(
-    values: list[float], lsl: float | None, usl: float | None, width: int, glyphs: Glyphs,
+    fig: BoxFigures | None, lsl: float | None, usl: float | None, width: int, glyphs: Glyphs,
     decimals: int | None = None,
 ) -> Text:
     """Line 1: whiskers, box, median, outliers, `[` LSL and `]` USL. Line 2: the scale's ends and
-    the limits. Line 3: the figures in words. Figures from the engine's `describe` (Tukey's
-    1.5·IQR whiskers). `decimals`: the characteristic's (figures.reading_decimals), when known."""
-    fig = describe(values)
-    if fig.q1 is None or fig.q3 is None or fig.median is None or fig.whisker_low is None \
-            or fig.whisker_high is None:
+    the limits. Line 3: the figures in words. `fig`: Tukey's figures as the read model computes
+    them (present.close_up). `decimals`: the characteristic's (figures.reading_decimals)."""
+    if fig is None:
         return Text("no points yet", palette.LABEL)
-    outliers = sorted(v for _, v in fig.outliers)
+    outliers = list(fig.outliers)
     width = max(20, width)
     ends = [fig.whisker_low, fig.whisker_high, *outliers]
     ends += [v for v in (lsl, usl) if v is not None]
@@ -36,10 +34,10 @@ def draw_box_plot(
     for c in range(col(fig.whisker_low), col(fig.whisker_high) + 1):
         cells[c] = (glyphs.whisker, palette.LABEL)
     for c in range(col(fig.q1), col(fig.q3) + 1):
-        cells[c] = (glyphs.box_fill, "cyan")
-    cells[col(fig.q1)] = (glyphs.box_edge, "bold cyan")
-    cells[col(fig.q3)] = (glyphs.box_edge, "bold cyan")
-    cells[col(fig.median)] = (glyphs.median, "bold white")
+        cells[c] = (glyphs.box_fill, palette.BOX)
+    cells[col(fig.q1)] = (glyphs.box_edge, palette.BOX_EDGE)
+    cells[col(fig.q3)] = (glyphs.box_edge, palette.BOX_EDGE)
+    cells[col(fig.median)] = (glyphs.median, palette.MEDIAN)
     for v in outliers:
         cells[col(v)] = (glyphs.outlier, palette.SIGNAL)
     if lsl is not None:
@@ -67,8 +65,8 @@ def _scale_line(lo: float, hi: float, lsl: float | None, usl: float | None, widt
     return Text(f"{left}{' ' * gap}{right}", palette.LABEL)
 
 
-def _figures_line(fig: Description, outliers: list[float], decimals: int | None) -> Text:
-    spread = fig.stdev or ((fig.q3 or 0.0) - (fig.q1 or 0.0)) or None
+def _figures_line(fig: BoxFigures, outliers: list[float], decimals: int | None) -> Text:
+    spread = fig.stdev or (fig.q3 - fig.q1) or None
 
     def f(v: float | None) -> str:
         return fmt_scaled(v, spread) if decimals is None else fmt_reading(v, decimals)

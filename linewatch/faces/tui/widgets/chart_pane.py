@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from rich.text import Text
+from textual.reactive import reactive
 from textual.widget import Widget
 
 from linewatch.faces.tui.glyphs import Glyphs
@@ -11,22 +12,23 @@ from linewatch.present.view import ChartView
 
 
 class ChartPane(Widget):
-    """Holds a ChartView (and optional spec limits and cursor); redraws on `show` or resize."""
+    """Draws its ChartView (with optional spec limits and cursor); any change repaints it."""
+
+    chart: reactive[ChartView | None] = reactive(None, layout=False)
+    lsl: reactive[float | None] = reactive(None, layout=False)
+    usl: reactive[float | None] = reactive(None, layout=False)
+    cursor: reactive[int | None] = reactive(None, layout=False)
+    decimals: reactive[int | None] = reactive(None, layout=False)
 
     def __init__(self, glyphs: Glyphs, *, id: str | None = None) -> None:
         super().__init__(id=id)
         self.glyphs = glyphs
-        self.chart: ChartView | None = None
-        self.lsl: float | None = None
-        self.usl: float | None = None
-        self.cursor: int | None = None
-        self.decimals: int | None = None
 
     def show(self, chart: ChartView | None, lsl: float | None = None, usl: float | None = None,
              cursor: int | None = None, decimals: int | None = None) -> None:
+        """Set what to draw; the repaints these changes ask for are made once."""
         self.chart, self.lsl, self.usl, self.cursor = chart, lsl, usl, cursor
         self.decimals = decimals
-        self.refresh()
 
     def render(self) -> Text:
         if self.chart is None:

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from rich.text import Text
 
 from linewatch.faces.tui import palette
-from linewatch.faces.tui.formatting import fmt_scaled, fmt_value, rule_mark
+from linewatch.faces.tui.formatting import fmt_scaled, fmt_value
 from linewatch.faces.tui.glyphs import Glyphs
 from linewatch.present.figures import fmt_reading
 from linewatch.present.scales import fraction_of, padded_span
@@ -224,9 +224,9 @@ def draw_control_chart(
         for r in range(height):
             canvas.put(r, col, glyphs.phase, palette.PHASE)
 
-    rules = chart.rules[win.start : win.start + win.count] if chart.rules else []
+    marks = chart.marks[win.start : win.start + win.count] if chart.marks else []
     for j, v in enumerate(values):
-        mark = rule_mark(rules[j]) if j < len(rules) else ""
+        mark = marks[j] if j < len(marks) else ""
         if mark:
             canvas.put(row_of(v), col_of(j), mark, palette.SIGNAL)
         else:

@@ -7,12 +7,16 @@ least needed keys until the row fits; `?` (the keys help, which lists everything
 
 from __future__ import annotations
 
+from typing import ClassVar
+
+from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.events import Resize
+from textual.reactive import reactive
 from textual.screen import Screen
+from textual.widget import Widget
 from textual.widgets import Footer
-from textual.widgets._footer import FooterKey
 
 # Dropped first to last when the row does not fit, after the view you are on.
 SPARE_ACTIONS = (
@@ -30,7 +34,7 @@ KEPT_ACTIONS = ("keys_help", "leave")
 
 
 def key_width(key_display: str, description: str, compact: bool) -> int:
-    """Cells one key takes in the footer (FooterKey's padding, and the compact margin)."""
+    """Cells one key takes in the footer (KeyCap's padding, and the compact margin)."""
     return len(key_display) + len(description) + (2 if compact else 3)
 
 
@@ -56,6 +60,82 @@ def fit_keys(
             break
         keys = [k for k in keys if k[0].action != action]
     return keys, True
+
+
+class KeyCap(Widget):
+    """One key in the footer: the key, then what it does, coloured by the theme's footer
+    colours through its component classes; a click presses the key."""
+
+    ALLOW_SELECT = False
+    COMPONENT_CLASSES: ClassVar[set[str]] = {"key-cap--key", "key-cap--description"}
+    DEFAULT_CSS = """
+    KeyCap {
+        width: auto;
+        height: 1;
+        text-wrap: nowrap;
+        background: $footer-item-background;
+        .key-cap--key {
+            color: $footer-key-foreground;
+            background: $footer-key-background;
+            text-style: bold;
+            padding: 0 1;
+        }
+        .key-cap--description {
+            padding: 0 1 0 0;
+            color: $footer-description-foreground;
+            background: $footer-description-background;
+        }
+        &:hover {
+            pointer: pointer;
+            color: $footer-key-foreground;
+            background: $block-hover-background;
+        }
+        &.-disabled {
+            text-style: dim;
+        }
+        &.-compact {
+            margin-right: 1;
+            .key-cap--key {
+                padding: 0;
+            }
+            .key-cap--description {
+                padding: 0 0 0 1;
+            }
+        }
+    }
+    """
+
+    compact = reactive(True, toggle_class="-compact")
+
+    def __init__(self, key: str, key_display: str, description: str, action: str, *,
+                 disabled: bool = False, tooltip: str = "") -> None:
+        super().__init__(classes="-disabled" if disabled else "")
+        self.key = key
+        self.action = action
+        self.key_display = key_display
+        self.description = description
+        self.inactive = disabled
+        self.set_reactive(Widget.shrink, False)
+        if tooltip:
+            self.tooltip = tooltip
+
+    def render(self) -> Text:
+        key = self.get_component_styles("key-cap--key").padding
+        words = self.get_component_styles("key-cap--description").padding
+        text = Text.assemble(
+            (" " * key.left + self.key_display + " " * key.right,
+             self.get_component_rich_style("key-cap--key")),
+            (" " * words.left + self.description + " " * words.right,
+             self.get_component_rich_style("key-cap--description")),
+        )
+        text.stylize_before(self.rich_style)
+        return text
+
+    def on_mouse_down(self) -> None:
+        if self.inactive:
+            self.app.bell()
+        else:
+            self.app.simulate_key(self.key)
 
 
 class KeyFooter(Footer):
@@ -95,8 +175,8 @@ class KeyFooter(Footer):
         self._drawn = self._signature(keys, compact)
         self.compact = compact
         for binding, shown, enabled, tooltip in keys:
-            yield FooterKey(binding.key, shown, binding.description, binding.action,
-                            disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
+            yield KeyCap(binding.key, shown, binding.description, binding.action,
+                         disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
 
     def bindings_changed(self, screen: Screen[object]) -> None:
         self._bindings_ready = True

@@ -1,4 +1,4 @@
-"""A two-line overview cell: Textual's sparkline of recent points over a row of signal markers."""
+"""A two-line overview cell: Textual's sparkline of recent points over a row of pattern marks."""
 
 from __future__ import annotations
 
@@ -13,7 +13,6 @@ from rich.text import Text
 from textual.renderables.sparkline import Sparkline
 
 from linewatch.faces.tui import palette
-from linewatch.faces.tui.formatting import rule_mark
 from linewatch.faces.tui.glyphs import Glyphs
 from linewatch.present.scales import fraction_of
 
@@ -25,19 +24,20 @@ class _AsciiSparkline(Sparkline[float]):
 
 
 class SparkCell:
-    """The last `width` points, one bar each, with the rule number under every signalling point.
+    """The last `width` points, one bar each, with its pattern mark under every signalling point
+    (`marks`: the chart's letters, present.marks).
 
     One bar per point (never bucketed) so a marker sits exactly under its point; fewer points than
     the width are right-aligned so the newest point is always at the right edge.
     """
 
     def __init__(
-        self, values: Sequence[float], rules: Sequence[str], width: int, glyphs: Glyphs
+        self, values: Sequence[float], marks: Sequence[str], width: int, glyphs: Glyphs
     ) -> None:
         self.width = max(1, width)
         self.values = [float(v) for v in values[-self.width :]]
-        tail = list(rules[-len(self.values) :]) if self.values else []
-        self.rules = tail + [""] * (len(self.values) - len(tail))
+        tail = list(marks[-len(self.values) :]) if self.values else []
+        self.marks = tail + [""] * (len(self.values) - len(tail))
         self.glyphs = glyphs
 
     def _bars(self, console: Console, options: ConsoleOptions) -> list[Segment]:
@@ -63,8 +63,7 @@ class SparkCell:
     def markers(self) -> Text:
         """The marker row on its own (also what the tests read)."""
         text = Text(" " * (self.width - len(self.values)), end="")
-        for rules in self.rules:
-            mark = rule_mark(rules)
+        for mark in self.marks:
             text.append(mark or " ", palette.SIGNAL if mark else "")
         return text
 
