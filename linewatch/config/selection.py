@@ -14,7 +14,7 @@ from linewatch.config.loading import load_config
 from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.overrides import ChartOverrides
 from linewatch.domain.errors import LinewatchError, RuleListError
-from linewatch.engine.rulebook import resolve_rules
+from linewatch.engine.rulebook import DETECTORS, resolve_rules
 from linewatch.engine.setup import ChartSetup
 
 
@@ -120,6 +120,11 @@ def chart_setup(c: CharacteristicConfig, default_baseline: int | None) -> ChartS
         specs = tuple(resolve_rules(c.rules, c.run_lengths))
     except RuleListError as exc:
         raise LinewatchError(f"{c.name}: {exc}") from None
+    waiting = [r for r in c.rules if r in DETECTORS]
+    if waiting:  # the engine has them; check, watch and the screens do not chart them yet
+        raise LinewatchError(
+            f"{c.name}: {', '.join(waiting)} cannot be charted by check or watch yet; "
+            "leave them out of the rule list")
     return ChartSetup(
         name=c.name,
         subgroup_size=c.subgroup_size,
