@@ -6,6 +6,7 @@ import functools
 import signal
 import sys
 import threading
+from collections import deque
 from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING, Any
@@ -123,17 +124,30 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
 
 
 HANGUP_GRACE = 5.0  # seconds the screen's normal way out may take after a hang-up
+HOOK_PROBLEMS_KEPT = 20  # alarm-hook problems told on stderr when the screen closes
+
+
+class HookProblems:
+    """The `emit` of the screen's monitor: the screen shows everything from the store, so of
+    the records only the last few alarm-hook problems are kept, to say on leaving (keeping
+    every record would grow all shift)."""
+
+    def __init__(self, keep: int = HOOK_PROBLEMS_KEPT) -> None:
+        self.kept: deque[dict[str, Any]] = deque(maxlen=keep)
+
+    def __call__(self, record: dict[str, Any]) -> None:
+        if record.get("type") == "hook" and "problem" in record:
+            self.kept.append(record)
 
 
 def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
     from linewatch.pipeline.monitor import Monitor
     from linewatch.present.face import MonitorFace
-
-    messages: list[dict[str, Any]] = []
     from linewatch.runtime.exiting import exit_later, on_forced_exit
 
-    monitor = Monitor(plan, state_dir, emit=messages.append, poll_seconds=poll)
+    hook_problems = HookProblems()
+    monitor = Monitor(plan, state_dir, emit=hook_problems, poll_seconds=poll)
     face = MonitorFace(monitor)
     stop = threading.Event()
     worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
@@ -158,6 +172,5 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
         forget()
         stop_collecting()
         face.close()
-        for m in messages:
-            if m.get("type") == "hook":
-                print(f"linewatch: alarm hook: {m['problem']}", file=sys.stderr)
+        for m in hook_problems.kept:
+            print(f"linewatch: alarm hook: {m['problem']}", file=sys.stderr)
