@@ -174,6 +174,13 @@ class RowParser:
         if raw.startswith(BOM):
             raw = raw[3:]
         if len(raw.translate(None, _CONTROL)) != len(raw):
+            if self.header is None and self.feed.layout != "jsonl":  # where the header goes
+                problem = ("the header line holds control bytes: column names must be plain "
+                           "text (check what the logger writes first)")
+                if self.require_columns:
+                    raise FeedError(f"{self.file}: line {line_no}: {problem}")
+                out.reject(line_no, problem)
+                return
             out.reject(line_no, "binary data (control bytes) in line")
             return
         try:

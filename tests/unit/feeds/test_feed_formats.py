@@ -276,6 +276,16 @@ def test_live_parser_keeps_going_when_a_column_is_missing() -> None:
     assert "time, part, od, wall" in b.notices[0].text
 
 
+def test_a_header_with_a_control_byte_is_named_as_the_header_not_as_data(tmp_path: Path) -> None:
+    """A column name holding a BEL: the message is about line 1, the header, not a later line."""
+    p = tmp_path / "log.csv"
+    p.write_bytes(b"time,o\x07d\n1,2.0\n2,2.1\n")
+    with pytest.raises(LinewatchError, match="line 1: the header line holds control bytes"):
+        read_log(str(p), FeedConfig(paths=[]))
+    b = RowParser(FeedConfig(paths=[]), str(p)).parse(p.read_bytes().splitlines(True), 1)
+    assert b.rejected[0].line == 1 and "header line holds control bytes" in b.rejected[0].reason
+
+
 def test_user_errors_are_one_line_messages(tmp_path: Path) -> None:
     feed = FeedConfig(paths=[])
     with pytest.raises(LinewatchError, match="no such file"):
