@@ -336,6 +336,11 @@ class CharacteristicEngine:
             self.disp_history.append(disp)
             out.points.append(disp)
         if self.limits is None:
+            if self.problem is not None:
+                # limits were refused for this phase: its baseline is fixed, so later points
+                # can neither help nor be judged; kept in the history only (a waiting list
+                # that grew with every reading would grow the saved state all shift)
+                return
             self.waiting.append((loc, disp))
             limits = self._try_estimate(out)
             if limits is None:

@@ -29,3 +29,15 @@ def test_a_constant_baseline_is_refused_once_kept_over_a_restart_and_reset_by_a_
     assert restored.problem is None
     settled = restored.settle()
     assert settled.limits is not None and settled.problem is None
+
+
+def test_readings_after_a_refused_baseline_do_not_grow_the_saved_state() -> None:
+    """The refused baseline is fixed: a shift of readings after it changes nothing to wait
+    for, so the engine's saved state stays the same size (it is written at every commit)."""
+    eng = CharacteristicEngine(_setup())
+    eng.push([5.0] * 20)
+    before = len(save_state(eng)["waiting"])
+    for _ in range(50):
+        eng.push([5.0 + (k % 3) / 100 for k in range(200)])
+    assert len(save_state(eng)["waiting"]) == before == 20
+    assert eng.values_seen == 10_020 and eng.limits is None
