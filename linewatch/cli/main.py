@@ -174,6 +174,10 @@ def build_parser() -> argparse.ArgumentParser:
     u.add_argument("--key", metavar="FILE",
                    help="the audit key file, to check the entries signed with it (default: "
                         "the config's monitor.audit_key_file)")
+    u.add_argument("--plant", metavar="URL",
+                   help="verify the chain a line forwarded to this central database (with "
+                        "--line; the URL's password is never printed)")
+    u.add_argument("--line", metavar="NAME", help="the line's name in the central database")
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
@@ -190,6 +194,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="Markdown (default), one HTML file with charts, or CSV")
     p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
     _add_state_dir(p)
+
+    _add_plant(sub)
 
     p = sub.add_parser("simulate", help="write invented measurement logs with special causes")
     p.add_argument("--out", required=True, metavar="DIR",
@@ -211,6 +217,19 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _add_plant(sub: Any) -> None:
+    """`linewatch plant ...`: the central database every line forwards to."""
+    plant = sub.add_parser("plant", help="the plant's central database (PostgreSQL)")
+    psub = plant.add_subparsers(dest="plant_command", metavar="ACTION", required=True)
+    p = psub.add_parser(
+        "init", help="create or bring forward the central database's tables (idempotent)",
+        description="Create the linewatch schema in a PostgreSQL database, or apply the "
+        "migrations it lacks. Safe to run again and from several places at once.")
+    p.add_argument("url", nargs="?", metavar="URL",
+                   help="postgresql://USER@HOST/DB (default: LINEWATCH_PLANT_URL; a password "
+                        "is better kept in ~/.pgpass or PGPASSWORD)")
+
+
 # (command, action) -> (the module whose run() does it, the name of its options record)
 COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
     (None, None): ("linewatch.cli.commands.default", "DefaultOptions"),
@@ -224,10 +243,12 @@ COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
     ("audit", "verify"): ("linewatch.cli.commands.audit", "VerifyOptions"),
     ("audit", "export"): ("linewatch.cli.commands.audit", "ExportOptions"),
     ("report", None): ("linewatch.cli.commands.report", "ReportOptions"),
+    ("plant", "init"): ("linewatch.cli.commands.plant_init", "PlantInitOptions"),
     ("simulate", None): ("linewatch.cli.commands.simulate", "SimulateOptions"),
     ("demo", None): ("linewatch.cli.commands.demo", "DemoOptions"),
 }
-SELECTORS = ("command", "alarms_command", "audit_command")  # which command, not its options
+# which command, not its options
+SELECTORS = ("command", "alarms_command", "audit_command", "plant_command")
 
 
 def command_of(args: argparse.Namespace) -> tuple[str | None, str | None]:

@@ -21,6 +21,7 @@ from linewatch.config.model import (
     Config,
     FeedConfig,
     MonitorConfig,
+    PlantConfig,
 )
 from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
@@ -193,6 +194,25 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
     )
 
 
+LINE_NAME_MAX = 64
+
+
+def _read_plant(path: str, table: Any) -> PlantConfig:
+    """`[plant]`: a PostgreSQL URL (never echoed with its password) and the line's name."""
+    r = _Reader(path, "plant", table, PlantConfig)
+    r.check_known()
+    url = r.string("url") or None
+    if url is not None and not (url.startswith(("postgresql://", "postgres://"))
+                                or ("=" in url and "://" not in url)):
+        raise r.fail("url", "must be a postgresql:// URL or a key=value connection string")
+    line = r.string("line")
+    if line is not None:
+        line = line.strip()
+        if not line or len(line) > LINE_NAME_MAX or not line.isprintable():
+            raise r.fail("line", f"must be 1 to {LINE_NAME_MAX} printable characters")
+    return PlantConfig(url=url, line=line)
+
+
 def _read_alarms(path: str, table: Any) -> AlarmConfig:
     r = _Reader(path, "alarms", table, AlarmConfig)
     r.check_known()
@@ -310,7 +330,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(source, "(syntax)", str(exc)) from None
     top = _Reader(source, "", data)
-    top.check_known({"monitor", "alarms", "feed", "characteristic"})
+    top.check_known({"monitor", "alarms", "feed", "characteristic", "plant"})
     alarms = _read_alarms(source, data.get("alarms", {}))
     feeds_raw = data.get("feed", [])
     chars_raw = data.get("characteristic", [])
@@ -331,6 +351,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
         alarms=alarms,
         feeds=[_read_feed(source, i, t) for i, t in enumerate(feeds_raw)],
         characteristics=chars,
+        plant=_read_plant(source, data.get("plant", {})),
     )
 
 

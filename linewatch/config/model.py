@@ -8,6 +8,7 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        audit_anchor_every, audit_key_file
     [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
                        shelve_max
+    [plant]            url, line (the central database this line forwards to, and its name)
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
@@ -112,6 +113,15 @@ class MonitorConfig:
 
 
 @dataclass(slots=True)
+class PlantConfig:
+    """The central database this line forwards to (`LINEWATCH_PLANT_URL` overrides `url`) and
+    the line's name there."""
+
+    url: str | None = None
+    line: str | None = None
+
+
+@dataclass(slots=True)
 class Config:
     """The whole configuration; `source` is the file it came from (or '' for defaults)."""
 
@@ -121,6 +131,7 @@ class Config:
     alarms: AlarmConfig = field(default_factory=AlarmConfig)
     feeds: list[FeedConfig] = field(default_factory=list)
     characteristics: list[CharacteristicConfig] = field(default_factory=list)
+    plant: PlantConfig = field(default_factory=PlantConfig)
 
     def characteristic(self, name: str) -> CharacteristicConfig | None:
         """The characteristic called `name`, if declared."""
