@@ -94,6 +94,6 @@ def test_counts_named_on_the_command_line_are_the_one_characteristic_charted():
                                fail_values="x"), ["defects", "units", "speed"])
     assert (c.name, c.count_column, c.size_column, c.effective_chart) == (
         "defects", "defects", "units", "p")
-    with pytest.raises(LinewatchError, match="defects: a u chart|units inspected"):
+    with pytest.raises(LinewatchError, match="defects: a u chart needs the units inspected"):
         select_characteristics(config, ChartOverrides(count_column="defects",
                                                       attribute_chart="u"), None)
