@@ -12,6 +12,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from linewatch.config.choices import (
+    ATTRIBUTE_CHART_NAMES,
     DECIMAL_MARKS,
     DISPERSIONS,
     EXPORT_FORMATS,
@@ -47,9 +48,33 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
         metavar="N",
         help="estimate limits from the first N plotted points",
     )
-    p.add_argument(
-        "--subgroup-size", type=int, metavar="N", help="consecutive values per subgroup (1-25)"
+    ways = p.add_mutually_exclusive_group()
+    ways.add_argument(
+        "--subgroup-size", type=int, metavar="N",
+        help="consecutive data rows per subgroup (1-25; a rejected row leaves its subgroup "
+        "one value short)"
     )
+    ways.add_argument("--subgroup-by", metavar="COLUMN",
+                      help="consecutive rows with one value of COLUMN (a sample id) form a "
+                      "subgroup")
+    ways.add_argument("--subgroup-window", metavar="DURATION",
+                      help="rows whose time stamp falls in one clock window (e.g. 15m, 1h) "
+                      "form a subgroup")
+    p.add_argument("--count", dest="count_column", metavar="COLUMN",
+                   help="attribute data: nonconforming units or defects per row")
+    p.add_argument("--size", dest="size_column", metavar="COLUMN",
+                   help="units inspected per row (with --count)")
+    p.add_argument("--result", dest="result_column", metavar="COLUMN",
+                   help="attribute data: one part's pass/fail result per row")
+    p.add_argument("--fail", dest="fail_values", metavar="VALUE[,VALUE...]",
+                   help="results that mean a failed part (default FAIL,NG,NOK,0,false; "
+                   "any case)")
+    p.add_argument("--pass", dest="pass_values", metavar="VALUE[,VALUE...]",
+                   help="results that mean a good part (default PASS,OK,GO,1,true; any case); "
+                   "any other result is a rejected row")
+    p.add_argument("--chart", dest="attribute_chart", choices=ATTRIBUTE_CHART_NAMES,
+                   help="attribute chart (default: p for results and for counts with "
+                   "--size, c for counts without)")
     p.add_argument(
         "--dispersion",
         choices=DISPERSIONS,

@@ -13,7 +13,14 @@ import tomllib
 from pathlib import Path
 from typing import Any, TypeVar
 
-from linewatch.config.choices import DECIMAL_MARKS, DELIMITERS, DISPERSIONS, LAYOUTS
+from linewatch.config.chart_choice import chart_problem
+from linewatch.config.choices import (
+    ATTRIBUTE_CHART_NAMES,
+    DECIMAL_MARKS,
+    DELIMITERS,
+    DISPERSIONS,
+    LAYOUTS,
+)
 from linewatch.config.fields import field_default, field_names
 from linewatch.config.model import (
     AlarmConfig,
@@ -23,6 +30,7 @@ from linewatch.config.model import (
     MonitorConfig,
     PlantConfig,
 )
+from linewatch.config.overrides import parse_window
 from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
@@ -161,6 +169,24 @@ class _Reader:
         if name in self.table and not reasons:  # none given: the alarm policy's defaults
             raise self.fail(name, "needs at least one reason")
         return reasons
+
+    def column_name(self, name: str) -> str | None:
+        """A column of the log, or None when the key is absent (an empty name is refused)."""
+        v = self.string(name)
+        if v is not None and not v.strip():
+            raise self.fail(name, "must name a column, got an empty string")
+        return v.strip() if v is not None else None
+
+    def window(self, name: str) -> float | None:
+        """A clock window: a duration with its unit, from 1 second to 1 day, or None."""
+        v = self._get(name, _FROM_MODEL)
+        if v is None:
+            return None
+        try:
+            seconds = parse_window(v)
+        except ValueError as exc:
+            raise self.fail(name, str(exc)) from None
+        return seconds
 
     def sub_table(self, name: str) -> dict[str, Any]:
         v = self.table.get(name, {})
@@ -301,7 +327,12 @@ def _read_characteristic(
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
     plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
-    return CharacteristicConfig(
+    ways = [k for k in ("subgroup_size", "subgroup_by", "subgroup_window") if k in r.table]
+    if len(ways) > 1:
+        raise r.fail(ways[1], f"{ways[0]} and {ways[1]} exclude each other: subgroups are "
+                              "consecutive rows, rows of one sample id or rows of one clock "
+                              "window")
+    char = CharacteristicConfig(
         name=name,
         column=r.string("column", default=name) or name,
         unit=r.text("unit"),
@@ -320,7 +351,22 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", 1, 100_000),
         decimals=r.optional_integer("decimals", 0, 10),
+        subgroup_by=r.column_name("subgroup_by"),
+        subgroup_window=r.window("subgroup_window"),
+        subgroup_timeout=r.positive_duration("subgroup_timeout"),
+        chart=r.optional_choice("chart", ATTRIBUTE_CHART_NAMES),
+        count_column=r.column_name("count_column"),
+        size_column=r.column_name("size_column"),
+        result_column=r.column_name("result_column"),
+        fail_values=r.string_list("fail_values"),
+        pass_values=r.string_list("pass_values"),
     )
+    problem = chart_problem(char)
+    if problem is not None:
+        raise r.fail(*problem)
+    if "column" not in r.table and char.is_attribute:  # named by the column it counts in
+        char.column = char.count_column or char.result_column or name
+    return char
 
 
 def parse_config(text: str, source: str = "<config>") -> Config:
