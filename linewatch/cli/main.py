@@ -121,6 +121,9 @@ def build_parser() -> argparse.ArgumentParser:
     _add_chart_options(p)
     p.add_argument("--format", choices=RECORD_FORMATS,
                    help="text for people (default) or one JSON record a line")
+    p.add_argument("--points", action="store_true",
+                   help="with --format jsonl: also one record per plotted point, with its "
+                   "subgroup size and limits")
 
     p = sub.add_parser(
         "watch",

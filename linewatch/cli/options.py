@@ -43,6 +43,7 @@ class CheckOptions:
     config: str | None = None
     chart: ChartOverrides = field(default_factory=ChartOverrides)
     format: RecordFormat = "text"
+    points: bool = False  # jsonl: one record per plotted point
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
