@@ -12,7 +12,8 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
-                       clear_after, decimals
+                       clear_after, decimals, ewma = { lambda, width },
+                       cusum = { k, h, headstart }
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -58,6 +59,9 @@ class CharacteristicConfig:
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
     decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+    # detector parameters by option name (engine.rulebook.DETECTOR_OPTIONS); absent: defaults
+    ewma: dict[str, float] = field(default_factory=dict)
+    cusum: dict[str, float] = field(default_factory=dict)
 
     @property
     def effective_dispersion(self) -> Dispersion:
