@@ -132,6 +132,8 @@ class VerifyOptions(StoreOptions):
 
     anchor: tuple[str, ...] = ()
     key: str | None = None
+    plant: str | None = None  # verify a line's chain in the central database instead
+    line: str | None = None  # ... the line's name there (with --plant)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -154,6 +156,13 @@ class ReportOptions(StoreOptions):
     to: str | None = None
     format: ReportFormat = "markdown"
     output: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class PlantInitOptions:
+    """`linewatch plant init [URL]`"""
+
+    url: str | None = None  # default: LINEWATCH_PLANT_URL
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

@@ -10,7 +10,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from linewatch.config.choices import DISPERSIONS, DecimalMark, Dispersion
+from linewatch.config.choices import (
+    ATTRIBUTE_CHART_NAMES,
+    DISPERSIONS,
+    AttributeChart,
+    DecimalMark,
+    Dispersion,
+)
+from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
 
@@ -44,6 +51,14 @@ class ChartOverrides:
     cusum_k: float | None = None  # CUSUM reference value (σ of the plotted statistic)
     cusum_h: float | None = None  # CUSUM decision interval
     cusum_headstart: float | None = None  # CUSUM head start (fast initial response)
+    subgroup_by: str | None = None  # column whose value names a row's subgroup (sample id)
+    subgroup_window: str | None = None  # a duration: rows in one clock window form a subgroup
+    attribute_chart: AttributeChart | None = None  # --chart
+    count_column: str | None = None  # --count: nonconforming units or defects per row
+    size_column: str | None = None  # --size: units inspected per row
+    result_column: str | None = None  # --result: one part's pass/fail result per row
+    fail_values: str | None = None  # --fail: comma-separated values that mean a failed part
+    pass_values: str | None = None  # --pass: ... a good part
 
     def __post_init__(self) -> None:
         for option in ("center", "sigma", "lsl", "usl"):
@@ -68,6 +83,7 @@ class ChartOverrides:
         if self.rules:
             self.rule_ids()
         self._check_detector_options()
+        self._check_subgroups_and_attributes()
 
     def detector_options(self) -> dict[str, dict[str, float]]:
         """The detector parameters given, as the config's tables hold them
@@ -95,6 +111,40 @@ class ChartOverrides:
             raise LinewatchError("--cusum-headstart must be below --cusum-h "
                                  "(h/2 is the usual choice)")
 
+    def _check_subgroups_and_attributes(self) -> None:
+        ways = [(o, v) for o, v in (("--subgroup-size", self.subgroup_size),
+                                    ("--subgroup-by", self.subgroup_by),
+                                    ("--subgroup-window", self.subgroup_window)) if v is not None]
+        if len(ways) > 1:
+            raise LinewatchError(f"{ways[0][0]} and {ways[1][0]} exclude each other: give one "
+                                 "way of forming subgroups")
+        for option, value in (("--subgroup-by", self.subgroup_by), ("--count", self.count_column),
+                              ("--size", self.size_column), ("--result", self.result_column)):
+            if value is not None and not value.strip():
+                raise LinewatchError(f"{option} needs a column name")
+        if self.subgroup_window is not None:
+            self.window_seconds()
+        if self.attribute_chart is not None and self.attribute_chart not in \
+                ATTRIBUTE_CHART_NAMES:
+            raise LinewatchError(f"--chart must be one of {', '.join(ATTRIBUTE_CHART_NAMES)}")
+        if self.count_column is not None and self.result_column is not None:
+            raise LinewatchError("--count and --result exclude each other: a row holds counts "
+                                 "or one part's result")
+        if self.size_column is not None and self.count_column is None:
+            raise LinewatchError("--size goes with --count (the units the counts were found in)")
+        for option, values in (("--fail", self.fail_values), ("--pass", self.pass_values)):
+            if values is not None and not split_values(values):
+                raise LinewatchError(f"{option} needs at least one value, e.g. {option} FAIL,NG")
+
+    def window_seconds(self) -> float | None:
+        """`subgroup_window` in seconds (None when not given)."""
+        if self.subgroup_window is None:
+            return None
+        try:
+            return parse_window(self.subgroup_window)
+        except ValueError as exc:
+            raise LinewatchError(f"--subgroup-window: {exc}") from None
+
     def rule_ids(self) -> list[str] | None:
         """The rule ids `rules` names, or None when it names none (the config's stand)."""
         if not self.rules:
@@ -105,3 +155,17 @@ class ChartOverrides:
             return parse_rule_list(self.rules)
         except RuleListError as exc:
             raise LinewatchError(f"--rules: {exc}") from None
+
+
+def split_values(text: str) -> list[str]:
+    """The values of a comma-separated option (`--fail FAIL,NG`), blanks trimmed, empties out."""
+    return [v.strip() for v in text.split(",") if v.strip()]
+
+
+def parse_window(text: str | int | float) -> float:
+    """Seconds of a clock window (`15m`, `1h`, with its unit, 1s to 1d); ValueError saying why
+    the text is none."""
+    seconds = parse_duration(text, need_unit=True)
+    if not 1.0 <= seconds <= 86400.0:
+        raise ValueError(f"a subgroup window must be from 1s to 1d, got {text!r}")
+    return seconds

@@ -12,7 +12,8 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any
 
 from linewatch.cli.options import WatchOptions
-from linewatch.config.model import Config, FeedConfig
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
+from linewatch.config.overrides import ChartOverrides
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,
@@ -24,6 +25,24 @@ from linewatch.domain.errors import LinewatchError
 if TYPE_CHECKING:
     from linewatch.pipeline.monitor import Monitor
     from linewatch.pipeline.plan import WatchPlan
+
+
+def _refuse_what_watch_cannot_chart_yet(chart: ChartOverrides,
+                                        chars: list[CharacteristicConfig]) -> None:
+    """Subgroups by sample id or clock window and attribute charts are charted by `check`;
+    the live path does not chart them yet, so watch says so instead of charting them wrongly."""
+    asked = [o for o, v in (("--subgroup-by", chart.subgroup_by),
+                            ("--subgroup-window", chart.subgroup_window),
+                            ("--count", chart.count_column), ("--result", chart.result_column),
+                            ("--chart", chart.attribute_chart)) if v is not None]
+    if asked:
+        raise LinewatchError(f"watch cannot chart {asked[0]} yet; `linewatch check` charts "
+                             "finished logs that way")
+    for c in chars:
+        if c.sizes_vary or c.is_attribute:
+            what = "attribute data" if c.is_attribute else "subgroups of varying size"
+            raise LinewatchError(f"{c.name}: watch cannot chart {what} yet; `linewatch check` "
+                                 "charts finished logs that way")
 
 
 def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
@@ -48,7 +67,9 @@ def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
             "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
         )
     chars = select_characteristics(config, chart, None) if (
-        chart.columns or config.characteristics) else []
+        chart.columns or chart.count_column or chart.result_column or config.characteristics
+    ) else []
+    _refuse_what_watch_cannot_chart_yet(chart, chars)
     columns = [c.column for c in chars] if chars else None
     baseline = chart.baseline or config.monitor.baseline
     asked = [c.column for c in chars] if chart.columns else None
