@@ -28,6 +28,7 @@ from linewatch.config.model import (
     Config,
     FeedConfig,
     MonitorConfig,
+    PlantConfig,
 )
 from linewatch.config.overrides import parse_window
 from linewatch.config.syslog_target import parse_syslog_target
@@ -35,7 +36,16 @@ from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.rulebook import RULES, parse_rule_list, resolve_rules
+from linewatch.engine.rulebook import (
+    CUSUM,
+    DETECTOR_OPTIONS,
+    DETECTORS,
+    EWMA,
+    RULES,
+    parse_rule_list,
+    resolve_detectors,
+    resolve_rules,
+)
 
 Word = TypeVar("Word", bound=str)
 
@@ -219,6 +229,25 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
     )
 
 
+LINE_NAME_MAX = 64
+
+
+def _read_plant(path: str, table: Any) -> PlantConfig:
+    """`[plant]`: a PostgreSQL URL (never echoed with its password) and the line's name."""
+    r = _Reader(path, "plant", table, PlantConfig)
+    r.check_known()
+    url = r.string("url") or None
+    if url is not None and not (url.startswith(("postgresql://", "postgres://"))
+                                or ("=" in url and "://" not in url)):
+        raise r.fail("url", "must be a postgresql:// URL or a key=value connection string")
+    line = r.string("line")
+    if line is not None:
+        line = line.strip()
+        if not line or len(line) > LINE_NAME_MAX or not line.isprintable():
+            raise r.fail("line", f"must be 1 to {LINE_NAME_MAX} printable characters")
+    return PlantConfig(url=url, line=line)
+
+
 def _read_alarms(path: str, table: Any) -> AlarmConfig:
     r = _Reader(path, "alarms", table, AlarmConfig)
     r.check_known()
@@ -304,8 +333,10 @@ def _read_characteristic(
         resolve_rules(sorted(set(rules) | set(lengths)), lengths)
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
+    detector_options = {d: _read_detector(path, r, d) for d in DETECTORS}
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
-    plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
+    plans_reader.check_known(
+        set(RULES) | set(DETECTORS) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
     ways = [k for k in ("subgroup_size", "subgroup_by", "subgroup_window") if k in r.table]
     if len(ways) > 1:
@@ -331,6 +362,8 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", 1, 100_000),
         decimals=r.optional_integer("decimals", 0, 10),
+        ewma=detector_options[EWMA],
+        cusum=detector_options[CUSUM],
         subgroup_by=r.column_name("subgroup_by"),
         subgroup_window=r.window("subgroup_window"),
         subgroup_timeout=r.positive_duration("subgroup_timeout"),
@@ -349,6 +382,26 @@ def _read_characteristic(
     return char
 
 
+def _read_detector(path: str, r: _Reader, detector: str) -> dict[str, float]:
+    """A characteristic's `ewma = {...}` or `cusum = {...}` table: known options, numbers in
+    range (the message names the key and the allowed range)."""
+    table = r.sub_table(detector)
+    reader = _Reader(path, r.key(detector), table)
+    reader.check_known(set(DETECTOR_OPTIONS[detector]))
+    out: dict[str, float] = {}
+    for name, raw in table.items():
+        try:
+            resolve_detectors([detector], {detector: {name: raw}})
+        except RuleListError as exc:
+            raise reader.fail(name, str(exc).removeprefix(f"{detector} {name} ")) from None
+        out[name] = float(raw)
+    try:
+        resolve_detectors([detector], {detector: out})
+    except RuleListError as exc:
+        raise reader.fail("headstart", str(exc)) from None
+    return out
+
+
 def parse_config(text: str, source: str = "<config>") -> Config:
     """Build a Config from TOML text; raises ConfigError naming `source` and the key."""
     try:
@@ -356,7 +409,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(source, "(syntax)", str(exc)) from None
     top = _Reader(source, "", data)
-    top.check_known({"monitor", "alarms", "feed", "characteristic"})
+    top.check_known({"monitor", "alarms", "feed", "characteristic", "plant"})
     alarms = _read_alarms(source, data.get("alarms", {}))
     feeds_raw = data.get("feed", [])
     chars_raw = data.get("characteristic", [])
@@ -377,6 +430,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
         alarms=alarms,
         feeds=[_read_feed(source, i, t) for i, t in enumerate(feeds_raw)],
         characteristics=chars,
+        plant=_read_plant(source, data.get("plant", {})),
     )
 
 

@@ -8,13 +8,15 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        audit_anchor_every, audit_key_file
     [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
                        shelve_max
+    [plant]            url, line (the central database this line forwards to, and its name)
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
                        clear_after, decimals, subgroup_by, subgroup_window, subgroup_timeout,
                        chart, count_column, size_column, result_column, fail_values,
-                       pass_values
+                       pass_values, ewma = { lambda, width },
+                       cusum = { k, h, headstart }
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -64,6 +66,9 @@ class CharacteristicConfig:
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
     decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+    # detector parameters by option name (engine.rulebook.DETECTOR_OPTIONS); absent: defaults
+    ewma: dict[str, float] = field(default_factory=dict)
+    cusum: dict[str, float] = field(default_factory=dict)
     # subgroups: `subgroup_size` consecutive data rows, or rows with one value of the column
     # `subgroup_by`, or rows in one clock window of `subgroup_window` seconds (one of the three)
     subgroup_by: str | None = None
@@ -154,6 +159,15 @@ class MonitorConfig:
 
 
 @dataclass(slots=True)
+class PlantConfig:
+    """The central database this line forwards to (`LINEWATCH_PLANT_URL` overrides `url`) and
+    the line's name there."""
+
+    url: str | None = None
+    line: str | None = None
+
+
+@dataclass(slots=True)
 class Config:
     """The whole configuration; `source` is the file it came from (or '' for defaults)."""
 
@@ -163,6 +177,7 @@ class Config:
     alarms: AlarmConfig = field(default_factory=AlarmConfig)
     feeds: list[FeedConfig] = field(default_factory=list)
     characteristics: list[CharacteristicConfig] = field(default_factory=list)
+    plant: PlantConfig = field(default_factory=PlantConfig)
 
     def characteristic(self, name: str) -> CharacteristicConfig | None:
         """The characteristic called `name`, if declared."""

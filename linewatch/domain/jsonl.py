@@ -51,9 +51,11 @@ def not_charted_record(characteristic: str, values: int, problem: str) -> dict[s
 
 
 def signal_record(
-    characteristic: str, chart: str, rule: str, index: int, line: int, value: float
+    characteristic: str, chart: str, rule: str, index: int, line: int, value: float,
+    side: str | None = None,
 ) -> dict[str, Any]:
-    return {
+    """A rule fired at a plotted point; a detector's firing also says its `side` (up, down)."""
+    record: dict[str, Any] = {
         "type": "signal",
         "characteristic": characteristic,
         "chart": chart,
@@ -62,6 +64,20 @@ def signal_record(
         "line": line,
         "value": _num(value),
     }
+    if side is not None:
+        record["side"] = side
+    return record
+
+
+def detector_limits_record(
+    characteristic: str, lim: ChartLimitFields, varies: bool, parameters: dict[str, float]
+) -> dict[str, Any]:
+    """The limits of a detector's chart (EWMA, CUSUM): a limits record that also says whether
+    the limits widen from the start of a phase (`varies`) and the detector's parameters."""
+    record = limits_record(characteristic, lim)
+    record["varies"] = varies
+    record["parameters"] = parameters
+    return record
 
 
 def rejected_record(r: Rejected) -> dict[str, Any]:

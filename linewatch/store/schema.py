@@ -221,4 +221,30 @@ MIGRATIONS: tuple[str, ...] = (
     DELETE FROM meta
         WHERE substr(key, 1, 14) = 'phase-request:' OR substr(key, 1, 17) = 'baseline-request:';
     """,
+    # 10: the outbox of a line with a plant link: one entry per committed change of a forwarded
+    # table (entered by triggers that `store/outbox.py` creates when the link is set up), and
+    # the position up to which the central database has confirmed them; requests from the
+    # central database carried out here, so each is carried out once.
+    """
+    CREATE TABLE outbox (
+        seq INTEGER PRIMARY KEY AUTOINCREMENT,
+        tbl TEXT NOT NULL,
+        key TEXT NOT NULL,
+        op  TEXT NOT NULL CHECK (op IN ('put', 'drop'))
+    );
+    CREATE TABLE outbox_position (
+        id       INTEGER PRIMARY KEY CHECK (id = 1),
+        sent     INTEGER NOT NULL DEFAULT 0,
+        armed_at REAL
+    );
+    INSERT INTO outbox_position (id, sent) VALUES (1, 0);
+    CREATE TABLE plant_requests (
+        central_id INTEGER PRIMARY KEY,
+        action     TEXT NOT NULL,
+        state      TEXT NOT NULL CHECK (state IN ('done', 'failed')),
+        result     TEXT NOT NULL,
+        settled_at REAL NOT NULL,
+        reported   INTEGER NOT NULL DEFAULT 0 CHECK (reported IN (0, 1))
+    );
+    """,
 )

@@ -21,14 +21,22 @@ from linewatch.config.selection import (
     select_characteristics,
 )
 from linewatch.domain.errors import BadLimits, ChartDataError, LinewatchError, NotEnoughData
-from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
+from linewatch.domain.jsonl import (
+    detector_limits_record,
+    dumps,
+    limits_record,
+    not_charted_record,
+    rejected_record,
+)
 from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
 from linewatch.engine.batch import HistoryResult, analyse_history
+from linewatch.engine.detectors.chart_limits import detector_limits
 from linewatch.engine.setup import ChartSetup
 
 if TYPE_CHECKING:
     from linewatch.cli.commands.check_subgroups import SteppedAnalysis
+    from linewatch.present.power_view import PowerTable
 
 
 @dataclass(slots=True)
@@ -50,6 +58,7 @@ class Analysis:
     result: HistoryResult
     summary: dict[str, Any]
     setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
+    power: PowerTable | None = None  # detection power of the rule set, known limits
 
 
 def _read_all(
@@ -101,6 +110,27 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
     if result.leftover:
         record["left_out_values"] = result.leftover
     return record
+
+
+def _with_power(record: dict[str, Any], setup: ChartSetup) -> PowerTable:
+    """Add the detection power (`arl_by_shift`, and per shift of the individual values where
+    subgroups are charted) to a summary record; the table for the text report."""
+    from linewatch.engine.budget.power import detection_power
+    from linewatch.present.power_table import arl_by_shift, power_table, rule_set_name
+
+    table = power_table(rule_set_name(setup), setup.rules, setup.detectors,
+                        setup.subgroup_size)
+    record["arl_by_shift"] = arl_by_shift(table)
+    if setup.subgroup_size > 1:
+        record["arl_by_shift_of_values"] = arl_by_shift(table, "values")
+    record["arl_by_shift_simulated"] = table.simulated
+    if setup.detectors:  # the in-control run length of the whole set, detectors included
+        zero = detection_power(setup.rules, setup.detectors, (0.0,))[0]
+        record["arl0"] = zero.arl if math.isfinite(zero.arl) else None
+        record["arl0_method"] = zero.method
+        record["arl0_std_error"] = zero.std_error
+        record["false_alarms_per_1000"] = table.false_alarms_per_1000
+    return table
 
 
 @dataclass(frozen=True, slots=True)
@@ -163,8 +193,9 @@ def analyse(
         except (NotEnoughData, BadLimits, ChartDataError) as exc:
             skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
             continue
-        out.append(Analysis(c, col, result, _summary(col.values, c, setup, result,
-                                                     len(rejected)), setup))
+        summary = _summary(col.values, c, setup, result, len(rejected))
+        power = _with_power(summary, setup)
+        out.append(Analysis(c, col, result, summary, setup, power))
     if not out and skipped:  # nothing could be charted: the one-line error, as before
         raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
             f"{n.characteristic}: {n.problem}" for n in skipped))
@@ -189,6 +220,9 @@ def _signal_lines(a: Analysis | SteppedAnalysis, with_file: bool) -> list[str]:
         tails = [f',"file":{files[k]}}}' for k in col.file_index[t.row].tolist()]
     else:
         tails = ["}"] * len(lines)
+    if t.side is not None:  # a detector's firing says its side, before the file
+        sides = {1: ',"side":"up"', -1: ',"side":"down"', 0: ""}
+        tails = [sides[d] + tail for d, tail in zip(t.side.tolist(), tails, strict=True)]
     out = []
     for i, c, r, line, v, tail in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
                                       lines, t.value.tolist(), tails, strict=True):
@@ -198,6 +232,10 @@ def _signal_lines(a: Analysis | SteppedAnalysis, with_file: bool) -> list[str]:
 
 
 def run(options: CheckOptions) -> int:
+    if options.compare_rules is not None:
+        from linewatch.cli.commands import compare_rules
+
+        return compare_rules.run(options)
     analyses, rejected, skipped = analyse(options)
     several_files = len(options.logs) > 1
     write = sys.stdout.write
@@ -211,6 +249,10 @@ def run(options: CheckOptions) -> int:
             if isinstance(a, Analysis):
                 for lim in (a.result.limits.location, a.result.limits.dispersion):
                     lines.append(dumps(limits_record(a.config.name, lim)))
+                for det in a.setup.detectors:
+                    dl = detector_limits(det, a.result.limits.location)
+                    lines.append(dumps(detector_limits_record(a.config.name, dl, dl.varies,
+                                                              dl.parameters)))
             else:
                 lines.extend(stepped_limit_lines(a))
             lines.extend(_signal_lines(a, several_files))

@@ -204,7 +204,7 @@ def analyse_short(c: CharacteristicConfig, setup: ChartSetup, col: Column,
     subgroups short (each rejected row of a wide log keeps its place); None when every
     subgroup is complete, which the fixed-size path charts as ever."""
     n = c.subgroup_size
-    if n == 1 or not rejected or any(f.layout != "wide" for f in feeds):
+    if n == 1 or not rejected or setup.detectors or any(f.layout != "wide" for f in feeds):
         return None
     positions: list[np.ndarray] = []
     start = 0

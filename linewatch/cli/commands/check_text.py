@@ -33,7 +33,8 @@ def _f(
 
 
 def _rule_text(analysis: Analysis | SteppedAnalysis, rule_id: str) -> str:
-    spec = next((s for s in analysis.setup.rules if s.id == rule_id), None)
+    specs = (*analysis.setup.rules, *analysis.setup.detectors)
+    spec = next((s for s in specs if s.id == rule_id), None)
     return spec.describe() if spec else rule_id
 
 
@@ -77,7 +78,8 @@ def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejec
                 if several_files:
                     file = a.column.files[int(a.column.file_index[f.row])]
                     where = f"{visible(file)}:{where[5:]}"
-                w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}")
+                side = f" ({f.side})" if f.side else ""
+                w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}{side}")
             if len(firings) > MAX_LISTED:
                 w(f"      … and {len(firings) - MAX_LISTED} more")
         w(f"   mean {_f(s.get('mean'))}  SD {_f(s.get('stdev'))}  95% CI of mean "
@@ -101,6 +103,10 @@ def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejec
                                                                          "seeded simulation"))
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
               f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+        if a.power is not None:
+            from linewatch.present.power_view import table_lines
+
+            out.extend(table_lines(a.power))
         w("")
     for n in skipped or []:
         w(f"== {n.characteristic}: {n.values} values, not charted: {n.problem}")
