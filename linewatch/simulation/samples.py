@@ -471,9 +471,11 @@ noise around the change (a run that started before the change counts too). The w
 from how each file was built (`linewatch/simulation/samples.py`, fixed seeds); regenerate with
 `python -m linewatch.simulation.samples sample_feeds`.
 
-Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; a
-moving range takes the index of the later of its two points); lines count file lines from 1,
-header included. Limits come from each config's `baseline` (the quiet first part).
+Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; for
+the leak tester, one per hour of the clock; for the vision station, one per row; a moving
+range takes the index of the later of its two points); lines count file lines from 1, header
+included (a subgroup's line is its last row's). Limits come from each config's `baseline`
+(the quiet first part).
 
 """
 
