@@ -17,7 +17,6 @@ from linewatch.domain.clock import local_offset
 from linewatch.domain.errors import ChartDataError, FeedError, NotEnoughData
 from linewatch.domain.records import CHART_C, CHART_LANEY_P, CHART_NP, CHART_P, Rejected
 from linewatch.domain.safe_text import visible
-from linewatch.domain.words import count
 from linewatch.engine.row_groups import (
     positions_among,
     sizes_by_label,
@@ -277,8 +276,8 @@ def _attribute(c: CharacteristicConfig, setup: ChartSetup, rows: _Rows, sizes: n
     last = np.cumsum(sizes) - 1
     if setup.attribute_chart == CHART_NP and n.shape[0] and np.any(n != n[0]):
         raise ChartDataError(
-            f"an np chart needs one subgroup size throughout; here {count(int(n.min()), 'unit')}"
-            f" to {int(n.max())}: use the p chart (--chart p) for varying sizes")
+            f"an np chart needs one subgroup size throughout; here sizes run from "
+            f"{int(n.min())} to {int(n.max())}: use the p chart (--chart p) for varying sizes")
     return analyse_counts(d, n, last, setup)
 
 
