@@ -138,6 +138,9 @@ def build_parser() -> argparse.ArgumentParser:
     _add_chart_options(p)
     p.add_argument("--format", choices=RECORD_FORMATS,
                    help="text for people (default) or one JSON record a line")
+    p.add_argument("--points", action="store_true",
+                   help="with --format jsonl: also one record per plotted point, with its "
+                   "subgroup size and limits")
     p.add_argument("--compare-rules", metavar="SET[;SET...]",
                    help="print the detection power of several rule sets side by side and read "
                    "no log (quote it: 'western-electric;we1,ewma;we1,cusum')")

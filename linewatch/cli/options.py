@@ -43,6 +43,7 @@ class CheckOptions:
     config: str | None = None
     chart: ChartOverrides = field(default_factory=ChartOverrides)
     format: RecordFormat = "text"
+    points: bool = False  # jsonl: one record per plotted point
     compare_rules: str | None = None  # rule sets whose detection power to print side by side
 
     def __post_init__(self) -> None:

@@ -54,9 +54,13 @@ class Built:
     rejected_lines: list[int]
     line_of: dict[str, list[int]] = field(default_factory=dict)  # per characteristic, per value
     subgroup: dict[str, int] = field(default_factory=dict)
+    point_lines: dict[str, list[int]] = field(default_factory=dict)  # per plotted point
 
     def lines_for(self, e: Expect) -> tuple[int, int]:
         """File lines of the plotted points first..last (a subgroup's line is its last row's)."""
+        if e.characteristic in self.point_lines:
+            points = self.point_lines[e.characteristic]
+            return points[e.first], points[min(e.last, len(points) - 1)]
         n = self.subgroup.get(e.characteristic, 1)
         lines = self.line_of[e.characteristic]
         return lines[(e.first + 1) * n - 1], lines[min((e.last + 1) * n, len(lines)) - 1]
@@ -69,6 +73,7 @@ class _Lines:
         self.out: list[bytes] = []
         self.line_of: dict[str, list[int]] = {}
         self.rejected: list[int] = []
+        self.data_rows: list[tuple[int, bool]] = []  # (line, gave values) of each data row
 
     def add(self, text: str | bytes, values: tuple[str, ...] = (), junk: bool = False) -> None:
         self.out.append(text if isinstance(text, bytes) else text.encode("utf-8"))
@@ -77,6 +82,19 @@ class _Lines:
             self.line_of.setdefault(name, []).append(line)
         if junk:
             self.rejected.append(line)
+        if values or junk:
+            self.data_rows.append((line, bool(values)))
+
+    def subgroup_lines(self, n: int) -> list[int]:
+        """The line of each subgroup of `n` consecutive data rows (its last good row's): a
+        junk row keeps its place, so its subgroup is one value short; the trailing incomplete
+        subgroup is left out."""
+        out = []
+        for k in range(len(self.data_rows) // n):
+            good = [line for line, kept in self.data_rows[k * n:(k + 1) * n] if kept]
+            if good:
+                out.append(good[-1])
+        return out
 
     def data(self) -> bytes:
         return b"".join(x if x.endswith(b"\n") else x + b"\n" for x in self.out)
@@ -116,7 +134,8 @@ def extrusion_wide(seed: int) -> Built:
         file="extrusion_wide.csv",
         title="Wide CSV: one row per tube section, three gauges",
         layout="wide, comma",
-        story="Diameter readings form subgroups of 5 consecutive rows. A new material lot "
+        story="Diameter readings form subgroups of 5 consecutive data rows (a junk row keeps "
+        "its place, leaving its subgroup one value short). A new material lot "
         "arrives at data row 151 (diameter +2σ). The die wears from data row 61 to 180 (wall "
         "rises linearly by 4σ) and is changed after that. The melt-temperature heater band "
         "cycles between data rows 101 and 130 (σ × 3.5). Three junk rows and a restarted "
@@ -134,6 +153,7 @@ def extrusion_wide(seed: int) -> Built:
         rejected_lines=out.rejected,
         line_of=out.line_of,
         subgroup={"od_mm": 5},
+        point_lines={"od_mm": out.subgroup_lines(5)},
     )
 
 
@@ -355,6 +375,10 @@ def build(stem: str, seed: int | None = None) -> Built:
     built.subgroup = {
         name: built.subgroup[col] for name, col in CHARACTERISTIC_COLUMNS.items()
         if col in built.subgroup
+    }
+    built.point_lines = {
+        name: built.point_lines[col] for name, col in CHARACTERISTIC_COLUMNS.items()
+        if col in built.point_lines
     }
     return built
 

@@ -20,7 +20,7 @@ from linewatch.config.selection import (
     load_optional_config,
     select_characteristics,
 )
-from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
+from linewatch.domain.errors import BadLimits, ChartDataError, LinewatchError, NotEnoughData
 from linewatch.domain.jsonl import (
     detector_limits_record,
     dumps,
@@ -35,6 +35,7 @@ from linewatch.engine.detectors.chart_limits import detector_limits
 from linewatch.engine.setup import ChartSetup
 
 if TYPE_CHECKING:
+    from linewatch.cli.commands.check_subgroups import SteppedAnalysis
     from linewatch.present.power_view import PowerTable
 
 
@@ -144,30 +145,52 @@ class NotCharted:
 
 def analyse(
     options: CheckOptions,
-) -> tuple[list[Analysis], list[Rejected], list[NotCharted]]:
+) -> tuple[list[Analysis | SteppedAnalysis], list[Rejected], list[NotCharted]]:
     """Read the logs `options` names and chart every selected characteristic; those that
     cannot be charted are returned with the reason instead of stopping the others."""
+    from linewatch.cli.commands.check_subgroups import analyse_rows, analyse_short, needs_rows
+
     config = load_optional_config(options.config)
     chart = options.chart
     logs = list(options.logs)
     feeds = [feed_for_log(config, p, chart) for p in logs]
-    wanted = None
-    if chart.columns:
-        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in chart.columns]
-    elif config.characteristics:
-        wanted = [c.column for c in config.characteristics]
-    cols, rejected = _read_all(logs, feeds, wanted)
-    chars = select_characteristics(config, chart, list(cols))
-    if not chars:
+    chosen = None  # known before reading when named or declared
+    if chart.columns or chart.count_column or chart.result_column or config.characteristics:
+        chosen = select_characteristics(config, chart, None)
+    wanted = None if chosen is None else [c.column for c in chosen if not needs_rows(c)]
+    cols: dict[str, Column] = {}
+    rejected: list[Rejected] = []
+    if wanted != []:
+        cols, rejected = _read_all(logs, feeds, wanted)
+    if chosen is None:
+        chosen = select_characteristics(config, chart, list(cols))
+        grouping = {c.subgroup_by for c in chosen}
+        chosen = [c for c in chosen if c.column not in grouping]  # a sample id is no value
+    if not chosen:
         raise LinewatchError("no numeric column to chart (name one with --column)")
-    out: list[Analysis] = []
+    out: list[Analysis | SteppedAnalysis] = []
     skipped: list[NotCharted] = []
-    for c in chars:
-        col = cols[c.column]
+    resort = False  # rows rejected by another reading are merged into file order
+    for c in chosen:
         setup = chart_setup(c, None)
+        if needs_rows(c):
+            got, more = analyse_rows(c, setup, logs, feeds)
+            seen = set(rejected)
+            rejected += [r for r in more if r not in seen]
+            resort = True
+            if isinstance(got, tuple):
+                skipped.append(NotCharted(c.name, got[0], got[1]))
+            else:
+                out.append(got)
+            continue
+        col = cols[c.column]
         try:
+            short = analyse_short(c, setup, col, rejected, feeds)
+            if short is not None:  # rejected rows left subgroups short: stepped limits
+                out.append(short)
+                continue
             result = analyse_history(col.values, setup)
-        except (NotEnoughData, BadLimits) as exc:
+        except (NotEnoughData, BadLimits, ChartDataError) as exc:
             skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
             continue
         summary = _summary(col.values, c, setup, result, len(rejected))
@@ -176,10 +199,13 @@ def analyse(
     if not out and skipped:  # nothing could be charted: the one-line error, as before
         raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
             f"{n.characteristic}: {n.problem}" for n in skipped))
+    if resort:
+        order = {name: i for i, name in enumerate(dict.fromkeys(r.file for r in rejected))}
+        rejected.sort(key=lambda r: (order[r.file], r.line))
     return out, rejected, skipped
 
 
-def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
+def _signal_lines(a: Analysis | SteppedAnalysis, with_file: bool) -> list[str]:
     """Signal records as JSON text, formatted directly from the firing table: the same text
     `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each.
     With several logs each record also names the `file` its row came from."""
@@ -214,17 +240,24 @@ def run(options: CheckOptions) -> int:
     several_files = len(options.logs) > 1
     write = sys.stdout.write
     if options.format == "jsonl":
+        from linewatch.cli.commands.check_points import point_lines, stepped_limit_lines
+
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
         lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
                   for n in skipped]
         for a in analyses:
-            for lim in (a.result.limits.location, a.result.limits.dispersion):
-                lines.append(dumps(limits_record(a.config.name, lim)))
-            for det in a.setup.detectors:
-                dl = detector_limits(det, a.result.limits.location)
-                lines.append(dumps(detector_limits_record(a.config.name, dl, dl.varies,
-                                                          dl.parameters)))
+            if isinstance(a, Analysis):
+                for lim in (a.result.limits.location, a.result.limits.dispersion):
+                    lines.append(dumps(limits_record(a.config.name, lim)))
+                for det in a.setup.detectors:
+                    dl = detector_limits(det, a.result.limits.location)
+                    lines.append(dumps(detector_limits_record(a.config.name, dl, dl.varies,
+                                                              dl.parameters)))
+            else:
+                lines.extend(stepped_limit_lines(a))
             lines.extend(_signal_lines(a, several_files))
+            if options.points:
+                lines.extend(point_lines(a, several_files))
             lines.append(dumps(a.summary))
         write("\n".join(lines) + "\n")
     else:

@@ -13,6 +13,7 @@ from linewatch.present.figures import fmt_ppm
 
 if TYPE_CHECKING:
     from linewatch.cli.commands.check import Analysis, NotCharted
+    from linewatch.cli.commands.check_subgroups import SteppedAnalysis
     from linewatch.domain.records import Rejected
     from linewatch.engine.setup import Firing
 
@@ -31,19 +32,26 @@ def _f(
     return f"{x:.{digits}g}" if abs(x) < 1e5 else f"{x:.6g}"
 
 
-def _rule_text(analysis: Analysis, rule_id: str) -> str:
+def _rule_text(analysis: Analysis | SteppedAnalysis, rule_id: str) -> str:
     specs = (*analysis.setup.rules, *analysis.setup.detectors)
     spec = next((s for s in specs if s.id == rule_id), None)
     return spec.describe() if spec else rule_id
 
 
-def render_text(analyses: list[Analysis], rejected: list[Rejected], several_files: bool,
-                skipped: list[NotCharted] | None = None) -> str:
+def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejected],
+                several_files: bool, skipped: list[NotCharted] | None = None) -> str:
     """The whole report as one string; each characteristic that could not be charted gets
     one line with the reason."""
+    from linewatch.cli.commands.check import Analysis
+
     out: list[str] = []
     w = out.append
     for a in analyses:
+        if not isinstance(a, Analysis):  # limits that step: their own layout
+            from linewatch.cli.commands.check_stepped_text import render_stepped
+
+            out += render_stepped(a, several_files)
+            continue
         c, res, s = a.config, a.result, a.summary
         unit = f" [{visible(c.unit)}]" if c.unit else ""
         w(f"== {visible(c.name)}{unit}: {s['points']} values, subgroup size {c.subgroup_size}")
