@@ -382,6 +382,48 @@ def vision_station(seed: int) -> Built:
     )
 
 
+SHIFT_AT = 400  # data row (0-based) from which the cooled die zone thickens the wall
+
+
+def wall_cooling(seed: int) -> Built:
+    """A sustained 1σ shift: the same wall readings charted three ways (CUSUM, EWMA, the
+    Western Electric rules), with the gauge's known centre and σ."""
+    rng = np.random.default_rng(seed)
+    n = 600
+    wall = WALL.mean + WALL.sigma * rng.standard_normal(n)
+    wall[SHIFT_AT:] += 1.0 * WALL.sigma  # die heater zone 3 cools: the wall thickens, stays
+    out = _Lines()
+    out.add("time,coil,wall_mm")
+    names = ("wall_mm",)
+    for i in range(n):
+        out.add(f"{_stamp(2 * i)},C{3300 + i // 100:05d},{wall[i]:.4f}", names)
+    return Built(
+        file="wall_cooling.csv",
+        title="A small sustained shift: one wall gauge charted three ways",
+        layout="wide, comma",
+        story=f"The wall gauge's readings (known centre {WALL.mean:g} mm, σ {WALL.sigma:g} "
+        f"mm) are charted three times over: with the CUSUM (`wall-cusum`), the EWMA "
+        f"(`wall-ewma`) and the Western Electric rules (`wall-we`). At data row "
+        f"{SHIFT_AT + 1} die heater zone 3 cools and the wall thickens by 1σ to the end of "
+        f"the file. The detection-power table predicts about 10 points to find the shift for "
+        f"CUSUM and EWMA, about 9 for the Western Electric rules, but a false alarm every "
+        f"92 points before it for those (every 465–500 for CUSUM and EWMA). The seed was "
+        f"picked so that this one run shows that typical outcome; "
+        f"`tests/integration/cli/test_small_shift_sample.py` holds it to the table.",
+        data=out.data(),
+        expects=[
+            Expect("wall-cusum", "cusum", "cusum", SHIFT_AT, SHIFT_AT + 30,
+                   "zone 3 cools: wall +1σ"),
+            Expect("wall-ewma", "ewma", "ewma", SHIFT_AT, SHIFT_AT + 30,
+                   "zone 3 cools: wall +1σ"),
+            Expect("wall-we", "individuals", "we2", SHIFT_AT, n - 1, "zone 3 cools: wall +1σ"),
+        ],
+        quiet={"wall-cusum": SHIFT_AT, "wall-ewma": SHIFT_AT},
+        rejected_lines=out.rejected,
+        line_of={k: out.line_of["wall_mm"] for k in ("wall-cusum", "wall-ewma", "wall-we")},
+    )
+
+
 # Which builder, with which seed, makes which file; the config for each is config/<stem>.toml.
 SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "extrusion_wide": (extrusion_wide, 4),
@@ -390,6 +432,7 @@ SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "fill_scale": (fill_scale, 90),
     "end_of_line_tester": (end_of_line_tester, 1),
     "vision_station": (vision_station, 3),
+    "wall_cooling": (wall_cooling, 39),
 }
 
 CHARACTERISTIC_COLUMNS = {
@@ -414,7 +457,7 @@ def build(stem: str, seed: int | None = None) -> Built:
     built.line_of = {
         name: built.line_of[col] for name, col in CHARACTERISTIC_COLUMNS.items()
         if col in built.line_of
-    }
+    } or built.line_of  # a sample that names its characteristics itself
     built.subgroup = {
         name: built.subgroup[col] for name, col in CHARACTERISTIC_COLUMNS.items()
         if col in built.subgroup
@@ -452,8 +495,9 @@ def readme_section(stem: str, built: Built) -> str:
     quiet = ", ".join(f"{name} before point {idx}" for name, idx in built.quiet.items())
     rows.append(f"Quiet (no signal on any chart): {quiet}.")
     rows.append("")
-    rows.append(f"Rejected lines: {', '.join(str(x) for x in built.rejected_lines)}.")
-    rows.append("")
+    if built.rejected_lines:
+        rows.append(f"Rejected lines: {', '.join(str(x) for x in built.rejected_lines)}.")
+        rows.append("")
     return "\n".join(rows)
 
 
