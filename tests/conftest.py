@@ -60,3 +60,18 @@ def plant_db(pg_server: str) -> Iterator[str]:
     url = fresh_database(pg_server)
     yield url
     drop_database(pg_server, url)
+
+
+@pytest.fixture
+def own_pg() -> Iterator[object]:
+    """A PostgreSQL cluster of this test's own (`tests.pg_server.Cluster`, started), for tests
+    that stop or restart the server."""
+    from tests.pg_server import Cluster, wait_ready
+
+    cluster = Cluster.create()
+    try:
+        cluster.start()
+        wait_ready(cluster.url)
+        yield cluster
+    finally:
+        cluster.remove()

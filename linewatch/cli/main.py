@@ -36,8 +36,9 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
         "--rules",
         metavar="LIST",
         help="rule ids and set names, comma-separated: nelson, western-electric, n1..n8, "
-        "we1..we4 (default: western-electric)",
+        "we1..we4, and the detectors ewma, cusum (default: western-electric)",
     )
+    _add_detector_options(p)
     p.add_argument("--center", type=float, metavar="C", help="known process centre (with --sigma)")
     p.add_argument(
         "--sigma", type=float, metavar="S", help="known standard deviation of individual values"
@@ -89,6 +90,22 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
     )
 
 
+def _add_detector_options(p: argparse.ArgumentParser) -> None:
+    """The EWMA and CUSUM parameters (used when --rules or the config names the detector)."""
+    g = p.add_argument_group("detectors (with --rules ...,ewma,cusum)")
+    g.add_argument("--ewma-lambda", type=float, metavar="LAMBDA",
+                   help="EWMA smoothing weight, 0.01-1 (default 0.2)")
+    g.add_argument("--ewma-width", type=float, metavar="L",
+                   help="EWMA limit width in σ of its own spread (default 2.962)")
+    g.add_argument("--cusum-k", type=float, metavar="K",
+                   help="CUSUM reference value in σ of the plotted points (default 0.5)")
+    g.add_argument("--cusum-h", type=float, metavar="H",
+                   help="CUSUM decision interval in σ of the plotted points (default 5)")
+    g.add_argument("--cusum-headstart", type=float, metavar="S",
+                   help="CUSUM head start at each phase's start, below H (default 0; H/2 "
+                   "gives a fast initial response)")
+
+
 def _add_state_dir(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--state-dir",
@@ -117,10 +134,16 @@ def build_parser() -> argparse.ArgumentParser:
         description="Read whole logs, estimate limits (Phase I) or use known ones, apply the run "
         "rules and summarise. Exit 0: no signal, 1: signals, 2: usage or input error.",
     )
-    p.add_argument("logs", nargs="+", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
+    p.add_argument("logs", nargs="*", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
     _add_chart_options(p)
     p.add_argument("--format", choices=RECORD_FORMATS,
                    help="text for people (default) or one JSON record a line")
+    p.add_argument("--points", action="store_true",
+                   help="with --format jsonl: also one record per plotted point, with its "
+                   "subgroup size and limits")
+    p.add_argument("--compare-rules", metavar="SET[;SET...]",
+                   help="print the detection power of several rule sets side by side and read "
+                   "no log (quote it: 'western-electric;we1,ewma;we1,cusum')")
 
     p = sub.add_parser(
         "watch",

@@ -36,7 +36,16 @@ from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.rulebook import RULES, parse_rule_list, resolve_rules
+from linewatch.engine.rulebook import (
+    CUSUM,
+    DETECTOR_OPTIONS,
+    DETECTORS,
+    EWMA,
+    RULES,
+    parse_rule_list,
+    resolve_detectors,
+    resolve_rules,
+)
 
 Word = TypeVar("Word", bound=str)
 
@@ -303,7 +312,8 @@ def _read_characteristic(
     if lsl is not None and usl is not None and lsl >= usl:
         raise r.fail("lsl", f"must be below usl ({lsl} >= {usl})")
     center, sigma = r.number("center"), r.number("sigma")
-    if (center is None) != (sigma is None):
+    attribute = "count_column" in r.table or "result_column" in r.table
+    if (center is None) != (sigma is None) and not (attribute and sigma is None):
         raise r.fail("sigma" if sigma is None else "center", "center and sigma go together")
     if sigma is not None and sigma <= 0:
         raise r.fail("sigma", f"must be more than 0, got {sigma}")
@@ -324,8 +334,10 @@ def _read_characteristic(
         resolve_rules(sorted(set(rules) | set(lengths)), lengths)
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
+    detector_options = {d: _read_detector(path, r, d) for d in DETECTORS}
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
-    plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
+    plans_reader.check_known(
+        set(RULES) | set(DETECTORS) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
     ways = [k for k in ("subgroup_size", "subgroup_by", "subgroup_window") if k in r.table]
     if len(ways) > 1:
@@ -351,6 +363,8 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", 1, 100_000),
         decimals=r.optional_integer("decimals", 0, 10),
+        ewma=detector_options[EWMA],
+        cusum=detector_options[CUSUM],
         subgroup_by=r.column_name("subgroup_by"),
         subgroup_window=r.window("subgroup_window"),
         subgroup_timeout=r.positive_duration("subgroup_timeout"),
@@ -367,6 +381,26 @@ def _read_characteristic(
     if "column" not in r.table and char.is_attribute:  # named by the column it counts in
         char.column = char.count_column or char.result_column or name
     return char
+
+
+def _read_detector(path: str, r: _Reader, detector: str) -> dict[str, float]:
+    """A characteristic's `ewma = {...}` or `cusum = {...}` table: known options, numbers in
+    range (the message names the key and the allowed range)."""
+    table = r.sub_table(detector)
+    reader = _Reader(path, r.key(detector), table)
+    reader.check_known(set(DETECTOR_OPTIONS[detector]))
+    out: dict[str, float] = {}
+    for name, raw in table.items():
+        try:
+            resolve_detectors([detector], {detector: {name: raw}})
+        except RuleListError as exc:
+            raise reader.fail(name, str(exc).removeprefix(f"{detector} {name} ")) from None
+        out[name] = float(raw)
+    try:
+        resolve_detectors([detector], {detector: out})
+    except RuleListError as exc:
+        raise reader.fail("headstart", str(exc)) from None
+    return out
 
 
 def parse_config(text: str, source: str = "<config>") -> Config:

@@ -15,7 +15,8 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
                        clear_after, decimals, subgroup_by, subgroup_window, subgroup_timeout,
                        chart, count_column, size_column, result_column, fail_values,
-                       pass_values
+                       pass_values, ewma = { lambda, width },
+                       cusum = { k, h, headstart }
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -65,6 +66,9 @@ class CharacteristicConfig:
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
     decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+    # detector parameters by option name (engine.rulebook.DETECTOR_OPTIONS); absent: defaults
+    ewma: dict[str, float] = field(default_factory=dict)
+    cusum: dict[str, float] = field(default_factory=dict)
     # subgroups: `subgroup_size` consecutive data rows, or rows with one value of the column
     # `subgroup_by`, or rows in one clock window of `subgroup_window` seconds (one of the three)
     subgroup_by: str | None = None

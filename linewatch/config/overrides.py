@@ -7,6 +7,7 @@ impossible values raise LinewatchError with a one-line reason naming the option.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from linewatch.config.choices import (
@@ -19,6 +20,15 @@ from linewatch.config.choices import (
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import LinewatchError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
+
+# (detector, its config option, the ChartOverrides field and so the option --ewma-lambda ...)
+DETECTOR_FIELDS = (
+    ("ewma", "lambda", "ewma_lambda"),
+    ("ewma", "width", "ewma_width"),
+    ("cusum", "k", "cusum_k"),
+    ("cusum", "h", "cusum_h"),
+    ("cusum", "headstart", "cusum_headstart"),
+)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -36,6 +46,11 @@ class ChartOverrides:
     usl: float | None = None
     decimal: DecimalMark | None = None  # of the logs named on the command line
     clear_after: int | None = None  # quiet plotted points that end an alarm episode
+    ewma_lambda: float | None = None  # EWMA smoothing weight λ
+    ewma_width: float | None = None  # EWMA limit width L
+    cusum_k: float | None = None  # CUSUM reference value (σ of the plotted statistic)
+    cusum_h: float | None = None  # CUSUM decision interval
+    cusum_headstart: float | None = None  # CUSUM head start (fast initial response)
     subgroup_by: str | None = None  # column whose value names a row's subgroup (sample id)
     subgroup_window: str | None = None  # a duration: rows in one clock window form a subgroup
     attribute_chart: AttributeChart | None = None  # --chart
@@ -51,8 +66,11 @@ class ChartOverrides:
             if value is not None and not -MAX_MAGNITUDE <= value <= MAX_MAGNITUDE:
                 raise LinewatchError(f"--{option} {value:g} is out of range "
                                      f"(more than {MAX_MAGNITUDE:g} in magnitude)")
-        if (self.center is None) != (self.sigma is None):
-            raise LinewatchError("--center and --sigma go together")
+        attribute = self.count_column or self.result_column or self.attribute_chart
+        if (self.center is None) != (self.sigma is None) and not (attribute and
+                                                                  self.sigma is None):
+            raise LinewatchError("--center and --sigma go together (an attribute chart, named "
+                                 "with --count, --result or --chart, takes --center alone)")
         if self.sigma is not None and not self.sigma > 0:
             raise LinewatchError(f"--sigma must be more than 0 (σ ≤ 0 given: {self.sigma})")
         if self.lsl is not None and self.usl is not None and self.lsl >= self.usl:
@@ -67,7 +85,34 @@ class ChartOverrides:
             raise LinewatchError("--clear-after needs at least 1 quiet point")
         if self.rules:
             self.rule_ids()
+        self._check_detector_options()
         self._check_subgroups_and_attributes()
+
+    def detector_options(self) -> dict[str, dict[str, float]]:
+        """The detector parameters given, as the config's tables hold them
+        ({"ewma": {"lambda": 0.1}, "cusum": {"h": 4.0}}); absent ones are left out."""
+        out: dict[str, dict[str, float]] = {}
+        for detector, option, field in DETECTOR_FIELDS:
+            value = getattr(self, field)
+            if value is not None:
+                out.setdefault(detector, {})[option] = value
+        return out
+
+    def _check_detector_options(self) -> None:
+        from linewatch.engine.rulebook import DETECTOR_OPTIONS
+
+        for detector, option, field in DETECTOR_FIELDS:
+            value = getattr(self, field)
+            if value is None:
+                continue
+            _spec_field, lo, hi = DETECTOR_OPTIONS[detector][option]
+            flag = "--" + field.replace("_", "-")
+            if not (math.isfinite(value) and lo <= value <= hi):
+                raise LinewatchError(f"{flag} must be between {lo:g} and {hi:g}, got {value:g}")
+        if (self.cusum_h is not None and self.cusum_headstart is not None
+                and self.cusum_headstart >= self.cusum_h):
+            raise LinewatchError("--cusum-headstart must be below --cusum-h "
+                                 "(h/2 is the usual choice)")
 
     def _check_subgroups_and_attributes(self) -> None:
         ways = [(o, v) for o, v in (("--subgroup-size", self.subgroup_size),

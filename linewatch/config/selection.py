@@ -15,7 +15,7 @@ from linewatch.config.loading import load_config
 from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.overrides import ChartOverrides, split_values
 from linewatch.domain.errors import LinewatchError, RuleListError
-from linewatch.engine.rulebook import DETECTORS, resolve_rules
+from linewatch.engine.rulebook import CUSUM, EWMA, resolve_detectors, resolve_rules
 from linewatch.engine.setup import ChartSetup
 
 
@@ -131,6 +131,9 @@ def apply_overrides(c: CharacteristicConfig, overrides: ChartOverrides) -> Chara
         c.usl = o.usl
     if o.clear_after is not None:
         c.clear_after = o.clear_after
+    given = o.detector_options()
+    c.ewma = {**c.ewma, **given.get(EWMA, {})}
+    c.cusum = {**c.cusum, **given.get(CUSUM, {})}
     if c.lsl is not None and c.usl is not None and c.lsl >= c.usl:
         raise LinewatchError(f"{c.name}: LSL must be below USL ({c.lsl} >= {c.usl})")
     problem = chart_problem(c)
@@ -145,11 +148,14 @@ def chart_setup(c: CharacteristicConfig, default_baseline: int | None) -> ChartS
         specs = tuple(resolve_rules(c.rules, c.run_lengths))
     except RuleListError as exc:
         raise LinewatchError(f"{c.name}: {exc}") from None
-    waiting = [r for r in c.rules if r in DETECTORS]
-    if waiting:  # the engine has them; check, watch and the screens do not chart them yet
+    try:
+        detectors = tuple(resolve_detectors(c.rules, {EWMA: c.ewma, CUSUM: c.cusum}))
+    except RuleListError as exc:
+        raise LinewatchError(f"{c.name}: {exc}") from None
+    if detectors and (c.sizes_vary or c.effective_chart is not None):
         raise LinewatchError(
-            f"{c.name}: {', '.join(waiting)} cannot be charted by check or watch yet; "
-            "leave them out of the rule list")
+            f"{c.name}: {', '.join(d.id for d in detectors)} chart measured values in "
+            "subgroups of one size (--subgroup-size); leave them out of this rule list")
     return ChartSetup(
         name=c.name,
         subgroup_size=c.subgroup_size,
@@ -158,6 +164,7 @@ def chart_setup(c: CharacteristicConfig, default_baseline: int | None) -> ChartS
         baseline=c.baseline if c.baseline is not None else default_baseline,
         center=c.center,
         sigma=c.sigma,
+        detectors=detectors,
         subgroups="label" if c.subgroup_by else "window" if c.subgroup_window else "count",
         window=c.subgroup_window,
         timeout=c.subgroup_timeout if c.subgroup_by else None,

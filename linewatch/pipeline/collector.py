@@ -413,12 +413,23 @@ class Collector:
     def _observe_judged(self, name: str, live: LiveOutput | SteppedOutput, now: float
                         ) -> list[AlarmEvent]:
         """Feed the points an engine judged (and where they fired) to the chart alarms."""
+        # a detector watches the location statistic: its firings join the location chart's
+        # alarm (one special cause, one alarm) and mark that chart's points
+        location = self.engines[name].setup.charts[0]
+        detectors = {d.id for d in self.engines[name].setup.detectors}
         fired: dict[str, dict[str, list[int]]] = {}
         for f in live.firings:
-            fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
+            chart = location if f.chart in detectors else f.chart
+            fired.setdefault(chart, {}).setdefault(f.rule, []).append(f.index)
         clear_after = self.characteristics.configs[name].clear_after
         events: list[AlarmEvent] = []
-        for chart, (lo, hi) in live.judged.items():
+        judged = dict(live.judged)
+        for det in detectors:
+            lo, hi = judged.pop(det, (None, None))
+            if lo is not None and hi is not None:
+                was = judged.get(location, (lo, hi))
+                judged[location] = (min(was[0], lo), max(was[1], hi))
+        for chart, (lo, hi) in judged.items():
             events += self.alarms.observe_chart(name, chart, lo, hi, fired.get(chart, {}), now,
                                                 clear_after=clear_after)
         return events

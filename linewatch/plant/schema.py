@@ -211,4 +211,9 @@ MIGRATIONS: tuple[str, ...] = (
     CREATE TRIGGER requests_notify AFTER INSERT OR UPDATE ON linewatch.requests
         FOR EACH ROW EXECUTE FUNCTION linewatch.request_notify();
     """,
+    # 2: which line store feeds a line (a second PC configured with the same line name is
+    # refused instead of mixing two stores' rows).
+    """
+    ALTER TABLE linewatch.lines ADD COLUMN store_id text;
+    """,
 )

@@ -182,6 +182,7 @@ class LineSnapshot:
     flood_since: float | None = None
     flood_window: float = 600.0  # seconds the flood count is taken over
     problem: str = ""  # the collector's internal error, while it lasts ("" when none)
+    plant_link: str = ""  # "plant link down since 14:02, 37 entries waiting"; '' while up
 
 
 class LineActions(Protocol):

@@ -47,6 +47,8 @@ FORWARDED: tuple[Forwarded, ...] = (
 )
 BY_TABLE = {f.table: f for f in FORWARDED}
 PUT, DROP = "put", "drop"
+STORE_ID_KEY = "plant-store-id"
+LINK_KEY = "plant-link"  # the link's state (JSON), for every face of this line
 _TRIGGER_PREFIX = "outbox_"
 
 
@@ -64,22 +66,29 @@ def _key_json(forwarded: Forwarded, row: str) -> str:
     return "json_array(" + ", ".join(f"{row}.{c}" for c in forwarded.key) + ")"
 
 
+LOCAL_META = "plant-"  # meta keys with this prefix are the link's own, never forwarded
+
+
 def _triggers(f: Forwarded) -> list[str]:
     """The CREATE TRIGGER statements that enter `f`'s changes in the outbox."""
+    new_when = old_when = ""
+    if f.table == "meta":
+        new_when = f" WHEN substr(NEW.key, 1, {len(LOCAL_META)}) != '{LOCAL_META}'"
+        old_when = f" WHEN substr(OLD.key, 1, {len(LOCAL_META)}) != '{LOCAL_META}'"
     put = (f"INSERT INTO outbox (tbl, key, op) VALUES ('{f.table}', {_key_json(f, 'NEW')}, "
            f"'{PUT}');")
     statements = [
         f"CREATE TRIGGER IF NOT EXISTS {_TRIGGER_PREFIX}{f.table}_insert AFTER INSERT ON "
-        f"{f.table} BEGIN {put} END",
+        f"{f.table}{new_when} BEGIN {put} END",
         f"CREATE TRIGGER IF NOT EXISTS {_TRIGGER_PREFIX}{f.table}_update AFTER UPDATE ON "
-        f"{f.table} BEGIN {put} END",
+        f"{f.table}{new_when} BEGIN {put} END",
     ]
     if f.drops:
         drop = (f"INSERT INTO outbox (tbl, key, op) VALUES ('{f.table}', "
                 f"{_key_json(f, 'OLD')}, '{DROP}');")
         statements.append(
             f"CREATE TRIGGER IF NOT EXISTS {_TRIGGER_PREFIX}{f.table}_delete AFTER DELETE ON "
-            f"{f.table} BEGIN {drop} END")
+            f"{f.table}{old_when} BEGIN {drop} END")
     return statements
 
 
@@ -96,9 +105,10 @@ class Outbox:
             (_TRIGGER_PREFIX + "%",))
         return int(rows[0][0]) > 0
 
-    def arm(self, now: float | None = None) -> int:
-        """Start entering changes (idempotent); on first arming also enter every row already
-        stored, table by table in key order. Returns how many rows were entered."""
+    def arm(self, now: float | None = None, *, resend: bool = False) -> int:
+        """Start entering changes (idempotent); on first arming (or with `resend`: the central
+        database lost what it had) also enter every row already stored, table by table in key
+        order. Returns how many rows were entered."""
         now = time.time() if now is None else now
         entered = 0
         with self.store.transaction() as conn:
@@ -106,16 +116,32 @@ class Outbox:
             for f in FORWARDED:
                 for statement in _triggers(f):
                     conn.execute(statement)
-            if fresh:
+            if fresh or resend:
+                conn.execute("DELETE FROM outbox")
                 for f in FORWARDED:
                     keys = ", ".join(f.key)
+                    where = (f" WHERE substr(key, 1, {len(LOCAL_META)}) != '{LOCAL_META}'"
+                             if f.table == "meta" else "")
                     entered += conn.execute(
                         f"INSERT INTO outbox (tbl, key, op) SELECT '{f.table}', "
-                        f"json_array({keys}), '{PUT}' FROM {f.table} ORDER BY {keys}"
+                        f"json_array({keys}), '{PUT}' FROM {f.table}{where} ORDER BY {keys}"
                     ).rowcount
                 conn.execute(
-                    "UPDATE outbox_position SET armed_at = ? WHERE id = 1", (now,))
+                    "UPDATE outbox_position SET armed_at = ?, sent = 0 WHERE id = 1", (now,))
         return entered
+
+    def store_id(self) -> str:
+        """This store's own id (made once), telling the central database which store feeds
+        a line."""
+        import uuid
+
+        with self.store.transaction():
+            known = self.store.meta.get(STORE_ID_KEY)
+            if known:
+                return known
+            made = uuid.uuid4().hex
+            self.store.meta.set(STORE_ID_KEY, made)
+        return made
 
     def disarm(self) -> None:
         """Stop entering changes and forget the outbox (the line left the plant)."""

@@ -52,6 +52,8 @@ class TopBar(Static):
         alerts: list[tuple[str, str]] = []
         if line.problem:
             alerts.append((f"MONITORING FAILING: {line.problem}", "bold reverse"))
+        if line.plant_link:
+            alerts.append((line.plant_link, "bold"))
         if line.flood is not None:
             window = format_duration(line.flood_window)
             alerts.append((f"ALARM FLOOD: {line.flood} in {window}", "bold reverse"))
