@@ -415,8 +415,9 @@ class Collector:
         """Feed the points an engine judged (and where they fired) to the chart alarms."""
         # a detector watches the location statistic: its firings join the location chart's
         # alarm (one special cause, one alarm) and mark that chart's points
-        location = self.engines[name].setup.charts[0]
-        detectors = {d.id for d in self.engines[name].setup.detectors}
+        engine = self.engines.get(name)
+        location = engine.setup.charts[0] if engine is not None else ""
+        detectors = {d.id for d in engine.setup.detectors} if engine is not None else set()
         fired: dict[str, dict[str, list[int]]] = {}
         for f in live.firings:
             chart = location if f.chart in detectors else f.chart
