@@ -77,7 +77,7 @@ def table_lines(table: PowerTable, indent: str = "   ") -> list[str]:
         cells = "".join(f"{run_length_text(a, s):>{CELL_WIDTH}}"
                         for a, s in zip(row.run_lengths, row.simulated, strict=True))
         out.append(f"{indent}  {'points to detect':<{LABEL_WIDTH}}{cells}")
-    out.append(f"{indent}  false alarms per 1,000 points in control: "
+    out.append(f"{indent}  false alarms per 1,000 points in control (1,000/ARL at 0): "
                f"{table.false_alarms_per_1000:.2f}")
     if table.simulated:
         out.append(f"{indent}  {APPROX}: seeded simulation, standard error within "

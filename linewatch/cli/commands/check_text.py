@@ -101,6 +101,7 @@ def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejec
             approx = "≈ " if how.startswith("simulation") else ""
             words = {"markov": "exact Markov chain"}.get(how, how.replace("simulation",
                                                                          "seeded simulation"))
+            words = words.replace("markov (", "exact Markov chain, ")
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
               f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
         if a.power is not None:
