@@ -37,12 +37,20 @@ class DefaultOptions:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class CheckOptions:
-    """`linewatch check LOG...`"""
+    """`linewatch check LOG...`, or `linewatch check --compare-rules SET[;SET...]`"""
 
-    logs: tuple[str, ...]
+    logs: tuple[str, ...] = ()
     config: str | None = None
     chart: ChartOverrides = field(default_factory=ChartOverrides)
     format: RecordFormat = "text"
+    points: bool = False  # jsonl: one record per plotted point
+    compare_rules: str | None = None  # rule sets whose detection power to print side by side
+
+    def __post_init__(self) -> None:
+        if self.compare_rules is None and not self.logs:
+            raise LinewatchError("check needs at least one LOG (or --compare-rules SET;SET)")
+        if self.compare_rules is not None and self.logs:
+            raise LinewatchError("--compare-rules reads no log: leave the LOGs out")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -125,6 +133,8 @@ class VerifyOptions(StoreOptions):
 
     anchor: tuple[str, ...] = ()
     key: str | None = None
+    plant: str | None = None  # verify a line's chain in the central database instead
+    line: str | None = None  # ... the line's name there (with --plant)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -147,6 +157,13 @@ class ReportOptions(StoreOptions):
     to: str | None = None
     format: ReportFormat = "markdown"
     output: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class PlantInitOptions:
+    """`linewatch plant init [URL]`"""
+
+    url: str | None = None  # default: LINEWATCH_PLANT_URL
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

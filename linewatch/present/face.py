@@ -61,7 +61,20 @@ class MonitorFace:
             )
         snap.catching_up = self.monitor.catching_up
         snap.problem = self.monitor.problem
+        with self._lock, _store_errors():
+            self._plant_link(snap)
         return snap
+
+    def _plant_link(self, snap: LineSnapshot) -> None:
+        """The link's state as the forwarding thread last recorded it, with the entries
+        still waiting (counted only while it is down)."""
+        from linewatch.pipeline.plant_link import read_link
+        from linewatch.store.outbox import Outbox
+
+        state = read_link(self.store)
+        if state is not None and state.state == "down":
+            snap.plant_down_since = state.since
+            snap.plant_waiting = Outbox(self.store).waiting()
 
     def detail(self, characteristic: str) -> CharacteristicView | None:
         from linewatch.present.snapshot import DETAIL_POINTS, characteristic_view

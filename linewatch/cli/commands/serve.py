@@ -9,7 +9,6 @@ address to listen on is checked."""
 from __future__ import annotations
 
 import ipaddress
-import os
 import shlex
 import sys
 from pathlib import Path
@@ -17,8 +16,6 @@ from pathlib import Path
 from linewatch.cli.options import ServeOptions
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.safe_text import visible
-
-PLANT_URL_VARIABLE = "LINEWATCH_PLANT_URL"
 
 
 def parse_bind(bind: str) -> tuple[str, int]:
@@ -48,8 +45,7 @@ def is_loopback(host: str) -> bool:
 
 
 def screen_command(options: ServeOptions) -> tuple[list[str], dict[str, str], str]:
-    """The command each browser's screen runs, the variables it gets, and the page's title.
-    The plant's URL goes in a variable, never on a command line others can read with `ps`."""
+    """The command each browser's screen runs, the variables it gets, and the page's title."""
     base = [sys.executable, "-m", "linewatch"]
     if options.config is not None:
         from linewatch.config.loading import load_config
@@ -61,11 +57,8 @@ def screen_command(options: ServeOptions) -> tuple[list[str], dict[str, str], st
             argv += ["--state-dir", str(Path(options.state_dir).expanduser().resolve())]
         name = config_path.stem if config_path.stem != "linewatch" else config_path.parent.name
         return argv, {}, f"linewatch · {name}"
-    url = options.plant or os.environ.get(PLANT_URL_VARIABLE, "")
-    if not url:
-        raise LinewatchError(f"--plant needs the central database's URL, or "
-                             f"{PLANT_URL_VARIABLE} set")
-    return [*base, "plant"], {PLANT_URL_VARIABLE: url}, "linewatch · plant"
+    raise LinewatchError("serve --plant: the plant board screen is not in this version yet; "
+                         "serve a line's screen with -c CONFIG")
 
 
 def run(options: ServeOptions) -> int:

@@ -12,7 +12,7 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any
 
 from linewatch.cli.options import WatchOptions
-from linewatch.config.model import Config, FeedConfig
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,
@@ -26,6 +26,19 @@ if TYPE_CHECKING:
     from linewatch.pipeline.plan import WatchPlan
     from linewatch.present.face import MonitorFace
     from linewatch.present.view import LineActions
+
+
+def _refuse_what_watch_cannot_chart(chars: list[CharacteristicConfig],
+                                    feeds: list[FeedConfig]) -> None:
+    """Sample ids and pass/fail results are text columns, which a live tail keeps for
+    delimited logs with a header (wide layout) only: say so rather than chart nothing."""
+    texts = [c for c in chars if c.subgroup_by or c.result_column]
+    other = [f.layout for f in feeds if f.layout != "wide"]
+    if texts and other:
+        raise LinewatchError(
+            f"{texts[0].name}: watch reads sample ids and pass/fail results from delimited "
+            f"logs with a header (layout wide), not from {other[0]} feeds; `linewatch check` "
+            "reads finished logs of other layouts")
 
 
 def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
@@ -50,14 +63,20 @@ def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
             "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
         )
     chars = select_characteristics(config, chart, None) if (
-        chart.columns or config.characteristics) else []
-    columns = [c.column for c in chars] if chars else None
+        chart.columns or chart.count_column or chart.result_column or config.characteristics
+    ) else []
+    _refuse_what_watch_cannot_chart(chars, feeds)
+    from linewatch.pipeline.stepped_rows import columns_read
+
+    reads = [columns_read(c) for c in chars]
+    columns = list(dict.fromkeys(n for numeric, _ in reads for n in numeric)) if chars else None
+    texts = list(dict.fromkeys(t for _, text in reads for t in text))
     baseline = chart.baseline or config.monitor.baseline
     asked = [c.column for c in chars] if chart.columns else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
                      baseline=baseline,
                      overrides=functools.partial(apply_overrides, overrides=chart),
-                     asked=asked)
+                     asked=asked, text_columns=texts)
 
 
 def run(options: WatchOptions, title: str = "") -> int:
@@ -119,6 +138,17 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
             rec = {"type": "summary", "characteristic": name, "points": len(values),
                    "read": monitor.counts.get(name, 0), "rejected": monitor.rejected}
             rec.update({k: v for k, v in s.items() if k != "points"})
+            if c.is_attribute:  # a mean of 0/1 results is no figure to show: p̄ or ū is
+                from linewatch.present.attribute_figures import (
+                    attribute_capability,
+                    capability_record,
+                )
+
+                cap = attribute_capability(store, c)
+                for key in ("mean", "stdev", "cp", "cpk", "pp", "ppk"):
+                    rec.pop(key, None)
+                if cap is not None:
+                    rec["attribute"] = capability_record(cap)
             out.append(rec)
     finally:
         store.close()
