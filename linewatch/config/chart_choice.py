@@ -13,6 +13,9 @@ PROPORTION_CHARTS = ("p", "np", "laney-p")
 
 def chart_problem(c: CharacteristicConfig) -> tuple[str, str] | None:
     """(config key, problem) of the first setting that does not fit the others, or None."""
+    if c.is_attribute and c.sigma is not None:
+        return ("sigma", "an attribute chart's spread follows from its centre: give the known "
+                "proportion or rate as center (--center) without sigma")
     if c.subgroup_by is not None and c.subgroup_window is not None:
         return ("subgroup_window", "subgroup_by and subgroup_window exclude each other: "
                 "subgroups are by sample id or by clock window (--subgroup-by, "
@@ -28,9 +31,9 @@ def chart_problem(c: CharacteristicConfig) -> tuple[str, str] | None:
         return ("size_column", "the units inspected (size_column, --size) go with the counts "
                 "they were found in (count_column, --count)")
     if c.chart is not None and not c.is_attribute:
-        return ("chart", f"a {c.chart} chart needs counts (count_column, --count) or pass/fail "
-                "results (result_column, --result); measured values are charted as X̄ or "
-                "individuals")
+        return ("chart", f"{_a(c.chart)} {c.chart} chart needs counts (count_column, "
+                "--count) or pass/fail results (result_column, --result); measured values "
+                "are charted as X̄ or individuals")
     if c.result_column is not None:
         if c.chart is not None and c.chart not in PROPORTION_CHARTS:
             return ("chart", f"pass/fail results give proportions: p, np or laney-p, not "
@@ -40,8 +43,8 @@ def chart_problem(c: CharacteristicConfig) -> tuple[str, str] | None:
                     "2 or more, subgroup_by or subgroup_window (--subgroup-size, "
                     "--subgroup-by, --subgroup-window)")
     if c.count_column is not None and c.size_column is None and c.chart not in (None, "c"):
-        return ("chart", f"a {c.chart} chart needs the units inspected per row (size_column, "
-                "--size); counts without sizes are charted as c")
+        return ("chart", f"{_a(c.chart)} {c.chart} chart needs the units inspected per row "
+                "(size_column, --size); counts without sizes are charted as c")
     for key, values, what in (("fail_values", c.fail_values, "a failed part"),
                               ("pass_values", c.pass_values, "a good part")):
         if not values:
@@ -53,3 +56,8 @@ def chart_problem(c: CharacteristicConfig) -> tuple[str, str] | None:
     if both:
         return ("pass_values", f"{both[0]!r} is both a pass and a fail value")
     return None
+
+
+def _a(word: str) -> str:
+    """The article before a chart's name ("an np chart", "a p chart")."""
+    return "an" if word[:1] in "aeinu" and word != "u" else "a"

@@ -312,7 +312,8 @@ def _read_characteristic(
     if lsl is not None and usl is not None and lsl >= usl:
         raise r.fail("lsl", f"must be below usl ({lsl} >= {usl})")
     center, sigma = r.number("center"), r.number("sigma")
-    if (center is None) != (sigma is None):
+    attribute = "count_column" in r.table or "result_column" in r.table
+    if (center is None) != (sigma is None) and not (attribute and sigma is None):
         raise r.fail("sigma" if sigma is None else "center", "center and sigma go together")
     if sigma is not None and sigma <= 0:
         raise r.fail("sigma", f"must be more than 0, got {sigma}")

@@ -66,8 +66,11 @@ class ChartOverrides:
             if value is not None and not -MAX_MAGNITUDE <= value <= MAX_MAGNITUDE:
                 raise LinewatchError(f"--{option} {value:g} is out of range "
                                      f"(more than {MAX_MAGNITUDE:g} in magnitude)")
-        if (self.center is None) != (self.sigma is None):
-            raise LinewatchError("--center and --sigma go together")
+        attribute = self.count_column or self.result_column or self.attribute_chart
+        if (self.center is None) != (self.sigma is None) and not (attribute and
+                                                                  self.sigma is None):
+            raise LinewatchError("--center and --sigma go together (an attribute chart, named "
+                                 "with --count, --result or --chart, takes --center alone)")
         if self.sigma is not None and not self.sigma > 0:
             raise LinewatchError(f"--sigma must be more than 0 (σ ≤ 0 given: {self.sigma})")
         if self.lsl is not None and self.usl is not None and self.lsl >= self.usl:

@@ -300,6 +300,88 @@ def fill_scale(seed: int) -> Built:
     )
 
 
+def end_of_line_tester(seed: int) -> Built:
+    """Pass/fail per tube from the end-of-line leak tester, charted per hour of the clock."""
+    rng = np.random.default_rng(seed)
+    out = _Lines()
+    out.add("time,tube,result")
+    hours = 20
+    point_lines: list[int] = []
+    spellings = ("PASS", "PASS", "PASS", "pass", "OK")
+    junk = {(3, 40): "RETEST", (8, 5): "", (15, 70): "PASS?"}
+    tube = 0
+    for hour in range(hours):
+        fail_rate = 0.07 if 13 <= hour <= 16 else 0.02  # worn seal on the test fixture
+        at = hour * 3600.0 + float(rng.uniform(5, 25))
+        k = 0
+        while at < (hour + 1) * 3600.0 - 1:
+            tube += 1
+            result = ("FAIL", "NG", "fail")[tube % 3] if rng.random() < fail_rate else \
+                spellings[tube % len(spellings)]
+            out.add(f"{_stamp(at)},T{tube:06d},{result}", ("result",))
+            if (hour, k) in junk:
+                out.add(f"{_stamp(at + 1)},T{tube:06d}R,{junk[(hour, k)]}", junk=True)
+            k += 1
+            at += float(rng.uniform(20, 40))
+        point_lines.append(out.line_of["result"][-1])
+    return Built(
+        file="end_of_line_tester.csv",
+        title="Pass/fail CSV: the end-of-line leak tester",
+        layout="wide, comma, one row per tube",
+        story="Each tube is leak-tested once and logged PASS or FAIL (some rows say pass, OK, "
+        "NG or fail: results are read without regard to case). Subgroups are the tubes of "
+        "each hour of the clock (about 120, varying), charted as a p chart with limits from "
+        "the first 10 hours. About 2% fail; from the 14th hour to the 17th the fixture's "
+        "seal is worn and 7% fail. Three junk rows: results that are neither pass nor fail "
+        "(RETEST, empty, PASS?).",
+        data=out.data(),
+        expects=[Expect("leak-test", "p", "we1", 13, 16, "worn fixture seal: 7% fail")],
+        quiet={"leak-test": 13},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+        point_lines={"result": point_lines},
+    )
+
+
+def vision_station(seed: int) -> Built:
+    """Surface defects found by the vision station in each 5-minute block of frames."""
+    rng = np.random.default_rng(seed)
+    out = _Lines()
+    out.add("time,coil,frames,defects")
+    n = 160
+    frames = rng.integers(180, 261, n)
+    rate = np.full(n, 0.02)
+    rate[100:115] = 0.06  # die-lip build-up scores the surface
+    defects = rng.poisson(rate * frames)
+    defects[140:148] = 0  # the camera's lamp failed: it sees nothing
+    junk = {30: ("220", "n/a"), 75: ("0", "3"), 125: ("210", "-1")}
+    for i in range(n):
+        coil = f"C{4100 + i // 40:05d}"
+        out.add(f"{_stamp(300 * i)},{coil},{frames[i]},{defects[i]}", ("defects",))
+        if i in junk:
+            f, d = junk[i]
+            out.add(f"{_stamp(300 * i + 150)},{coil},{f},{d}", junk=True)
+    return Built(
+        file="vision_station.csv",
+        title="Defect counts CSV: the surface vision station",
+        layout="wide, comma, one row per 5-minute block",
+        story="Each row counts the surface defects the camera found in the frames it "
+        "inspected in five minutes (180 to 260 frames: the line speed varies), charted as a "
+        "u chart (defects per frame) with limits from the first 60 rows. About 0.02 defects "
+        "per frame; rows 101–115: build-up on the die lip scores the surface (0.06 per frame); "
+        "rows 141–148: the lamp failed and the camera reports no defect at all. Three junk "
+        "rows: a text count, 0 frames and a negative count.",
+        data=out.data(),
+        expects=[
+            Expect("surface-defects", "u", "we1", 100, 114, "die-lip build-up: 3 × the rate"),
+            Expect("surface-defects", "u", "we4", 140, 152, "lamp failed: no defect seen"),
+        ],
+        quiet={"surface-defects": 100},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
 SHIFT_AT = 400  # data row (0-based) from which the cooled die zone thickens the wall
 
 
@@ -348,6 +430,8 @@ SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "wall_station_semicolon": (wall_station, 43),
     "lab_long": (lab_long, 14),
     "fill_scale": (fill_scale, 90),
+    "end_of_line_tester": (end_of_line_tester, 1),
+    "vision_station": (vision_station, 3),
     "wall_cooling": (wall_cooling, 39),
 }
 
@@ -360,6 +444,8 @@ CHARACTERISTIC_COLUMNS = {
     "burst-pressure": "burst_bar",
     "fill-weight": "fill_g",
     "seal-temperature": "seal_c",
+    "leak-test": "result",
+    "surface-defects": "defects",
 }
 
 
@@ -429,9 +515,11 @@ noise around the change (a run that started before the change counts too). The w
 from how each file was built (`linewatch/simulation/samples.py`, fixed seeds); regenerate with
 `python -m linewatch.simulation.samples sample_feeds`.
 
-Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; a
-moving range takes the index of the later of its two points); lines count file lines from 1,
-header included. Limits come from each config's `baseline` (the quiet first part).
+Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; for
+the leak tester, one per hour of the clock; for the vision station, one per row; a moving
+range takes the index of the later of its two points); lines count file lines from 1, header
+included (a subgroup's line is its last row's). Limits come from each config's `baseline`
+(the quiet first part).
 
 """
 

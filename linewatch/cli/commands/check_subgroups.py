@@ -17,7 +17,6 @@ from linewatch.domain.clock import local_offset
 from linewatch.domain.errors import ChartDataError, FeedError, NotEnoughData
 from linewatch.domain.records import CHART_C, CHART_LANEY_P, CHART_NP, CHART_P, Rejected
 from linewatch.domain.safe_text import visible
-from linewatch.domain.words import count
 from linewatch.engine.row_groups import (
     positions_among,
     sizes_by_label,
@@ -75,6 +74,7 @@ class _Rows:
     sizes: np.ndarray | None  # units inspected per row (counts with sizes)
     labels: list[str]
     times: np.ndarray  # epoch seconds, NaN where unknown
+    offset: float | None  # the first time stamp's own UTC offset (None: local time)
     positions: np.ndarray  # among all data rows of all logs (a rejected row takes its place)
     total_rows: int
     column: Column
@@ -83,6 +83,19 @@ class _Rows:
 def _result_value(text: str, fails: set[str], passes: set[str]) -> float | None:
     key = text.casefold()
     return 1.0 if key in fails else 0.0 if key in passes else None
+
+
+def _own_offset(text: str | None) -> float | None:
+    """The UTC offset a time stamp carries (seconds east), None when it carries none."""
+    if text is None:
+        return None
+    from datetime import datetime
+
+    try:
+        offset = datetime.fromisoformat(text).utcoffset()
+    except ValueError:
+        return None
+    return offset.total_seconds() if offset is not None else None
 
 
 def _epoch(text: str | None) -> float:
@@ -95,6 +108,30 @@ def _epoch(text: str | None) -> float:
     except ValueError:
         return math.nan
     return (stamp if stamp.tzinfo else stamp.astimezone()).timestamp()
+
+
+def _bad_counts(c: CharacteristicConfig, rows: LabelledRows, keep: np.ndarray
+                ) -> list[Rejected]:
+    """Rows whose count is no whole number of 0 or more, whose size is not above 0, or (for a
+    proportion) whose count exceeds its size: rejected with file and line (`keep` updated), so
+    one bad row never stops the chart."""
+    assert c.count_column is not None
+    d = rows.numbers[c.count_column]
+    n = rows.numbers[c.size_column] if c.size_column else None
+    out: list[Rejected] = []
+    for i in range(d.shape[0]):
+        why = None
+        if d[i] < 0 or d[i] != np.floor(d[i]):
+            why = f"count {d[i]:g} in column '{c.count_column}' is not a whole number ≥ 0"
+        elif n is not None and not n[i] > 0:
+            why = f"size {n[i]:g} in column '{c.size_column}' is not more than 0"
+        elif n is not None and c.effective_chart in PROPORTIONS and d[i] > n[i]:
+            why = (f"{d[i]:g} nonconforming of {n[i]:g} inspected ('{c.count_column}' above "
+                   f"'{c.size_column}')")
+        if why is not None:
+            keep[i] = False
+            out.append(Rejected(rows.file, int(rows.lines[i]), why))
+    return out
 
 
 def _read_rows(c: CharacteristicConfig, logs: list[str], feeds: list[FeedConfig]
@@ -128,6 +165,8 @@ def _read_rows(c: CharacteristicConfig, logs: list[str], feeds: list[FeedConfig]
             values = np.array([0.0 if v is None else v for v in got], dtype=float)
         else:
             values = rows.numbers[numeric[0]]
+        if c.count_column is not None:
+            own += _bad_counts(c, rows, keep)
         if c.subgroup_window is not None:
             for i in np.flatnonzero(np.isnan(times) & keep).tolist():
                 keep[i] = False
@@ -156,8 +195,9 @@ def _read_rows(c: CharacteristicConfig, logs: list[str], feeds: list[FeedConfig]
             labels += [t for t, k in zip(texts, keep.tolist(), strict=True) if k]
     times = np.concatenate([p[3] for p in parts])
     column = Column(values, lines, files, fidx)
-    return _Rows(values, sizes, labels, times, np.concatenate(positions), start,
-                 column), rejected
+    first = next((t for p in parts for t in p[0].times if t is not None), None)
+    return _Rows(values, sizes, labels, times, _own_offset(first), np.concatenate(positions),
+                 start, column), rejected
 
 
 # subgroups ----------------------------------------------------------------------------------
@@ -170,8 +210,9 @@ def _sizes(c: CharacteristicConfig, rows: _Rows) -> tuple[np.ndarray, int]:
     if c.subgroup_window is not None:
         if not rows.times.shape[0]:
             return np.zeros(0, dtype=np.int64), 0
-        return sizes_by_window(rows.times, c.subgroup_window,
-                               local_offset(float(rows.times[0]))), 0
+        # aligned to the line's clock: the offset its time stamps carry, else the local one
+        offset = rows.offset if rows.offset is not None else local_offset(float(rows.times[0]))
+        return sizes_by_window(rows.times, c.subgroup_window, offset), 0
     return sizes_by_position(rows.positions, c.subgroup_size, rows.total_rows)
 
 
@@ -235,8 +276,8 @@ def _attribute(c: CharacteristicConfig, setup: ChartSetup, rows: _Rows, sizes: n
     last = np.cumsum(sizes) - 1
     if setup.attribute_chart == CHART_NP and n.shape[0] and np.any(n != n[0]):
         raise ChartDataError(
-            f"an np chart needs one subgroup size throughout; here {count(int(n.min()), 'unit')}"
-            f" to {int(n.max())}: use the p chart (--chart p) for varying sizes")
+            f"an np chart needs one subgroup size throughout; here sizes run from "
+            f"{int(n.min())} to {int(n.max())}: use the p chart (--chart p) for varying sizes")
     return analyse_counts(d, n, last, setup)
 
 

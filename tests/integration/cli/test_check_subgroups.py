@@ -167,3 +167,19 @@ def test_overdispersed_large_subgroups_get_the_laney_chart_suggested(tmp_path):
                "--chart", "laney-u", "--format", "jsonl")
     (summary,) = [r for r in records(laney.stdout) if r["type"] == "summary"]
     assert summary["sigma_z"] > 1.2 and summary["beyond_limits_per_1000"] is None
+
+
+def test_a_known_proportion_is_given_with_center_alone(tmp_path):
+    rows = [(f"2026-03-02T{6 + k // 50:02d}:{k % 50:02d}:00", "FAIL" if k % 25 == 0 else "PASS")
+            for k in range(200)]
+    log = write_tester_log(tmp_path / "leak.csv", rows)
+    got = lw("check", str(log), "--result", "result", "--subgroup-window", "1h",
+             "--center", "0.1", "--format", "jsonl", "--points")
+    assert got.returncode in (0, 1), got.stderr
+    points = [r for r in records(got.stdout) if r["type"] == "point"]
+    assert [r["n"] for r in points] == [50] * 4
+    for r in points:  # p ± 3√(p(1 − p)/n) around the known p (Montgomery, standard given)
+        assert r["center"] == 0.1
+        assert r["ucl"] == pytest.approx(0.1 + 3 * np.sqrt(0.1 * 0.9 / 50))
+    refused = lw("check", str(log), "--center", "0.1")
+    assert refused.returncode == 2 and "--center and --sigma go together" in refused.stderr
