@@ -174,8 +174,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.baseline_needed = max(0, (c.baseline or 25) - plotted)
     if detail and not c.is_attribute:  # (a box plot of 0/1 results says nothing)
         from linewatch.present.close_up import with_figures
+        from linewatch.present.detector_charts import add_detector_charts
 
         with_figures(v)
+        add_detector_charts(store, c, v, points * max(n, 1))
     # the label follows the condition (the gauge recovered), not the unacknowledged alarm
     v.stuck = any(a.rule == "stuck" and a.active for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)
