@@ -76,7 +76,7 @@ class Cluster:
         return subprocess.run(command, capture_output=True, text=True, check=check, timeout=120)
 
     @classmethod
-    def create(cls) -> Cluster:
+    def create(cls, durable: bool = False) -> Cluster:
         folder = Path(tempfile.mkdtemp(prefix="linewatch-pg-"))
         owner = _owner()
         if owner is not None:
@@ -86,8 +86,9 @@ class Cluster:
         cluster._run("initdb", "-D", str(cluster.data), "-A", "trust", "-U", "postgres",
                      "--no-sync", "-E", "UTF8", "--locale=C")
         with open(cluster.data / "postgresql.conf", "a", encoding="utf-8") as conf:
-            conf.write("\nfsync = off\nsynchronous_commit = off\nfull_page_writes = off\n"
-                       "max_connections = 200\nshared_buffers = 32MB\n")
+            if not durable:  # a throwaway test cluster need not survive a power cut
+                conf.write("\nfsync = off\nsynchronous_commit = off\nfull_page_writes = off\n")
+            conf.write("\nmax_connections = 200\nshared_buffers = 32MB\n")
         return cluster
 
     def start(self) -> None:

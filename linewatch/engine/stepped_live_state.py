@@ -20,11 +20,12 @@ from linewatch.engine.variable_limits import SizeModel
 STATE_HISTORY = 500  # of the kept subgroups, how many are saved with the state
 
 
-def signature(setup: ChartSetup, offset: float) -> str:
-    """What a saved state depends on."""
+def signature(setup: ChartSetup) -> str:
+    """What a saved state depends on (the clock offset the windows were cut by is saved
+    with it and kept, so a change of summer time does not move an open window)."""
     s = setup
     return (f"stepped|{fixed_signature(setup)}|{s.subgroups}|{s.window}|{s.timeout}|"
-            f"{s.attribute_chart}|{offset}")
+            f"{s.attribute_chart}")
 
 
 def _model_to_list(m: Model | None) -> list[Any] | None:
@@ -56,7 +57,8 @@ def save_stepped(engine: SteppedEngine) -> dict[str, Any]:
     """A JSON-ready snapshot from which `restore_stepped` rebuilds `engine` exactly."""
     hist = list(engine.history)[-STATE_HISTORY:]
     return {
-        "signature": signature(engine.setup, engine.offset),
+        "signature": signature(engine.setup),
+        "offset": engine.offset,
         "rows_seen": engine.rows_seen,
         "next_index": engine.next_index,
         "phase": engine.phase,
@@ -74,10 +76,11 @@ def save_stepped(engine: SteppedEngine) -> dict[str, Any]:
 
 def restore_stepped(setup: ChartSetup, state: dict[str, Any], offset: float = 0.0
                     ) -> SteppedEngine:
-    """Rebuild an engine saved by `save_stepped`; a state from another setup starts afresh."""
-    engine = SteppedEngine(setup, offset)
-    if state.get("signature") != signature(setup, offset):
-        return engine
+    """Rebuild an engine saved by `save_stepped`; a state from another setup starts afresh
+    (at the clock `offset` given)."""
+    if state.get("signature") != signature(setup):
+        return SteppedEngine(setup, offset)
+    engine = SteppedEngine(setup, float(state["offset"]))
     engine.rows_seen = state["rows_seen"]
     engine.next_index = state["next_index"]
     engine.phase = state["phase"]

@@ -135,6 +135,8 @@ class PlantLink:
                 if sent < link.batch:
                     link.wait(IDLE_WAIT)
             except PlantError as exc:
+                with contextlib.suppress(sqlite3.Error):
+                    link.confirm()  # what did arrive, before the link is counted as down
                 link.close()
                 failures += 1
                 problem = str(exc)
@@ -156,7 +158,9 @@ class PlantLink:
         with contextlib.suppress(PlantError, sqlite3.Error, LinewatchError):
             while link.is_open and time.monotonic() < deadline:
                 if not link.send(time.time()):
-                    return
+                    break
+        with contextlib.suppress(sqlite3.Error):
+            link.confirm()
 
     def _record(self, store: Store, old: LinkState | None, new: LinkState) -> LinkState:
         """Keep the link's state in the store (for every face) and tell the faces."""

@@ -27,6 +27,7 @@ if TYPE_CHECKING:
 
 BATCH = 2000  # outbox entries per central transaction
 HEARTBEAT = 5.0  # seconds between "still here" updates of an idle line
+CONFIRM_EVERY = 2.0  # seconds between notes of the confirmed position in the line's store
 REPLACEMENT = "\ufffd"  # PostgreSQL text cannot hold NUL; the line's store can
 
 
@@ -84,6 +85,7 @@ class LineLink:
             f"PRAGMA table_info({f.table})")] for f in FORWARDED}
         self._upserts = {f.table: self._upsert_sql(f.table) for f in FORWARDED}
         self._last_contact = 0.0
+        self._confirmed_at = 0.0
         self.requests_due = True  # look once at the start, then on each notification
 
     # -- connection ------------------------------------------------------------------------
@@ -183,6 +185,8 @@ class LineLink:
         assert self.conn is not None
         entries = self.outbox.after(self.position, self.batch)
         if not entries:
+            if now - self._confirmed_at >= CONFIRM_EVERY:
+                self.confirm(now)
             if now - self._last_contact >= HEARTBEAT:
                 self.conn.execute(
                     f"UPDATE {SCHEMA}.lines SET last_contact = %s, waiting = 0 "
@@ -233,10 +237,20 @@ class LineLink:
                 "WHERE plant_line = %s",
                 (last, now, max(0, newest_local - last), newest_data, self.line))
             self.conn.execute("SELECT pg_notify(%s, %s)", (CHANGES_CHANNEL, self.line))
-        self.outbox.confirm(last)
         self.position = last
         self._last_contact = now
+        if now - self._confirmed_at >= CONFIRM_EVERY:
+            self.confirm(now)
         return len(entries)
+
+    def confirm(self, now: float | None = None) -> None:
+        """Note in the line's store how far the central database has confirmed, and drop
+        those entries. Done every CONFIRM_EVERY seconds, not per batch: each is a durable
+        write the collector's own commits would queue behind, and the central database's
+        position (read on every connect) is the authority anyway."""
+        if self.position > self.outbox.position():
+            self.outbox.confirm(self.position)
+        self._confirmed_at = time.time() if now is None else now
 
     # -- requests --------------------------------------------------------------------------
 

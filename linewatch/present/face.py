@@ -59,20 +59,19 @@ class MonitorFace:
         snap.catching_up = self.monitor.catching_up
         snap.problem = self.monitor.problem
         with self._lock, _store_errors():
-            snap.plant_link = self._plant_link()
+            self._plant_link(snap)
         return snap
 
-    def _plant_link(self) -> str:
+    def _plant_link(self, snap: LineSnapshot) -> None:
         """The link's state as the forwarding thread last recorded it, with the entries
         still waiting (counted only while it is down)."""
         from linewatch.pipeline.plant_link import read_link
-        from linewatch.present.plant_words import link_words
         from linewatch.store.outbox import Outbox
 
         state = read_link(self.store)
-        if state is None or state.state != "down":
-            return ""
-        return link_words(state.state, state.since, Outbox(self.store).waiting())
+        if state is not None and state.state == "down":
+            snap.plant_down_since = state.since
+            snap.plant_waiting = Outbox(self.store).waiting()
 
     def detail(self, characteristic: str) -> CharacteristicView | None:
         from linewatch.present.snapshot import DETAIL_POINTS, characteristic_view

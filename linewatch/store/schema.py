@@ -247,4 +247,25 @@ MIGRATIONS: tuple[str, ...] = (
         reported   INTEGER NOT NULL DEFAULT 0 CHECK (reported IN (0, 1))
     );
     """,
+    # 11: points of charts whose limits step (subgroups of varying size, attribute charts):
+    # the plotted statistic with its subgroup size and its own limits, which raw readings
+    # alone cannot give back; NULL limits while the phase's baseline is forming.
+    """
+    CREATE TABLE stepped_points (
+        characteristic TEXT NOT NULL,
+        chart          TEXT NOT NULL,
+        idx            INTEGER NOT NULL,
+        value          REAL NOT NULL,
+        n              REAL NOT NULL,
+        center         REAL,
+        ucl            REAL,
+        lcl            REAL,
+        sigma          REAL,
+        phase          INTEGER NOT NULL,
+        line           INTEGER NOT NULL,
+        file           TEXT,
+        time           TEXT,
+        PRIMARY KEY (characteristic, chart, idx)
+    ) WITHOUT ROWID;
+    """,
 )

@@ -13,7 +13,6 @@ from typing import TYPE_CHECKING, Any
 
 from linewatch.cli.options import WatchOptions
 from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
-from linewatch.config.overrides import ChartOverrides
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,
@@ -27,22 +26,17 @@ if TYPE_CHECKING:
     from linewatch.pipeline.plan import WatchPlan
 
 
-def _refuse_what_watch_cannot_chart_yet(chart: ChartOverrides,
-                                        chars: list[CharacteristicConfig]) -> None:
-    """Subgroups by sample id or clock window and attribute charts are charted by `check`;
-    the live path does not chart them yet, so watch says so instead of charting them wrongly."""
-    asked = [o for o, v in (("--subgroup-by", chart.subgroup_by),
-                            ("--subgroup-window", chart.subgroup_window),
-                            ("--count", chart.count_column), ("--result", chart.result_column),
-                            ("--chart", chart.attribute_chart)) if v is not None]
-    if asked:
-        raise LinewatchError(f"watch cannot chart {asked[0]} yet; `linewatch check` charts "
-                             "finished logs that way")
-    for c in chars:
-        if c.sizes_vary or c.is_attribute:
-            what = "attribute data" if c.is_attribute else "subgroups of varying size"
-            raise LinewatchError(f"{c.name}: watch cannot chart {what} yet; `linewatch check` "
-                                 "charts finished logs that way")
+def _refuse_what_watch_cannot_chart(chars: list[CharacteristicConfig],
+                                    feeds: list[FeedConfig]) -> None:
+    """Sample ids and pass/fail results are text columns, which a live tail keeps for
+    delimited logs with a header (wide layout) only: say so rather than chart nothing."""
+    texts = [c for c in chars if c.subgroup_by or c.result_column]
+    other = [f.layout for f in feeds if f.layout != "wide"]
+    if texts and other:
+        raise LinewatchError(
+            f"{texts[0].name}: watch reads sample ids and pass/fail results from delimited "
+            f"logs with a header (layout wide), not from {other[0]} feeds; `linewatch check` "
+            "reads finished logs of other layouts")
 
 
 def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
@@ -69,14 +63,18 @@ def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
     chars = select_characteristics(config, chart, None) if (
         chart.columns or chart.count_column or chart.result_column or config.characteristics
     ) else []
-    _refuse_what_watch_cannot_chart_yet(chart, chars)
-    columns = [c.column for c in chars] if chars else None
+    _refuse_what_watch_cannot_chart(chars, feeds)
+    from linewatch.pipeline.stepped_rows import columns_read
+
+    reads = [columns_read(c) for c in chars]
+    columns = list(dict.fromkeys(n for numeric, _ in reads for n in numeric)) if chars else None
+    texts = list(dict.fromkeys(t for _, text in reads for t in text))
     baseline = chart.baseline or config.monitor.baseline
     asked = [c.column for c in chars] if chart.columns else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
                      baseline=baseline,
                      overrides=functools.partial(apply_overrides, overrides=chart),
-                     asked=asked)
+                     asked=asked, text_columns=texts)
 
 
 def run(options: WatchOptions, title: str = "") -> int:
@@ -138,6 +136,17 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
             rec = {"type": "summary", "characteristic": name, "points": len(values),
                    "read": monitor.counts.get(name, 0), "rejected": monitor.rejected}
             rec.update({k: v for k, v in s.items() if k != "points"})
+            if c.is_attribute:  # a mean of 0/1 results is no figure to show: p̄ or ū is
+                from linewatch.present.attribute_figures import (
+                    attribute_capability,
+                    capability_record,
+                )
+
+                cap = attribute_capability(store, c)
+                for key in ("mean", "stdev", "cp", "cpk", "pp", "ppk"):
+                    rec.pop(key, None)
+                if cap is not None:
+                    rec["attribute"] = capability_record(cap)
             out.append(rec)
     finally:
         store.close()
