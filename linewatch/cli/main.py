@@ -262,7 +262,49 @@ def build_parser() -> argparse.ArgumentParser:
                    help="random seed of the simulated line (default 1)")
     p.add_argument("--speed", type=float, metavar="FACTOR",
                    help="run the simulated line this many times faster than real time (default 1)")
+    _add_serving(sub)
     return parser
+
+
+def _add_serving(sub: Any) -> None:
+    """`serve` and `browser-user`: the screens in a browser, and who may sign in there."""
+    p = sub.add_parser(
+        "serve", help="serve the screens to browsers (read-only unless --allow-actions)",
+        description="Serve the line's screen (or the plant board) to web browsers, one screen "
+        "per browser. Localhost only by default; put it behind the plant's HTTPS reverse "
+        "proxy to reach it from elsewhere (see the README).")
+    which = p.add_mutually_exclusive_group(required=True)
+    which.add_argument("-c", "--config", metavar="CONFIG", help="the line's config")
+    which.add_argument("--plant", metavar="URL", nargs="?", const="",
+                       help="the plant board over this central database (without URL: "
+                            "LINEWATCH_PLANT_URL, which keeps the password out of `ps`)")
+    p.add_argument("--state-dir", metavar="DIR", help="folder of the line's store")
+    p.add_argument("--bind", metavar="HOST:PORT", help="address to listen on (default "
+                   "127.0.0.1:8765)")
+    p.add_argument("--users", metavar="FILE",
+                   help="sign-in required: the user file made by `linewatch browser-user add`")
+    p.add_argument("--allow-actions", action="store_true",
+                   help="let signed-in users acknowledge, shelve and ask for new baselines "
+                        "(needs --users; each action is audited with the user and address)")
+    p.add_argument("--public-url", metavar="URL",
+                   help="the address browsers use, when behind a reverse proxy "
+                        "(https://... makes the session cookie secure-only)")
+    p.add_argument("--trust-forwarded", action="store_true",
+                   help="take the browser's address from the proxy's X-Forwarded-For (only "
+                        "behind a proxy that sets it)")
+
+    bu = sub.add_parser("browser-user", help="who may sign in to `linewatch serve`")
+    bsub = bu.add_subparsers(dest="browser_user_command", metavar="ACTION", required=True)
+    for action, words in (("add", "add a user or give one a new password"),
+                          ("remove", "take a user off the list")):
+        b = bsub.add_parser(action, help=words)
+        b.add_argument("name", metavar="NAME")
+        b.add_argument("--users", required=True, metavar="FILE", help="the user file")
+        if action == "add":
+            b.add_argument("--password-stdin", action="store_true",
+                           help="read the password from the first line of stdin (scripts)")
+    b = bsub.add_parser("list", help="the names on the list")
+    b.add_argument("--users", required=True, metavar="FILE", help="the user file")
 
 
 def _add_plant(sub: Any) -> None:
@@ -294,15 +336,21 @@ COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
     ("plant", "init"): ("linewatch.cli.commands.plant_init", "PlantInitOptions"),
     ("simulate", None): ("linewatch.cli.commands.simulate", "SimulateOptions"),
     ("demo", None): ("linewatch.cli.commands.demo", "DemoOptions"),
+    ("serve", None): ("linewatch.cli.commands.serve", "ServeOptions"),
+    ("browser-user", "add"): ("linewatch.cli.commands.browser_user", "BrowserUserAddOptions"),
+    ("browser-user", "remove"): ("linewatch.cli.commands.browser_user",
+                                 "BrowserUserRemoveOptions"),
+    ("browser-user", "list"): ("linewatch.cli.commands.browser_user", "BrowserUserListOptions"),
 }
 # which command, not its options
-SELECTORS = ("command", "alarms_command", "audit_command", "plant_command")
+SELECTORS = ("command", "alarms_command", "audit_command", "plant_command",
+             "browser_user_command")
 
 
 def command_of(args: argparse.Namespace) -> tuple[str | None, str | None]:
     """The (command, action) the parsed arguments chose."""
     command = args.command
-    action = getattr(args, f"{command}_command", None) if command else None
+    action = getattr(args, f"{command.replace('-', '_')}_command", None) if command else None
     return command, action
 
 

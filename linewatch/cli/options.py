@@ -191,3 +191,53 @@ class DemoOptions:
 
     def __post_init__(self) -> None:
         _check_pace(self.seed, self.speed)
+
+
+DEFAULT_BIND = "127.0.0.1:8765"
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ServeOptions:
+    """`linewatch serve (-c CONFIG | --plant URL)`"""
+
+    config: str | None = None
+    plant: str | None = None
+    state_dir: str | None = None
+    bind: str = DEFAULT_BIND
+    allow_actions: bool = False
+    users: str | None = None
+    public_url: str | None = None
+    trust_forwarded: bool = False
+
+    def __post_init__(self) -> None:
+        if self.allow_actions and not self.users:
+            raise LinewatchError("--allow-actions needs --users FILE: whoever acts from a "
+                                 "browser must sign in, so the audit trail can name them")
+        if self.public_url is not None and not self.public_url.startswith(
+                ("http://", "https://")):
+            raise LinewatchError(f"--public-url must start with http:// or https://, "
+                                 f"got {self.public_url!r}")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserAddOptions:
+    """`linewatch browser-user add NAME --users FILE`"""
+
+    name: str
+    users: str
+    password_stdin: bool = False
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserRemoveOptions:
+    """`linewatch browser-user remove NAME --users FILE`"""
+
+    name: str
+    users: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserListOptions:
+    """`linewatch browser-user list --users FILE`"""
+
+    users: str

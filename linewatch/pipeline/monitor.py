@@ -188,6 +188,8 @@ class Monitor:
         self.loop.close()
         self.store.close()
 
-    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
-        """Start a new phase of limits (any instance may ask; the collector carries it out)."""
-        self.store.requests.ask(characteristic, start_index, reason)
+    def new_baseline(self, characteristic: str, start_index: int, reason: str,
+                     actor: str | None = None) -> None:
+        """Start a new phase of limits (any instance may ask; the collector carries it out);
+        `actor` asks (default: this process's user)."""
+        self.store.requests.ask(characteristic, start_index, reason, actor=actor)

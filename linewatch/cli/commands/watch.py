@@ -24,6 +24,8 @@ from linewatch.domain.errors import LinewatchError
 if TYPE_CHECKING:
     from linewatch.pipeline.monitor import Monitor
     from linewatch.pipeline.plan import WatchPlan
+    from linewatch.present.face import MonitorFace
+    from linewatch.present.view import LineActions
 
 
 def _refuse_what_watch_cannot_chart(chars: list[CharacteristicConfig],
@@ -170,15 +172,32 @@ class HookProblems:
             self.kept.append(record)
 
 
+def browser_face(monitor: Monitor) -> tuple[MonitorFace, LineActions, str]:
+    """The screen's source, actions and title: in a browser served by `linewatch serve`, the
+    signed-in user acts (audited with the browser's address) or every action is refused."""
+    from linewatch.present.browser_session import READ_ONLY_TITLE, ReadOnlyActions, browser_session
+    from linewatch.present.face import MonitorFace
+    from linewatch.store.actor import Actor
+
+    session = browser_session()
+    if session is None:
+        face = MonitorFace(monitor)
+        return face, face, monitor.title
+    if session.acting and session.user:
+        face = MonitorFace(monitor, actor=Actor(session.user, session.address))
+        return face, face, f"{monitor.title} · {session.user}"
+    face = MonitorFace(monitor)
+    return face, ReadOnlyActions(), f"{monitor.title} · {READ_ONLY_TITLE}"
+
+
 def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
     from linewatch.pipeline.monitor import Monitor
-    from linewatch.present.face import MonitorFace
     from linewatch.runtime.exiting import exit_later, on_forced_exit
 
     hook_problems = HookProblems()
     monitor = Monitor(plan, state_dir, emit=hook_problems, poll_seconds=poll)
-    face = MonitorFace(monitor)
+    face, actions, title = browser_face(monitor)
     stop = threading.Event()
     worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
     worker.start()
@@ -197,7 +216,7 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
             registered above still run after a grace period and the process ends."""
             exit_later(code, HANGUP_GRACE)
 
-        return run_app(face, face, bell=bell, title=monitor.title, on_hang_up=arm_last_resort)
+        return run_app(face, actions, bell=bell, title=title, on_hang_up=arm_last_resort)
     finally:
         forget()
         stop_collecting()
