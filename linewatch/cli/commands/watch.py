@@ -183,11 +183,14 @@ def browser_face(monitor: Monitor) -> tuple[MonitorFace, LineActions, str]:
     if session is None:
         face = MonitorFace(monitor)
         return face, face, monitor.title
+    # the screen's top line says whose view it is (the plan's title names the line there)
+    name = monitor.title.removeprefix("linewatch · ").removeprefix("linewatch")
     if session.acting and session.user:
+        monitor.plan.title = " · ".join(p for p in (name, session.user) if p)
         face = MonitorFace(monitor, actor=Actor(session.user, session.address))
-        return face, face, f"{monitor.title} · {session.user}"
-    face = MonitorFace(monitor)
-    return face, ReadOnlyActions(), f"{monitor.title} · {READ_ONLY_TITLE}"
+        return face, face, monitor.title
+    monitor.plan.title = " · ".join(p for p in (name, READ_ONLY_TITLE) if p)
+    return MonitorFace(monitor), ReadOnlyActions(), monitor.title
 
 
 def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
