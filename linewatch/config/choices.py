@@ -30,6 +30,10 @@ ReportFormat = Literal["markdown", "html", "csv"]
 ExportFormat = Literal["csv", "jsonl"]
 """The audit trail written out: CSV or JSON lines."""
 
+AttributeChart = Literal["p", "np", "c", "u", "laney-p", "laney-u"]
+"""The chart of attribute data: proportion, number nonconforming, defects, defects per unit,
+and Laney's p′ and u′ (the engine's chart names, `domain.records.ATTRIBUTE_CHARTS`)."""
+
 LAYOUTS: tuple[Layout, ...] = get_args(Layout)
 DISPERSIONS: tuple[Dispersion, ...] = get_args(Dispersion)
 DELIMITERS: tuple[Delimiter, ...] = get_args(Delimiter)
@@ -37,3 +41,4 @@ DECIMAL_MARKS: tuple[DecimalMark, ...] = get_args(DecimalMark)
 RECORD_FORMATS: tuple[RecordFormat, ...] = get_args(RecordFormat)
 REPORT_FORMATS: tuple[ReportFormat, ...] = get_args(ReportFormat)
 EXPORT_FORMATS: tuple[ExportFormat, ...] = get_args(ExportFormat)
+ATTRIBUTE_CHART_NAMES: tuple[AttributeChart, ...] = get_args(AttributeChart)

@@ -10,6 +10,7 @@ plus feed/alarm records) through `emit`, and are told of changes through `subscr
 
 from __future__ import annotations
 
+import contextlib
 import os
 import threading
 import time
@@ -25,6 +26,7 @@ from linewatch.pipeline.roles import RoleLoop
 if TYPE_CHECKING:
     from linewatch.config.model import CharacteristicConfig
     from linewatch.pipeline.plan import WatchPlan
+    from linewatch.pipeline.plant_link import PlantLink
     from linewatch.store.anchors import Anchorer
 
 
@@ -48,6 +50,7 @@ class Monitor:
         self.announcer = Announcer(self.store, self.alarms, plan.config.alarms, emit)
         self.instance = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
         self._listeners: list[Callable[[int], None]] = []
+        self._disarm_when_collecting = False
         self._version = 0
         self.loop = RoleLoop(
             self.store, self.alarms, plan, self.characteristics, self.announcer,
@@ -57,6 +60,35 @@ class Monitor:
             clock=clock, changed=self._changed,
         )
         self.alarms.load_config(plan.config)
+        self.plant_link = self._plant_link()
+
+    def _plant_link(self) -> PlantLink | None:
+        """The forwarding thread when the config (or LINEWATCH_PLANT_URL) names a central
+        database: the outbox is armed here, before anything is collected, so every commit
+        from now on is entered. Without a plant link an armed outbox is disarmed when this
+        instance becomes the collector (its rows would only pile up; joining again sends the
+        whole store)."""
+        from linewatch.domain.errors import ConfigError
+        from linewatch.pipeline.plant_link import PlantLink
+        from linewatch.plant.url import plant_url
+        from linewatch.store.outbox import Outbox
+
+        url = plant_url(self.config.plant.url)
+        outbox = Outbox(self.store)
+        if url is None:
+            # disarmed only once this instance collects: a viewer opened without the config
+            # must not stop the collector's forwarding
+            self._disarm_when_collecting = outbox.armed()
+            return None
+        if not self.config.plant.line:
+            raise ConfigError(self.config.source or "(config)", "plant.line",
+                              "a line forwarding to the plant needs its name there "
+                              "(e.g. line = \"line-3\")")
+        outbox.arm()
+        return PlantLink(self.state_dir, self.config, url, self.config.plant.line,
+                         audit_key=self.store.audit.key,
+                         is_collector=lambda: self.loop.role == "collector",
+                         changed=self._changed, emit=lambda r: self.announcer.emit(r))
 
     def _configure_audit(self) -> Anchorer | None:
         """The audit key and anchor file of the config (the store is closed on a bad one)."""
@@ -137,6 +169,14 @@ class Monitor:
         self._listeners.append(callback)
 
     def _changed(self) -> None:
+        if self._disarm_when_collecting and self.loop.role == "collector":
+            import sqlite3
+
+            from linewatch.store.outbox import Outbox
+
+            with contextlib.suppress(sqlite3.Error):  # tried again at the next change
+                Outbox(self.store).disarm()
+                self._disarm_when_collecting = False
         self._version += 1
         for cb in list(self._listeners):
             cb(self._version)
@@ -144,16 +184,24 @@ class Monitor:
     # -- running --
     def run(self, stop: threading.Event) -> None:
         """Collect (or view) until `stop` is set, then close (see `roles.RoleLoop.run`)."""
+        if self.plant_link is not None:
+            self.plant_link.start()
         try:
             self.loop.run(stop)
         finally:
+            if self.plant_link is not None:
+                self.plant_link.stop()
             self.store.close()
 
     def close(self) -> None:
         """Wait for running hooks, give the lease up, close files and the store."""
+        if self.plant_link is not None:
+            self.plant_link.stop()
         self.loop.close()
         self.store.close()
 
-    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
-        """Start a new phase of limits (any instance may ask; the collector carries it out)."""
-        self.store.requests.ask(characteristic, start_index, reason)
+    def new_baseline(self, characteristic: str, start_index: int, reason: str,
+                     actor: str | None = None) -> None:
+        """Start a new phase of limits (any instance may ask; the collector carries it out);
+        `actor` asks (default: this process's user)."""
+        self.store.requests.ask(characteristic, start_index, reason, actor=actor)
