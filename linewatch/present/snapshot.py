@@ -223,6 +223,11 @@ def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bo
     return STATE_OK
 
 
+# what is said of a pattern as a whole (a bounded expansion, names asked for that no file
+# holds): shown under the pattern even when it matches files
+PATTERN_NOTES = ("bounded", "warning", "found")
+
+
 def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     """Health of every followed file, from the ingest state, points and feed events."""
     out = []
@@ -235,7 +240,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         "ORDER BY at, id", (day,))]
     names = list(files) + [e.file for e in events if e.file not in files
                            and e.kind not in ("stuck", "unstuck")
-                           and (e.kind == "bounded" or not _pattern_found(e.file, files))]
+                           and (e.kind in PATTERN_NOTES or not _pattern_found(e.file, files))]
     for path in dict.fromkeys(names):
         mine = [e for e in events if e.file == path]
         fv = FeedView(file=path)
@@ -257,7 +262,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         # a no-header notice is past once the file got a header (a `header` event after it)
         headed = max((k for k, e in enumerate(mine) if e.kind == "header"), default=-1)
         fv.notes = [e.detail for k, e in enumerate(mine)
-                    if e.kind in ("warning", "no-header", "skipped", "bounded")
+                    if e.kind in ("warning", "found", "no-header", "skipped", "bounded")
                     and not (e.kind == "no-header" and k < headed)][-3:]
         fv.unread = store.ingest.unread_lines(path)
         fv.rejected += fv.unread
