@@ -300,7 +300,18 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", 1, 100_000),
         decimals=r.optional_integer("decimals", 0, 10),
+        phase_by=r.string("phase_by"),
+        practical_share=_practical_share(r),
     )
+
+
+def _practical_share(r: _Reader) -> float:
+    """Percent of the tolerance: more than 0, at most 100."""
+    value = r.number("practical_share")
+    if value is None or not 0 < value <= 100:
+        raise r.fail("practical_share", "must be a percentage of the tolerance, more than 0 "
+                     "and at most 100")
+    return value
 
 
 def parse_config(text: str, source: str = "<config>") -> Config:

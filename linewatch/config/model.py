@@ -12,7 +12,7 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
-                       clear_after, decimals
+                       clear_after, decimals, phase_by, practical_share
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -58,6 +58,8 @@ class CharacteristicConfig:
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
     decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+    phase_by: str | None = None  # check: a column whose every change of value starts a phase
+    practical_share: float = 10.0  # percent of the tolerance a change must take to matter
 
     @property
     def effective_dispersion(self) -> Dispersion:

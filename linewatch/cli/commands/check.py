@@ -8,7 +8,7 @@ import json
 import math
 import sys
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -26,6 +26,11 @@ from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
 from linewatch.engine.batch import HistoryResult, analyse_history
 from linewatch.engine.setup import ChartSetup
+
+if TYPE_CHECKING:
+    from linewatch.cli.commands.check_investigate import SideData
+    from linewatch.engine.phases import PhasedHistory
+    from linewatch.engine.setting_regression import SettingRegression
 
 
 @dataclass(slots=True)
@@ -47,17 +52,33 @@ class Analysis:
     result: HistoryResult
     summary: dict[str, Any]
     setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
+    phased: PhasedHistory | None = None  # the phases, when asked for (`result` is then theirs)
+    regression: SettingRegression | None = None  # on the --versus setting
 
 
 def _read_all(
-    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
+    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None,
+    side: SideData | None = None, side_names: list[str] | None = None,
 ) -> tuple[dict[str, Column], list[Rejected]]:
-    """Read every log into per-characteristic columns plus the rejected rows."""
+    """Read every log into per-characteristic columns plus the rejected rows (and into `side`
+    the text of `side_names` per line)."""
     from linewatch.feeds.whole_file import read_log
 
     # check reports lines, never time stamps: they are left unread
-    batches = [read_log(p, feed, columns, times=False)
-               for p, feed in zip(paths, feeds, strict=True)]
+    if side is not None and side_names:
+        from linewatch.feeds.side_columns import read_side_columns
+        from linewatch.feeds.whole_file import parse_log_bytes, read_bytes
+
+        batches = []
+        for p, feed in zip(paths, feeds, strict=True):
+            name, data = read_bytes(p)
+            batches.append(parse_log_bytes(data, name, feed, columns, times=False))
+            texts, comma = read_side_columns(data, name, feed, side_names)
+            side.by_file.append(texts)
+            side.decimal_comma.append(comma)
+    else:
+        batches = [read_log(p, feed, columns, times=False)
+                   for p, feed in zip(paths, feeds, strict=True)]
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)
@@ -124,8 +145,16 @@ def analyse(
         wanted = [cc.column if (cc := config.characteristic(c)) else c for c in chart.columns]
     elif config.characteristics:
         wanted = [c.column for c in config.characteristics]
-    cols, rejected = _read_all(logs, feeds, wanted)
-    chars = select_characteristics(config, chart, list(cols))
+    from linewatch.cli.commands.check_investigate import (
+        SideData,
+        investigate,
+        side_names,
+        wants_investigation,
+    )
+
+    side, beside = SideData(), side_names(options, config)
+    cols, rejected = _read_all(logs, feeds, wanted, side, beside)
+    chars = select_characteristics(config, chart, [c for c in cols if c not in beside])
     if not chars:
         raise LinewatchError("no numeric column to chart (name one with --column)")
     out: list[Analysis] = []
@@ -133,13 +162,26 @@ def analyse(
     for c in chars:
         col = cols[c.column]
         setup = chart_setup(c, None)
+        problem = ""
         try:
-            result = analyse_history(col.values, setup)
+            result: HistoryResult | None = analyse_history(col.values, setup)
+        except (NotEnoughData, BadLimits) as exc:
+            if not wants_investigation(options, c):  # a phase may still have enough
+                skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+                continue
+            result, problem = None, str(exc)
+        try:
+            a = Analysis(c, col, result, {}, setup)  # type: ignore[arg-type]
+            if wants_investigation(options, c):
+                investigate(a, options, side)
         except (NotEnoughData, BadLimits) as exc:
             skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
             continue
-        out.append(Analysis(c, col, result, _summary(col.values, c, setup, result,
-                                                     len(rejected)), setup))
+        if a.result is None:
+            skipped.append(NotCharted(c.name, int(col.values.shape[0]), problem))
+            continue
+        a.summary = _summary(col.values, c, setup, a.result, len(rejected))
+        out.append(a)
     if not out and skipped:  # nothing could be charted: the one-line error, as before
         raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
             f"{n.characteristic}: {n.problem}" for n in skipped))
@@ -169,11 +211,37 @@ def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
     return out
 
 
+def _emit(text: str, output: str | None) -> None:
+    """To stdout, or to the file -o names (written whole, then moved into place)."""
+    if output is None or output == "-":
+        sys.stdout.write(text)
+        return
+    import os
+    import tempfile
+
+    folder = os.path.dirname(os.path.abspath(output))
+    try:
+        fd, tmp = tempfile.mkstemp(dir=folder, prefix=".linewatch-", suffix=".tmp")
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # as a plain open() would make it, not mkstemp's 0600
+        os.replace(tmp, output)
+    except OSError as exc:
+        raise LinewatchError(f"cannot write {output}: {exc.strerror or exc}") from None
+
+
 def run(options: CheckOptions) -> int:
     analyses, rejected, skipped = analyse(options)
     several_files = len(options.logs) > 1
-    write = sys.stdout.write
-    if options.format == "jsonl":
+    chunks: list[str] = []
+    write = chunks.append
+    if options.format in ("html", "markdown"):
+        from linewatch.cli.commands.check_page import render_page
+
+        write(render_page(analyses, rejected, skipped, options))
+    elif options.format == "jsonl":
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
         lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
                   for n in skipped]
@@ -182,11 +250,16 @@ def run(options: CheckOptions) -> int:
                 lines.append(dumps(limits_record(a.config.name, lim)))
             lines.extend(_signal_lines(a, several_files))
             lines.append(dumps(a.summary))
+            if a.phased is not None or a.regression is not None:
+                from linewatch.cli.commands.check_records import investigation_records
+
+                lines.extend(dumps(r) for r in investigation_records(a))
         write("\n".join(lines) + "\n")
     else:
         from linewatch.cli.commands.check_text import render_text
 
         write(render_text(analyses, rejected, several_files, skipped))
+    _emit("".join(chunks), options.output)
     from linewatch.domain import exit_codes
 
     if skipped:  # an input problem, as when no characteristic can be charted at all

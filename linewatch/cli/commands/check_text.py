@@ -49,6 +49,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
         lim = res.limits
         source = "known centre and sigma" if lim.source == "given" else (
             f"Phase I, baseline of {c.baseline or len(res.location)} plotted points")
+        if a.phased is not None:
+            source = f"of phase 1 of {len(a.phased.phases)}; each phase's below"
         w(f"   limits ({source}); sigma within = {_f(lim.sigma_within)}")
         for chart_lim in (lim.location, lim.dispersion):
             w(f"   {chart_lim.chart:<13} CL {_f(chart_lim.center):>10}  "
@@ -93,6 +95,10 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
                                                                          "seeded simulation"))
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
               f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+        if a.phased is not None or a.regression is not None:
+            from linewatch.cli.commands.check_text_phases import investigation_lines
+
+            out.extend(investigation_lines(a))
         w("")
     for n in skipped or []:
         w(f"== {n.characteristic}: {n.values} values, not charted: {n.problem}")
