@@ -7,7 +7,14 @@ from typing import TYPE_CHECKING
 
 from linewatch.domain.alarm_states import AlarmKind
 from linewatch.domain.errors import RuleListError
-from linewatch.engine.rulebook import RULES, resolve_rules
+from linewatch.engine.rulebook import (
+    CUSUM,
+    DETECTORS,
+    EWMA,
+    RULES,
+    resolve_detectors,
+    resolve_rules,
+)
 
 if TYPE_CHECKING:
     from linewatch.config.model import Config
@@ -33,6 +40,8 @@ def describe(alarm: AlarmRecord, config: Config | None = None) -> str:
         return _SPEC_WORDS.get(alarm.rule, "a measurement outside the specification")
     if alarm.kind == AlarmKind.FEED_HEALTH:
         return _FEED_WORDS.get(alarm.rule, alarm.rule)
+    if alarm.rule in DETECTORS:
+        return _detector_words(alarm, config)
     spec = RULES.get(alarm.rule)
     if spec is None:
         return alarm.rule
@@ -42,6 +51,16 @@ def describe(alarm: AlarmRecord, config: Config | None = None) -> str:
             with contextlib.suppress(RuleListError):
                 spec = resolve_rules([alarm.rule], c.run_lengths)[0]
     return f"{spec.describe()} ({alarm.chart} chart)"
+
+
+def _detector_words(alarm: AlarmRecord, config: Config | None) -> str:
+    """An EWMA or CUSUM alarm, with the characteristic's parameters when the config is known."""
+    spec = DETECTORS[alarm.rule]
+    c = config.characteristic(alarm.characteristic) if config is not None else None
+    if c is not None:
+        with contextlib.suppress(RuleListError):
+            spec = resolve_detectors([alarm.rule], {EWMA: c.ewma, CUSUM: c.cusum})[0]
+    return f"{spec.describe()} (on the {alarm.chart} chart's points)"
 
 
 def rule_summary(alarm: AlarmRecord) -> str:

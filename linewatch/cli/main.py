@@ -12,6 +12,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from linewatch.config.choices import (
+    ATTRIBUTE_CHART_NAMES,
     CHECK_FORMATS,
     DECIMAL_MARKS,
     DISPERSIONS,
@@ -37,8 +38,9 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
         "--rules",
         metavar="LIST",
         help="rule ids and set names, comma-separated: nelson, western-electric, n1..n8, "
-        "we1..we4 (default: western-electric)",
+        "we1..we4, and the detectors ewma, cusum (default: western-electric)",
     )
+    _add_detector_options(p)
     p.add_argument("--center", type=float, metavar="C", help="known process centre (with --sigma)")
     p.add_argument(
         "--sigma", type=float, metavar="S", help="known standard deviation of individual values"
@@ -49,9 +51,33 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
         metavar="N",
         help="estimate limits from the first N plotted points",
     )
-    p.add_argument(
-        "--subgroup-size", type=int, metavar="N", help="consecutive values per subgroup (1-25)"
+    ways = p.add_mutually_exclusive_group()
+    ways.add_argument(
+        "--subgroup-size", type=int, metavar="N",
+        help="consecutive data rows per subgroup (1-25; a rejected row leaves its subgroup "
+        "one value short)"
     )
+    ways.add_argument("--subgroup-by", metavar="COLUMN",
+                      help="consecutive rows with one value of COLUMN (a sample id) form a "
+                      "subgroup")
+    ways.add_argument("--subgroup-window", metavar="DURATION",
+                      help="rows whose time stamp falls in one clock window (e.g. 15m, 1h) "
+                      "form a subgroup")
+    p.add_argument("--count", dest="count_column", metavar="COLUMN",
+                   help="attribute data: nonconforming units or defects per row")
+    p.add_argument("--size", dest="size_column", metavar="COLUMN",
+                   help="units inspected per row (with --count)")
+    p.add_argument("--result", dest="result_column", metavar="COLUMN",
+                   help="attribute data: one part's pass/fail result per row")
+    p.add_argument("--fail", dest="fail_values", metavar="VALUE[,VALUE...]",
+                   help="results that mean a failed part (default FAIL,NG,NOK,0,false; "
+                   "any case)")
+    p.add_argument("--pass", dest="pass_values", metavar="VALUE[,VALUE...]",
+                   help="results that mean a good part (default PASS,OK,GO,1,true; any case); "
+                   "any other result is a rejected row")
+    p.add_argument("--chart", dest="attribute_chart", choices=ATTRIBUTE_CHART_NAMES,
+                   help="attribute chart (default: p for results and for counts with "
+                   "--size, c for counts without)")
     p.add_argument(
         "--dispersion",
         choices=DISPERSIONS,
@@ -64,6 +90,22 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
         choices=DECIMAL_MARKS,
         help="decimal mark (default: ',' when the delimiter is ';', else '.')",
     )
+
+
+def _add_detector_options(p: argparse.ArgumentParser) -> None:
+    """The EWMA and CUSUM parameters (used when --rules or the config names the detector)."""
+    g = p.add_argument_group("detectors (with --rules ...,ewma,cusum)")
+    g.add_argument("--ewma-lambda", type=float, metavar="LAMBDA",
+                   help="EWMA smoothing weight, 0.01-1 (default 0.2)")
+    g.add_argument("--ewma-width", type=float, metavar="L",
+                   help="EWMA limit width in σ of its own spread (default 2.962)")
+    g.add_argument("--cusum-k", type=float, metavar="K",
+                   help="CUSUM reference value in σ of the plotted points (default 0.5)")
+    g.add_argument("--cusum-h", type=float, metavar="H",
+                   help="CUSUM decision interval in σ of the plotted points (default 5)")
+    g.add_argument("--cusum-headstart", type=float, metavar="S",
+                   help="CUSUM head start at each phase's start, below H (default 0; H/2 "
+                   "gives a fast initial response)")
 
 
 def _add_investigation_options(p: argparse.ArgumentParser) -> None:
@@ -116,13 +158,19 @@ def build_parser() -> argparse.ArgumentParser:
         description="Read whole logs, estimate limits (Phase I) or use known ones, apply the run "
         "rules and summarise. Exit 0: no signal, 1: signals, 2: usage or input error.",
     )
-    p.add_argument("logs", nargs="+", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
+    p.add_argument("logs", nargs="*", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
     _add_chart_options(p)
     p.add_argument("--format", choices=CHECK_FORMATS,
                    help="text for people (default), one JSON record a line, or the analysis "
                         "page as one HTML or Markdown file")
     p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
     _add_investigation_options(p)
+    p.add_argument("--points", action="store_true",
+                   help="with --format jsonl: also one record per plotted point, with its "
+                   "subgroup size and limits")
+    p.add_argument("--compare-rules", metavar="SET[;SET...]",
+                   help="print the detection power of several rule sets side by side and read "
+                   "no log (quote it: 'western-electric;we1,ewma;we1,cusum')")
 
     p = sub.add_parser(
         "watch",
@@ -201,6 +249,10 @@ def build_parser() -> argparse.ArgumentParser:
     u.add_argument("--key", metavar="FILE",
                    help="the audit key file, to check the entries signed with it (default: "
                         "the config's monitor.audit_key_file)")
+    u.add_argument("--plant", metavar="URL",
+                   help="verify the chain a line forwarded to this central database (with "
+                        "--line; the URL's password is never printed)")
+    u.add_argument("--line", metavar="NAME", help="the line's name in the central database")
     _add_state_dir(u)
     u = usub.add_parser("export", help="write the audit trail as CSV or JSON lines")
     u.add_argument("--since", metavar="WHEN", help="a duration (8h) or an ISO date/time")
@@ -217,6 +269,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="Markdown (default), one HTML file with charts, or CSV")
     p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
     _add_state_dir(p)
+
+    _add_plant(sub)
 
     p = sub.add_parser("simulate", help="write invented measurement logs with special causes")
     p.add_argument("--out", required=True, metavar="DIR",
@@ -235,7 +289,62 @@ def build_parser() -> argparse.ArgumentParser:
                    help="random seed of the simulated line (default 1)")
     p.add_argument("--speed", type=float, metavar="FACTOR",
                    help="run the simulated line this many times faster than real time (default 1)")
+    _add_serving(sub)
     return parser
+
+
+def _add_serving(sub: Any) -> None:
+    """`serve` and `browser-user`: the screens in a browser, and who may sign in there."""
+    p = sub.add_parser(
+        "serve", help="serve the screens to browsers (read-only unless --allow-actions)",
+        description="Serve the line's screen (or the plant board) to web browsers, one screen "
+        "per browser. Localhost only by default; put it behind the plant's HTTPS reverse "
+        "proxy to reach it from elsewhere (see the README).")
+    which = p.add_mutually_exclusive_group(required=True)
+    which.add_argument("-c", "--config", metavar="CONFIG", help="the line's config")
+    which.add_argument("--plant", metavar="URL", nargs="?", const="",
+                       help="the plant board over this central database (without URL: "
+                            "LINEWATCH_PLANT_URL, which keeps the password out of `ps`)")
+    p.add_argument("--state-dir", metavar="DIR", help="folder of the line's store")
+    p.add_argument("--bind", metavar="HOST:PORT", help="address to listen on (default "
+                   "127.0.0.1:8765)")
+    p.add_argument("--users", metavar="FILE",
+                   help="sign-in required: the user file made by `linewatch browser-user add`")
+    p.add_argument("--allow-actions", action="store_true",
+                   help="let signed-in users acknowledge, shelve and ask for new baselines "
+                        "(needs --users; each action is audited with the user and address)")
+    p.add_argument("--public-url", metavar="URL",
+                   help="the address browsers use, when behind a reverse proxy "
+                        "(https://... makes the session cookie secure-only)")
+    p.add_argument("--trust-forwarded", action="store_true",
+                   help="take the browser's address from the proxy's X-Forwarded-For (only "
+                        "behind a proxy that sets it)")
+
+    bu = sub.add_parser("browser-user", help="who may sign in to `linewatch serve`")
+    bsub = bu.add_subparsers(dest="browser_user_command", metavar="ACTION", required=True)
+    for action, words in (("add", "add a user or give one a new password"),
+                          ("remove", "take a user off the list")):
+        b = bsub.add_parser(action, help=words)
+        b.add_argument("name", metavar="NAME")
+        b.add_argument("--users", required=True, metavar="FILE", help="the user file")
+        if action == "add":
+            b.add_argument("--password-stdin", action="store_true",
+                           help="read the password from the first line of stdin (scripts)")
+    b = bsub.add_parser("list", help="the names on the list")
+    b.add_argument("--users", required=True, metavar="FILE", help="the user file")
+
+
+def _add_plant(sub: Any) -> None:
+    """`linewatch plant ...`: the central database every line forwards to."""
+    plant = sub.add_parser("plant", help="the plant's central database (PostgreSQL)")
+    psub = plant.add_subparsers(dest="plant_command", metavar="ACTION", required=True)
+    p = psub.add_parser(
+        "init", help="create or bring forward the central database's tables (idempotent)",
+        description="Create the linewatch schema in a PostgreSQL database, or apply the "
+        "migrations it lacks. Safe to run again and from several places at once.")
+    p.add_argument("url", nargs="?", metavar="URL",
+                   help="postgresql://USER@HOST/DB (default: LINEWATCH_PLANT_URL; a password "
+                        "is better kept in ~/.pgpass or PGPASSWORD)")
 
 
 # (command, action) -> (the module whose run() does it, the name of its options record)
@@ -251,16 +360,24 @@ COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
     ("audit", "verify"): ("linewatch.cli.commands.audit", "VerifyOptions"),
     ("audit", "export"): ("linewatch.cli.commands.audit", "ExportOptions"),
     ("report", None): ("linewatch.cli.commands.report", "ReportOptions"),
+    ("plant", "init"): ("linewatch.cli.commands.plant_init", "PlantInitOptions"),
     ("simulate", None): ("linewatch.cli.commands.simulate", "SimulateOptions"),
     ("demo", None): ("linewatch.cli.commands.demo", "DemoOptions"),
+    ("serve", None): ("linewatch.cli.commands.serve", "ServeOptions"),
+    ("browser-user", "add"): ("linewatch.cli.commands.browser_user", "BrowserUserAddOptions"),
+    ("browser-user", "remove"): ("linewatch.cli.commands.browser_user",
+                                 "BrowserUserRemoveOptions"),
+    ("browser-user", "list"): ("linewatch.cli.commands.browser_user", "BrowserUserListOptions"),
 }
-SELECTORS = ("command", "alarms_command", "audit_command")  # which command, not its options
+# which command, not its options
+SELECTORS = ("command", "alarms_command", "audit_command", "plant_command",
+             "browser_user_command")
 
 
 def command_of(args: argparse.Namespace) -> tuple[str | None, str | None]:
     """The (command, action) the parsed arguments chose."""
     command = args.command
-    action = getattr(args, f"{command}_command", None) if command else None
+    action = getattr(args, f"{command.replace('-', '_')}_command", None) if command else None
     return command, action
 
 

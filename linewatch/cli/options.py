@@ -43,9 +43,9 @@ class DefaultOptions:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class CheckOptions:
-    """`linewatch check LOG...`"""
+    """`linewatch check LOG...`, or `linewatch check --compare-rules SET[;SET...]`"""
 
-    logs: tuple[str, ...]
+    logs: tuple[str, ...] = ()
     config: str | None = None
     chart: ChartOverrides = field(default_factory=ChartOverrides)
     format: CheckFormat = "text"
@@ -58,8 +58,14 @@ class CheckOptions:
     target: float | None = None  # the setting that puts the mean here
     degree: int = 1
     practical_percent: float | None = None  # share of the tolerance that matters
+    points: bool = False  # jsonl: one record per plotted point
+    compare_rules: str | None = None  # rule sets whose detection power to print side by side
 
     def __post_init__(self) -> None:
+        if self.compare_rules is None and not self.logs:
+            raise LinewatchError("check needs at least one LOG (or --compare-rules SET;SET)")
+        if self.compare_rules is not None and self.logs:
+            raise LinewatchError("--compare-rules reads no log: leave the LOGs out")
         if self.phase_by is not None and self.phase_at is not None:
             raise LinewatchError("--phase-by and --phase-at go one at a time")
         self.phase_points()
@@ -169,6 +175,8 @@ class VerifyOptions(StoreOptions):
 
     anchor: tuple[str, ...] = ()
     key: str | None = None
+    plant: str | None = None  # verify a line's chain in the central database instead
+    line: str | None = None  # ... the line's name there (with --plant)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -191,6 +199,13 @@ class ReportOptions(StoreOptions):
     to: str | None = None
     format: ReportFormat = "markdown"
     output: str | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class PlantInitOptions:
+    """`linewatch plant init [URL]`"""
+
+    url: str | None = None  # default: LINEWATCH_PLANT_URL
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -218,3 +233,53 @@ class DemoOptions:
 
     def __post_init__(self) -> None:
         _check_pace(self.seed, self.speed)
+
+
+DEFAULT_BIND = "127.0.0.1:8765"
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ServeOptions:
+    """`linewatch serve (-c CONFIG | --plant URL)`"""
+
+    config: str | None = None
+    plant: str | None = None
+    state_dir: str | None = None
+    bind: str = DEFAULT_BIND
+    allow_actions: bool = False
+    users: str | None = None
+    public_url: str | None = None
+    trust_forwarded: bool = False
+
+    def __post_init__(self) -> None:
+        if self.allow_actions and not self.users:
+            raise LinewatchError("--allow-actions needs --users FILE: whoever acts from a "
+                                 "browser must sign in, so the audit trail can name them")
+        if self.public_url is not None and not self.public_url.startswith(
+                ("http://", "https://")):
+            raise LinewatchError(f"--public-url must start with http:// or https://, "
+                                 f"got {self.public_url!r}")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserAddOptions:
+    """`linewatch browser-user add NAME --users FILE`"""
+
+    name: str
+    users: str
+    password_stdin: bool = False
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserRemoveOptions:
+    """`linewatch browser-user remove NAME --users FILE`"""
+
+    name: str
+    users: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BrowserUserListOptions:
+    """`linewatch browser-user list --users FILE`"""
+
+    users: str

@@ -36,6 +36,10 @@ ReportFormat = Literal["markdown", "html", "csv"]
 ExportFormat = Literal["csv", "jsonl"]
 """The audit trail written out: CSV or JSON lines."""
 
+AttributeChart = Literal["p", "np", "c", "u", "laney-p", "laney-u"]
+"""The chart of attribute data: proportion, number nonconforming, defects, defects per unit,
+and Laney's p′ and u′ (the engine's chart names, `domain.records.ATTRIBUTE_CHARTS`)."""
+
 LAYOUTS: tuple[Layout, ...] = get_args(Layout)
 DISPERSIONS: tuple[Dispersion, ...] = get_args(Dispersion)
 DELIMITERS: tuple[Delimiter, ...] = get_args(Delimiter)
@@ -45,3 +49,4 @@ CHECK_FORMATS: tuple[CheckFormat, ...] = get_args(CheckFormat)
 PHASE_LIMITS: tuple[PhaseLimits, ...] = get_args(PhaseLimits)
 REPORT_FORMATS: tuple[ReportFormat, ...] = get_args(ReportFormat)
 EXPORT_FORMATS: tuple[ExportFormat, ...] = get_args(ExportFormat)
+ATTRIBUTE_CHART_NAMES: tuple[AttributeChart, ...] = get_args(AttributeChart)

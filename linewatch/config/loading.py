@@ -13,7 +13,14 @@ import tomllib
 from pathlib import Path
 from typing import Any, TypeVar
 
-from linewatch.config.choices import DECIMAL_MARKS, DELIMITERS, DISPERSIONS, LAYOUTS
+from linewatch.config.chart_choice import chart_problem
+from linewatch.config.choices import (
+    ATTRIBUTE_CHART_NAMES,
+    DECIMAL_MARKS,
+    DELIMITERS,
+    DISPERSIONS,
+    LAYOUTS,
+)
 from linewatch.config.fields import field_default, field_names
 from linewatch.config.model import (
     AlarmConfig,
@@ -21,13 +28,24 @@ from linewatch.config.model import (
     Config,
     FeedConfig,
     MonitorConfig,
+    PlantConfig,
 )
+from linewatch.config.overrides import parse_window
 from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
 from linewatch.domain.errors import ConfigError, RuleListError
 from linewatch.domain.records import MAX_MAGNITUDE
-from linewatch.engine.rulebook import RULES, parse_rule_list, resolve_rules
+from linewatch.engine.rulebook import (
+    CUSUM,
+    DETECTOR_OPTIONS,
+    DETECTORS,
+    EWMA,
+    RULES,
+    parse_rule_list,
+    resolve_detectors,
+    resolve_rules,
+)
 
 Word = TypeVar("Word", bound=str)
 
@@ -161,6 +179,24 @@ class _Reader:
             raise self.fail(name, "needs at least one reason")
         return reasons
 
+    def column_name(self, name: str) -> str | None:
+        """A column of the log, or None when the key is absent (an empty name is refused)."""
+        v = self.string(name)
+        if v is not None and not v.strip():
+            raise self.fail(name, "must name a column, got an empty string")
+        return v.strip() if v is not None else None
+
+    def window(self, name: str) -> float | None:
+        """A clock window: a duration with its unit, from 1 second to 1 day, or None."""
+        v = self._get(name, _FROM_MODEL)
+        if v is None:
+            return None
+        try:
+            seconds = parse_window(v)
+        except ValueError as exc:
+            raise self.fail(name, str(exc)) from None
+        return seconds
+
     def sub_table(self, name: str) -> dict[str, Any]:
         v = self.table.get(name, {})
         if not isinstance(v, dict):
@@ -191,6 +227,25 @@ def _read_monitor(path: str, table: Any) -> MonitorConfig:
         audit_anchor_every=r.integer("audit_anchor_every", 0, 10_000_000),
         audit_key_file=r.string("audit_key_file") or None,
     )
+
+
+LINE_NAME_MAX = 64
+
+
+def _read_plant(path: str, table: Any) -> PlantConfig:
+    """`[plant]`: a PostgreSQL URL (never echoed with its password) and the line's name."""
+    r = _Reader(path, "plant", table, PlantConfig)
+    r.check_known()
+    url = r.string("url") or None
+    if url is not None and not (url.startswith(("postgresql://", "postgres://"))
+                                or ("=" in url and "://" not in url)):
+        raise r.fail("url", "must be a postgresql:// URL or a key=value connection string")
+    line = r.string("line")
+    if line is not None:
+        line = line.strip()
+        if not line or len(line) > LINE_NAME_MAX or not line.isprintable():
+            raise r.fail("line", f"must be 1 to {LINE_NAME_MAX} printable characters")
+    return PlantConfig(url=url, line=line)
 
 
 def _read_alarms(path: str, table: Any) -> AlarmConfig:
@@ -257,7 +312,8 @@ def _read_characteristic(
     if lsl is not None and usl is not None and lsl >= usl:
         raise r.fail("lsl", f"must be below usl ({lsl} >= {usl})")
     center, sigma = r.number("center"), r.number("sigma")
-    if (center is None) != (sigma is None):
+    attribute = "count_column" in r.table or "result_column" in r.table
+    if (center is None) != (sigma is None) and not (attribute and sigma is None):
         raise r.fail("sigma" if sigma is None else "center", "center and sigma go together")
     if sigma is not None and sigma <= 0:
         raise r.fail("sigma", f"must be more than 0, got {sigma}")
@@ -278,10 +334,17 @@ def _read_characteristic(
         resolve_rules(sorted(set(rules) | set(lengths)), lengths)
     except RuleListError as exc:
         raise r.fail("run_lengths", str(exc)) from None
+    detector_options = {d: _read_detector(path, r, d) for d in DETECTORS}
     plans_reader = _Reader(path, r.key("reaction_plans"), r.sub_table("reaction_plans"))
-    plans_reader.check_known(set(RULES) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
+    plans_reader.check_known(
+        set(RULES) | set(DETECTORS) | {AlarmKind.OUT_OF_SPEC, AlarmKind.FEED_HEALTH})
     plans = {k: plans_reader.string(k) or "" for k in plans_reader.table}
-    return CharacteristicConfig(
+    ways = [k for k in ("subgroup_size", "subgroup_by", "subgroup_window") if k in r.table]
+    if len(ways) > 1:
+        raise r.fail(ways[1], f"{ways[0]} and {ways[1]} exclude each other: subgroups are "
+                              "consecutive rows, rows of one sample id or rows of one clock "
+                              "window")
+    char = CharacteristicConfig(
         name=name,
         column=r.string("column", default=name) or name,
         unit=r.text("unit"),
@@ -300,9 +363,46 @@ def _read_characteristic(
         reaction_plans=plans,
         clear_after=r.integer("clear_after", 1, 100_000),
         decimals=r.optional_integer("decimals", 0, 10),
+        ewma=detector_options[EWMA],
+        cusum=detector_options[CUSUM],
+        subgroup_by=r.column_name("subgroup_by"),
+        subgroup_window=r.window("subgroup_window"),
+        subgroup_timeout=r.positive_duration("subgroup_timeout"),
+        chart=r.optional_choice("chart", ATTRIBUTE_CHART_NAMES),
+        count_column=r.column_name("count_column"),
+        size_column=r.column_name("size_column"),
+        result_column=r.column_name("result_column"),
+        fail_values=r.string_list("fail_values"),
+        pass_values=r.string_list("pass_values"),
         phase_by=r.string("phase_by"),
         practical_share=_practical_share(r),
     )
+    problem = chart_problem(char)
+    if problem is not None:
+        raise r.fail(*problem)
+    if "column" not in r.table and char.is_attribute:  # named by the column it counts in
+        char.column = char.count_column or char.result_column or name
+    return char
+
+
+def _read_detector(path: str, r: _Reader, detector: str) -> dict[str, float]:
+    """A characteristic's `ewma = {...}` or `cusum = {...}` table: known options, numbers in
+    range (the message names the key and the allowed range)."""
+    table = r.sub_table(detector)
+    reader = _Reader(path, r.key(detector), table)
+    reader.check_known(set(DETECTOR_OPTIONS[detector]))
+    out: dict[str, float] = {}
+    for name, raw in table.items():
+        try:
+            resolve_detectors([detector], {detector: {name: raw}})
+        except RuleListError as exc:
+            raise reader.fail(name, str(exc).removeprefix(f"{detector} {name} ")) from None
+        out[name] = float(raw)
+    try:
+        resolve_detectors([detector], {detector: out})
+    except RuleListError as exc:
+        raise reader.fail("headstart", str(exc)) from None
+    return out
 
 
 def _practical_share(r: _Reader) -> float:
@@ -321,7 +421,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(source, "(syntax)", str(exc)) from None
     top = _Reader(source, "", data)
-    top.check_known({"monitor", "alarms", "feed", "characteristic"})
+    top.check_known({"monitor", "alarms", "feed", "characteristic", "plant"})
     alarms = _read_alarms(source, data.get("alarms", {}))
     feeds_raw = data.get("feed", [])
     chars_raw = data.get("characteristic", [])
@@ -342,6 +442,7 @@ def parse_config(text: str, source: str = "<config>") -> Config:
         alarms=alarms,
         feeds=[_read_feed(source, i, t) for i, t in enumerate(feeds_raw)],
         characteristics=chars,
+        plant=_read_plant(source, data.get("plant", {})),
     )
 
 

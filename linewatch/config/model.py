@@ -8,11 +8,15 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        audit_anchor_every, audit_key_file
     [alarms]           priorities, hook, hook_timeout, reasons, flood_alarms, flood_window,
                        shelve_max
+    [plant]            url, line (the central database this line forwards to, and its name)
     [[feed]]           paths, layout, delimiter, decimal, encoding, time_column, name_column,
                        value_column
     [[characteristic]] name, column, unit, lsl, usl, target, subgroup_size, dispersion, baseline,
                        center, sigma, rules, run_lengths, reasons, reaction_plan, reaction_plans,
-                       clear_after, decimals, phase_by, practical_share
+                       clear_after, decimals, subgroup_by, subgroup_window, subgroup_timeout,
+                       chart, count_column, size_column, result_column, fail_values,
+                       pass_values, ewma = { lambda, width },
+                       cusum = { k, h, headstart }, phase_by, practical_share
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -21,7 +25,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from linewatch.config.choices import DecimalMark, Delimiter, Dispersion, Layout
+from linewatch.config.choices import AttributeChart, DecimalMark, Delimiter, Dispersion, Layout
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES
 from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER
 from linewatch.engine.rulebook import DEFAULT_RULES, parse_rule_list
@@ -34,6 +38,10 @@ DEFAULT_FLOOD_WINDOW = 600.0  # (ISA-18.2 guidance: about 10 alarms in 10 minute
 DEFAULT_SHELVE_MAX = 12 * 3600.0
 DEFAULT_ANCHOR_EVERY = 100
 DEFAULT_HOOK_TIMEOUT = 5.0
+DEFAULT_SUBGROUP_TIMEOUT = 300.0  # a live subgroup by sample id closes this long after its last row
+# what a pass/fail tester writes (compared without regard to case; common practice, our list)
+DEFAULT_FAIL_VALUES = ("FAIL", "NG", "NOK", "0", "false")
+DEFAULT_PASS_VALUES = ("PASS", "OK", "GO", "1", "true")
 
 
 @dataclass(slots=True)
@@ -58,15 +66,54 @@ class CharacteristicConfig:
     reaction_plans: dict[str, str] = field(default_factory=dict)
     clear_after: int = DEFAULT_CLEAR_AFTER
     decimals: int | None = None  # None: from the tolerance or σ (figures.reading_decimals)
+    # detector parameters by option name (engine.rulebook.DETECTOR_OPTIONS); absent: defaults
+    ewma: dict[str, float] = field(default_factory=dict)
+    cusum: dict[str, float] = field(default_factory=dict)
+    # subgroups: `subgroup_size` consecutive data rows, or rows with one value of the column
+    # `subgroup_by`, or rows in one clock window of `subgroup_window` seconds (one of the three)
+    subgroup_by: str | None = None
+    subgroup_window: float | None = None
+    subgroup_timeout: float = DEFAULT_SUBGROUP_TIMEOUT
+    # attribute data: counts per row (`count_column`, with `size_column` the units inspected)
+    # or one pass/fail result per part (`result_column`); `chart` None: the default for the form
+    chart: AttributeChart | None = None
+    count_column: str | None = None
+    size_column: str | None = None
+    result_column: str | None = None
+    fail_values: list[str] = field(default_factory=lambda: list(DEFAULT_FAIL_VALUES))
+    pass_values: list[str] = field(default_factory=lambda: list(DEFAULT_PASS_VALUES))
+
+    @property
+    def sizes_vary(self) -> bool:
+        """Subgroups by sample id or clock window: their sizes follow the data."""
+        return self.subgroup_by is not None or self.subgroup_window is not None
     phase_by: str | None = None  # check: a column whose every change of value starts a phase
     practical_share: float = 10.0  # percent of the tolerance a change must take to matter
 
     @property
     def effective_dispersion(self) -> Dispersion:
-        """range for n ≤ 9, stdev for n ≥ 10 (common practice) unless set explicitly."""
+        """range for n ≤ 9, stdev for n ≥ 10 (common practice) unless set explicitly; stdev
+        when sizes follow the data (common practice for varying sizes)."""
         if self.dispersion:
             return self.dispersion
+        if self.sizes_vary:
+            return "stdev"
         return "range" if self.subgroup_size <= 9 else "stdev"
+
+    @property
+    def is_attribute(self) -> bool:
+        """Counts or pass/fail results rather than measured values."""
+        return self.count_column is not None or self.result_column is not None
+
+    @property
+    def effective_chart(self) -> AttributeChart | None:
+        """The attribute chart: as set, else p for results and for counts with sizes, c for
+        counts without; None for measured values."""
+        if not self.is_attribute:
+            return None
+        if self.chart:
+            return self.chart
+        return "c" if self.count_column is not None and self.size_column is None else "p"
 
 
 @dataclass(slots=True)
@@ -114,6 +161,15 @@ class MonitorConfig:
 
 
 @dataclass(slots=True)
+class PlantConfig:
+    """The central database this line forwards to (`LINEWATCH_PLANT_URL` overrides `url`) and
+    the line's name there."""
+
+    url: str | None = None
+    line: str | None = None
+
+
+@dataclass(slots=True)
 class Config:
     """The whole configuration; `source` is the file it came from (or '' for defaults)."""
 
@@ -123,6 +179,7 @@ class Config:
     alarms: AlarmConfig = field(default_factory=AlarmConfig)
     feeds: list[FeedConfig] = field(default_factory=list)
     characteristics: list[CharacteristicConfig] = field(default_factory=list)
+    plant: PlantConfig = field(default_factory=PlantConfig)
 
     def characteristic(self, name: str) -> CharacteristicConfig | None:
         """The characteristic called `name`, if declared."""

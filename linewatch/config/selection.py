@@ -10,11 +10,12 @@ import fnmatch
 import os
 from dataclasses import replace
 
+from linewatch.config.chart_choice import chart_problem
 from linewatch.config.loading import load_config
 from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
-from linewatch.config.overrides import ChartOverrides
+from linewatch.config.overrides import ChartOverrides, split_values
 from linewatch.domain.errors import LinewatchError, RuleListError
-from linewatch.engine.rulebook import DETECTORS, resolve_rules
+from linewatch.engine.rulebook import CUSUM, EWMA, resolve_detectors, resolve_rules
 from linewatch.engine.setup import ChartSetup
 
 
@@ -69,7 +70,12 @@ def select_characteristics(
     """
     declared = {c.column: c for c in config.characteristics}
     by_name = {c.name: c for c in config.characteristics}
-    if overrides.columns:
+    attribute_column = overrides.count_column or overrides.result_column
+    if attribute_column and not overrides.columns:  # the one characteristic counted there
+        chosen = [next((c for c in config.characteristics
+                        if attribute_column in (c.count_column, c.result_column, c.name)),
+                       CharacteristicConfig(name=attribute_column, column=attribute_column))]
+    elif overrides.columns:
         chosen = []
         for col in overrides.columns:
             c = by_name.get(col) or declared.get(col) or CharacteristicConfig(name=col, column=col)
@@ -78,8 +84,9 @@ def select_characteristics(
         chosen = list(config.characteristics)
     else:
         chosen = [CharacteristicConfig(name=c, column=c) for c in (available or [])]
-    if available is not None:
-        missing = [c.column for c in chosen if c.column not in available]
+    if available is not None:  # (the reader of attribute data checks its own columns)
+        missing = [c.column for c in chosen if c.column not in available and not
+                   (c.is_attribute or attribute_column)]
         if missing:
             there = ", ".join(available) if available else "none"
             raise LinewatchError(
@@ -99,8 +106,23 @@ def apply_overrides(c: CharacteristicConfig, overrides: ChartOverrides) -> Chara
         c.center, c.sigma = o.center, o.sigma
     if o.baseline is not None:
         c.baseline = o.baseline
-    if o.subgroup_size is not None:
-        c.subgroup_size = o.subgroup_size
+    if o.subgroup_size is not None:  # one way of forming subgroups replaces the config's
+        c.subgroup_size, c.subgroup_by, c.subgroup_window = o.subgroup_size, None, None
+    if o.subgroup_by is not None:
+        c.subgroup_size, c.subgroup_by, c.subgroup_window = 1, o.subgroup_by.strip(), None
+    if o.subgroup_window is not None:
+        c.subgroup_size, c.subgroup_by, c.subgroup_window = 1, None, o.window_seconds()
+    if o.count_column is not None:
+        c.count_column, c.size_column, c.result_column = (
+            o.count_column.strip(), o.size_column.strip() if o.size_column else None, None)
+    if o.result_column is not None:
+        c.count_column, c.size_column, c.result_column = None, None, o.result_column.strip()
+    if o.attribute_chart is not None:
+        c.chart = o.attribute_chart
+    if o.fail_values is not None:
+        c.fail_values = split_values(o.fail_values)
+    if o.pass_values is not None:
+        c.pass_values = split_values(o.pass_values)
     if o.dispersion is not None:
         c.dispersion = o.dispersion
     if o.lsl is not None:
@@ -109,8 +131,14 @@ def apply_overrides(c: CharacteristicConfig, overrides: ChartOverrides) -> Chara
         c.usl = o.usl
     if o.clear_after is not None:
         c.clear_after = o.clear_after
+    given = o.detector_options()
+    c.ewma = {**c.ewma, **given.get(EWMA, {})}
+    c.cusum = {**c.cusum, **given.get(CUSUM, {})}
     if c.lsl is not None and c.usl is not None and c.lsl >= c.usl:
         raise LinewatchError(f"{c.name}: LSL must be below USL ({c.lsl} >= {c.usl})")
+    problem = chart_problem(c)
+    if problem is not None:
+        raise LinewatchError(f"{c.name}: {problem[1]}")
     return c
 
 
@@ -120,11 +148,14 @@ def chart_setup(c: CharacteristicConfig, default_baseline: int | None) -> ChartS
         specs = tuple(resolve_rules(c.rules, c.run_lengths))
     except RuleListError as exc:
         raise LinewatchError(f"{c.name}: {exc}") from None
-    waiting = [r for r in c.rules if r in DETECTORS]
-    if waiting:  # the engine has them; check, watch and the screens do not chart them yet
+    try:
+        detectors = tuple(resolve_detectors(c.rules, {EWMA: c.ewma, CUSUM: c.cusum}))
+    except RuleListError as exc:
+        raise LinewatchError(f"{c.name}: {exc}") from None
+    if detectors and (c.sizes_vary or c.effective_chart is not None):
         raise LinewatchError(
-            f"{c.name}: {', '.join(waiting)} cannot be charted by check or watch yet; "
-            "leave them out of the rule list")
+            f"{c.name}: {', '.join(d.id for d in detectors)} chart measured values in "
+            "subgroups of one size (--subgroup-size); leave them out of this rule list")
     return ChartSetup(
         name=c.name,
         subgroup_size=c.subgroup_size,
@@ -133,4 +164,9 @@ def chart_setup(c: CharacteristicConfig, default_baseline: int | None) -> ChartS
         baseline=c.baseline if c.baseline is not None else default_baseline,
         center=c.center,
         sigma=c.sigma,
+        detectors=detectors,
+        subgroups="label" if c.subgroup_by else "window" if c.subgroup_window else "count",
+        window=c.subgroup_window,
+        timeout=c.subgroup_timeout if c.subgroup_by else None,
+        attribute_chart=c.effective_chart,
     )

@@ -87,3 +87,9 @@ def time_of_day(epoch: float) -> str:
 def day_and_time(epoch: float) -> str:
     """Local date and time with the offset, for details where the day matters."""
     return time.strftime("%Y-%m-%d %H:%M:%S %z", time.localtime(epoch))
+
+
+def local_offset(epoch: float) -> float:
+    """Seconds the local clock is east of UTC at `epoch` (clock windows align to it)."""
+    offset = datetime.fromtimestamp(epoch).astimezone().utcoffset()
+    return offset.total_seconds() if offset is not None else 0.0

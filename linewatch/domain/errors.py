@@ -12,6 +12,7 @@ one line, never a traceback.
                               sizes, more nonconforming units than inspected, a subgroup of 26)
       StoreError              the store cannot be opened or is not a linewatch store
         LeaseLost             this instance no longer collects (another one took over)
+      PlantError              the central database cannot be reached or used
 """
 
 
@@ -59,3 +60,7 @@ class StoreError(LinewatchError):
 
 class LeaseLost(StoreError):
     """This instance no longer holds the lease: another one collects now."""
+
+
+class PlantError(LinewatchError):
+    """The central database cannot be reached or used (its URL is never in the message)."""

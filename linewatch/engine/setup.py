@@ -31,6 +31,12 @@ class ChartSetup:
     center: float | None = None
     sigma: float | None = None
     detectors: tuple[DetectorSpec, ...] = ()  # on the location statistic; each its own chart
+    # how rows form subgroups: "count" (`subgroup_size` consecutive data rows), "label" (rows
+    # with one sample id), "window" (rows in one clock window of `window` seconds)
+    subgroups: str = "count"
+    window: float | None = None
+    timeout: float | None = None  # a live subgroup by label closes this long after its last row
+    attribute_chart: str | None = None  # p, np, c, u, laney-p, laney-u; None: measured values
 
     @property
     def charts(self) -> tuple[str, str]:

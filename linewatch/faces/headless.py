@@ -21,6 +21,9 @@ def _text(record: dict[str, Any]) -> str:
         when = f" at {record['time']}" if record.get("time") else ""
         return (f"SIGNAL  {record['characteristic']} {record['chart']} rule {record['rule']} "
                 f"point {record['index']} value {record['value']:.6g} ({where}{when})")
+    if kind == "limits" and record.get("varies"):
+        return (f"LIMITS  {record['characteristic']} {record['chart']}: CL "
+                f"{record['center']:.6g}, limits step with each subgroup's size")
     if kind == "limits":
         return (f"LIMITS  {record['characteristic']} {record['chart']}: CL {record['center']:.6g} "
                 f"UCL {record['ucl']:.6g} LCL {record['lcl']:.6g}")
@@ -36,6 +39,10 @@ def _text(record: dict[str, Any]) -> str:
         figures += "" if sd is None else f" SD {sd:.4g}"
         cpk = record.get("cpk")
         figures += "" if cpk is None else f" Cpk {cpk:.3g}"
+        if record.get("attribute"):
+            a = record["attribute"]
+            figures = (f" {a['what']} {a['estimate']:.4g} (95% {a['lower']:.4g} to "
+                       f"{a['upper']:.4g}; {a['ppm']:,.0f} ppm); Cp/Cpk do not apply")
         read = record.get("read")
         here = "" if read is None or read == record["points"] else f" ({read} read by this run)"
         return (f"SUMMARY {record['characteristic']}: {count(record['points'], 'point')}{here}, "

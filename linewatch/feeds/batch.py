@@ -103,6 +103,11 @@ class Batch:
     rows: int = 0
     notices: list[Notice] = field(default_factory=list)  # said once per file
     unread: int = 0  # lines not read for want of a header (said once, in a notice)
+    # the text columns a parser was asked to keep (sample ids, pass/fail results), one entry
+    # per kept row, with each row's line and time (empty unless asked for)
+    texts: dict[str, list[str]] = field(default_factory=dict)
+    text_lines: list[int] = field(default_factory=list)
+    text_times: list[str | None] = field(default_factory=list)
 
     @property
     def characteristics(self) -> list[str]:
@@ -127,6 +132,9 @@ class BatchBuilder:
         self.rows = 0
         self.notices: list[Notice] = []
         self.unread = 0
+        self.texts: dict[str, list[str]] = {}
+        self.text_lines: list[int] = []
+        self.text_times: list[str | None] = []
 
     def add(self, name: str, value: float, line: int, time: str | None) -> None:
         vals = self.values.get(name)
@@ -137,6 +145,13 @@ class BatchBuilder:
         vals.append(value)
         self.lines[name].append(line)
         self.times[name].append(time)
+
+    def add_texts(self, texts: list[tuple[str, str]], line: int, time: str | None) -> None:
+        """The kept text columns of one row."""
+        for name, text in texts:
+            self.texts.setdefault(name, []).append(text)
+        self.text_lines.append(line)
+        self.text_times.append(time)
 
     def reject(self, line: int, reason: str) -> None:
         self.rejected.append(Rejected(self.file, line, reason))
@@ -149,4 +164,5 @@ class BatchBuilder:
             {k: np.asarray(v, dtype=np.int64) for k, v in self.lines.items()},
             {k: TimeColumn(v) for k, v in self.times.items()},
             self.rejected, self.rows, self.notices, self.unread,
+            self.texts, self.text_lines, self.text_times,
         )

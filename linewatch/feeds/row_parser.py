@@ -111,8 +111,12 @@ class RowParser:
         require_columns: bool = False,
         keep_times: bool = True,
         expected: list[str] | None = None,
+        text_columns: list[str] | None = None,
     ) -> None:
         self.feed = feed
+        # wide CSV: columns whose text is kept beside the numbers (a sample id, a pass/fail
+        # result); a row whose text column is empty is rejected, so each kept row has them all
+        self.text_columns = list(text_columns or [])
         self.file = file
         self.columns = list(columns) if columns is not None else None
         self.expected = list(expected) if expected and columns is None else None
@@ -129,6 +133,7 @@ class RowParser:
         self.time_idx: int | None = None
         # wide CSV: (characteristic, field index); None until decided
         self.wanted: list[tuple[str, int]] | None = None
+        self.text_idx: list[tuple[str, int]] = []
         self.name_idx = -1
         self.value_idx = -1
         self.usable = True
@@ -268,14 +273,17 @@ class RowParser:
             else:
                 self.name_idx, self.value_idx = names.index(nc), names.index(vc)
         elif self.columns is not None:
-            missing = [c for c in self.columns if c not in names]
+            missing = [c for c in [*self.columns, *self.text_columns] if c not in names]
             if missing:
                 problems.append("no column " + ", ".join(f"'{c}'" for c in missing))
             self.wanted = [(c, names.index(c)) for c in self.columns if c in names]
-            if not self.wanted:
+            self.text_idx = [(c, names.index(c)) for c in self.text_columns if c in names]
+            if not self.wanted and not self.text_idx:
                 self.usable = False
         elif self.expected is not None:
             problems += lacking(self.expected, names)
+        if self.columns is None and self.text_columns:
+            self.text_idx = [(c, names.index(c)) for c in self.text_columns if c in names]
         if problems:
             message = f"{'; '.join(problems)} (columns: {', '.join(names)})"
             if self.require_columns:
@@ -289,7 +297,7 @@ class RowParser:
         seen: set[str] = set()
         wanted: list[tuple[str, int]] = []
         for j, name in enumerate(self.header):
-            if j == self.time_idx or name in seen:
+            if j == self.time_idx or name in seen or name in self.text_columns:
                 continue
             seen.add(name)
             v = float_of(fields[j], self.decimal_comma)
@@ -307,10 +315,18 @@ class RowParser:
     def _wide_row(self, fields: list[str], line_no: int, out: BatchBuilder) -> None:
         if not self.usable:
             return
-        if self.wanted is None and not self._decide_columns(fields):
+        if self.wanted is None and not self._decide_columns(fields) and not self.text_idx:
             out.reject(line_no, "no number in any column")
             return
-        assert self.wanted is not None
+        if self.wanted is None:
+            self.wanted = []
+        texts: list[tuple[str, str]] = []
+        for name, j in self.text_idx:
+            text = fields[j].strip()
+            if not text:
+                out.reject(line_no, f"empty value in column '{name}'")
+                return
+            texts.append((name, text))
         got: list[float] = []
         for name, j in self.wanted:
             v = parse_number(fields[j], self.decimal_comma)
@@ -318,11 +334,13 @@ class RowParser:
                 out.reject(line_no, value_problem(fields[j], name, self.decimal_comma))
                 return
             got.append(v)
-        if not got:
+        if not got and not texts:
             return
         time = self._time_of(fields)
         for (name, _), v in zip(self.wanted, got, strict=True):
             out.add(name, v, line_no, time)
+        if self.text_idx:
+            out.add_texts(texts, line_no, time)
         out.rows += 1
 
     def _long_row(self, fields: list[str], line_no: int, out: BatchBuilder) -> None:

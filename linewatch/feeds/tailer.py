@@ -148,9 +148,11 @@ class _Followed:
 
     def __init__(self, path: str, feed: FeedConfig, columns: list[str] | None,
                  expected: list[str] | None = None,
-                 fast_from: int = FAST_BLOCK_BYTES) -> None:
+                 fast_from: int = FAST_BLOCK_BYTES, text_columns: list[str] | None = None
+                 ) -> None:
         self.path = path
-        self.parser = RowParser(feed, path, columns, expected=expected)
+        self.parser = RowParser(feed, path, columns, expected=expected,
+                                text_columns=text_columns)
         self.fast_from = fast_from  # blocks this large take the whole-buffer path
         self.fd: int | None = None
         self.dev = self.inode = 0
@@ -334,7 +336,9 @@ class Tailer:
         should_stop: Callable[[], bool] | None = None,
         expected: list[str] | None = None,
         fast_block_bytes: int = FAST_BLOCK_BYTES,
+        text_columns: list[str] | None = None,
     ) -> None:
+        self.text_columns = list(text_columns or [])  # kept as text (wide CSV)
         self.shrink_grace = shrink_grace
         self.fast_block_bytes = fast_block_bytes
         self.should_stop = should_stop  # asked during pattern expansion (SIGTERM)
@@ -515,7 +519,8 @@ class Tailer:
                 f = self._followed.get(path)
                 if f is None:
                     f = self._followed[path] = _Followed(path, feed, self.columns, self.expected,
-                                                              self.fast_block_bytes)
+                                                              self.fast_block_bytes,
+                                                              self.text_columns)
                     self._feed_of[path] = feed
                     f.gone = True
             if found:
@@ -684,7 +689,7 @@ class Tailer:
             return None
         self._saved.pop(path)
         old = _Followed(renamed, self._feed_of[path], self.columns, self.expected,
-                        self.fast_block_bytes)
+                        self.fast_block_bytes, self.text_columns)
         events: list[FeedEvent] = []
         if old.open(events, FileState(renamed, saved.dev, saved.inode, saved.fingerprint,
                                       saved.offset, saved.next_line, saved.header)):

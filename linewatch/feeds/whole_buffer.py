@@ -65,6 +65,8 @@ def _read_whole(data: bytes, parser: RowParser, lines_before: int,
 
 def _wide_fast_ok(p: RowParser) -> bool:
     # a header repeat must never look like a row of numbers to the fast path
+    if p.text_idx:  # rows with kept text columns go the per-line way
+        return False
     return bool(p.wanted) and not any(
         parse_number(name, p.decimal_comma) is not None for name, _ in p.wanted or [])
 

@@ -26,8 +26,12 @@ from linewatch.domain.records import FeedEvent, Limits
 from linewatch.engine.live import CharacteristicEngine, LiveOutput
 from linewatch.engine.live_state import restore_engine, save_state
 from linewatch.engine.setup import Firing
+from linewatch.engine.stepped_live import SteppedEngine, SteppedOutput
+from linewatch.engine.stepped_live_state import restore_stepped, save_stepped
 from linewatch.feeds.health import FeedHealth
 from linewatch.pipeline.plan import Characteristics, WatchPlan
+from linewatch.pipeline.stepped_rows import is_stepped, stepped_rows
+from linewatch.store.stepped_points import SteppedRecord
 
 if TYPE_CHECKING:
     from linewatch.engine.limits import LimitSet
@@ -67,11 +71,15 @@ class Collector:
         mon = plan.config.monitor
         self.health = FeedHealth(mon.stale_after, mon.stuck_repeats)
         self.engines: dict[str, CharacteristicEngine] = {}
+        self.stepped: dict[str, SteppedEngine] = {}  # charts whose limits step
         self._saved: set[str] = set()  # discovered characteristics whose settings are stored
         with store.transaction():  # (settings of discovered ones follow today's options)
             for name, text in store.ingest.engines().items():
                 c = self._config(name)
-                if c is not None:
+                if c is not None and is_stepped(c):
+                    self.stepped[name] = restore_stepped(chart_setup(c, plan.baseline),
+                                                         json.loads(text), local_offset())
+                elif c is not None:
                     self.engines[name] = restore_engine(chart_setup(c, plan.baseline),
                                                         json.loads(text))
 
@@ -89,8 +97,7 @@ class Collector:
             for chunk in chunks:
                 self._process_chunk(chunk, now, out, touched)
             for name in sorted(touched):
-                self.store.ingest.save_engine(name, json.dumps(save_state(self.engines[name])),
-                                              now)
+                self._save_engine(name, now)
         out.rows = sum(c.batch.rows for c in chunks if c.batch is not None)
         return out
 
@@ -124,11 +131,17 @@ class Collector:
             written = now if chunk.written_at is None else min(now, chunk.written_at)
             for column, values in batch.values.items():
                 name = self.characteristics.name_for_column(column)
+                c = None if name is None else self._config(name)
+                if c is not None and is_stepped(c):
+                    continue  # (below: it may read several columns)
                 if name is None or len(values) == 0 or self._engine(name) is None:
                     continue
                 touched.add(name)
                 out.values[name] = out.values.get(name, 0) + len(values)
                 self._process_values(name, batch, column, now, written, out)
+            for name in self._stepped_in(batch):
+                touched.add(name)
+                self._process_stepped(name, batch, now, written, out)
             if batch.rows:
                 self.health.rows_arrived(batch.file, batch.rows, written)
                 self._count_times(batch)
@@ -194,6 +207,102 @@ class Collector:
                                                        clear_after=c.clear_after))
         self.health.values_arrived(name, values)
 
+    def _stepped_in(self, batch: Batch) -> list[str]:
+        """The characteristics with stepped limits this batch holds rows for."""
+        names = []
+        for name, c in list(self.characteristics.configs.items()):
+            if not is_stepped(c):
+                continue
+            if c.result_column is not None:
+                if c.result_column in batch.texts:
+                    names.append(name)
+            elif (c.count_column or c.column) in batch.values:
+                names.append(name)
+        if self.plan.discovers:  # (a discovered column charted by window or sample id)
+            for column in batch.values:
+                d = self._config(column)
+                if d is not None and is_stepped(d) and column not in names:
+                    names.append(column)
+        return names
+
+    def _process_stepped(self, name: str, batch: Batch, now: float, written: float,
+                         out: Outcome) -> None:
+        c = self.characteristics.configs[name]
+        eng = self._stepped_engine(name)
+        rows, refused = stepped_rows(c, batch)
+        for r in refused:
+            out.records.append(rejected_record(r))
+            self.store.history.add_feed_event(
+                FeedEvent("rejected", r.file, f"line {r.line}: {r.reason}"), now)
+        out.rejected += len(refused)
+        if c.subgroup_by:  # a sample left open closes `subgroup_timeout` after its last row
+            rows = [(lab, x, n, written if t is None else t, m) for lab, x, n, t, m in rows]
+        first = eng.rows_seen
+        live = eng.push(rows)
+        values = [float(r[1] or 0.0) for r in rows]
+        tags = [cast("list[Any]", r[4]) for r in rows]
+        self.store.history.add_points(name, first, values, [int(t[1]) for t in tags],
+                                      batch.file, [t[2] for t in tags], written)
+        out.values[name] = out.values.get(name, 0) + len(rows)
+        self._take_stepped(name, eng, live, now, out)
+        if not c.is_attribute:  # (results and counts repeat by nature: no stuck gauge)
+            self.health.values_arrived(name, values)
+
+    def _take_stepped(self, name: str, eng: SteppedEngine, live: SteppedOutput, now: float,
+                      out: Outcome) -> None:
+        """Store what a stepped engine produced: its points with their limits, new limits,
+        signals and the alarms of the points it judged."""
+        records = []
+        for p in live.points:
+            tag = cast("list[Any] | None", p.meta)
+            file, line, when = tag if tag else (None, -1, None)
+            records.append(SteppedRecord(name, p.chart, p.index, p.value, p.n, p.center, p.ucl,
+                                         p.lcl, p.sigma, p.phase, int(line), file, when))
+        self.store.stepped.put(records)
+        if live.problem is not None:
+            out.records.append({"type": "error", "characteristic": name,
+                                "problem": live.problem})
+            if eng.problem is not None:  # limits refused for this phase
+                self.store.ingest.set_limits_refused(name, eng.problem)
+        if live.model is not None:
+            self.store.ingest.set_limits_refused(name, "")
+            firsts: dict[str, SteppedRecord] = {}
+            for r in records:
+                if r.center is not None and r.chart not in firsts:
+                    firsts[r.chart] = r
+            reason, actor, asked = "baseline", SYSTEM_ACTOR, False
+            if eng.phase > 0:
+                request = self.store.requests.for_phase(name, eng.phase)
+                reason = (request.reason if request else "") or "new baseline"
+                actor = (request.actor if request else None) or SYSTEM_ACTOR
+                asked = True
+            for chart, r in firsts.items():  # (the limits step: those of its first point)
+                assert r.ucl is not None and r.lcl is not None and r.sigma is not None
+                self.store.history.record_limits(
+                    Limits(name, chart, r.center or 0.0, r.ucl, r.lcl, r.sigma, eng.phase,
+                           eng.phase_start),
+                    reason=reason, now=now, actor=actor, new_baseline=asked)
+                out.records.append({"type": "limits", "characteristic": name, "chart": chart,
+                                    "center": r.center, "ucl": None, "lcl": None,
+                                    "varies": True})
+        out.records.extend(signal_of(name, f) for f in live.firings)
+        out.raised.extend(self._observe_judged(name, live, now))
+
+    def _stepped_engine(self, name: str) -> SteppedEngine:
+        eng = self.stepped.get(name)
+        if eng is None:
+            c = self.characteristics.configs[name]
+            eng = self.stepped[name] = SteppedEngine(chart_setup(c, self.plan.baseline),
+                                                     local_offset())
+        return eng
+
+    def _save_engine(self, name: str, now: float) -> None:
+        if name in self.stepped:
+            state = save_stepped(self.stepped[name])
+        else:
+            state = save_state(self.engines[name])
+        self.store.ingest.save_engine(name, json.dumps(state), now)
+
     # -- a beat -----------------------------------------------------------------------------
 
     def beat(self, now: float) -> Outcome:
@@ -206,6 +315,11 @@ class Collector:
             for ev in events:
                 out.records.append(self._record_feed_event(ev, now, out.raised))
             out.raised.extend(self.alarms.tick(now))
+            for name, eng in self.stepped.items():  # samples and windows the clock closed
+                live = eng.expire(now)
+                if live.points or live.problem:
+                    self._take_stepped(name, eng, live, now, out)
+                    self._save_engine(name, now)
             for request in self.store.requests.pending():
                 self._carry_out(request, now, out)
             out.raised.extend(self.alarms.check_flood(now))
@@ -215,6 +329,10 @@ class Collector:
         """Start the new phase a request asks for (or say why it cannot start), and mark the
         request settled in the same transaction, so it is carried out exactly once."""
         name = req.characteristic
+        c = self._config(name)
+        if c is not None and is_stepped(c):
+            self._carry_out_stepped(req, now, out)
+            return
         eng = self._engine(name)
         if eng is None:
             problem = f"{name} is not charted by this collector"
@@ -249,6 +367,28 @@ class Collector:
         out.records.append({"type": "baseline", "characteristic": name,
                             "start_index": eng.phase_start, "reason": req.reason})
 
+    def _carry_out_stepped(self, req: BaselineRequest, now: float, out: Outcome) -> None:
+        """`_carry_out` for a chart whose limits step."""
+        name = req.characteristic
+        eng = self._stepped_engine(name)
+        try:
+            eng.new_baseline(req.start_index)
+        except ValueError as exc:
+            self.store.requests.refused(req.id, str(exc), now)
+            out.records.append({"type": "baseline", "characteristic": name, "problem": str(exc)})
+            return
+        self.store.audit.append(
+            "new-baseline", name,
+            {"start_index": eng.phase_start, "phase": eng.phase, "reason": req.reason},
+            at=now, actor=req.actor,
+        )
+        self.store.requests.carried_out(req.id, eng.phase, eng.phase_start, now)
+        self.store.ingest.set_limits_refused(name, "")
+        self._take_stepped(name, eng, eng.settle(), now, out)
+        self._save_engine(name, now)
+        out.records.append({"type": "baseline", "characteristic": name,
+                            "start_index": eng.phase_start, "reason": req.reason})
+
     # -- shared -----------------------------------------------------------------------------
 
     def _config(self, name: str) -> CharacteristicConfig | None:
@@ -270,14 +410,27 @@ class Collector:
             self.engines[name] = eng
         return eng
 
-    def _observe_judged(self, name: str, live: LiveOutput, now: float) -> list[AlarmEvent]:
+    def _observe_judged(self, name: str, live: LiveOutput | SteppedOutput, now: float
+                        ) -> list[AlarmEvent]:
         """Feed the points an engine judged (and where they fired) to the chart alarms."""
+        # a detector watches the location statistic: its firings join the location chart's
+        # alarm (one special cause, one alarm) and mark that chart's points
+        engine = self.engines.get(name)
+        location = engine.setup.charts[0] if engine is not None else ""
+        detectors = {d.id for d in engine.setup.detectors} if engine is not None else set()
         fired: dict[str, dict[str, list[int]]] = {}
         for f in live.firings:
-            fired.setdefault(f.chart, {}).setdefault(f.rule, []).append(f.index)
+            chart = location if f.chart in detectors else f.chart
+            fired.setdefault(chart, {}).setdefault(f.rule, []).append(f.index)
         clear_after = self.characteristics.configs[name].clear_after
         events: list[AlarmEvent] = []
-        for chart, (lo, hi) in live.judged.items():
+        judged = dict(live.judged)
+        for det in detectors:
+            lo, hi = judged.pop(det, (None, None))
+            if lo is not None and hi is not None:
+                was = judged.get(location, (lo, hi))
+                judged[location] = (min(was[0], lo), max(was[1], hi))
+        for chart, (lo, hi) in judged.items():
             events += self.alarms.observe_chart(name, chart, lo, hi, fired.get(chart, {}), now,
                                                 clear_after=clear_after)
         return events
@@ -312,6 +465,13 @@ class Collector:
         if ev.kind == "times":
             record["backwards"], record["unreadable"] = self.health.time_counts(ev.file)
         return record
+
+
+def local_offset() -> float:
+    """The local clock's seconds east of UTC now (clock windows start on its quarter hours)."""
+    import time
+
+    return float(time.localtime().tm_gmtoff)
 
 
 def signal_of(name: str, f: Firing) -> dict[str, Any]:

@@ -25,6 +25,7 @@ from linewatch.pipeline.roles import RoleLoop
 if TYPE_CHECKING:
     from linewatch.config.model import CharacteristicConfig
     from linewatch.pipeline.plan import WatchPlan
+    from linewatch.pipeline.plant_link import PlantLink
     from linewatch.store.anchors import Anchorer
 
 
@@ -57,6 +58,33 @@ class Monitor:
             clock=clock, changed=self._changed,
         )
         self.alarms.load_config(plan.config)
+        self.plant_link = self._plant_link()
+
+    def _plant_link(self) -> PlantLink | None:
+        """The forwarding thread when the config (or LINEWATCH_PLANT_URL) names a central
+        database: the outbox is armed here, before anything is collected, so every commit
+        from now on is entered. Without a plant link an armed outbox is disarmed (its rows
+        would only pile up; joining again sends the whole store)."""
+        from linewatch.domain.errors import ConfigError
+        from linewatch.pipeline.plant_link import PlantLink
+        from linewatch.plant.url import plant_url
+        from linewatch.store.outbox import Outbox
+
+        url = plant_url(self.config.plant.url)
+        outbox = Outbox(self.store)
+        if url is None:
+            if outbox.armed():
+                outbox.disarm()
+            return None
+        if not self.config.plant.line:
+            raise ConfigError(self.config.source or "(config)", "plant.line",
+                              "a line forwarding to the plant needs its name there "
+                              "(e.g. line = \"line-3\")")
+        outbox.arm()
+        return PlantLink(self.state_dir, self.config, url, self.config.plant.line,
+                         audit_key=self.store.audit.key,
+                         is_collector=lambda: self.loop.role == "collector",
+                         changed=self._changed, emit=lambda r: self.announcer.emit(r))
 
     def _configure_audit(self) -> Anchorer | None:
         """The audit key and anchor file of the config (the store is closed on a bad one)."""
@@ -144,16 +172,24 @@ class Monitor:
     # -- running --
     def run(self, stop: threading.Event) -> None:
         """Collect (or view) until `stop` is set, then close (see `roles.RoleLoop.run`)."""
+        if self.plant_link is not None:
+            self.plant_link.start()
         try:
             self.loop.run(stop)
         finally:
+            if self.plant_link is not None:
+                self.plant_link.stop()
             self.store.close()
 
     def close(self) -> None:
         """Wait for running hooks, give the lease up, close files and the store."""
+        if self.plant_link is not None:
+            self.plant_link.stop()
         self.loop.close()
         self.store.close()
 
-    def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
-        """Start a new phase of limits (any instance may ask; the collector carries it out)."""
-        self.store.requests.ask(characteristic, start_index, reason)
+    def new_baseline(self, characteristic: str, start_index: int, reason: str,
+                     actor: str | None = None) -> None:
+        """Start a new phase of limits (any instance may ask; the collector carries it out);
+        `actor` asks (default: this process's user)."""
+        self.store.requests.ask(characteristic, start_index, reason, actor=actor)

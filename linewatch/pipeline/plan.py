@@ -29,6 +29,7 @@ class WatchPlan:
     overrides: Callable[[CharacteristicConfig], CharacteristicConfig] = field(
         default=lambda c: c
     )
+    text_columns: list[str] = field(default_factory=list)  # sample ids, pass/fail results
 
     @property
     def discovers(self) -> bool:

@@ -204,7 +204,7 @@ class RoleLoop:
         stop = self._stop
         self.tailer = Tailer(self.plan.feeds, columns, saved,
                              should_stop=None if stop is None else stop.is_set,
-                             expected=expected)
+                             expected=expected, text_columns=self.plan.text_columns)
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         self.emit({"type": "role", "role": "collector", "instance": self.lease.instance_id})
 

@@ -17,6 +17,7 @@ from linewatch.config.model import CharacteristicConfig
 from linewatch.domain.errors import StoreError
 from linewatch.pipeline.monitor import Monitor
 from linewatch.present.view import CharacteristicView, LineSnapshot
+from linewatch.store.actor import Actor
 
 
 @contextlib.contextmanager
@@ -29,13 +30,15 @@ def _store_errors() -> Iterator[None]:
 
 
 class MonitorFace:
-    """A `SnapshotSource` and `LineActions` over one Monitor, safe to call from any thread."""
+    """A `SnapshotSource` and `LineActions` over one Monitor, safe to call from any thread.
+    `actor`: who acts through it (a browser's signed-in user); None: this process's user."""
 
-    def __init__(self, monitor: Monitor) -> None:
+    def __init__(self, monitor: Monitor, actor: Actor | None = None) -> None:
         from linewatch.alarms.book import AlarmBook
         from linewatch.runtime.statedir import open_store
 
         self.monitor = monitor
+        self.actor = actor
         self.store = open_store(monitor.state_dir, create=True,
                                 shared_group=monitor.config.monitor.shared_group)
         self.store.audit.use_key(monitor.store.audit.key)  # sign actions as the monitor does
@@ -58,7 +61,20 @@ class MonitorFace:
             )
         snap.catching_up = self.monitor.catching_up
         snap.problem = self.monitor.problem
+        with self._lock, _store_errors():
+            self._plant_link(snap)
         return snap
+
+    def _plant_link(self, snap: LineSnapshot) -> None:
+        """The link's state as the forwarding thread last recorded it, with the entries
+        still waiting (counted only while it is down)."""
+        from linewatch.pipeline.plant_link import read_link
+        from linewatch.store.outbox import Outbox
+
+        state = read_link(self.store)
+        if state is not None and state.state == "down":
+            snap.plant_down_since = state.since
+            snap.plant_waiting = Outbox(self.store).waiting()
 
     def detail(self, characteristic: str) -> CharacteristicView | None:
         from linewatch.present.snapshot import DETAIL_POINTS, characteristic_view
@@ -77,28 +93,30 @@ class MonitorFace:
     # -- LineActions --
     def acknowledge(self, alarm_ids: list[int], reason: str, note: str = "") -> None:
         with self._lock, _store_errors():
-            self.alarms.acknowledge(alarm_ids, reason, note)
+            self.alarms.acknowledge(alarm_ids, reason, note, actor=self.actor)
         self.monitor.poke()
 
     def acknowledge_characteristic(self, characteristic: str, reason: str, note: str = "") -> int:
         with self._lock, _store_errors():
-            n = self.alarms.acknowledge_characteristic(characteristic, reason, note)
+            n = self.alarms.acknowledge_characteristic(characteristic, reason, note,
+                                                    actor=self.actor)
         self.monitor.poke()
         return n
 
     def shelve(self, alarm_id: int, seconds: float, reason: str) -> None:
         with self._lock, _store_errors():
-            self.alarms.shelve(alarm_id, seconds, reason)
+            self.alarms.shelve(alarm_id, seconds, reason, actor=self.actor)
         self.monitor.poke()
 
     def unshelve(self, alarm_id: int) -> None:
         with self._lock, _store_errors():
-            self.alarms.unshelve(alarm_id)
+            self.alarms.unshelve(alarm_id, actor=self.actor)
         self.monitor.poke()
 
     def new_baseline(self, characteristic: str, start_index: int, reason: str) -> None:
         with _store_errors():
-            self.monitor.new_baseline(characteristic, start_index, reason)
+            self.monitor.new_baseline(characteristic, start_index, reason,
+                                      actor=None if self.actor is None else str(self.actor))
 
     def close(self) -> None:
         self.store.close()

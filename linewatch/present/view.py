@@ -182,6 +182,8 @@ class LineSnapshot:
     flood_since: float | None = None
     flood_window: float = 600.0  # seconds the flood count is taken over
     problem: str = ""  # the collector's internal error, while it lasts ("" when none)
+    plant_down_since: float | None = None  # the plant link is down since then (None: up/none)
+    plant_waiting: int = 0  # entries the central database has not confirmed (while down)
 
 
 class LineActions(Protocol):

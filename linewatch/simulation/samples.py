@@ -54,9 +54,13 @@ class Built:
     rejected_lines: list[int]
     line_of: dict[str, list[int]] = field(default_factory=dict)  # per characteristic, per value
     subgroup: dict[str, int] = field(default_factory=dict)
+    point_lines: dict[str, list[int]] = field(default_factory=dict)  # per plotted point
 
     def lines_for(self, e: Expect) -> tuple[int, int]:
         """File lines of the plotted points first..last (a subgroup's line is its last row's)."""
+        if e.characteristic in self.point_lines:
+            points = self.point_lines[e.characteristic]
+            return points[e.first], points[min(e.last, len(points) - 1)]
         n = self.subgroup.get(e.characteristic, 1)
         lines = self.line_of[e.characteristic]
         return lines[(e.first + 1) * n - 1], lines[min((e.last + 1) * n, len(lines)) - 1]
@@ -69,6 +73,7 @@ class _Lines:
         self.out: list[bytes] = []
         self.line_of: dict[str, list[int]] = {}
         self.rejected: list[int] = []
+        self.data_rows: list[tuple[int, bool]] = []  # (line, gave values) of each data row
 
     def add(self, text: str | bytes, values: tuple[str, ...] = (), junk: bool = False) -> None:
         self.out.append(text if isinstance(text, bytes) else text.encode("utf-8"))
@@ -77,6 +82,19 @@ class _Lines:
             self.line_of.setdefault(name, []).append(line)
         if junk:
             self.rejected.append(line)
+        if values or junk:
+            self.data_rows.append((line, bool(values)))
+
+    def subgroup_lines(self, n: int) -> list[int]:
+        """The line of each subgroup of `n` consecutive data rows (its last good row's): a
+        junk row keeps its place, so its subgroup is one value short; the trailing incomplete
+        subgroup is left out."""
+        out = []
+        for k in range(len(self.data_rows) // n):
+            good = [line for line, kept in self.data_rows[k * n:(k + 1) * n] if kept]
+            if good:
+                out.append(good[-1])
+        return out
 
     def data(self) -> bytes:
         return b"".join(x if x.endswith(b"\n") else x + b"\n" for x in self.out)
@@ -116,7 +134,8 @@ def extrusion_wide(seed: int) -> Built:
         file="extrusion_wide.csv",
         title="Wide CSV: one row per tube section, three gauges",
         layout="wide, comma",
-        story="Diameter readings form subgroups of 5 consecutive rows. A new material lot "
+        story="Diameter readings form subgroups of 5 consecutive data rows (a junk row keeps "
+        "its place, leaving its subgroup one value short). A new material lot "
         "arrives at data row 151 (diameter +2σ). The die wears from data row 61 to 180 (wall "
         "rises linearly by 4σ) and is changed after that. The melt-temperature heater band "
         "cycles between data rows 101 and 130 (σ × 3.5). Three junk rows and a restarted "
@@ -134,6 +153,7 @@ def extrusion_wide(seed: int) -> Built:
         rejected_lines=out.rejected,
         line_of=out.line_of,
         subgroup={"od_mm": 5},
+        point_lines={"od_mm": out.subgroup_lines(5)},
     )
 
 
@@ -280,6 +300,130 @@ def fill_scale(seed: int) -> Built:
     )
 
 
+def end_of_line_tester(seed: int) -> Built:
+    """Pass/fail per tube from the end-of-line leak tester, charted per hour of the clock."""
+    rng = np.random.default_rng(seed)
+    out = _Lines()
+    out.add("time,tube,result")
+    hours = 20
+    point_lines: list[int] = []
+    spellings = ("PASS", "PASS", "PASS", "pass", "OK")
+    junk = {(3, 40): "RETEST", (8, 5): "", (15, 70): "PASS?"}
+    tube = 0
+    for hour in range(hours):
+        fail_rate = 0.07 if 13 <= hour <= 16 else 0.02  # worn seal on the test fixture
+        at = hour * 3600.0 + float(rng.uniform(5, 25))
+        k = 0
+        while at < (hour + 1) * 3600.0 - 1:
+            tube += 1
+            result = ("FAIL", "NG", "fail")[tube % 3] if rng.random() < fail_rate else \
+                spellings[tube % len(spellings)]
+            out.add(f"{_stamp(at)},T{tube:06d},{result}", ("result",))
+            if (hour, k) in junk:
+                out.add(f"{_stamp(at + 1)},T{tube:06d}R,{junk[(hour, k)]}", junk=True)
+            k += 1
+            at += float(rng.uniform(20, 40))
+        point_lines.append(out.line_of["result"][-1])
+    return Built(
+        file="end_of_line_tester.csv",
+        title="Pass/fail CSV: the end-of-line leak tester",
+        layout="wide, comma, one row per tube",
+        story="Each tube is leak-tested once and logged PASS or FAIL (some rows say pass, OK, "
+        "NG or fail: results are read without regard to case). Subgroups are the tubes of "
+        "each hour of the clock (about 120, varying), charted as a p chart with limits from "
+        "the first 10 hours. About 2% fail; from the 14th hour to the 17th the fixture's "
+        "seal is worn and 7% fail. Three junk rows: results that are neither pass nor fail "
+        "(RETEST, empty, PASS?).",
+        data=out.data(),
+        expects=[Expect("leak-test", "p", "we1", 13, 16, "worn fixture seal: 7% fail")],
+        quiet={"leak-test": 13},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+        point_lines={"result": point_lines},
+    )
+
+
+def vision_station(seed: int) -> Built:
+    """Surface defects found by the vision station in each 5-minute block of frames."""
+    rng = np.random.default_rng(seed)
+    out = _Lines()
+    out.add("time,coil,frames,defects")
+    n = 160
+    frames = rng.integers(180, 261, n)
+    rate = np.full(n, 0.02)
+    rate[100:115] = 0.06  # die-lip build-up scores the surface
+    defects = rng.poisson(rate * frames)
+    defects[140:148] = 0  # the camera's lamp failed: it sees nothing
+    junk = {30: ("220", "n/a"), 75: ("0", "3"), 125: ("210", "-1")}
+    for i in range(n):
+        coil = f"C{4100 + i // 40:05d}"
+        out.add(f"{_stamp(300 * i)},{coil},{frames[i]},{defects[i]}", ("defects",))
+        if i in junk:
+            f, d = junk[i]
+            out.add(f"{_stamp(300 * i + 150)},{coil},{f},{d}", junk=True)
+    return Built(
+        file="vision_station.csv",
+        title="Defect counts CSV: the surface vision station",
+        layout="wide, comma, one row per 5-minute block",
+        story="Each row counts the surface defects the camera found in the frames it "
+        "inspected in five minutes (180 to 260 frames: the line speed varies), charted as a "
+        "u chart (defects per frame) with limits from the first 60 rows. About 0.02 defects "
+        "per frame; rows 101–115: build-up on the die lip scores the surface (0.06 per frame); "
+        "rows 141–148: the lamp failed and the camera reports no defect at all. Three junk "
+        "rows: a text count, 0 frames and a negative count.",
+        data=out.data(),
+        expects=[
+            Expect("surface-defects", "u", "we1", 100, 114, "die-lip build-up: 3 × the rate"),
+            Expect("surface-defects", "u", "we4", 140, 152, "lamp failed: no defect seen"),
+        ],
+        quiet={"surface-defects": 100},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
+SHIFT_AT = 400  # data row (0-based) from which the cooled die zone thickens the wall
+
+
+def wall_cooling(seed: int) -> Built:
+    """A sustained 1σ shift: the same wall readings charted three ways (CUSUM, EWMA, the
+    Western Electric rules), with the gauge's known centre and σ."""
+    rng = np.random.default_rng(seed)
+    n = 600
+    wall = WALL.mean + WALL.sigma * rng.standard_normal(n)
+    wall[SHIFT_AT:] += 1.0 * WALL.sigma  # die heater zone 3 cools: the wall thickens, stays
+    out = _Lines()
+    out.add("time,coil,wall_mm")
+    names = ("wall_mm",)
+    for i in range(n):
+        out.add(f"{_stamp(2 * i)},C{3300 + i // 100:05d},{wall[i]:.4f}", names)
+    return Built(
+        file="wall_cooling.csv",
+        title="A small sustained shift: one wall gauge charted three ways",
+        layout="wide, comma",
+        story=f"The wall gauge's readings (known centre {WALL.mean:g} mm, σ {WALL.sigma:g} "
+        f"mm) are charted three times over: with the CUSUM (`wall-cusum`), the EWMA "
+        f"(`wall-ewma`) and the Western Electric rules (`wall-we`). At data row "
+        f"{SHIFT_AT + 1} die heater zone 3 cools and the wall thickens by 1σ to the end of "
+        f"the file. The detection-power table predicts about 10 points to find the shift for "
+        f"CUSUM and EWMA, about 9 for the Western Electric rules, but a false alarm every "
+        f"92 points before it for those (every 465–500 for CUSUM and EWMA). The seed was "
+        f"picked so that this one run shows that typical outcome; "
+        f"`tests/integration/cli/test_small_shift_sample.py` holds it to the table.",
+        data=out.data(),
+        expects=[
+            Expect("wall-cusum", "cusum", "cusum", SHIFT_AT, SHIFT_AT + 30,
+                   "zone 3 cools: wall +1σ"),
+            Expect("wall-ewma", "ewma", "ewma", SHIFT_AT, SHIFT_AT + 30,
+                   "zone 3 cools: wall +1σ"),
+            Expect("wall-we", "individuals", "we2", SHIFT_AT, n - 1, "zone 3 cools: wall +1σ"),
+        ],
+        quiet={"wall-cusum": SHIFT_AT, "wall-ewma": SHIFT_AT},
+        rejected_lines=out.rejected,
+        line_of={k: out.line_of["wall_mm"] for k in ("wall-cusum", "wall-ewma", "wall-we")},
+    )
+
+
 # Which builder, with which seed, makes which file; the config for each is config/<stem>.toml.
 SPEEDS = (20.0, 22.0, 18.0, 21.0, 19.0)  # line speed set points tried, m/min, 3 rows each
 
@@ -332,6 +476,9 @@ SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "wall_station_semicolon": (wall_station, 43),
     "lab_long": (lab_long, 14),
     "fill_scale": (fill_scale, 90),
+    "end_of_line_tester": (end_of_line_tester, 1),
+    "vision_station": (vision_station, 3),
+    "wall_cooling": (wall_cooling, 39),
     "lot_change_speed": (lot_change, 26),
 }
 
@@ -344,6 +491,8 @@ CHARACTERISTIC_COLUMNS = {
     "burst-pressure": "burst_bar",
     "fill-weight": "fill_g",
     "seal-temperature": "seal_c",
+    "leak-test": "result",
+    "surface-defects": "defects",
 }
 
 
@@ -355,10 +504,14 @@ def build(stem: str, seed: int | None = None) -> Built:
     built.line_of = {
         name: built.line_of[col] for name, col in CHARACTERISTIC_COLUMNS.items()
         if col in built.line_of
-    }
+    } or built.line_of  # a sample that names its characteristics itself
     built.subgroup = {
         name: built.subgroup[col] for name, col in CHARACTERISTIC_COLUMNS.items()
         if col in built.subgroup
+    }
+    built.point_lines = {
+        name: built.point_lines[col] for name, col in CHARACTERISTIC_COLUMNS.items()
+        if col in built.point_lines
     }
     return built
 
@@ -389,8 +542,9 @@ def readme_section(stem: str, built: Built) -> str:
     quiet = ", ".join(f"{name} before point {idx}" for name, idx in built.quiet.items())
     rows.append(f"Quiet (no signal on any chart): {quiet}.")
     rows.append("")
-    rows.append(f"Rejected lines: {', '.join(str(x) for x in built.rejected_lines)}.")
-    rows.append("")
+    if built.rejected_lines:
+        rows.append(f"Rejected lines: {', '.join(str(x) for x in built.rejected_lines)}.")
+        rows.append("")
     return "\n".join(rows)
 
 
@@ -408,9 +562,11 @@ noise around the change (a run that started before the change counts too). The w
 from how each file was built (`linewatch/simulation/samples.py`, fixed seeds); regenerate with
 `python -m linewatch.simulation.samples sample_feeds`.
 
-Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; a
-moving range takes the index of the later of its two points); lines count file lines from 1,
-header included. Limits come from each config's `baseline` (the quiet first part).
+Indices count plotted points from 0 (for the diameter, one point per subgroup of 5 rows; for
+the leak tester, one per hour of the clock; for the vision station, one per row; a moving
+range takes the index of the later of its two points); lines count file lines from 1, header
+included (a subgroup's line is its last row's). Limits come from each config's `baseline`
+(the quiet first part).
 
 """
 

@@ -216,84 +216,11 @@ class AuditTrail:
         with self.store.snapshot():  # entries and head from one commit, whoever writes now
             entries = self.entries()
             head = self.store.meta.get(_HEAD_KEY)
-        prev = GENESIS
-        expected_seq = 1
-        count = 0
-        keyed_from: int | None = None
-        with_key = 0  # keyed entries whose MAC was recomputed
-        foreign: set[str] = set()  # ids of keys we do not hold
-        unchecked = 0  # keyed entries whose MAC we cannot recompute (links still checked)
-        for e in entries:
-            count += 1
-            if e.seq != expected_seq:
-                return Verdict(
-                    False,
-                    expected_seq,
-                    f"entry {expected_seq} is missing (the chain jumps to {e.seq})",
-                )
-            if e.prev_hash != prev:
-                return Verdict(
-                    False, e.seq, f"entry {e.seq} does not follow entry {e.seq - 1} (link broken)"
-                )
-            fields = (prev, e.seq, e.at, e.actor, e.action, e.subject, e.payload)
-            if e.key_id is None:
-                if keyed_from is not None:
-                    return Verdict(
-                        False, e.seq,
-                        f"entry {e.seq} carries no key although entries from {keyed_from} on "
-                        "were signed with one (re-hashed without the key)",
-                    )
-                if entry_hash(*fields) != e.hash:
-                    return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
-            else:
-                keyed_from = e.seq if keyed_from is None else keyed_from
-                if self._key is not None and e.key_id == self.key_id:
-                    if not hmac.compare_digest(entry_mac(self._key, *fields), e.hash):
-                        return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
-                    with_key += 1
-                elif self._key is not None:
-                    return Verdict(
-                        False, e.seq,
-                        f"entry {e.seq} is signed with another key (id {e.key_id}) than the one "
-                        f"given (id {self.key_id}): a wrong key file, or the trail was re-signed "
-                        "by someone else",
-                    )
-                else:
-                    foreign.add(e.key_id)
-                    unchecked += 1
-            prev = e.hash
-            expected_seq += 1
-        if head is not None:
-            head_seq, _, head_hash = head.partition(":")
-            if int(head_seq) != count or head_hash != prev:
-                first = count + 1 if int(head_seq) > count else int(head_seq)
-                return Verdict(
-                    False,
-                    first,
-                    f"the trail ends at entry {count} but entry {head_seq} was the last written "
-                    "(entries removed from the end)",
-                )
-        elif count:
-            return Verdict(False, count, "the record of the newest entry is missing")
-        if self._key is not None and count and not with_key:
-            # a collector started with the key signs its first entry at once; a trail with
-            # none signed has never seen the key or was re-hashed without it
-            return Verdict(
-                False, None,
-                f"none of the {count} entries is signed with the key given: the trail was "
-                "re-hashed without the key, or the key was never used on this store",
-            )
-        message = f"{count} entries, chain intact"
-        checks = ["chain"]
-        if with_key:
-            checks.append("key")
-            message += (f"; {with_key} {'entry' if with_key == 1 else 'entries'} signed with "
-                        f"the key check{'s' if with_key == 1 else ''} out")
-        if foreign:
-            message += (
-                f"; {unchecked} signed entries could not be checked without their key "
-                f"(id {', '.join(sorted(foreign))}): only their links were"
-            )
+        verdict = walk_chain(entries, head, self._key)
+        if not verdict.ok:
+            return verdict
+        count, with_key, message = verdict.entries, verdict.signed_checked, verdict.message
+        checks = verdict.checks.split(" + ") if verdict.checks != "chain only" else ["chain"]
         newest: Anchor | None = None
         mine: list[Anchor] = []
         if anchors is not None:
@@ -380,3 +307,91 @@ class AuditTrail:
                 }
                 out.write(json_safe(json.dumps(record, ensure_ascii=False)) + "\n")
         return out.getvalue()
+
+
+def walk_chain(entries: Sequence[AuditEntry], head: str | None, key: bytes | None) -> Verdict:
+    """Walk a chain (in sequence order) and its recorded head (`<seq>:<hash>`, None when
+    missing); with `key`, recompute the MACs of the entries signed with it. The one check of a
+    chain, whether the entries come from the line's store or from the central database."""
+    key_id = key_id_of(key) if key is not None else None
+    prev = GENESIS
+    expected_seq = 1
+    count = 0
+    keyed_from: int | None = None
+    with_key = 0  # keyed entries whose MAC was recomputed
+    foreign: set[str] = set()  # ids of keys we do not hold
+    unchecked = 0  # keyed entries whose MAC we cannot recompute (links still checked)
+    for e in entries:
+        count += 1
+        if e.seq != expected_seq:
+            return Verdict(
+                False,
+                expected_seq,
+                f"entry {expected_seq} is missing (the chain jumps to {e.seq})",
+            )
+        if e.prev_hash != prev:
+            return Verdict(
+                False, e.seq, f"entry {e.seq} does not follow entry {e.seq - 1} (link broken)"
+            )
+        fields = (prev, e.seq, e.at, e.actor, e.action, e.subject, e.payload)
+        if e.key_id is None:
+            if keyed_from is not None:
+                return Verdict(
+                    False, e.seq,
+                    f"entry {e.seq} carries no key although entries from {keyed_from} on "
+                    "were signed with one (re-hashed without the key)",
+                )
+            if entry_hash(*fields) != e.hash:
+                return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
+        else:
+            keyed_from = e.seq if keyed_from is None else keyed_from
+            if key is not None and e.key_id == key_id:
+                if not hmac.compare_digest(entry_mac(key, *fields), e.hash):
+                    return Verdict(False, e.seq, f"entry {e.seq} ({e.action}) was altered")
+                with_key += 1
+            elif key is not None:
+                return Verdict(
+                    False, e.seq,
+                    f"entry {e.seq} is signed with another key (id {e.key_id}) than the one "
+                    f"given (id {key_id}): a wrong key file, or the trail was re-signed "
+                    "by someone else",
+                )
+            else:
+                foreign.add(e.key_id)
+                unchecked += 1
+        prev = e.hash
+        expected_seq += 1
+    if head is not None:
+        head_seq, _, head_hash = head.partition(":")
+        if int(head_seq) != count or head_hash != prev:
+            first = count + 1 if int(head_seq) > count else int(head_seq)
+            return Verdict(
+                False,
+                first,
+                f"the trail ends at entry {count} but entry {head_seq} was the last written "
+                "(entries removed from the end)",
+            )
+    elif count:
+        return Verdict(False, count, "the record of the newest entry is missing")
+    if key is not None and count and not with_key:
+        # a collector started with the key signs its first entry at once; a trail with
+        # none signed has never seen the key or was re-hashed without it
+        return Verdict(
+            False, None,
+            f"none of the {count} entries is signed with the key given: the trail was "
+            "re-hashed without the key, or the key was never used on this store",
+        )
+    message = f"{count} entries, chain intact"
+    checks = ["chain"]
+    if with_key:
+        checks.append("key")
+        message += (f"; {with_key} {'entry' if with_key == 1 else 'entries'} signed with "
+                    f"the key check{'s' if with_key == 1 else ''} out")
+    if foreign:
+        message += (
+            f"; {unchecked} signed entries could not be checked without their key "
+            f"(id {', '.join(sorted(foreign))}): only their links were"
+        )
+    label = " + ".join(checks) if len(checks) > 1 else "chain only"
+    return Verdict(True, None, message, label, count, with_key)
+

@@ -32,6 +32,7 @@ if TYPE_CHECKING:
     from linewatch.store.meta import Meta
     from linewatch.store.points import History
     from linewatch.store.requests import BaselineRequests
+    from linewatch.store.stepped_points import SteppedPoints
 
 DB_NAME = "linewatch.db"
 BUSY_TIMEOUT_MS = 10_000
@@ -247,6 +248,13 @@ class Store:
         from linewatch.store.requests import BaselineRequests
 
         return BaselineRequests(self)
+
+    @cached_property
+    def stepped(self) -> SteppedPoints:
+        """Points of charts whose limits step, each with its own limits."""
+        from linewatch.store.stepped_points import SteppedPoints
+
+        return SteppedPoints(self)
 
     @cached_property
     def meta(self) -> Meta:

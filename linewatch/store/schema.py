@@ -221,4 +221,51 @@ MIGRATIONS: tuple[str, ...] = (
     DELETE FROM meta
         WHERE substr(key, 1, 14) = 'phase-request:' OR substr(key, 1, 17) = 'baseline-request:';
     """,
+    # 10: the outbox of a line with a plant link: one entry per committed change of a forwarded
+    # table (entered by triggers that `store/outbox.py` creates when the link is set up), and
+    # the position up to which the central database has confirmed them; requests from the
+    # central database carried out here, so each is carried out once.
+    """
+    CREATE TABLE outbox (
+        seq INTEGER PRIMARY KEY AUTOINCREMENT,
+        tbl TEXT NOT NULL,
+        key TEXT NOT NULL,
+        op  TEXT NOT NULL CHECK (op IN ('put', 'drop'))
+    );
+    CREATE TABLE outbox_position (
+        id       INTEGER PRIMARY KEY CHECK (id = 1),
+        sent     INTEGER NOT NULL DEFAULT 0,
+        armed_at REAL
+    );
+    INSERT INTO outbox_position (id, sent) VALUES (1, 0);
+    CREATE TABLE plant_requests (
+        central_id INTEGER PRIMARY KEY,
+        action     TEXT NOT NULL,
+        state      TEXT NOT NULL CHECK (state IN ('done', 'failed')),
+        result     TEXT NOT NULL,
+        settled_at REAL NOT NULL,
+        reported   INTEGER NOT NULL DEFAULT 0 CHECK (reported IN (0, 1))
+    );
+    """,
+    # 11: points of charts whose limits step (subgroups of varying size, attribute charts):
+    # the plotted statistic with its subgroup size and its own limits, which raw readings
+    # alone cannot give back; NULL limits while the phase's baseline is forming.
+    """
+    CREATE TABLE stepped_points (
+        characteristic TEXT NOT NULL,
+        chart          TEXT NOT NULL,
+        idx            INTEGER NOT NULL,
+        value          REAL NOT NULL,
+        n              REAL NOT NULL,
+        center         REAL,
+        ucl            REAL,
+        lcl            REAL,
+        sigma          REAL,
+        phase          INTEGER NOT NULL,
+        line           INTEGER NOT NULL,
+        file           TEXT,
+        time           TEXT,
+        PRIMARY KEY (characteristic, chart, idx)
+    ) WITHOUT ROWID;
+    """,
 )

@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING
 from linewatch.cli.options import AuditOptions, ExportOptions, VerifyOptions
 from linewatch.domain.clock import parse_since
 from linewatch.domain.errors import LinewatchError
+from linewatch.domain.safe_text import visible
 
 if TYPE_CHECKING:
     from linewatch.config.model import Config
@@ -115,6 +116,39 @@ def _verify(store: Store, options: VerifyOptions, config: Config | None) -> int:
     return 1
 
 
+def _verify_central(options: VerifyOptions) -> int:
+    """`audit verify --plant URL --line NAME`: the line's chain as the central database holds
+    it; 0 intact, 1 broken."""
+    from linewatch.plant.audit_copy import verify_central
+    from linewatch.plant.central import session
+    from linewatch.plant.url import redact
+    from linewatch.store.audit import load_key
+
+    if not options.plant or not options.line:
+        raise LinewatchError("--plant URL and --line NAME go together")
+    if options.anchor:
+        raise LinewatchError("--anchor checks a line's own store; leave it out with --plant")
+    key_file = options.key
+    if key_file is None and options.config:
+        from linewatch.config.loading import load_config
+
+        key_file = load_config(options.config).monitor.audit_key_file
+    key = load_key(key_file) if key_file else None
+    with session(options.plant) as conn:
+        verdict = verify_central(conn, options.line, key)
+    where = f"line {visible(options.line)} in {redact(options.plant)}"
+    if verdict.ok:
+        print(f"audit trail intact ({where}): {verdict.message}")
+        if key is None:
+            print("  key: no key given (--key or -c CONFIG with monitor.audit_key_file): "
+                  "signed entries were checked by their links only")
+        print(f"checked: {verdict.checks}, as forwarded by the line")
+        return 0
+    at = f" at entry {verdict.first_broken}" if verdict.first_broken is not None else ""
+    print(f"audit trail BROKEN{at} ({where}): {verdict.message}")
+    return 1
+
+
 _LEVELS = {
     "chain only": "accidental damage and naive edits are caught; a trail emptied, shortened or "
                   "re-hashed by someone with write access is not: set "
@@ -133,6 +167,8 @@ def run(options: AuditOptions) -> int:
     """verify: exit 0 when intact, 1 when broken (naming the first broken entry); export: 0."""
     from linewatch.cli.commands._store_args import open_existing
 
+    if isinstance(options, VerifyOptions) and (options.plant or options.line):
+        return _verify_central(options)
     since = None
     if isinstance(options, ExportOptions) and options.since:
         since = parse_since(options.since)  # a bad --since changes nothing: before the store

@@ -20,17 +20,26 @@ from linewatch.config.selection import (
     load_optional_config,
     select_characteristics,
 )
-from linewatch.domain.errors import BadLimits, LinewatchError, NotEnoughData
-from linewatch.domain.jsonl import dumps, limits_record, not_charted_record, rejected_record
+from linewatch.domain.errors import BadLimits, ChartDataError, LinewatchError, NotEnoughData
+from linewatch.domain.jsonl import (
+    detector_limits_record,
+    dumps,
+    limits_record,
+    not_charted_record,
+    rejected_record,
+)
 from linewatch.domain.records import Rejected
 from linewatch.domain.safe_text import json_safe
 from linewatch.engine.batch import HistoryResult, analyse_history
+from linewatch.engine.detectors.chart_limits import detector_limits
 from linewatch.engine.setup import ChartSetup
 
 if TYPE_CHECKING:
     from linewatch.cli.commands.check_investigate import SideData
+    from linewatch.cli.commands.check_subgroups import SteppedAnalysis
     from linewatch.engine.phases import PhasedHistory
     from linewatch.engine.setting_regression import SettingRegression
+    from linewatch.present.power_view import PowerTable
 
 
 @dataclass(slots=True)
@@ -52,6 +61,7 @@ class Analysis:
     result: HistoryResult
     summary: dict[str, Any]
     setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
+    power: PowerTable | None = None  # detection power of the rule set, known limits
     phased: PhasedHistory | None = None  # the phases, when asked for (`result` is then theirs)
     regression: SettingRegression | None = None  # on the --versus setting
 
@@ -121,6 +131,27 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
     return record
 
 
+def _with_power(record: dict[str, Any], setup: ChartSetup) -> PowerTable:
+    """Add the detection power (`arl_by_shift`, and per shift of the individual values where
+    subgroups are charted) to a summary record; the table for the text report."""
+    from linewatch.engine.budget.power import detection_power
+    from linewatch.present.power_table import arl_by_shift, power_table, rule_set_name
+
+    table = power_table(rule_set_name(setup), setup.rules, setup.detectors,
+                        setup.subgroup_size)
+    record["arl_by_shift"] = arl_by_shift(table)
+    if setup.subgroup_size > 1:
+        record["arl_by_shift_of_values"] = arl_by_shift(table, "values")
+    record["arl_by_shift_simulated"] = table.simulated
+    if setup.detectors:  # the in-control run length of the whole set, detectors included
+        zero = detection_power(setup.rules, setup.detectors, (0.0,))[0]
+        record["arl0"] = zero.arl if math.isfinite(zero.arl) else None
+        record["arl0_method"] = zero.method
+        record["arl0_std_error"] = zero.std_error
+        record["false_alarms_per_1000"] = table.false_alarms_per_1000
+    return table
+
+
 @dataclass(frozen=True, slots=True)
 class NotCharted:
     """A characteristic that could not be charted (too few values, σ̂ = 0, limits not finite),
@@ -133,18 +164,19 @@ class NotCharted:
 
 def analyse(
     options: CheckOptions,
-) -> tuple[list[Analysis], list[Rejected], list[NotCharted]]:
+) -> tuple[list[Analysis | SteppedAnalysis], list[Rejected], list[NotCharted]]:
     """Read the logs `options` names and chart every selected characteristic; those that
     cannot be charted are returned with the reason instead of stopping the others."""
+    from linewatch.cli.commands.check_subgroups import analyse_rows, analyse_short, needs_rows
+
     config = load_optional_config(options.config)
     chart = options.chart
     logs = list(options.logs)
     feeds = [feed_for_log(config, p, chart) for p in logs]
-    wanted = None
-    if chart.columns:
-        wanted = [cc.column if (cc := config.characteristic(c)) else c for c in chart.columns]
-    elif config.characteristics:
-        wanted = [c.column for c in config.characteristics]
+    chosen = None  # known before reading when named or declared
+    if chart.columns or chart.count_column or chart.result_column or config.characteristics:
+        chosen = select_characteristics(config, chart, None)
+    wanted = None if chosen is None else [c.column for c in chosen if not needs_rows(c)]
     from linewatch.cli.commands.check_investigate import (
         SideData,
         investigate,
@@ -153,42 +185,68 @@ def analyse(
     )
 
     side, beside = SideData(), side_names(options, config)
-    cols, rejected = _read_all(logs, feeds, wanted, side, beside)
-    chars = select_characteristics(config, chart, [c for c in cols if c not in beside])
-    if not chars:
+    cols: dict[str, Column] = {}
+    rejected: list[Rejected] = []
+    if wanted != []:
+        cols, rejected = _read_all(logs, feeds, wanted, side, beside)
+    if chosen is None:  # the phase and setting columns are read beside, never charted
+        chosen = select_characteristics(config, chart, [c for c in cols if c not in beside])
+        grouping = {c.subgroup_by for c in chosen}
+        chosen = [c for c in chosen if c.column not in grouping]  # a sample id is no value
+    if not chosen:
         raise LinewatchError("no numeric column to chart (name one with --column)")
-    out: list[Analysis] = []
+    out: list[Analysis | SteppedAnalysis] = []
     skipped: list[NotCharted] = []
-    for c in chars:
-        col = cols[c.column]
+    resort = False  # rows rejected by another reading are merged into file order
+    for c in chosen:
         setup = chart_setup(c, None)
+        if needs_rows(c):
+            got, more = analyse_rows(c, setup, logs, feeds)
+            seen = set(rejected)
+            rejected += [r for r in more if r not in seen]
+            resort = True
+            if isinstance(got, tuple):
+                skipped.append(NotCharted(c.name, got[0], got[1]))
+            else:
+                out.append(got)
+            continue
+        col = cols[c.column]
+        investigating = wants_investigation(options, c)
         problem = ""
         try:
+            short = analyse_short(c, setup, col, rejected, feeds)
+            if short is not None:  # rejected rows left subgroups short: stepped limits
+                out.append(short)
+                continue
             result: HistoryResult | None = analyse_history(col.values, setup)
-        except (NotEnoughData, BadLimits) as exc:
-            if not wants_investigation(options, c):  # a phase may still have enough
+        except (NotEnoughData, BadLimits, ChartDataError) as exc:
+            if not investigating or isinstance(exc, ChartDataError):
                 skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
                 continue
-            result, problem = None, str(exc)
-        try:
-            a = Analysis(c, col, result, {}, setup)  # type: ignore[arg-type]
-            if wants_investigation(options, c):
+            result, problem = None, str(exc)  # a phase may still have enough
+        a = Analysis(c, col, result, {}, setup)  # type: ignore[arg-type]
+        if investigating:
+            try:
                 investigate(a, options, side)
-        except (NotEnoughData, BadLimits) as exc:
-            skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
-            continue
+            except (NotEnoughData, BadLimits) as exc:
+                skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+                continue
         if a.result is None:
             skipped.append(NotCharted(c.name, int(col.values.shape[0]), problem))
             continue
         a.summary = _summary(col.values, c, setup, a.result, len(rejected))
+        a.power = _with_power(a.summary, setup)
         out.append(a)
     if not out and skipped:  # nothing could be charted: the one-line error, as before
         raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
             f"{n.characteristic}: {n.problem}" for n in skipped))
+    if resort:
+        order = {name: i for i, name in enumerate(dict.fromkeys(r.file for r in rejected))}
+        rejected.sort(key=lambda r: (order[r.file], r.line))
     return out, rejected, skipped
 
 
-def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
+def _signal_lines(a: Analysis | SteppedAnalysis, with_file: bool) -> list[str]:
     """Signal records as JSON text, formatted directly from the firing table: the same text
     `dumps(signal_record())` gives (a test holds them equal), without a json.dumps call each.
     With several logs each record also names the `file` its row came from."""
@@ -203,6 +261,9 @@ def _signal_lines(a: Analysis, with_file: bool) -> list[str]:
         tails = [f',"file":{files[k]}}}' for k in col.file_index[t.row].tolist()]
     else:
         tails = ["}"] * len(lines)
+    if t.side is not None:  # a detector's firing says its side, before the file
+        sides = {1: ',"side":"up"', -1: ',"side":"down"', 0: ""}
+        tails = [sides[d] + tail for d, tail in zip(t.side.tolist(), tails, strict=True)]
     out = []
     for i, c, r, line, v, tail in zip(t.index.tolist(), t.chart.tolist(), t.rule.tolist(),
                                       lines, t.value.tolist(), tails, strict=True):
@@ -233,6 +294,10 @@ def _emit(text: str, output: str | None) -> None:
 
 
 def run(options: CheckOptions) -> int:
+    if options.compare_rules is not None:
+        from linewatch.cli.commands import compare_rules
+
+        return compare_rules.run(options)
     analyses, rejected, skipped = analyse(options)
     several_files = len(options.logs) > 1
     chunks: list[str] = []
@@ -242,15 +307,26 @@ def run(options: CheckOptions) -> int:
 
         write(render_page(analyses, rejected, skipped, options))
     elif options.format == "jsonl":
+        from linewatch.cli.commands.check_points import point_lines, stepped_limit_lines
+
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
         lines += [dumps(not_charted_record(n.characteristic, n.values, n.problem))
                   for n in skipped]
         for a in analyses:
-            for lim in (a.result.limits.location, a.result.limits.dispersion):
-                lines.append(dumps(limits_record(a.config.name, lim)))
+            if isinstance(a, Analysis):
+                for lim in (a.result.limits.location, a.result.limits.dispersion):
+                    lines.append(dumps(limits_record(a.config.name, lim)))
+                for det in a.setup.detectors:
+                    dl = detector_limits(det, a.result.limits.location)
+                    lines.append(dumps(detector_limits_record(a.config.name, dl, dl.varies,
+                                                              dl.parameters)))
+            else:
+                lines.extend(stepped_limit_lines(a))
             lines.extend(_signal_lines(a, several_files))
+            if options.points:
+                lines.extend(point_lines(a, several_files))
             lines.append(dumps(a.summary))
-            if a.phased is not None or a.regression is not None:
+            if isinstance(a, Analysis) and (a.phased is not None or a.regression is not None):
                 from linewatch.cli.commands.check_records import investigation_records
 
                 lines.extend(dumps(r) for r in investigation_records(a))

@@ -13,6 +13,7 @@ from linewatch.present.figures import fmt_ppm
 
 if TYPE_CHECKING:
     from linewatch.cli.commands.check import Analysis, NotCharted
+    from linewatch.cli.commands.check_subgroups import SteppedAnalysis
     from linewatch.domain.records import Rejected
     from linewatch.engine.setup import Firing
 
@@ -31,18 +32,26 @@ def _f(
     return f"{x:.{digits}g}" if abs(x) < 1e5 else f"{x:.6g}"
 
 
-def _rule_text(analysis: Analysis, rule_id: str) -> str:
-    spec = next((s for s in analysis.setup.rules if s.id == rule_id), None)
+def _rule_text(analysis: Analysis | SteppedAnalysis, rule_id: str) -> str:
+    specs = (*analysis.setup.rules, *analysis.setup.detectors)
+    spec = next((s for s in specs if s.id == rule_id), None)
     return spec.describe() if spec else rule_id
 
 
-def render_text(analyses: list[Analysis], rejected: list[Rejected], several_files: bool,
-                skipped: list[NotCharted] | None = None) -> str:
+def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejected],
+                several_files: bool, skipped: list[NotCharted] | None = None) -> str:
     """The whole report as one string; each characteristic that could not be charted gets
     one line with the reason."""
+    from linewatch.cli.commands.check import Analysis
+
     out: list[str] = []
     w = out.append
     for a in analyses:
+        if not isinstance(a, Analysis):  # limits that step: their own layout
+            from linewatch.cli.commands.check_stepped_text import render_stepped
+
+            out += render_stepped(a, several_files)
+            continue
         c, res, s = a.config, a.result, a.summary
         unit = f" [{visible(c.unit)}]" if c.unit else ""
         w(f"== {visible(c.name)}{unit}: {s['points']} values, subgroup size {c.subgroup_size}")
@@ -71,7 +80,8 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
                 if several_files:
                     file = a.column.files[int(a.column.file_index[f.row])]
                     where = f"{visible(file)}:{where[5:]}"
-                w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}")
+                side = f" ({f.side})" if f.side else ""
+                w(f"      point {f.index:>7}  {where:<24} value {_f(f.value)}{side}")
             if len(firings) > MAX_LISTED:
                 w(f"      … and {len(firings) - MAX_LISTED} more")
         w(f"   mean {_f(s.get('mean'))}  SD {_f(s.get('stdev'))}  95% CI of mean "
@@ -93,8 +103,13 @@ def render_text(analyses: list[Analysis], rejected: list[Rejected], several_file
             approx = "≈ " if how.startswith("simulation") else ""
             words = {"markov": "exact Markov chain"}.get(how, how.replace("simulation",
                                                                          "seeded simulation"))
+            words = words.replace("markov (", "exact Markov chain, ")
             w(f"   false-alarm budget: in-control ARL {approx}{s['arl0']:.1f}{spread} points "
               f"({words}); about {s['false_alarms_per_1000']:.2f} false alarms per 1,000 points")
+        if a.power is not None:
+            from linewatch.present.power_view import table_lines
+
+            out.extend(table_lines(a.power))
         if a.phased is not None or a.regression is not None:
             from linewatch.cli.commands.check_text_phases import investigation_lines
 

@@ -12,7 +12,7 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any
 
 from linewatch.cli.options import WatchOptions
-from linewatch.config.model import Config, FeedConfig
+from linewatch.config.model import CharacteristicConfig, Config, FeedConfig
 from linewatch.config.selection import (
     JSON_SUFFIXES,
     apply_overrides,
@@ -24,6 +24,21 @@ from linewatch.domain.errors import LinewatchError
 if TYPE_CHECKING:
     from linewatch.pipeline.monitor import Monitor
     from linewatch.pipeline.plan import WatchPlan
+    from linewatch.present.face import MonitorFace
+    from linewatch.present.view import LineActions
+
+
+def _refuse_what_watch_cannot_chart(chars: list[CharacteristicConfig],
+                                    feeds: list[FeedConfig]) -> None:
+    """Sample ids and pass/fail results are text columns, which a live tail keeps for
+    delimited logs with a header (wide layout) only: say so rather than chart nothing."""
+    texts = [c for c in chars if c.subgroup_by or c.result_column]
+    other = [f.layout for f in feeds if f.layout != "wide"]
+    if texts and other:
+        raise LinewatchError(
+            f"{texts[0].name}: watch reads sample ids and pass/fail results from delimited "
+            f"logs with a header (layout wide), not from {other[0]} feeds; `linewatch check` "
+            "reads finished logs of other layouts")
 
 
 def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
@@ -48,14 +63,20 @@ def build_plan(options: WatchOptions, config: Config) -> WatchPlan:
             "nothing to watch: name a file or a quoted glob, or a config with [[feed]] entries"
         )
     chars = select_characteristics(config, chart, None) if (
-        chart.columns or config.characteristics) else []
-    columns = [c.column for c in chars] if chars else None
+        chart.columns or chart.count_column or chart.result_column or config.characteristics
+    ) else []
+    _refuse_what_watch_cannot_chart(chars, feeds)
+    from linewatch.pipeline.stepped_rows import columns_read
+
+    reads = [columns_read(c) for c in chars]
+    columns = list(dict.fromkeys(n for numeric, _ in reads for n in numeric)) if chars else None
+    texts = list(dict.fromkeys(t for _, text in reads for t in text))
     baseline = chart.baseline or config.monitor.baseline
     asked = [c.column for c in chars] if chart.columns else None
     return WatchPlan(config=config, feeds=feeds, characteristics=chars, columns=columns,
                      baseline=baseline,
                      overrides=functools.partial(apply_overrides, overrides=chart),
-                     asked=asked)
+                     asked=asked, text_columns=texts)
 
 
 def run(options: WatchOptions, title: str = "") -> int:
@@ -117,6 +138,17 @@ def summaries(monitor: Monitor) -> list[dict[str, Any]]:
             rec = {"type": "summary", "characteristic": name, "points": len(values),
                    "read": monitor.counts.get(name, 0), "rejected": monitor.rejected}
             rec.update({k: v for k, v in s.items() if k != "points"})
+            if c.is_attribute:  # a mean of 0/1 results is no figure to show: p̄ or ū is
+                from linewatch.present.attribute_figures import (
+                    attribute_capability,
+                    capability_record,
+                )
+
+                cap = attribute_capability(store, c)
+                for key in ("mean", "stdev", "cp", "cpk", "pp", "ppk"):
+                    rec.pop(key, None)
+                if cap is not None:
+                    rec["attribute"] = capability_record(cap)
             out.append(rec)
     finally:
         store.close()
@@ -140,15 +172,35 @@ class HookProblems:
             self.kept.append(record)
 
 
+def browser_face(monitor: Monitor) -> tuple[MonitorFace, LineActions, str]:
+    """The screen's source, actions and title: in a browser served by `linewatch serve`, the
+    signed-in user acts (audited with the browser's address) or every action is refused."""
+    from linewatch.present.browser_session import READ_ONLY_TITLE, ReadOnlyActions, browser_session
+    from linewatch.present.face import MonitorFace
+    from linewatch.store.actor import Actor
+
+    session = browser_session()
+    if session is None:
+        face = MonitorFace(monitor)
+        return face, face, monitor.title
+    # the screen's top line says whose view it is (the plan's title names the line there)
+    name = monitor.title.removeprefix("linewatch · ").removeprefix("linewatch")
+    if session.acting and session.user:
+        monitor.plan.title = " · ".join(p for p in (name, session.user) if p)
+        face = MonitorFace(monitor, actor=Actor(session.user, session.address))
+        return face, face, monitor.title
+    monitor.plan.title = " · ".join(p for p in (name, READ_ONLY_TITLE) if p)
+    return MonitorFace(monitor), ReadOnlyActions(), monitor.title
+
+
 def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool) -> int:
     """The Textual screen over a monitor running on a background thread."""
     from linewatch.pipeline.monitor import Monitor
-    from linewatch.present.face import MonitorFace
     from linewatch.runtime.exiting import exit_later, on_forced_exit
 
     hook_problems = HookProblems()
     monitor = Monitor(plan, state_dir, emit=hook_problems, poll_seconds=poll)
-    face = MonitorFace(monitor)
+    face, actions, title = browser_face(monitor)
     stop = threading.Event()
     worker = threading.Thread(target=monitor.run, args=(stop,), name="collector", daemon=True)
     worker.start()
@@ -167,7 +219,7 @@ def run_screen(plan: WatchPlan, state_dir: Path, poll: float | None, bell: bool)
             registered above still run after a grace period and the process ends."""
             exit_later(code, HANGUP_GRACE)
 
-        return run_app(face, face, bell=bell, title=monitor.title, on_hang_up=arm_last_resort)
+        return run_app(face, actions, bell=bell, title=title, on_hang_up=arm_last_resort)
     finally:
         forget()
         stop_collecting()

@@ -109,7 +109,10 @@ def test_subgroups_leave_out_a_trailing_incomplete_one(tmp_path):
         (["{log}", "--lsl", "11", "--usl", "9"], "--lsl must be below --usl"),
         (["{log}", "--baseline", "500"], "needed"),
         (["{log}", "--rules", "n9"], "unknown rule"),
-        (["{log}", "--rules", "we1,cusum"], "cusum cannot be charted"),  # not silently ignored
+        (["{log}", "--rules", "we1,cusum", "--cusum-h", "0"], "--cusum-h must be between"),
+        (["{log}", "--cusum-k", "0.5", "--cusum-h", "4", "--cusum-headstart", "4"],
+         "--cusum-headstart must be below --cusum-h"),
+        (["{log}", "--ewma-lambda", "nan"], "--ewma-lambda must be between"),
     ],
 )
 def test_usage_and_input_errors_are_one_line_and_exit_2(tmp_path, args, message):

@@ -10,6 +10,7 @@ from linewatch.domain.durations import format_duration
 from linewatch.domain.safe_text import visible
 from linewatch.faces.tui.formatting import to_acknowledge
 from linewatch.present import view
+from linewatch.present.plant_words import link_words
 
 
 def acknowledge_words(waiting: int, active: int, short: bool = False) -> str:
@@ -65,8 +66,10 @@ class TopBar(Static):
         width = self.size.width or (self.app.size.width if self.is_attached else 0)
         # narrower and narrower: first without the title, then with the alarm count in short
         for drop, short in ((0, False), (1, False), (1, True)):
+            link = link_words(line.plant_down_since, line.plant_waiting, short)
+            # the line keeps monitoring while its link is down: after what the operator must see
             parts = [*head[drop:], *alerts, (acknowledge_words(waiting, active, short), loud),
-                     *tail]
+                     *([(link, "bold")] if link else []), *tail]
             if not width or sum(len(p) + 3 for p, _ in parts) <= width:
                 break
         text = Text(no_wrap=True, overflow="ellipsis", end="")
