@@ -190,6 +190,12 @@ class Collector:
         times = batch.times.get(column) if batch.times else None
         first = eng.values_seen
         meta = [(batch.file, ln, times[k] if times else None) for k, ln in enumerate(lines)]
+        if first == 0 and eng.limits is not None and eng.phase == 0:
+            # known limits (centre and sigma given) hold from the first point: put them on
+            # the history with the first points, as estimated ones are when they form
+            self._record_limits(name, eng, eng.limits, now)
+            out.records.extend(limits_record(name, lim)
+                               for lim in (eng.limits.location, eng.limits.dispersion))
         live: LiveOutput = eng.push(values, meta)
         self.store.history.add_points(name, first, values, lines, batch.file, times, written)
         if live.problem is not None:  # this characteristic has no limits; the others go on

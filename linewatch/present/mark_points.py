@@ -4,7 +4,7 @@ that fired, so the faces draw marks without knowing any rule. Run where the pict
 
 from __future__ import annotations
 
-from linewatch.engine.rulebook import RULES
+from linewatch.engine.rulebook import DETECTORS, RULES
 from linewatch.present.marks import mark_of_kinds
 from linewatch.present.view import ChartView
 
@@ -17,7 +17,17 @@ def rule_ids(rules: str) -> list[str]:
 def point_mark(rules: str) -> str:
     """The letter marking a point whose rules fired ('we2' -> 'Z', 'n2,n1' -> 'B'); '?' for a
     rule id not in the rulebook, '' for none."""
-    return mark_of_kinds(RULES[r].kind if r in RULES else None for r in rule_ids(rules))
+    return mark_of_kinds(_kind(r) for r in rule_ids(rules))
+
+
+def _kind(rule: str) -> str | None:
+    """The pattern kind of a rule id; both detectors mark a small sustained shift."""
+    if rule in RULES:
+        return RULES[rule].kind
+    return SHIFT if rule in DETECTORS else None
+
+
+SHIFT = "shift"  # the detectors' kind of pattern (present.marks)
 
 
 def point_marks(rules: list[str]) -> list[str]:
@@ -27,7 +37,7 @@ def point_marks(rules: list[str]) -> list[str]:
 
 def rule_words(rule: str) -> str:
     """A rule in plain words, with its published parameters ('' for an unknown id)."""
-    spec = RULES.get(rule)
+    spec = RULES.get(rule) or DETECTORS.get(rule)
     return spec.describe() if spec else ""
 
 

@@ -14,6 +14,7 @@ from collections.abc import Iterable
 PATTERN_MARKS: dict[str, tuple[str, str]] = {
     "beyond": ("B", "beyond a control limit"),
     "k-of-m": ("Z", "several points far out in one zone"),
+    "shift": ("D", "a small sustained shift (EWMA or CUSUM)"),
     "side-run": ("S", "a run on one side of the centre line"),
     "trend": ("T", "a run steadily up or down"),
     "mixture": ("M", "a run avoiding the centre, both sides"),

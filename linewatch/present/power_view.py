@@ -66,22 +66,23 @@ def _unit_words(row: PowerRow, n: int) -> str:
         "(σ of values)" if row.unit == "values" else "(σ)")
 
 
-def table_lines(table: PowerTable, indent: str = "   ") -> list[str]:
-    """The table of one set across (fits 80 columns): shifts, then points to detect."""
-    out = [f"{indent}detection power of {table.rule_set} "
-           "(known limits, shift from the start of a phase):"]
+def table_lines(table: PowerTable, indent: str = "   ", label: int = LABEL_WIDTH,
+                cell: int = CELL_WIDTH) -> list[str]:
+    """The table of one set across (fits 80 columns as it is): shifts, then points to
+    detect; `label` and `cell` narrow it for a pane."""
+    out = [f"{indent}detection power of {table.rule_set} (known limits):"]
     for row in table.rows:
         words = f"mean shift {_unit_words(row, table.subgroup_size)}"
-        cells = "".join(f"{_shift_text(s):>{CELL_WIDTH}}" for s in row.shifts)
-        out.append(f"{indent}  {words:<{LABEL_WIDTH}}{cells}")
-        cells = "".join(f"{run_length_text(a, s):>{CELL_WIDTH}}"
+        cells = "".join(f"{_shift_text(s):>{cell}}" for s in row.shifts)
+        out.append(f"{indent}  {words:<{label}}{cells}")
+        cells = "".join(f"{run_length_text(a, s):>{cell}}"
                         for a, s in zip(row.run_lengths, row.simulated, strict=True))
-        out.append(f"{indent}  {'points to detect':<{LABEL_WIDTH}}{cells}")
-    out.append(f"{indent}  false alarms per 1,000 points in control (1,000/ARL at 0): "
+        out.append(f"{indent}  {'points to detect':<{label}}{cells}")
+    out.append(f"{indent}  false alarms per 1,000 points in control (1,000/ARL₀): "
                f"{table.false_alarms_per_1000:.2f}")
     if table.simulated:
-        out.append(f"{indent}  {APPROX}: seeded simulation, standard error within "
-                   f"{100 * table.worst_relative_error:.1f}%; others exact Markov chains")
+        out.append(f"{indent}  {APPROX}: seeded simulation (standard error within "
+                   f"{100 * table.worst_relative_error:.1f}%); others exact")
     return out
 
 

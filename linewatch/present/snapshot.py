@@ -161,8 +161,10 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
     if detail:
         from linewatch.present.close_up import with_figures
+        from linewatch.present.detector_charts import add_detector_charts
 
         with_figures(v)
+        add_detector_charts(store, c, v, points * max(n, 1))
     # the label follows the condition (the gauge recovered), not the unacknowledged alarm
     v.stuck = any(a.rule == "stuck" and a.active for a in open_alarms)
     v.state = _state(v, open_alarms, bool(limits_hist), now)

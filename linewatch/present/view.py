@@ -16,6 +16,8 @@ from linewatch.domain.alarm_states import OPEN_STATES as OPEN_STATES
 from linewatch.domain.alarm_states import AlarmKind as AlarmKind
 from linewatch.domain.alarm_states import AlarmState as AlarmState
 from linewatch.domain.records import AlarmView as AlarmView
+from linewatch.present.detector_view import DetectorChartView as DetectorChartView
+from linewatch.present.power_view import PowerTable as PowerTable
 
 UNACKNOWLEDGED = AlarmState.UNACKNOWLEDGED
 ACKNOWLEDGED = AlarmState.ACKNOWLEDGED
@@ -141,6 +143,9 @@ class CharacteristicView:
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
     pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
     figures: CloseUpFigures | None = None  # box plot and trend, in a detail read only
+    # the EWMA / CUSUM charts and the rule set's detection power, in a detail read only
+    detectors: list[DetectorChartView] = field(default_factory=list)
+    power: PowerTable | None = None
 
 
 @dataclass(slots=True)

@@ -161,6 +161,9 @@ def render_html(report: ShiftReport) -> str:
             spec = (f" · spec {reading(c.lsl, c.decimals)} … {reading(c.usl, c.decimals)} "
                     f"{c.unit}")
         kind = f"X̄ of {c.subgroup_size}" if c.subgroup_size > 1 else "individuals"
+        for det in c.detector_traces:  # under the location chart, each its own
+            svg += (f'<p class="figures">{escape(det.chart)}: hollow squares where it fired'
+                    f"</p>{control_chart_svg(det, title=f'{c.name} {det.chart}')}")
         out.append(
             f'<section class="char"><h3>{escape(c.name)}</h3><p class="figures">{escape(kind)} '
             f"chart · {len(c.trace.values)} points{escape(spec)}</p>{svg}</section>"

@@ -101,6 +101,7 @@ class CharacteristicPart:
     alarms_by_rule: dict[str, int]
     trace: ChartTrace
     decimals: int | None = None  # how its readings are shown (figures.reading_decimals)
+    detector_traces: list[ChartTrace] = field(default_factory=list)  # EWMA, CUSUM C⁺ and C⁻
 
 
 @dataclass(slots=True)
@@ -415,8 +416,15 @@ def build_report(
             location, values, points[0].index if points else 0, n,
             [lim for lim in history if lim.chart == location], mine, period_episodes,
         )
+        from linewatch.report.detector_traces import detector_traces
+
+        fired = store.alarms.signals_over(name, trace.indices[0]).get(location, {}) \
+            if trace.indices else {}
+        detectors = detector_traces(cfg, trace, [lim for lim in history
+                                                 if lim.chart == location], fired)
         parts.append(
             CharacteristicPart(
+                detector_traces=detectors,
                 name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
                 mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
                 cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,

@@ -55,5 +55,8 @@ def test_a_sustained_shift_raises_one_alarm_on_the_location_chart(tmp_path: Path
         marks = store.alarms.signals_over("od", 0)
         assert set(marks) <= {"individuals", "moving-range"}  # marks sit on the charted points
         assert any("cusum" in r for r in marks["individuals"].values())
+        # known limits are on the history from the first point, for the charts to draw
+        charts_with_limits = {r.limits.chart for r in store.history.limits_history("od")}
+        assert charts_with_limits == {"individuals", "moving-range"}
     finally:
         store.close()

@@ -5,15 +5,22 @@ from __future__ import annotations
 
 from linewatch.engine.rulebook import RULES
 from linewatch.present import view
-from linewatch.present.mark_points import mark_chart
+from linewatch.present.mark_points import SHIFT, mark_chart, point_mark
 from linewatch.present.marks import PATTERN_MARKS
 
 
 def test_each_kind_of_the_rulebook_has_one_letter_of_its_own() -> None:
-    kinds = {spec.kind for spec in RULES.values()}
+    kinds = {spec.kind for spec in RULES.values()} | {SHIFT}  # SHIFT: both detectors
     assert kinds == set(PATTERN_MARKS)
     letters = [letter for letter, _ in PATTERN_MARKS.values()]
     assert len(set(letters)) == len(letters)
+
+
+def test_the_detectors_mark_a_small_shift_with_their_own_letter() -> None:
+    # a point where the CUSUM fired together with we3 shows the more urgent zone pattern
+    assert point_mark("cusum") == point_mark("ewma") == PATTERN_MARKS[SHIFT][0]
+    assert point_mark("cusum,we3") == "Z"
+    assert point_mark("we4,ewma") == PATTERN_MARKS[SHIFT][0]
 
 
 def test_a_chart_is_marked_point_by_point_with_a_legend_of_its_rules() -> None:

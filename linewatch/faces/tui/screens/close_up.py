@@ -106,12 +106,14 @@ class CloseUpScreen(LineScreen):
         with CloseUpBody(id="closeup-body"), Horizontal(id="closeup-grid"):
             with Vertical(id="closeup-charts"):
                 yield ChartPane(g, id="closeup-location")
+                yield Vertical(id="closeup-detectors")
                 yield ChartPane(g, id="closeup-dispersion")
                 yield Static(id="closeup-cursor")
             with Vertical(id="closeup-figures"):
                 yield Static(id="closeup-box")
                 yield Static(id="closeup-phases")
                 yield Static(id="closeup-trend")
+                yield Static(id="closeup-power")
                 yield Static(id="closeup-alarms")
         yield KeyFooter()
 
@@ -207,8 +209,24 @@ class CloseUpScreen(LineScreen):
             return
         self._draw_top_bar(cv)
         self._draw_cursor()
+        self._draw_detectors(cv)
         self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
         self._draw_figures()
+
+    def _draw_detectors(self, cv: view.CharacteristicView) -> None:
+        """One pane per EWMA / CUSUM chart under the location chart (mounted as they come)."""
+        from linewatch.faces.tui.widgets.detector_chart import DetectorPane
+
+        box = self.query_one("#closeup-detectors", Vertical)
+        panes = list(box.query(DetectorPane))
+        if len(panes) != len(cv.detectors):
+            box.remove_children()
+            panes = [DetectorPane(self.lw.glyphs, id=f"closeup-detector-{d.detector}")
+                     for d in cv.detectors]
+            if panes:
+                box.mount_all(panes)
+        for pane, chart in zip(panes, cv.detectors, strict=True):
+            pane.chart = chart
 
     def _draw_top_bar(self, cv: view.CharacteristicView) -> None:
         unit = f" [{cv.unit}]" if cv.unit else ""
@@ -235,6 +253,9 @@ class CloseUpScreen(LineScreen):
                 "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
         ))
         self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
+        power = self.query_one("#closeup-power", Static)
+        power.display = cv.power is not None
+        power.update(self._power_text(cv))
         self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
 
     def _alarms_text(self, name: str) -> Text:
@@ -295,6 +316,18 @@ class CloseUpScreen(LineScreen):
             text.append("marks: ", palette.LABEL)
             text.append("; ".join(f"{mark}={visible(rule)} {words}".strip()
                                   for rule, (mark, words) in sorted(legend.items())))
+        return text
+
+    def _power_text(self, cv: view.CharacteristicView) -> Text:
+        """The rule set's detection power: expected points to a signal after a shift."""
+        from linewatch.present.power_view import table_lines
+
+        if cv.power is None:
+            return Text("")
+        lines = table_lines(cv.power, indent="", label=24, cell=7)
+        text = Text(end="")
+        text.append(visible(lines[0]) + "\n", "bold")
+        text.append("\n".join(visible(line[2:]) for line in lines[1:]))
         return text
 
     def _trend_text(self, cv: view.CharacteristicView) -> Text:
