@@ -82,13 +82,13 @@ class CharacteristicConfig:
     result_column: str | None = None
     fail_values: list[str] = field(default_factory=lambda: list(DEFAULT_FAIL_VALUES))
     pass_values: list[str] = field(default_factory=lambda: list(DEFAULT_PASS_VALUES))
+    phase_by: str | None = None  # check: a column whose every change of value starts a phase
+    practical_share: float = 10.0  # percent of the tolerance a change must take to matter
 
     @property
     def sizes_vary(self) -> bool:
         """Subgroups by sample id or clock window: their sizes follow the data."""
         return self.subgroup_by is not None or self.subgroup_window is not None
-    phase_by: str | None = None  # check: a column whose every change of value starts a phase
-    practical_share: float = 10.0  # percent of the tolerance a change must take to matter
 
     @property
     def effective_dispersion(self) -> Dispersion:
