@@ -72,7 +72,7 @@ def _read_all(
 ) -> tuple[dict[str, Column], list[Rejected]]:
     """Read every log into per-characteristic columns plus the rejected rows (and into `side`
     the text of `side_names` per line)."""
-    from linewatch.feeds.whole_file import read_log
+    from linewatch.feeds.whole_file import read_logs
 
     # check reports lines, never time stamps: they are left unread
     if side is not None and side_names:
@@ -87,8 +87,7 @@ def _read_all(
             side.by_file.append(texts)
             side.decimal_comma.append(comma)
     else:
-        batches = [read_log(p, feed, columns, times=False)
-                   for p, feed in zip(paths, feeds, strict=True)]
+        batches = read_logs(paths, feeds, columns, times=False)
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)
