@@ -54,8 +54,8 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
     ways = p.add_mutually_exclusive_group()
     ways.add_argument(
         "--subgroup-size", type=int, metavar="N",
-        help="consecutive data rows per subgroup (1-25; a rejected row leaves its subgroup "
-        "one value short)"
+        help="consecutive data rows per subgroup (1-25; more for --result; a rejected row "
+        "leaves its subgroup one value short)"
     )
     ways.add_argument("--subgroup-by", metavar="COLUMN",
                       help="consecutive rows with one value of COLUMN (a sample id) form a "

@@ -30,7 +30,7 @@ from linewatch.config.model import (
     MonitorConfig,
     PlantConfig,
 )
-from linewatch.config.overrides import parse_window
+from linewatch.config.overrides import MAX_PARTS, parse_window
 from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
@@ -351,7 +351,7 @@ def _read_characteristic(
         lsl=lsl,
         usl=usl,
         target=r.number("target"),
-        subgroup_size=r.integer("subgroup_size", 1, 25),
+        subgroup_size=r.integer("subgroup_size", 1, MAX_PARTS),
         dispersion=r.optional_choice("dispersion", DISPERSIONS),
         baseline=r.optional_integer("baseline", 2, 10_000_000),
         center=center,
