@@ -374,6 +374,8 @@ def _read_characteristic(
         result_column=r.column_name("result_column"),
         fail_values=r.string_list("fail_values"),
         pass_values=r.string_list("pass_values"),
+        phase_by=r.string("phase_by"),
+        practical_share=_practical_share(r),
     )
     problem = chart_problem(char)
     if problem is not None:
@@ -401,6 +403,15 @@ def _read_detector(path: str, r: _Reader, detector: str) -> dict[str, float]:
     except RuleListError as exc:
         raise reader.fail("headstart", str(exc)) from None
     return out
+
+
+def _practical_share(r: _Reader) -> float:
+    """Percent of the tolerance: more than 0, at most 100."""
+    value = r.number("practical_share")
+    if value is None or not 0 < value <= 100:
+        raise r.fail("practical_share", "must be a percentage of the tolerance, more than 0 "
+                     "and at most 100")
+    return value
 
 
 def parse_config(text: str, source: str = "<config>") -> Config:
