@@ -29,11 +29,19 @@ def run(options: PlantBoardOptions) -> int:
     from linewatch.plant.overview import line_records
     from linewatch.plant.url import ENV_URL, plant_url
 
-    if not options.no_ui:
-        raise LinewatchError("the plant board screen is not in this version yet: use --no-ui")
     url = plant_url(options.url) if options.url is None else options.url.strip()
     if not url:
         raise LinewatchError(f"give the central database's URL (--url), or set {ENV_URL}")
+    if not options.no_ui:
+        from linewatch.faces.tui.plant_board import PlantBoardApp
+        from linewatch.present.plant_face import CentralFace
+
+        face = CentralFace(url)
+        face.lines()  # a database that cannot be read is told now, in one line
+        try:
+            return int(PlantBoardApp(face).run() or 0)
+        finally:
+            face.close()
     with session(url) as conn:
         require_current(conn, url)
         records = line_records(conn, time.time())

@@ -58,8 +58,3 @@ def test_each_line_record_agrees_with_the_lines_own_store(plant_db: str, tmp_pat
     finally:
         for line in lines:
             line.stop()
-
-
-def test_the_screen_is_not_offered_yet(plant_db: str) -> None:
-    out = run("plant", "board", "--url", plant_db)
-    assert out.returncode == 2 and "--no-ui" in out.stderr
