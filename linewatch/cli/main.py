@@ -318,6 +318,15 @@ def _add_plant(sub: Any) -> None:
     p.add_argument("url", nargs="?", metavar="URL",
                    help="postgresql://USER@HOST/DB (default: LINEWATCH_PLANT_URL; a password "
                         "is better kept in ~/.pgpass or PGPASSWORD)")
+    p = psub.add_parser(
+        "board", help="every line at a glance, from the central database",
+        description="One row per line: state, alarms waiting by priority, the most urgent "
+        "one, flood, stale feeds, the link and the age of the newest data.")
+    p.add_argument("--url", metavar="URL", help="the central database (default: "
+                   "LINEWATCH_PLANT_URL)")
+    p.add_argument("--no-ui", action="store_true", help="print the lines once and exit")
+    p.add_argument("--format", choices=RECORD_FORMATS,
+                   help="text for people (default) or one JSON record a line")
 
 
 # (command, action) -> (the module whose run() does it, the name of its options record)
@@ -334,6 +343,7 @@ COMMANDS: dict[tuple[str | None, str | None], tuple[str, str]] = {
     ("audit", "export"): ("linewatch.cli.commands.audit", "ExportOptions"),
     ("report", None): ("linewatch.cli.commands.report", "ReportOptions"),
     ("plant", "init"): ("linewatch.cli.commands.plant_init", "PlantInitOptions"),
+    ("plant", "board"): ("linewatch.cli.commands.plant_board", "PlantBoardOptions"),
     ("simulate", None): ("linewatch.cli.commands.simulate", "SimulateOptions"),
     ("demo", None): ("linewatch.cli.commands.demo", "DemoOptions"),
     ("serve", None): ("linewatch.cli.commands.serve", "ServeOptions"),

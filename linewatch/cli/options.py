@@ -167,6 +167,15 @@ class PlantInitOptions:
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
+class PlantBoardOptions:
+    """`linewatch plant board [--url URL] --no-ui`"""
+
+    url: str | None = None  # default: LINEWATCH_PLANT_URL
+    no_ui: bool = False
+    format: RecordFormat = "text"
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
 class SimulateOptions:
     """`linewatch simulate --out DIR`"""
 

@@ -51,6 +51,7 @@ class JsonRows:
         # asked-for keys the file's first object lacked: said once, then skipped (not a
         # rejection on every row) until an object carries them
         self.absent: set[str] | None = None
+        self.long_rows = False  # an object named its characteristic (the name key)
 
     @property
     def ready(self) -> bool:
@@ -86,6 +87,7 @@ class JsonRows:
             out.reject(line_no, f"empty name in key '{nc}'")
             return
         self.names_seen[name] = None
+        self.long_rows = True
         if self.columns is not None and name not in self.columns:
             return
         raw = obj.get(self.feed.value_column)

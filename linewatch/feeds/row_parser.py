@@ -143,6 +143,12 @@ class RowParser:
                              self.expected)
 
     @property
+    def rows_named(self) -> bool:
+        """True when rows name their characteristic one by one (long CSV, JSON objects with
+        the name key), so no header says which characteristics the file holds."""
+        return self.feed.layout == "long" or self.json.long_rows
+
+    @property
     def ready(self) -> bool:
         """True once later rows no longer change what the parser extracts."""
         if self.feed.layout == "jsonl":

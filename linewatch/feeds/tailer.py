@@ -25,11 +25,12 @@ import glob
 import os
 import stat
 import time
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 from linewatch.config.model import FeedConfig
 from linewatch.domain.records import FeedEvent, FileState
+from linewatch.feeds.asked_names import AskedNames
 from linewatch.feeds.batch import Batch
 from linewatch.feeds.identity import (
     FINGERPRINT_BYTES,
@@ -320,8 +321,10 @@ class Tailer:
     `saved` maps paths to the states a previous run committed; `patterns` are extra patterns
     read with `default_feed` (wide CSV, detected delimiter, unless given); `shrink_grace` is
     how long a shortened file that still begins like ours may take to grow back; `expected`
-    names columns to look for in each file without limiting what is read (see RowParser);
-    `fast_block_bytes`: blocks at least this large take the whole-buffer path.
+    names columns to look for in each file without limiting what is read (see RowParser),
+    and, where rows name their characteristic, in all files together (`AskedNames`; names in
+    `found_before` are there already); `fast_block_bytes`: blocks at least this large take the
+    whole-buffer path.
     """
 
     def __init__(
@@ -337,6 +340,7 @@ class Tailer:
         expected: list[str] | None = None,
         fast_block_bytes: int = FAST_BLOCK_BYTES,
         text_columns: list[str] | None = None,
+        found_before: Iterable[str] = (),
     ) -> None:
         self.text_columns = list(text_columns or [])  # kept as text (wide CSV)
         self.shrink_grace = shrink_grace
@@ -357,6 +361,11 @@ class Tailer:
         self._patterns: list[tuple[str, FeedConfig]] = [(p, f) for f in feeds for p in f.paths]
         extra_feed = default_feed or FeedConfig(paths=list(patterns))
         self._patterns += [(p, extra_feed) for p in patterns]
+        # asked-for names no file holds, where rows name their characteristic (no header
+        # tells): said once every file was read to its end
+        named = [p for p, f in self._patterns if f.layout != "wide"]
+        self.asked = (AskedNames(self.expected, ", ".join(named), found_before)
+                      if self.expected and named else None)
         self._saved: dict[str, FileState] = dict(saved or {})
         self._followed: dict[str, _Followed] = {}
         self._feed_of: dict[str, FeedConfig] = {}
@@ -437,7 +446,26 @@ class Tailer:
             self._note_open(f, news=bool(out))
             if out and f.fd is not None:
                 spent += f.pos - (before if before is not None and before <= f.pos else 0)
+        if self.asked is not None and self.asked.listening:
+            events = self._asked_events(self.asked, chunks)
+            if events:
+                chunks.append(TailChunk(self.asked.where, None, None, events))
         return chunks
+
+    def _asked_events(self, asked: AskedNames, chunks: list[TailChunk]) -> list[FeedEvent]:
+        """What this poll's rows tell of the names asked for; once every file was read to its
+        end (nothing left waiting), the ones no file holds."""
+        events: list[FeedEvent] = []
+        for c in chunks:
+            f = self._followed.get(c.path)
+            if c.batch is not None and f is not None:
+                events += asked.met(c.path, [*c.batch.values, *f.parser.names_seen],
+                                    f.parser.rows_named)
+        if asked.missing is None and not any(c.more for c in chunks):
+            for path, f in self._followed.items():  # also files resumed with no news since
+                events += asked.met(path, f.parser.names_seen, f.parser.rows_named)
+            events += asked.read_through()
+        return events
 
     # -- handles ----------------------------------------------------------------------------
 

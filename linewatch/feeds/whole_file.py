@@ -49,11 +49,32 @@ def read_log(source: str, feed: FeedConfig, columns: list[str] | None = None, *,
     return parse_log_bytes(data, name, feed, columns, times=times)
 
 
+def read_logs(sources: list[str], feeds: list[FeedConfig], columns: list[str] | None = None,
+              *, times: bool = True) -> list[Batch]:
+    """`read_log` of several logs, each with its feed. Long rows name their characteristic one
+    by one, so one log may hold only some of `columns`: a name that no log holds is one error
+    once all are read, listing the characteristics they hold (a wide header lacking a column
+    is an error of its own file, as in `read_log`)."""
+    read = []
+    for source, feed in zip(sources, feeds, strict=True):
+        name, data = read_bytes(source)
+        read.append(_parse(data, name, feed, columns, times))
+    _check_names(read, columns)
+    return [batch for batch, _, _ in read]
+
+
 def parse_log_bytes(
     data: bytes, file: str, feed: FeedConfig, columns: list[str] | None = None, *,
     times: bool = True,
 ) -> Batch:
     """`read_log` on bytes already in memory."""
+    read = _parse(data, file, feed, columns, times)
+    _check_names([read], columns)
+    return read[0]
+
+
+def _parse(data: bytes, file: str, feed: FeedConfig, columns: list[str] | None,
+           times: bool) -> tuple[Batch, RowParser, FeedConfig]:
     parser = RowParser(feed, file, columns, require_columns=True, keep_times=times)
     if feed.layout == "jsonl":
         lines = data.split(b"\n")
@@ -64,12 +85,20 @@ def parse_log_bytes(
         batch = read_buffer(data, parser)
         if parser.header is None:
             raise FeedError(f"{file}: no header line")
-    if columns is not None and feed.layout != "wide":
-        missing = [c for c in columns if c not in batch.values]
-        if missing:
-            what = "characteristic" if feed.layout == "long" else "key"
-            found = ", ".join(parser.names_seen) or "none"
-            raise FeedError(
-                f"{file}: no {what} {', '.join(repr(c) for c in missing)} (found: {found})"
-            )
-    return batch
+    return batch, parser, feed
+
+
+def _check_names(read: list[tuple[Batch, RowParser, FeedConfig]],
+                 columns: list[str] | None) -> None:
+    """The names of `columns` that no log's rows name (long rows, JSON keys) raise FeedError
+    naming the logs and what they hold. Wide headers were checked as they were read."""
+    named = [(b, p, f) for b, p, f in read if f.layout != "wide"]
+    if columns is None or not named:
+        return
+    missing = [c for c in columns if not any(c in b.values for b, _, _ in read)]
+    if missing:
+        what = "characteristic" if any(f.layout == "long" for _, _, f in named) else "key"
+        found = ", ".join(dict.fromkeys(n for _, p, _ in named for n in p.names_seen)) or "none"
+        files = ", ".join(b.file for b, _, _ in named)
+        names = ", ".join(f"'{c}'" for c in missing)
+        raise FeedError(f"{files}: no {what} {names} ({what}s: {found})")

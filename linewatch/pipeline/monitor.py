@@ -10,6 +10,7 @@ plus feed/alarm records) through `emit`, and are told of changes through `subscr
 
 from __future__ import annotations
 
+import contextlib
 import os
 import threading
 import time
@@ -49,6 +50,7 @@ class Monitor:
         self.announcer = Announcer(self.store, self.alarms, plan.config.alarms, emit)
         self.instance = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
         self._listeners: list[Callable[[int], None]] = []
+        self._disarm_when_collecting = False
         self._version = 0
         self.loop = RoleLoop(
             self.store, self.alarms, plan, self.characteristics, self.announcer,
@@ -63,8 +65,9 @@ class Monitor:
     def _plant_link(self) -> PlantLink | None:
         """The forwarding thread when the config (or LINEWATCH_PLANT_URL) names a central
         database: the outbox is armed here, before anything is collected, so every commit
-        from now on is entered. Without a plant link an armed outbox is disarmed (its rows
-        would only pile up; joining again sends the whole store)."""
+        from now on is entered. Without a plant link an armed outbox is disarmed when this
+        instance becomes the collector (its rows would only pile up; joining again sends the
+        whole store)."""
         from linewatch.domain.errors import ConfigError
         from linewatch.pipeline.plant_link import PlantLink
         from linewatch.plant.url import plant_url
@@ -73,8 +76,9 @@ class Monitor:
         url = plant_url(self.config.plant.url)
         outbox = Outbox(self.store)
         if url is None:
-            if outbox.armed():
-                outbox.disarm()
+            # disarmed only once this instance collects: a viewer opened without the config
+            # must not stop the collector's forwarding
+            self._disarm_when_collecting = outbox.armed()
             return None
         if not self.config.plant.line:
             raise ConfigError(self.config.source or "(config)", "plant.line",
@@ -165,6 +169,14 @@ class Monitor:
         self._listeners.append(callback)
 
     def _changed(self) -> None:
+        if self._disarm_when_collecting and self.loop.role == "collector":
+            import sqlite3
+
+            from linewatch.store.outbox import Outbox
+
+            with contextlib.suppress(sqlite3.Error):  # tried again at the next change
+                Outbox(self.store).disarm()
+                self._disarm_when_collecting = False
         self._version += 1
         for cb in list(self._listeners):
             cb(self._version)

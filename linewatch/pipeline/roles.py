@@ -198,13 +198,17 @@ class RoleLoop:
         # One column list serves every feed; with several feeds each file holds only some of
         # the characteristics, so every numeric column is read and the unknown ones dropped.
         # Columns asked for by name are still looked for in every file, and a file lacking
-        # one says so (a `warning` feed event listing the columns it has).
+        # one says so (a `warning` feed event listing the columns it has); where rows name
+        # their characteristic, a name no file holds is said once all were read.
         columns = self.plan.columns if len(self.plan.feeds) == 1 else None
-        expected = self.plan.asked if columns is None else None
         stop = self._stop
+        stored = set(self.store.history.characteristics_with_points() if self.plan.asked
+                     else ())
         self.tailer = Tailer(self.plan.feeds, columns, saved,
                              should_stop=None if stop is None else stop.is_set,
-                             expected=expected, text_columns=self.plan.text_columns)
+                             expected=self.plan.asked, text_columns=self.plan.text_columns,
+                             found_before=[c.column for c in self.plan.characteristics
+                                           if c.name in stored])
         self.waker = Waker(self.tailer.patterns, poll_seconds=self.poll_seconds or 0.0)
         self.emit({"type": "role", "role": "collector", "instance": self.lease.instance_id})
 

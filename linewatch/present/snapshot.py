@@ -18,6 +18,7 @@ import numpy as np
 from linewatch.domain.records import FeedEvent
 from linewatch.engine.charts import chart_names, plotted_series
 from linewatch.feeds.health import times_text
+from linewatch.pipeline.stepped_rows import is_stepped
 from linewatch.present.mark_points import mark_chart
 from linewatch.present.view import (
     ACKNOWLEDGED,
@@ -126,6 +127,15 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
         v.last_value = float(values[-1])
         v.last_row_age = max(0.0, now - recs[-1].received_at)
         v.seconds_per_point = _seconds_per_point(recs, n)
+    if recs and is_stepped(c):  # points with their own limits, stored as the engine made them
+        from linewatch.present.stepped_view import fill_stepped
+
+        phase_starts = sorted({r.limits.start_index for r in limits_hist if r.limits.phase > 0})
+        fill_stepped(store, c, v, points, phase_starts)
+        if not c.is_attribute:
+            v.recent_mean = float(values.mean())
+        v.stale = v.last_row_age is not None and v.last_row_age > stale_after
+    elif recs:
         lv, li, dv, di = _plotted(values, first, n, c.effective_dispersion)
         first_plotted = int(min([*li[:1].tolist(), *di[:1].tolist()], default=0))
         # exactly the points at which a rule fired (an alarm also spans the quiet points
@@ -154,12 +164,15 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
 
     v.decimals = reading_decimals(c.decimals, c.lsl, c.usl, v.recent_sigma,
                                   [r.value for r in recs[-RESOLUTION_READINGS:]])
+    if v.attribute is not None:  # a proportion or rate, not a reading of the gauge
+        v.decimals = 4
     v.pending_phase_start = _pending_phase(store, c.name, limits_hist)
 
     v.limits_refused = store.ingest.limits_refused(c.name)
     if not limits_hist and not v.limits_refused:  # (refused: more points cannot help)
-        v.baseline_needed = max(0, (c.baseline or 25) - (v.points // max(n, 1)))
-    if detail:
+        plotted = len(v.location.values) if is_stepped(c) and v.location else v.points // max(n, 1)
+        v.baseline_needed = max(0, (c.baseline or 25) - plotted)
+    if detail and not c.is_attribute:  # (a box plot of 0/1 results says nothing)
         from linewatch.present.close_up import with_figures
         from linewatch.present.detector_charts import add_detector_charts
 
@@ -210,6 +223,11 @@ def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bo
     return STATE_OK
 
 
+# what is said of a pattern as a whole (a bounded expansion, names asked for that no file
+# holds): shown under the pattern even when it matches files
+PATTERN_NOTES = ("bounded", "warning", "found")
+
+
 def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
     """Health of every followed file, from the ingest state, points and feed events."""
     out = []
@@ -222,7 +240,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         "ORDER BY at, id", (day,))]
     names = list(files) + [e.file for e in events if e.file not in files
                            and e.kind not in ("stuck", "unstuck")
-                           and (e.kind == "bounded" or not _pattern_found(e.file, files))]
+                           and (e.kind in PATTERN_NOTES or not _pattern_found(e.file, files))]
     for path in dict.fromkeys(names):
         mine = [e for e in events if e.file == path]
         fv = FeedView(file=path)
@@ -244,7 +262,7 @@ def feed_views(store: Store, now: float, stale_after: float) -> list[FeedView]:
         # a no-header notice is past once the file got a header (a `header` event after it)
         headed = max((k for k, e in enumerate(mine) if e.kind == "header"), default=-1)
         fv.notes = [e.detail for k, e in enumerate(mine)
-                    if e.kind in ("warning", "no-header", "skipped", "bounded")
+                    if e.kind in ("warning", "found", "no-header", "skipped", "bounded")
                     and not (e.kind == "no-header" and k < headed)][-3:]
         fv.unread = store.ingest.unread_lines(path)
         fv.rejected += fv.unread

@@ -55,6 +55,31 @@ class ChartView:
     # `values` (present.marks), and what each rule that fired here means: id -> (mark, words)
     marks: list[str] = field(default_factory=list)
     legend: dict[str, tuple[str, str]] = field(default_factory=dict)
+    # limits step with each subgroup's size: `phase_limits` then holds one entry wherever the
+    # limits change, drawn as steps (phase separators come from `phase_starts` only)
+    steps: bool = False
+    sizes: list[float] = field(default_factory=list)  # each point's n (stepped charts)
+
+
+@dataclass(frozen=True, slots=True)
+class AttributeFigures:
+    """An attribute characteristic on the board and in the close-up: its newest proportion
+    (or rate) against that point's limits, and the overall figure with its exact 95%
+    interval (Cp and Cpk do not apply)."""
+
+    chart: str  # p, np, c, u, laney-p, laney-u
+    what: str  # "proportion nonconforming" or "defects per unit"
+    last: float | None  # the newest point's proportion or rate
+    center: float | None
+    ucl: float | None
+    lcl: float | None
+    overall: float | None = None
+    lower95: float | None = None
+    upper95: float | None = None
+    ppm: float | None = None
+    events: int = 0
+    exposure: float = 0.0
+    not_applicable: str = ""  # why Cp/Cpk are not shown
 
 
 @dataclass(slots=True)
@@ -143,6 +168,7 @@ class CharacteristicView:
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
     pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
     figures: CloseUpFigures | None = None  # box plot and trend, in a detail read only
+    attribute: AttributeFigures | None = None  # counts or pass/fail results (else None)
     # the EWMA / CUSUM charts and the rule set's detection power, in a detail read only
     detectors: list[DetectorChartView] = field(default_factory=list)
     power: PowerTable | None = None

@@ -8,6 +8,7 @@ Reports, for a run with forwarding and one without:
 - backlog: outbox entries a line committed that the central database has not applied yet,
   the worst line, sampled every second (max over the run, max over its last third: bounded
   means the second does not grow with the run);
+- CPU seconds used per collector process (the steadiest figure on a busy machine);
 - acknowledgement to central: an alarm acknowledged on a line (the shell command's code, in
   this process) until the central database shows it acknowledged (p50, p95).
 
@@ -174,6 +175,9 @@ def run(tmp: Path, lines: int, seconds: float, url: str | None) -> dict[str, obj
     for h in handles:
         h.close()
     time.sleep(3)
+    import psutil
+
+    cpu = sum(sum(psutil.Process(p.pid).cpu_times()[:2]) for p in procs)
     stop.set()
     for h in helpers:
         h.join(40)
@@ -186,6 +190,7 @@ def run(tmp: Path, lines: int, seconds: float, url: str | None) -> dict[str, obj
     third = [b for t, b in backlog if t >= start + 2 * seconds / 3]
     return {
         "signals": f"{len(delays)}/{len(spikes)}",
+        "collector_cpu_s_per_line": cpu / lines,
         "p50_ms": float(np.percentile(d, 50)) if len(d) else float("nan"),
         "p95_ms": float(np.percentile(d, 95)) if len(d) else float("nan"),
         "backlog_max": max((b for _, b in backlog), default=0),

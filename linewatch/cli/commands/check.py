@@ -65,11 +65,10 @@ def _read_all(
     paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
 ) -> tuple[dict[str, Column], list[Rejected]]:
     """Read every log into per-characteristic columns plus the rejected rows."""
-    from linewatch.feeds.whole_file import read_log
+    from linewatch.feeds.whole_file import read_logs
 
     # check reports lines, never time stamps: they are left unread
-    batches = [read_log(p, feed, columns, times=False)
-               for p, feed in zip(paths, feeds, strict=True)]
+    batches = read_logs(paths, feeds, columns, times=False)
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)

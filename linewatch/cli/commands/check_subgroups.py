@@ -293,7 +293,9 @@ def _summary(c: CharacteristicConfig, setup: ChartSetup, result: SteppedResult,
     }
     if leftover:
         record["left_out_values"] = leftover
-    if c.is_attribute:
+    if c.is_attribute:  # the sizes are the units inspected (parts tested), not rows
+        n = result.charts[0].sizes
+        record["subgroup_sizes"] = [float(n.min()), float(n.max())] if n.shape[0] else None
         record.update(_attribute_summary(c, result))
         return record
     from linewatch.engine.budget.rates import average_run_length

@@ -304,7 +304,7 @@ def test_user_errors_are_one_line_messages(tmp_path: Path) -> None:
         read_log(str(p), feed)
     long_feed = FeedConfig(paths=[], layout="long")
     p.write_text("time,characteristic,value\n06:00,od,25\n")
-    with pytest.raises(LinewatchError, match=r"'wall'.*found: od"):
+    with pytest.raises(LinewatchError, match=r"no characteristic 'wall' \(characteristics: od\)"):
         read_log(str(p), long_feed, ["wall"])
 
 

@@ -196,7 +196,7 @@ class BoardScreen(LineScreen):
                 cv.cpk_lower95,
                 cv.margin_sigma, cv.recent_mean, cv.stale, cv.stuck, cv.baseline_needed,
                 cv.limits_refused,
-                cv.pending_phase_start, tail,
+                cv.pending_phase_start, tail, cv.attribute,
                 format_age(self.lw.age_now(cv.last_row_age)))
 
     def _highlighted_name(self) -> str | None:

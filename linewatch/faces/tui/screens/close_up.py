@@ -210,7 +210,11 @@ class CloseUpScreen(LineScreen):
         self._draw_top_bar(cv)
         self._draw_cursor()
         self._draw_detectors(cv)
-        self.query_one("#closeup-dispersion", ChartPane).show(cv.dispersion)
+        dispersion = self.query_one("#closeup-dispersion", ChartPane)
+        dispersion.show(cv.dispersion)
+        # an attribute chart is one chart (its spread follows from the centre and each n):
+        # the location pane takes the room
+        dispersion.display = cv.attribute is None
         self._draw_figures()
 
     def _draw_detectors(self, cv: view.CharacteristicView) -> None:
@@ -239,24 +243,36 @@ class CloseUpScreen(LineScreen):
         cv = self.detail
         if cv is None or not self.drawable:  # a resize can queue this just before the screen goes
             return
-        figures = cv.figures
         width = max(30, self.query_one("#closeup-box", Static).content_size.width or 60)
+        if cv.attribute is not None:
+            self.query_one("#closeup-box", Static).update(attribute_text(cv.attribute))
+        else:
+            self._draw_box(cv, width)
+        if cv.attribute is not None and cv.location is not None and cv.location.phase_limits:
+            self.query_one("#closeup-phases", Static).update(attribute_phases(cv))
+        else:
+            self._draw_phases(cv)
+        self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
+        power = self.query_one("#closeup-power", Static)
+        power.display = cv.power is not None
+        power.update(self._power_text(cv))
+        self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
+
+    def _draw_phases(self, cv: view.CharacteristicView) -> None:
+        self.query_one("#closeup-phases", Static).update(Group(
+            Text("phases of limits", "bold"),
+            phase_table(cv.phases) if cv.phases else Text(
+                "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
+        ))
+
+    def _draw_box(self, cv: view.CharacteristicView, width: int) -> None:
+        figures = cv.figures
         box = draw_box_plot(figures.box if figures else None, cv.lsl, cv.usl, width,
                             self.lw.glyphs, cv.decimals)
         box.end = "\n"  # Textual counts newlines to size a Group
         heading = (f"last {figures.box_points} {figures.box_of} against the spec limits"
                    if figures else "box plot")
         self.query_one("#closeup-box", Static).update(Group(Text(heading, "bold"), box))
-        self.query_one("#closeup-phases", Static).update(Group(
-            Text("phases of limits", "bold"),
-            phase_table(cv.phases) if cv.phases else Text(
-                "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
-        ))
-        self.query_one("#closeup-trend", Static).update(self._trend_text(cv))
-        power = self.query_one("#closeup-power", Static)
-        power.display = cv.power is not None
-        power.update(self._power_text(cv))
-        self.query_one("#closeup-alarms", Static).update(self._alarms_text(cv.name))
 
     def _alarms_text(self, name: str) -> Text:
         """This characteristic's open alarms, so the close-up answers 'why is it red'."""
@@ -304,6 +320,8 @@ class CloseUpScreen(LineScreen):
             i = self.cursor
             idx = loc.indices[i] if i < len(loc.indices) else i
             mean_of = f" (mean of {cv.subgroup_size})" if cv.subgroup_size > 1 else ""
+            if loc.steps and i < len(loc.sizes):  # its own limits, from its own size
+                mean_of = f" (n {loc.sizes[i]:g})"
             text.append(f"cursor: {point_word(cv)} {idx} = "
                         f"{fmt_reading(loc.values[i], cv.decimals)}{mean_of}", "bold")
             rules = loc.rules[i] if i < len(loc.rules) else ""
@@ -401,3 +419,43 @@ class CloseUpScreen(LineScreen):
                      then=asked)
 
         self.app.push_screen(RestartPanel(cv.name, start, last), done)
+
+
+def attribute_text(a: view.AttributeFigures) -> Text:
+    """The capability of attribute data: the overall proportion (or rate) with its exact 95%
+    interval and ppm; Cp and Cpk do not apply, and the close-up says so."""
+    rate = a.what != "proportion nonconforming"
+    text = Text(end="")
+    text.append(f"{a.what} overall\n", "bold")
+    if a.overall is None or a.lower95 is None or a.upper95 is None:
+        text.append("no points yet\n", palette.LABEL)
+    else:
+        method = "exact Poisson" if rate else "Clopper-Pearson"
+        shown = (f"{a.overall:.4g}" if rate else f"{100 * a.overall:.3g}%")
+        low = f"{a.lower95:.4g}" if rate else f"{100 * a.lower95:.3g}%"
+        high = f"{a.upper95:.4g}" if rate else f"{100 * a.upper95:.3g}%"
+        text.append(f"{shown}  95% {low} to {high} ({method})\n")
+        what = "defects" if rate else "failed"
+        text.append(f"{a.events:,} {what} in {a.exposure:,.0f} "
+                    f"{'units' if rate else 'parts'}; {a.ppm or 0:,.0f} ppm\n", palette.LABEL)
+    text.append(f"{a.not_applicable}\n", palette.LABEL)
+    return text
+
+
+def attribute_phases(cv: view.CharacteristicView) -> Text:
+    """The phases of an attribute chart: where each starts and its centre line (the limits
+    step with each subgroup's size, so only the centre is one figure)."""
+    loc = cv.location
+    assert loc is not None
+    starts = [loc.phase_limits[0][0], *loc.phase_starts]
+    text = Text(end="")
+    text.append("phases of limits\n", "bold")
+    for k, start in enumerate(starts):
+        centre = next((c for s, c, *_ in reversed(loc.phase_limits) if s >= start), None)
+        if k + 1 < len(starts):
+            centre = next((c for s, c, *_ in loc.phase_limits if start <= s < starts[k + 1]),
+                          centre)
+        shown = "-" if centre is None else f"{centre:.4g}"
+        text.append(f"phase {k} from point {start}: CL {shown}; limits step with n\n")
+    return text
+

@@ -90,7 +90,9 @@ def phases_of(chart: ChartView) -> list[PhaseLines]:
 
 def separators_of(chart: ChartView, phases: list[PhaseLines]) -> list[int]:
     """Indices where a later phase starts (the first phase needs no separator)."""
-    starts = set(chart.phase_starts) | {p.start for p in phases}
+    # (limits that step with each subgroup's size change between phases of their own: only
+    # the real phase starts get a separator)
+    starts = set(chart.phase_starts) | (set() if chart.steps else {p.start for p in phases})
     first = phases[0].start if phases else (chart.indices[0] if chart.indices else 0)
     return sorted(s for s in starts if s > first)
 

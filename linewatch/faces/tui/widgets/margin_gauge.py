@@ -80,8 +80,52 @@ def cpk_figures(cv: CharacteristicView, wide: bool) -> Text:
     return text
 
 
+def percent(x: float | None, rate: bool) -> str:
+    """A proportion as a percentage, a rate per unit as a number."""
+    if x is None:
+        return "-"
+    return f"{x:.3g}" if rate else f"{100 * x:.2g}%" if x < 0.1 else f"{100 * x:.3g}%"
+
+
+def attribute_gauge(cv: CharacteristicView, width: int, glyphs: Glyphs) -> Text:
+    """Two lines for an attribute characteristic: the newest proportion (or rate) on a bar
+    from 0 with its centre and its limit, then the figure and that limit in words."""
+    a = cv.attribute
+    assert a is not None
+    rate = a.what != "proportion nonconforming"
+    width = max(5, width)
+    out = Text(end="")
+    if a.last is None or a.ucl is None or a.center is None:
+        out.append("-".center(width), palette.LABEL)
+        out.append("\nno limits yet", palette.LABEL)
+        return out
+    beyond = a.last > a.ucl or (a.lcl is not None and a.last < a.lcl)
+    style = palette.CPK_POOR if beyond else palette.CPK_GOOD
+    top = max(a.ucl * 1.25, a.last * 1.05, 1e-12)
+
+    def col(v: float) -> int:
+        return cell_of(v, 0.0, top, width)
+
+    cells = [(glyphs.track, palette.LABEL)] * width
+    for c in range(0, col(a.last) + 1):
+        cells[c] = (glyphs.band, style)
+    cells[col(a.center)] = (glyphs.mean, palette.CENTER)
+    cells[col(a.ucl)] = ("|", palette.LIMIT)
+    if a.lcl:
+        cells[col(a.lcl)] = ("|", palette.LIMIT)
+    for ch, st in cells:
+        out.append(ch, st)
+    name = ("rate " if rate else "fail ") if width >= 22 else ""
+    out.append(f"\n{name}{percent(a.last, rate)}", style)
+    out.append(f" UCL {percent(a.ucl, rate)}", palette.LIMIT)
+    return out
+
+
 def margin_gauge(cv: CharacteristicView, width: int, glyphs: Glyphs, wide: bool = False) -> Text:
-    """Two lines for the board: the bar with the margin in σ, then Cpk with its lower bound."""
+    """Two lines for the board: the bar with the margin in σ, then Cpk with its lower bound;
+    for attribute data the proportion (or rate) against its limit."""
+    if cv.attribute is not None:
+        return attribute_gauge(cv, width, glyphs)
     style = palette.cpk_style(cv.cpk)
     bar = gauge_bar(cv.recent_mean, cv.recent_sigma, cv.lsl, cv.usl, width - 6, glyphs, style)
     out = Text(end="")
