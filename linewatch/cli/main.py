@@ -13,9 +13,11 @@ from typing import Any
 
 from linewatch.config.choices import (
     ATTRIBUTE_CHART_NAMES,
+    CHECK_FORMATS,
     DECIMAL_MARKS,
     DISPERSIONS,
     EXPORT_FORMATS,
+    PHASE_LIMITS,
     RECORD_FORMATS,
     REPORT_FORMATS,
 )
@@ -52,8 +54,8 @@ def _add_chart_options(p: argparse.ArgumentParser) -> None:
     ways = p.add_mutually_exclusive_group()
     ways.add_argument(
         "--subgroup-size", type=int, metavar="N",
-        help="consecutive data rows per subgroup (1-25; a rejected row leaves its subgroup "
-        "one value short)"
+        help="consecutive data rows per subgroup (1-25; more for --result; a rejected row "
+        "leaves its subgroup one value short)"
     )
     ways.add_argument("--subgroup-by", metavar="COLUMN",
                       help="consecutive rows with one value of COLUMN (a sample id) form a "
@@ -106,6 +108,28 @@ def _add_detector_options(p: argparse.ArgumentParser) -> None:
                    "gives a fast initial response)")
 
 
+def _add_investigation_options(p: argparse.ArgumentParser) -> None:
+    """`check`'s phases, comparisons and regression on a setting."""
+    g = p.add_argument_group("phases and settings")
+    g.add_argument("--phase-by", metavar="COLUMN",
+                   help="start a new phase at every change of this column (a lot, die, shift)")
+    g.add_argument("--phase-at", metavar="POINT[,POINT...]",
+                   help="start new phases at these plotted points (as the signal list numbers "
+                        "them)")
+    g.add_argument("--limits", choices=PHASE_LIMITS,
+                   help="each phase its own Phase I limits (per-phase, default) or the first "
+                        "phase's carried over (first)")
+    g.add_argument("--practical-share", dest="practical_percent", type=float, metavar="PERCENT",
+                   help="a change of the mean this share of the tolerance or more counts as "
+                        "large enough to matter (default 10; our convention)")
+    g.add_argument("--versus", metavar="COLUMN",
+                   help="regress the characteristic on this setting column of the same log")
+    g.add_argument("--at", type=float, metavar="X", help="predict the characteristic at setting X")
+    g.add_argument("--target", type=float, metavar="Y",
+                   help="name the setting that puts the mean on Y (default: the config's target)")
+    g.add_argument("--degree", type=int, choices=(1, 2), help="1: a line (default); 2: quadratic")
+
+
 def _add_state_dir(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--state-dir",
@@ -136,8 +160,11 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("logs", nargs="*", metavar="LOG", help="CSV or JSON-lines file; - for stdin")
     _add_chart_options(p)
-    p.add_argument("--format", choices=RECORD_FORMATS,
-                   help="text for people (default) or one JSON record a line")
+    p.add_argument("--format", choices=CHECK_FORMATS,
+                   help="text for people (default), one JSON record a line, or the analysis "
+                        "page as one HTML or Markdown file")
+    p.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
+    _add_investigation_options(p)
     p.add_argument("--points", action="store_true",
                    help="with --format jsonl: also one record per plotted point, with its "
                    "subgroup size and limits")

@@ -10,7 +10,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from linewatch.config.choices import ExportFormat, RecordFormat, ReportFormat
+from linewatch.config.choices import (
+    CheckFormat,
+    ExportFormat,
+    PhaseLimits,
+    RecordFormat,
+    ReportFormat,
+)
 from linewatch.config.overrides import ChartOverrides
 from linewatch.domain.errors import LinewatchError
 
@@ -42,7 +48,16 @@ class CheckOptions:
     logs: tuple[str, ...] = ()
     config: str | None = None
     chart: ChartOverrides = field(default_factory=ChartOverrides)
-    format: RecordFormat = "text"
+    format: CheckFormat = "text"
+    output: str | None = None  # write the text, records or page here instead of stdout
+    phase_by: str | None = None  # a column whose every change of value starts a phase
+    phase_at: str | None = None  # plotted points that start a phase, comma-separated
+    limits: PhaseLimits = "per-phase"
+    versus: str | None = None  # a setting column to regress the characteristic on
+    at: float | None = None  # predict at this setting
+    target: float | None = None  # the setting that puts the mean here
+    degree: int = 1
+    practical_percent: float | None = None  # share of the tolerance that matters
     points: bool = False  # jsonl: one record per plotted point
     compare_rules: str | None = None  # rule sets whose detection power to print side by side
 
@@ -51,6 +66,33 @@ class CheckOptions:
             raise LinewatchError("check needs at least one LOG (or --compare-rules SET;SET)")
         if self.compare_rules is not None and self.logs:
             raise LinewatchError("--compare-rules reads no log: leave the LOGs out")
+        if self.phase_by is not None and self.phase_at is not None:
+            raise LinewatchError("--phase-by and --phase-at go one at a time")
+        self.phase_points()
+        if self.degree not in (1, 2):
+            raise LinewatchError(f"--degree must be 1 or 2, got {self.degree}")
+        for option, value in (("--at", self.at), ("--target", self.target)):
+            if value is not None and not math.isfinite(value):
+                raise LinewatchError(f"{option} must be a finite number, got {value}")
+        if (self.at is not None or self.degree != 1) and self.versus is None:
+            raise LinewatchError("--at and --degree need --versus COLUMN (the setting)")
+        if self.practical_percent is not None and not 0 < self.practical_percent <= 100:
+            raise LinewatchError("--practical-share must be more than 0 and at most 100 "
+                                 f"(percent of the tolerance), got {self.practical_percent}")
+
+    def phase_points(self) -> tuple[int, ...]:
+        """The plotted points --phase-at names (ascending, no repeats)."""
+        if not self.phase_at:
+            return ()
+        try:
+            points = sorted({int(p) for p in self.phase_at.split(",") if p.strip()})
+        except ValueError:
+            raise LinewatchError(f"--phase-at takes plotted point numbers separated by "
+                                 f"commas, got {self.phase_at!r}") from None
+        if any(p < 1 for p in points):
+            raise LinewatchError("--phase-at points must be 1 or more (point 0 always starts "
+                                 "the first phase)")
+        return tuple(points)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

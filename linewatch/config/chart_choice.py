@@ -24,6 +24,9 @@ def chart_problem(c: CharacteristicConfig) -> tuple[str, str] | None:
         key = "subgroup_by" if c.subgroup_by is not None else "subgroup_window"
         return (key, f"{key} and subgroup_size exclude each other: give one of "
                 "subgroup_size, subgroup_by, subgroup_window")
+    if c.result_column is None and c.subgroup_size > 25:
+        return ("subgroup_size", f"must be between 1 and 25 for measured values or counts, got "
+                f"{c.subgroup_size} (more parts per subgroup: pass/fail results)")
     if c.count_column is not None and c.result_column is not None:
         return ("result_column", "count_column and result_column exclude each other: a row "
                 "holds counts (--count) or one part's result (--result)")

@@ -24,6 +24,12 @@ DecimalMark = Literal[".", ","]
 RecordFormat = Literal["text", "jsonl"]
 """What `check`, `watch` and `alarms list` print: text for people or one JSON record a line."""
 
+CheckFormat = Literal["text", "jsonl", "html", "markdown"]
+"""What `check` writes: text, JSON lines, or the analysis page as HTML or Markdown."""
+
+PhaseLimits = Literal["per-phase", "first"]
+"""The limits of each phase in `check`: its own Phase I limits, or the first phase's."""
+
 ReportFormat = Literal["markdown", "html", "csv"]
 """The shift report: Markdown, one HTML file with charts, or CSV."""
 
@@ -39,6 +45,8 @@ DISPERSIONS: tuple[Dispersion, ...] = get_args(Dispersion)
 DELIMITERS: tuple[Delimiter, ...] = get_args(Delimiter)
 DECIMAL_MARKS: tuple[DecimalMark, ...] = get_args(DecimalMark)
 RECORD_FORMATS: tuple[RecordFormat, ...] = get_args(RecordFormat)
+CHECK_FORMATS: tuple[CheckFormat, ...] = get_args(CheckFormat)
+PHASE_LIMITS: tuple[PhaseLimits, ...] = get_args(PhaseLimits)
 REPORT_FORMATS: tuple[ReportFormat, ...] = get_args(ReportFormat)
 EXPORT_FORMATS: tuple[ExportFormat, ...] = get_args(ExportFormat)
 ATTRIBUTE_CHART_NAMES: tuple[AttributeChart, ...] = get_args(AttributeChart)

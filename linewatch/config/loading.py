@@ -30,7 +30,7 @@ from linewatch.config.model import (
     MonitorConfig,
     PlantConfig,
 )
-from linewatch.config.overrides import parse_window
+from linewatch.config.overrides import MAX_PARTS, parse_window
 from linewatch.config.syslog_target import parse_syslog_target
 from linewatch.domain.alarm_states import DEFAULT_PRIORITIES, AlarmKind
 from linewatch.domain.durations import parse_duration
@@ -351,7 +351,7 @@ def _read_characteristic(
         lsl=lsl,
         usl=usl,
         target=r.number("target"),
-        subgroup_size=r.integer("subgroup_size", 1, 25),
+        subgroup_size=r.integer("subgroup_size", 1, MAX_PARTS),
         dispersion=r.optional_choice("dispersion", DISPERSIONS),
         baseline=r.optional_integer("baseline", 2, 10_000_000),
         center=center,
@@ -374,6 +374,8 @@ def _read_characteristic(
         result_column=r.column_name("result_column"),
         fail_values=r.string_list("fail_values"),
         pass_values=r.string_list("pass_values"),
+        phase_by=r.string("phase_by"),
+        practical_share=_practical_share(r),
     )
     problem = chart_problem(char)
     if problem is not None:
@@ -401,6 +403,15 @@ def _read_detector(path: str, r: _Reader, detector: str) -> dict[str, float]:
     except RuleListError as exc:
         raise reader.fail("headstart", str(exc)) from None
     return out
+
+
+def _practical_share(r: _Reader) -> float:
+    """Percent of the tolerance: more than 0, at most 100."""
+    value = r.number("practical_share")
+    if value is None or not 0 < value <= 100:
+        raise r.fail("practical_share", "must be a percentage of the tolerance, more than 0 "
+                     "and at most 100")
+    return value
 
 
 def parse_config(text: str, source: str = "<config>") -> Config:

@@ -16,7 +16,7 @@ Layout of a config file (all tables optional; see config/*.toml for commented ex
                        clear_after, decimals, subgroup_by, subgroup_window, subgroup_timeout,
                        chart, count_column, size_column, result_column, fail_values,
                        pass_values, ewma = { lambda, width },
-                       cusum = { k, h, headstart }
+                       cusum = { k, h, headstart }, phase_by, practical_share
 
 Each table's keys are the fields of its record below, by the same names.
 """
@@ -82,6 +82,8 @@ class CharacteristicConfig:
     result_column: str | None = None
     fail_values: list[str] = field(default_factory=lambda: list(DEFAULT_FAIL_VALUES))
     pass_values: list[str] = field(default_factory=lambda: list(DEFAULT_PASS_VALUES))
+    phase_by: str | None = None  # check: a column whose every change of value starts a phase
+    practical_share: float = 10.0  # percent of the tolerance a change must take to matter
 
     @property
     def sizes_vary(self) -> bool:

@@ -31,6 +31,9 @@ DETECTOR_FIELDS = (
 )
 
 
+MAX_PARTS = 100_000  # parts in a subgroup of pass/fail results (measured values: 25)
+
+
 @dataclass(frozen=True, slots=True, kw_only=True)
 class ChartOverrides:
     """What to chart and how; None (or empty) leaves the config's value."""
@@ -75,8 +78,9 @@ class ChartOverrides:
             raise LinewatchError(f"--sigma must be more than 0 (σ ≤ 0 given: {self.sigma})")
         if self.lsl is not None and self.usl is not None and self.lsl >= self.usl:
             raise LinewatchError(f"--lsl must be below --usl ({self.lsl} >= {self.usl})")
-        if self.subgroup_size is not None and not 1 <= self.subgroup_size <= 25:
-            raise LinewatchError("--subgroup-size must be between 1 and 25")
+        if self.subgroup_size is not None and not 1 <= self.subgroup_size <= MAX_PARTS:
+            raise LinewatchError(f"--subgroup-size must be between 1 and 25 (measured values) "
+                                 f"or {MAX_PARTS} (pass/fail results)")
         if self.baseline is not None and self.baseline < 2:
             raise LinewatchError("--baseline needs at least 2 plotted points")
         if self.dispersion is not None and self.dispersion not in DISPERSIONS:

@@ -162,7 +162,10 @@ def _as_array(values: Any) -> np.ndarray:
 def _positions(values: Any) -> tuple[np.ndarray, np.ndarray]:
     """The finite values and their 0-based positions in the series."""
     x = np.asarray(values, dtype=float).ravel()
-    where = np.flatnonzero(np.isfinite(x))
+    finite = np.isfinite(x)
+    if finite.all():  # the usual case: no copy of the values, positions 0 .. n-1
+        return x, np.arange(x.size)
+    where = np.flatnonzero(finite)
     return x[where], where
 
 

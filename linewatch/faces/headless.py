@@ -60,6 +60,11 @@ def _text(record: dict[str, Any]) -> str:
             ack = f" by {record['acknowledged_by']} ({record.get('reason')})"
         return (f"ALARM   #{record['id']} p{record['priority']} {record['characteristic']} "
                 f"{record['chart']} {record['rule']}{where}: {record['state']}{ack}")
+    if kind == "plant-link":
+        if record["state"] == "up":
+            return f"PLANT   {record['line']}: link to the plant database up"
+        return (f"PLANT   {record['line']}: link to the plant database down since "
+                f"{record['since']}: {record.get('problem', '')} (the line goes on monitoring)")
     if kind == "role":
         return f"ROLE    this instance is the {record['role']}"
     rest = " ".join(f"{k}={visible(v)}" for k, v in record.items() if k != "type")

@@ -425,6 +425,52 @@ def wall_cooling(seed: int) -> Built:
 
 
 # Which builder, with which seed, makes which file; the config for each is config/<stem>.toml.
+SPEEDS = (20.0, 22.0, 18.0, 21.0, 19.0)  # line speed set points tried, m/min, 3 rows each
+
+
+def lot_change(seed: int) -> Built:
+    """Wide CSV of a lot change and a line-speed trial: the diameter follows the speed set
+    point (faster haul-off draws the tube thinner) and steps up with the new resin lot; the
+    new lot also spreads the wall more."""
+    rng = np.random.default_rng(seed)
+    n = 240
+    speed = np.array([SPEEDS[(i // 3) % len(SPEEDS)] for i in range(n)])
+    od = 11.990 - 0.003 * (speed - 20.0) + 0.010 * rng.standard_normal(n)
+    od[120:] += 0.020  # resin lot R-2612: +2σ
+    wall = WALL.mean + WALL.sigma * rng.standard_normal(n)
+    wall[120:] = WALL.mean + 0.001 + 1.6 * WALL.sigma * rng.standard_normal(n - 120)
+    names = ("od_mm", "wall_mm")
+    out = _Lines()
+    out.add("time,lot,speed_setpoint,od_mm,wall_mm")
+    junk_after = {70: "R-2611,20.0,12.00x,1.501", 180: "R-2612,,,"}
+    for i in range(n):
+        lot = "R-2611" if i < 120 else "R-2612"
+        out.add(f"{_stamp(6 * i)},{lot},{speed[i]:.1f},{od[i]:.3f},{wall[i]:.3f}", names)
+        if i in junk_after:
+            out.add(f"{_stamp(6 * i + 3)},{junk_after[i]}", junk=True)
+    return Built(
+        file="lot_change_speed.csv",
+        title="Wide CSV: a resin lot change during a line-speed trial",
+        layout="wide, comma",
+        story="The diameter (individuals) follows the line-speed set point, which the "
+        "operators step through 18–22 m/min three rows at a time (−0.003 mm per m/min). Resin "
+        "lot R-2611 runs 120 rows, then lot R-2612 raises the diameter by 0.020 mm (2σ) and "
+        "spreads the wall 1.6 times as wide with its mean nearly unchanged. Two junk rows. "
+        "For the investigation: `linewatch check sample_feeds/lot_change_speed.csv -c "
+        "config/lot_change_speed.toml --phase-by lot --versus speed_setpoint --format html "
+        "-o analysis.html`.",
+        data=out.data(),
+        expects=[
+            Expect("outer-diameter", "individuals", "we2", 120, 239, "resin lot R-2612: +2σ"),
+            Expect("wall-thickness", "individuals", "we1", 120, 239,
+                   "resin lot R-2612: wall spread ×1.6"),
+        ],
+        quiet={"outer-diameter": 120, "wall-thickness": 120},
+        rejected_lines=out.rejected,
+        line_of=out.line_of,
+    )
+
+
 SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "extrusion_wide": (extrusion_wide, 4),
     "wall_station_semicolon": (wall_station, 43),
@@ -433,6 +479,7 @@ SAMPLES: dict[str, tuple[Callable[[int], Built], int]] = {
     "end_of_line_tester": (end_of_line_tester, 1),
     "vision_station": (vision_station, 3),
     "wall_cooling": (wall_cooling, 39),
+    "lot_change_speed": (lot_change, 26),
 }
 
 CHARACTERISTIC_COLUMNS = {

@@ -182,7 +182,8 @@ def row(k: int, rng: random.Random) -> str:
 
 async def store_mode() -> None:
     from linewatch.config.loading import parse_config
-    from linewatch.pipeline.monitor import Monitor, WatchPlan
+    from linewatch.pipeline.monitor import Monitor
+    from linewatch.pipeline.plan import WatchPlan
     from linewatch.present.face import MonitorFace
 
     with tempfile.TemporaryDirectory() as tmp:

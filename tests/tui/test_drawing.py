@@ -3,10 +3,12 @@ mark where its value says (geometry checked against the values, not against earl
 
 from __future__ import annotations
 
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rich.console import Console
 
 from linewatch.domain.durations import format_age
-from linewatch.faces.tui.glyphs import ASCII, UNICODE
+from linewatch.faces.tui.glyphs import ASCII, UNICODE, Glyphs
 from linewatch.faces.tui.widgets.box_plot import draw_box_plot
 from linewatch.faces.tui.widgets.control_chart import LABEL_WIDTH, draw_control_chart
 from linewatch.faces.tui.widgets.margin_gauge import gauge_bar, margin_gauge
@@ -184,3 +186,36 @@ def test_a_far_lower_spec_limit_is_named_at_the_bottom_edge_not_inside_the_band(
     # at the edge row of its side, beyond every limit drawn: never inside the control band
     assert lsl == len(lines) - 1 and lcl < lsl
     assert usl == 0 and row_with(lines, "UCL 3") > usl
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.floats(-1e300, 1e300, allow_nan=False), min_size=2, max_size=40),
+       st.sampled_from([ASCII, UNICODE]))
+def test_spark_cell_bars_are_textuals_sparkline(values: list[float], glyphs: Glyphs) -> None:
+    """The bars are drawn as Textual's one-line sparkline draws the points' places between the
+    lowest and the highest (the reference: textual.renderables.sparkline), glyph and colour."""
+    import io
+
+    from rich.color import Color
+    from rich.console import Console
+    from textual.renderables.sparkline import Sparkline
+
+    from linewatch.faces.tui import palette
+    from linewatch.present.scales import fraction_of
+
+    class Bars(Sparkline[float]):
+        BARS = glyphs.spark_bars
+
+    lo, hi = min(values), max(values)
+    reference = Bars([fraction_of(v, lo, hi) for v in values], width=len(values), height=1,
+                     min_color=Color.parse(palette.SPARK_LOW),
+                     max_color=Color.parse(palette.SPARK_HIGH))
+    console = Console(file=io.StringIO(), color_system="truecolor", width=400)
+    want = [(seg.text, seg.style.color if seg.style else None)
+            for seg in console.render(reference, console.options.update(width=len(values)))
+            if seg.text != "\n"]
+    text = SparkCell(values, [""] * len(values), len(values), glyphs).to_text()
+    bars = text.split("\n")[0]
+    got = [(bars.plain[i], bars.get_style_at_offset(console, i).color)
+           for i in range(len(bars.plain))]
+    assert got == want

@@ -35,7 +35,10 @@ from linewatch.engine.detectors.chart_limits import detector_limits
 from linewatch.engine.setup import ChartSetup
 
 if TYPE_CHECKING:
+    from linewatch.cli.commands.check_investigate import SideData
     from linewatch.cli.commands.check_subgroups import SteppedAnalysis
+    from linewatch.engine.phases import PhasedHistory
+    from linewatch.engine.setting_regression import SettingRegression
     from linewatch.present.power_view import PowerTable
 
 
@@ -59,16 +62,32 @@ class Analysis:
     summary: dict[str, Any]
     setup: ChartSetup  # the charts and the resolved rules (custom run lengths included)
     power: PowerTable | None = None  # detection power of the rule set, known limits
+    phased: PhasedHistory | None = None  # the phases, when asked for (`result` is then theirs)
+    regression: SettingRegression | None = None  # on the --versus setting
 
 
 def _read_all(
-    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None
+    paths: list[str], feeds: list[FeedConfig], columns: list[str] | None,
+    side: SideData | None = None, side_names: list[str] | None = None,
 ) -> tuple[dict[str, Column], list[Rejected]]:
-    """Read every log into per-characteristic columns plus the rejected rows."""
+    """Read every log into per-characteristic columns plus the rejected rows (and into `side`
+    the text of `side_names` per line)."""
     from linewatch.feeds.whole_file import read_logs
 
     # check reports lines, never time stamps: they are left unread
-    batches = read_logs(paths, feeds, columns, times=False)
+    if side is not None and side_names:
+        from linewatch.feeds.side_columns import read_side_columns
+        from linewatch.feeds.whole_file import parse_log_bytes, read_bytes
+
+        batches = []
+        for p, feed in zip(paths, feeds, strict=True):
+            name, data = read_bytes(p)
+            batches.append(parse_log_bytes(data, name, feed, columns, times=False))
+            texts, comma = read_side_columns(data, name, feed, side_names)
+            side.by_file.append(texts)
+            side.decimal_comma.append(comma)
+    else:
+        batches = read_logs(paths, feeds, columns, times=False)
     names: list[str] = []
     for b in batches:
         names.extend(k for k in b.values if k not in names)
@@ -157,12 +176,20 @@ def analyse(
     if chart.columns or chart.count_column or chart.result_column or config.characteristics:
         chosen = select_characteristics(config, chart, None)
     wanted = None if chosen is None else [c.column for c in chosen if not needs_rows(c)]
+    from linewatch.cli.commands.check_investigate import (
+        SideData,
+        investigate,
+        side_names,
+        wants_investigation,
+    )
+
+    side, beside = SideData(), side_names(options, config)
     cols: dict[str, Column] = {}
     rejected: list[Rejected] = []
     if wanted != []:
-        cols, rejected = _read_all(logs, feeds, wanted)
-    if chosen is None:
-        chosen = select_characteristics(config, chart, list(cols))
+        cols, rejected = _read_all(logs, feeds, wanted, side, beside)
+    if chosen is None:  # the phase and setting columns are read beside, never charted
+        chosen = select_characteristics(config, chart, [c for c in cols if c not in beside])
         grouping = {c.subgroup_by for c in chosen}
         chosen = [c for c in chosen if c.column not in grouping]  # a sample id is no value
     if not chosen:
@@ -183,18 +210,32 @@ def analyse(
                 out.append(got)
             continue
         col = cols[c.column]
+        investigating = wants_investigation(options, c)
+        problem = ""
         try:
             short = analyse_short(c, setup, col, rejected, feeds)
             if short is not None:  # rejected rows left subgroups short: stepped limits
                 out.append(short)
                 continue
-            result = analyse_history(col.values, setup)
+            result: HistoryResult | None = analyse_history(col.values, setup)
         except (NotEnoughData, BadLimits, ChartDataError) as exc:
-            skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+            if not investigating or isinstance(exc, ChartDataError):
+                skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+                continue
+            result, problem = None, str(exc)  # a phase may still have enough
+        a = Analysis(c, col, result, {}, setup)  # type: ignore[arg-type]
+        if investigating:
+            try:
+                investigate(a, options, side)
+            except (NotEnoughData, BadLimits) as exc:
+                skipped.append(NotCharted(c.name, int(col.values.shape[0]), str(exc)))
+                continue
+        if a.result is None:
+            skipped.append(NotCharted(c.name, int(col.values.shape[0]), problem))
             continue
-        summary = _summary(col.values, c, setup, result, len(rejected))
-        power = _with_power(summary, setup)
-        out.append(Analysis(c, col, result, summary, setup, power))
+        a.summary = _summary(col.values, c, setup, a.result, len(rejected))
+        a.power = _with_power(a.summary, setup)
+        out.append(a)
     if not out and skipped:  # nothing could be charted: the one-line error, as before
         raise LinewatchError(skipped[0].problem if len(skipped) == 1 else "; ".join(
             f"{n.characteristic}: {n.problem}" for n in skipped))
@@ -230,6 +271,27 @@ def _signal_lines(a: Analysis | SteppedAnalysis, with_file: bool) -> list[str]:
     return out
 
 
+def _emit(text: str, output: str | None) -> None:
+    """To stdout, or to the file -o names (written whole, then moved into place)."""
+    if output is None or output == "-":
+        sys.stdout.write(text)
+        return
+    import os
+    import tempfile
+
+    folder = os.path.dirname(os.path.abspath(output))
+    try:
+        fd, tmp = tempfile.mkstemp(dir=folder, prefix=".linewatch-", suffix=".tmp")
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # as a plain open() would make it, not mkstemp's 0600
+        os.replace(tmp, output)
+    except OSError as exc:
+        raise LinewatchError(f"cannot write {output}: {exc.strerror or exc}") from None
+
+
 def run(options: CheckOptions) -> int:
     if options.compare_rules is not None:
         from linewatch.cli.commands import compare_rules
@@ -237,8 +299,13 @@ def run(options: CheckOptions) -> int:
         return compare_rules.run(options)
     analyses, rejected, skipped = analyse(options)
     several_files = len(options.logs) > 1
-    write = sys.stdout.write
-    if options.format == "jsonl":
+    chunks: list[str] = []
+    write = chunks.append
+    if options.format in ("html", "markdown"):
+        from linewatch.cli.commands.check_page import render_page
+
+        write(render_page(analyses, rejected, skipped, options))
+    elif options.format == "jsonl":
         from linewatch.cli.commands.check_points import point_lines, stepped_limit_lines
 
         lines: list[str] = [dumps(rejected_record(r)) for r in rejected]
@@ -258,11 +325,16 @@ def run(options: CheckOptions) -> int:
             if options.points:
                 lines.extend(point_lines(a, several_files))
             lines.append(dumps(a.summary))
+            if isinstance(a, Analysis) and (a.phased is not None or a.regression is not None):
+                from linewatch.cli.commands.check_records import investigation_records
+
+                lines.extend(dumps(r) for r in investigation_records(a))
         write("\n".join(lines) + "\n")
     else:
         from linewatch.cli.commands.check_text import render_text
 
         write(render_text(analyses, rejected, several_files, skipped))
+    _emit("".join(chunks), options.output)
     from linewatch.domain import exit_codes
 
     if skipped:  # an input problem, as when no characteristic can be charted at all

@@ -58,6 +58,8 @@ def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejec
         lim = res.limits
         source = "known centre and sigma" if lim.source == "given" else (
             f"Phase I, baseline of {c.baseline or len(res.location)} plotted points")
+        if a.phased is not None:
+            source = f"of phase 1 of {len(a.phased.phases)}; each phase's below"
         w(f"   limits ({source}); sigma within = {_f(lim.sigma_within)}")
         for chart_lim in (lim.location, lim.dispersion):
             w(f"   {chart_lim.chart:<13} CL {_f(chart_lim.center):>10}  "
@@ -108,6 +110,10 @@ def render_text(analyses: list[Analysis | SteppedAnalysis], rejected: list[Rejec
             from linewatch.present.power_view import table_lines
 
             out.extend(table_lines(a.power))
+        if a.phased is not None or a.regression is not None:
+            from linewatch.cli.commands.check_text_phases import investigation_lines
+
+            out.extend(investigation_lines(a))
         w("")
     for n in skipped or []:
         w(f"== {n.characteristic}: {n.values} values, not charted: {n.problem}")

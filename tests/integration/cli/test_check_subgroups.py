@@ -183,3 +183,34 @@ def test_a_known_proportion_is_given_with_center_alone(tmp_path):
         assert r["ucl"] == pytest.approx(0.1 + 3 * np.sqrt(0.1 * 0.9 / 50))
     refused = lw("check", str(log), "--center", "0.1")
     assert refused.returncode == 2 and "--center and --sigma go together" in refused.stderr
+
+
+def test_p_chart_limits_of_a_published_worked_example(tmp_path):
+    # Montgomery's frozen-juice cans (p chart example, quoted from memory): 30 samples of 50
+    # cans, 347 nonconforming in all, p̄ = 0.2313, UCL = 0.4102, LCL = 0.0524. The limits
+    # depend only on p̄ and n, so any 30 counts with that total reproduce them.
+    counts = [12] * 17 + [11] * 13
+    rows = []
+    for s, d in enumerate(counts):
+        rows += [(f"2026-03-02T06:{s:02d}:{k:02d}", "FAIL" if k < d else "PASS")
+                 for k in range(50)]
+    log = write_tester_log(tmp_path / "cans.csv", rows)
+    out = records(lw("check", str(log), "--result", "result", "--subgroup-size", "50",
+                     "--format", "jsonl").stdout)
+    (lim,) = [r for r in out if r["type"] == "limits"]
+    assert sum(counts) == 347 and lim["varies"] is False
+    assert (round(lim["center"], 4), round(lim["ucl"], 4), round(lim["lcl"], 4)) == (
+        0.2313, 0.4102, 0.0524)
+
+
+def test_u_chart_limits_of_a_published_worked_example(tmp_path):
+    # Montgomery's personal computers (u chart example, quoted from memory): 20 samples of 5
+    # units, ū = 1.93, UCL = 3.79, LCL = 0.07 (193 defects in 100 units).
+    defects = [10] * 13 + [9] * 7
+    log = counts_log(tmp_path / "pc.csv", defects, [5] * 20)
+    out = records(lw("check", str(log), "--count", "defects", "--size", "frames", "--chart",
+                     "u", "--format", "jsonl").stdout)
+    (lim,) = [r for r in out if r["type"] == "limits"]
+    assert sum(defects) == 193
+    assert (round(lim["center"], 2), round(lim["ucl"], 2), round(lim["lcl"], 2)) == (
+        1.93, 3.79, 0.07)

@@ -30,7 +30,7 @@ clear_after = 4
     [({"center": 10.0}, "--center and --sigma go together"),
      ({"center": 10.0, "sigma": 0.0}, "--sigma must be more than 0"),
      ({"lsl": 2.0, "usl": 1.0}, "--lsl must be below --usl"),
-     ({"subgroup_size": 26}, "between 1 and 25"),
+     ({"subgroup_size": 0}, "between 1 and 25"),
      ({"baseline": 1}, "at least 2 plotted points"),
      ({"clear_after": 0}, "--clear-after needs at least 1"),
      ({"rules": "n9"}, "--rules: "),
@@ -49,6 +49,12 @@ def test_overrides_win_over_the_config_and_leave_the_rest():
     assert got.rules == ["n1", "n2", "n3", "n4", "n5", "n6", "n7", "n8"]  # Nelson's eight
     assert (got.lsl, got.usl, got.clear_after, got.subgroup_size) == (24.8, 25.5, 1, 5)
     assert c.usl == 25.2 and c.rules == ["we1"]  # the config's own record is untouched
+
+
+def test_more_than_25_measured_values_a_subgroup_are_refused_for_the_characteristic():
+    (c,) = parse_config(CONFIG, "line.toml").characteristics
+    with pytest.raises(LinewatchError, match="outer-diameter: must be between 1 and 25"):
+        apply_overrides(c, ChartOverrides(subgroup_size=26))
 
 
 def test_an_override_that_crosses_the_configs_other_limit_is_refused():

@@ -183,12 +183,19 @@ class BoardScreen(LineScreen):
             if cv is None:
                 continue
             sig = self._signature(cv)
-            if self._row_sigs.get(name) != sig:
+            before = self._row_sigs.get(name)
+            if before == sig:
+                continue
+            if before is not None and before[:-1] == sig[:-1]:  # only the age moved on
+                self.table.update_cell(name, "age", self._age_cell(cv))
+            else:
                 for key, cell in zip(COLUMNS, self._cells(cv), strict=True):
                     self.table.update_cell(name, key, cell)
-                self._row_sigs[name] = sig
+            self._row_sigs[name] = sig
 
     def _signature(self, cv: view.CharacteristicView) -> tuple[object, ...]:
+        """What a row's cells show; the age text last, so a row whose age alone moved on
+        redraws only that cell."""
         loc = cv.location
         width = self._widths["recent"]
         tail = (len(loc.values), loc.values[-1:], loc.marks[-width:]) if loc else ()

@@ -1,4 +1,9 @@
-"""A two-line overview cell: Textual's sparkline of recent points over a row of pattern marks."""
+"""A two-line overview cell: a sparkline of recent points over a row of pattern marks.
+
+The bars are drawn here, as Textual's one-line sparkline draws them (one bar per point, the bar
+from the point's place between the lowest and the highest, its colour blended from low to high)
+but without its per-bar renderables and fractions: a board redraw builds dozens of these.
+"""
 
 from __future__ import annotations
 
@@ -10,17 +15,29 @@ from rich.measure import Measurement
 from rich.segment import Segment
 from rich.style import Style
 from rich.text import Text
-from textual.renderables.sparkline import Sparkline
 
 from linewatch.faces.tui import palette
 from linewatch.faces.tui.glyphs import Glyphs
 from linewatch.present.scales import fraction_of
 
 
-class _AsciiSparkline(Sparkline[float]):
-    """Textual's sparkline drawn with ASCII bars for the Linux console."""
+def _blend(low: Color, high: Color, ratio: float) -> Style:
+    """The colour `ratio` (0..1) of the way from `low` to `high`, as a style (cached: a board
+    draws many bars of the same few hundred colours)."""
+    assert low.triplet is not None and high.triplet is not None
+    (r1, g1, b1), (r2, g2, b2) = low.triplet, high.triplet
+    key = (int(r1 + (r2 - r1) * ratio), int(g1 + (g2 - g1) * ratio),
+           int(b1 + (b2 - b1) * ratio))
+    style = _STYLES.get(key)
+    if style is None:
+        if len(_STYLES) > 4096:
+            _STYLES.clear()
+        style = _STYLES[key] = Style.from_color(Color.from_rgb(*key))
+    return style
 
-    BARS = "_.-~=+*#"
+
+_STYLES: dict[tuple[int, int, int], Style] = {}
+_LOW, _HIGH = Color.parse(palette.SPARK_LOW), Color.parse(palette.SPARK_HIGH)
 
 
 class SparkCell:
@@ -40,25 +57,23 @@ class SparkCell:
         self.marks = tail + [""] * (len(self.values) - len(tail))
         self.glyphs = glyphs
 
-    def _bars(self, console: Console, options: ConsoleOptions) -> list[Segment]:
+    def _bars(self) -> list[Segment]:
         n = len(self.values)
         if n == 0:
             return [Segment(" " * self.width)]
         pad = [Segment(" " * (self.width - n))] if n < self.width else []
         if n == 1:
             return [*pad, Segment(self.glyphs.spark_bars[3], Style.parse(palette.SPARK_HIGH))]
-        cls = _AsciiSparkline if self.glyphs.ascii else Sparkline
-        # the bars show where each point sits between the lowest and the highest: hand the
-        # sparkline those places (0..1), since its own arithmetic overflows on extreme values
+        # each bar shows where its point sits between the lowest and the highest (0..1, with
+        # arithmetic that cannot overflow on extreme values): bar k of the eight for k/7 ..
+        bars = self.glyphs.spark_bars
+        top = len(bars) - 1
         lo, hi = min(self.values), max(self.values)
-        spark = cls(
-            [fraction_of(v, lo, hi) for v in self.values],
-            width=n,
-            height=1,
-            min_color=Color.parse(palette.SPARK_LOW),
-            max_color=Color.parse(palette.SPARK_HIGH),
-        )
-        return [*pad, *console.render(spark, options.update(width=n, height=1))]
+        out = pad
+        for v in self.values:
+            f = fraction_of(v, lo, hi)
+            out.append(Segment(bars[int(f * top)], _blend(_LOW, _HIGH, f)))
+        return out
 
     def markers(self) -> Text:
         """The marker row on its own (also what the tests read)."""
@@ -69,11 +84,9 @@ class SparkCell:
 
     def to_text(self) -> Text:
         """Both lines as one Text, rendered once: a table redraw then costs no sparkline maths."""
-        console = _console()
         bars = Text(end="")
-        for seg in self._bars(console, console.options.update(width=self.width)):
-            if seg.text != "\n":
-                bars.append(seg.text, seg.style)
+        for seg in self._bars():
+            bars.append(seg.text, seg.style)
         bars.append("\n")
         bars.append_text(self.markers())
         return bars
@@ -84,15 +97,3 @@ class SparkCell:
     def __rich_measure__(self, console: Console, options: ConsoleOptions) -> Measurement:
         return Measurement(self.width, self.width)
 
-
-_CONSOLE: Console | None = None
-
-
-def _console() -> Console:
-    """An off-screen console with full colour for turning the sparkline into styled text."""
-    global _CONSOLE
-    if _CONSOLE is None:
-        import io
-
-        _CONSOLE = Console(file=io.StringIO(), color_system="truecolor", width=400)
-    return _CONSOLE
