@@ -57,8 +57,13 @@ def screen_command(options: ServeOptions) -> tuple[list[str], dict[str, str], st
             argv += ["--state-dir", str(Path(options.state_dir).expanduser().resolve())]
         name = config_path.stem if config_path.stem != "linewatch" else config_path.parent.name
         return argv, {}, f"linewatch · {name}"
-    raise LinewatchError("serve --plant: the plant board screen is not in this version yet; "
-                         "serve a line's screen with -c CONFIG")
+    from linewatch.plant.url import ENV_URL, plant_url
+
+    # the URL goes in the screen's environment, never on a command line `ps` would show
+    url = options.plant or plant_url(None) or ""
+    if not url:
+        raise LinewatchError(f"--plant needs the central database's URL, or {ENV_URL} set")
+    return [*base, "plant", "board"], {ENV_URL: url}, "linewatch · plant"
 
 
 def run(options: ServeOptions) -> int:
