@@ -83,7 +83,7 @@ def run(options: ServeOptions) -> int:
     from linewatch.faces.tui.serving import ScreenServer
 
     server = ScreenServer(
-        shlex.join(argv), host=host, port=port, title=title, users=users,
+        "exec " + shlex.join(argv), host=host, port=port, title=title, users=users,
         allow_actions=options.allow_actions, public_url=options.public_url,
         trust_forwarded=options.trust_forwarded, session_env=env,
         say=lambda line: print(line, flush=True),
