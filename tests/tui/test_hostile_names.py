@@ -263,4 +263,4 @@ async def test_a_hostile_attribute_characteristic_is_shown_literally(name: str, 
         assert_shown(app, f"close-up {shown}", "(n 42)")
         if size[1] >= 48:  # the figures sit beside the charts
             assert_shown(app, "proportion nonconforming overall", "do not apply")
-    assert app.crashed_with is None
+    assert not app.crashed
