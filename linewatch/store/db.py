@@ -208,7 +208,7 @@ class Store:
                 current = int(conn.execute("PRAGMA user_version").fetchone()[0])
                 if current >= number:  # another process migrated meanwhile
                     continue
-                for statement in _split_sql(MIGRATIONS[number - 1]):
+                for statement in split_statements(MIGRATIONS[number - 1]):
                     conn.execute(statement)
                 conn.execute(f"PRAGMA user_version = {number}")
 
@@ -270,7 +270,7 @@ def _is_busy(exc: sqlite3.OperationalError) -> bool:
     return "locked" in text or "busy" in text
 
 
-def _split_sql(script: str) -> list[str]:
+def split_statements(script: str) -> list[str]:
     """Statements of a migration script (triggers keep their inner `;` with sqlite3's help)."""
     statements: list[str] = []
     buffer = ""

@@ -56,12 +56,12 @@ def test_migrations_build_the_schema_from_an_empty_directory(tmp_path: Path) -> 
 
 
 def test_an_older_store_is_migrated_forward_keeping_its_data(tmp_path: Path) -> None:
-    from linewatch.store.db import _split_sql
+    from linewatch.store.db import split_statements
 
     directory = tmp_path / "old"
     directory.mkdir()
     raw = sqlite3.connect(directory / DB_NAME)
-    for statement in _split_sql(MIGRATIONS[0]):  # a store as version 1 wrote it
+    for statement in split_statements(MIGRATIONS[0]):  # a store as version 1 wrote it
         raw.execute(statement)
     raw.execute("PRAGMA user_version = 1")
     raw.execute("INSERT INTO feed_events (at, kind, file) VALUES (1.0, 'appeared', 'a.csv')")

@@ -65,12 +65,12 @@ def test_a_refused_request_says_why_and_waits_no_more(store: Store) -> None:
 
 def _store_at_version_8(directory: Path, meta: dict[str, str]) -> None:
     """A store as the version that kept requests in `meta` wrote it."""
-    from linewatch.store.db import _split_sql
+    from linewatch.store.db import split_statements
 
     directory.mkdir()
     raw = sqlite3.connect(directory / DB_NAME)
     for script in MIGRATIONS[:8]:
-        for statement in _split_sql(script):
+        for statement in split_statements(script):
             raw.execute(statement)
     raw.execute("PRAGMA user_version = 8")
     raw.executemany("INSERT INTO meta (key, value) VALUES (?, ?)", list(meta.items()))
