@@ -136,8 +136,7 @@ class EwmaSpec:
         return self.width * math.sqrt(self.lam / (2.0 - self.lam))
 
     def describe(self) -> str:
-        return (f"EWMA (λ = {self.lam:g}) beyond {self.width:g}σ of its own spread "
-                "(small sustained shifts)")
+        return f"EWMA (λ = {self.lam:g}, L = {self.width:g}) beyond its limits"
 
 
 @dataclass(frozen=True, slots=True)
@@ -155,8 +154,7 @@ class CusumSpec:
 
     def describe(self) -> str:
         start = f", head start {self.headstart:g}" if self.headstart else ""
-        return (f"CUSUM (k = {self.k:g}, h = {self.h:g}{start}) beyond its decision interval "
-                "(small sustained shifts)")
+        return f"CUSUM (k = {self.k:g}, h = {self.h:g}{start}) above its decision interval"
 
 
 DetectorSpec = EwmaSpec | CusumSpec

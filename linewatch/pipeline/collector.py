@@ -21,7 +21,12 @@ from linewatch.alarms.book import AlarmBook
 from linewatch.alarms.lifecycle import SYSTEM_ACTOR, AlarmEvent
 from linewatch.config.model import CharacteristicConfig
 from linewatch.config.selection import chart_setup
-from linewatch.domain.jsonl import limits_record, rejected_record, signal_record
+from linewatch.domain.jsonl import (
+    detector_limits_record,
+    limits_record,
+    rejected_record,
+    signal_record,
+)
 from linewatch.domain.records import FeedEvent, Limits
 from linewatch.engine.live import CharacteristicEngine, LiveOutput
 from linewatch.engine.live_state import restore_engine, save_state
@@ -194,8 +199,7 @@ class Collector:
             # known limits (centre and sigma given) hold from the first point: put them on
             # the history with the first points, as estimated ones are when they form
             self._record_limits(name, eng, eng.limits, now)
-            out.records.extend(limits_record(name, lim)
-                               for lim in (eng.limits.location, eng.limits.dispersion))
+            out.records.extend(limit_records(name, eng, eng.limits))
         live: LiveOutput = eng.push(values, meta)
         self.store.history.add_points(name, first, values, lines, batch.file, times, written)
         if live.problem is not None:  # this characteristic has no limits; the others go on
@@ -204,8 +208,7 @@ class Collector:
             self.store.ingest.set_limits_refused(name, live.problem)
         if live.limits is not None:
             self._record_limits(name, eng, live.limits, now)
-            out.records.extend(limits_record(name, lim)
-                               for lim in (live.limits.location, live.limits.dispersion))
+            out.records.extend(limit_records(name, eng, live.limits))
         out.records.extend(signal_of(name, f) for f in live.firings)
         out.raised.extend(self._observe_judged(name, live, now))
         if c.lsl is not None or c.usl is not None:
@@ -365,8 +368,7 @@ class Collector:
                                 "problem": live.problem})
         if live.limits is not None:
             self._record_limits(name, eng, live.limits, now)
-            out.records.extend(limits_record(name, lim)
-                               for lim in (live.limits.location, live.limits.dispersion))
+            out.records.extend(limit_records(name, eng, live.limits))
         out.raised.extend(self._observe_judged(name, live, now))
         out.records.extend(signal_of(name, f) for f in live.firings)
         self.store.ingest.save_engine(name, json.dumps(save_state(eng)), now)
@@ -480,13 +482,24 @@ def local_offset() -> float:
     return float(time.localtime().tm_gmtoff)
 
 
+def limit_records(name: str, eng: CharacteristicEngine, limits: LimitSet) -> list[dict[str, Any]]:
+    """The `check`-style limits records of new limits: both charts and each detector's."""
+    from linewatch.engine.detectors.chart_limits import detector_limits
+
+    out = [limits_record(name, lim) for lim in (limits.location, limits.dispersion)]
+    for det in eng.setup.detectors:
+        dl = detector_limits(det, limits.location)
+        out.append(detector_limits_record(name, dl, dl.varies, dl.parameters))
+    return out
+
+
 def signal_of(name: str, f: Firing) -> dict[str, Any]:
     """A `check`-style signal record plus the file and, when the row has one, its time."""
     # the collector tags each row with (file, line, time); a restored engine gives it back as
     # a JSON list of the same three
     tag = cast("tuple[str, int, str | None] | None", f.meta)
     file, line, when = tag if tag else (None, -1, None)
-    rec = signal_record(name, f.chart, f.rule, f.index, int(line), f.value)
+    rec = signal_record(name, f.chart, f.rule, f.index, int(line), f.value, f.side)
     rec["file"] = file
     if when:
         rec["time"] = when

@@ -6,7 +6,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from linewatch.engine.budget.power import SHIFTS, detection_power, plotted_shift
+from linewatch.engine.budget.power import SHIFTS, plotted_shift
 from linewatch.engine.rulebook import (
     DETECTOR_OPTIONS,
     DETECTORS,
@@ -15,6 +15,7 @@ from linewatch.engine.rulebook import (
     RuleSpec,
 )
 from linewatch.engine.setup import ChartSetup
+from linewatch.present.power_cache import cached_power
 from linewatch.present.power_view import PowerRow, PowerTable
 
 
@@ -28,7 +29,7 @@ def power_table(rule_set: str, rules: Sequence[RuleSpec], detectors: Sequence[De
     if subgroup_size > 1:
         units.append(("values", [plotted_shift(s, subgroup_size) for s in shifts]))
     for unit, plotted in units:
-        found = detection_power(rules, detectors, plotted)
+        found = cached_power(rules, detectors, plotted)
         for r in found:
             if r.std_error is not None and math.isfinite(r.arl) and r.arl > 0:
                 worst = max(worst, r.std_error / r.arl)

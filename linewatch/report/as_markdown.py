@@ -103,6 +103,14 @@ def render_markdown(report: ShiftReport) -> str:
     )
     lines += ["", "N counts individual readings received in the period; Cp/Cpk use the chart's "
               "σ within, ppm the overall SD under a normal model.", ""]
+    for c in r.characteristics:  # attribute data: the proportion or rate instead of Cpk
+        attr = c.attribute
+        if attr is not None:
+            lines += [f"- {c.name}: {attr['what']} {attr['estimate']:.4g} (exact 95% "
+                      f"{attr['lower']:.4g} to {attr['upper']:.4g}), {attr['ppm']:,.0f} ppm, from "
+                      f"{attr['events']:,} in {attr['exposure']:,.0f}; {attr['cpk']}"]
+    if any(c.attribute for c in r.characteristics):
+        lines += [""]
 
     lines += ["## Alarms", "", r.alarm_tally(), ""]
     if r.alarms:

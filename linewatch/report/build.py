@@ -7,11 +7,12 @@ they were received, alarms when they were open at some moment of the period.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from linewatch.domain.durations import format_span
 from linewatch.domain.records import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHART_XBAR, Limits
@@ -19,7 +20,7 @@ from linewatch.domain.records import CHART_INDIVIDUALS, CHART_MOVING_RANGE, CHAR
 LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own scale
 
 if TYPE_CHECKING:
-    from linewatch.config.model import Config
+    from linewatch.config.model import CharacteristicConfig, Config
     from linewatch.report.alarm_performance import AlarmPerformance, Episode
     from linewatch.store.alarm_rows import AlarmRecord
     from linewatch.store.audit import Verdict
@@ -102,6 +103,9 @@ class CharacteristicPart:
     trace: ChartTrace
     decimals: int | None = None  # how its readings are shown (figures.reading_decimals)
     detector_traces: list[ChartTrace] = field(default_factory=list)  # EWMA, CUSUM C⁺ and C⁻
+    # attribute data: the overall proportion or rate with its exact 95% interval (Cp and Cpk
+    # do not apply; `present.attribute_figures.capability_record`)
+    attribute: dict[str, Any] | None = None
 
 
 @dataclass(slots=True)
@@ -296,6 +300,13 @@ def _trace(
         trace.center.append(lim.center if lim else None)
         trace.ucl.append(lim.ucl if lim else None)
         trace.lcl.append(lim.lcl if lim else None)
+    _flag(trace, alarms, episodes)
+    return trace
+
+
+def _flag(trace: ChartTrace, alarms: list[AlarmRecord], episodes: list[Episode]) -> None:
+    """Mark the points inside an alarm's episodes on `trace`."""
+    chart = trace.chart
     # Flag each episode's points (first to last firing), not all between an alarm's first and
     # latest firing: one alarm can span many episodes hours apart.
     mine = {a.id: a for a in alarms if a.chart == chart}
@@ -307,6 +318,32 @@ def _trace(
         if last is None:  # not returned: up to the alarm's latest firing
             last = alarm.last_index if alarm.last_index is not None else ep.first_index
         trace.flagged.update(range(ep.first_index, max(last, ep.first_index) + 1))
+
+
+STEPPED_POINTS = 5000  # newest stored points of a stepped chart a report looks through
+
+
+def _stepped_trace(store: Store, cfg: CharacteristicConfig, since: float,
+                   alarms: list[AlarmRecord], episodes: list[Episode]) -> ChartTrace:
+    """The location (or attribute) chart of a characteristic whose limits step, from the
+    points stored with their own limits: each point's limits, drawn as steps. The period's
+    points are those at or after the first point its readings closed (a point's line is its
+    last row's)."""
+    from linewatch.present.stepped_view import chart_names_of
+
+    chart = chart_names_of(cfg)[0]
+    trace = ChartTrace(chart)
+    recs = store.stepped.last(cfg.name, chart, STEPPED_POINTS)
+    first = next(iter(store.history.points(cfg.name, since)), None)
+    for r in recs:
+        if first is not None and r.file == first.file and r.line < first.line:
+            continue  # closed before the period
+        trace.indices.append(r.index)
+        trace.values.append(r.value)
+        trace.center.append(r.center)
+        trace.ucl.append(r.ucl)
+        trace.lcl.append(r.lcl)
+    _flag(trace, alarms, episodes)
     return trace
 
 
@@ -408,6 +445,16 @@ def build_report(
         values = [p.value for p in points]
         s = summarize(values, sigma_within=sigma_within, lsl=lsl, usl=usl)
         d, c = s.description, s.capability
+        attribute = None
+        if cfg is not None and cfg.is_attribute:  # a mean of 0/1 results is no figure
+            from linewatch.present.attribute_figures import (
+                attribute_capability,
+                capability_record,
+            )
+
+            cap = attribute_capability(store, cfg)
+            attribute = None if cap is None else capability_record(cap)
+            d = dataclasses.replace(d, mean=None, stdev=None, ci95=None)
         mine = [a for a in alarm_rows if a.characteristic == name]
         by_rule: dict[str, int] = {}
         for a in mine:
@@ -416,6 +463,9 @@ def build_report(
             location, values, points[0].index if points else 0, n,
             [lim for lim in history if lim.chart == location], mine, period_episodes,
         )
+        if cfg is not None and (cfg.sizes_vary or cfg.is_attribute):
+            trace = _stepped_trace(store, cfg, since, mine, period_episodes)
+            location = trace.chart
         from linewatch.report.detector_traces import detector_traces
 
         fired = store.alarms.signals_over(name, trace.indices[0]).get(location, {}) \
@@ -424,7 +474,7 @@ def build_report(
                                                  if lim.chart == location], fired)
         parts.append(
             CharacteristicPart(
-                detector_traces=detectors,
+                detector_traces=detectors, attribute=attribute,
                 name=name, unit=unit, lsl=lsl, usl=usl, subgroup_size=n, n=d.points,
                 mean=d.mean, stdev=d.stdev, ci95=d.ci95, cp=c.cp, cp_ci95=c.cp_ci95, cpk=c.cpk,
                 cpk_ci95=c.cpk_ci95, ppm_out=c.ppm_out, alarms_by_rule=by_rule, trace=trace,

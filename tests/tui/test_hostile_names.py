@@ -180,7 +180,7 @@ async def test_hostile_names_are_shown_literally_on_every_screen(name: str) -> N
         await pilot.press("escape")
         await settle(pilot)
 
-    assert app.crashed_with is None
+    assert not app.crashed
 
 
 async def test_a_feed_alarm_on_a_hostile_file_is_shown_literally_in_the_queue() -> None:
@@ -211,8 +211,56 @@ def test_a_crash_of_the_screen_exits_non_zero_with_one_line(
     err = capsys.readouterr().err
     assert code == EXIT_CRASH != 0
     assert err.count("\n") == 1, err  # no full-screen traceback
+    # the error as the traceback states it (rich leaves the BEL out), escaped
     assert err.startswith("linewatch: the screen stopped on an internal error: RuntimeError: "
-                          "planted fault \\x1b]0;X\\x07 (traceback in ")
+                          "planted fault \\x1b]0;X (traceback in ")
+    assert not any(ord(ch) < 32 for ch in err[:-1])
     written = Path(err.rsplit("traceback in ", 1)[1].rstrip(")\n"))
     assert "planted fault" in written.read_text()
     written.unlink()
+
+
+def attribute_line(name: str) -> view.LineSnapshot:
+    """The fake line with a pass/fail characteristic named `name` in front: a p chart whose
+    limits step with each sample's size, the newest sample beyond its limit."""
+    line = build_snapshot()
+    sizes = [40.0, 48.0, 44.0, 50.0, 46.0, 42.0] * 5
+    fails = [2, 1, 3, 2, 1, 2] * 5
+    fails[-1] = 14
+    pbar = 0.04
+    values = [d / n for d, n in zip(fails, sizes, strict=True)]
+    chart = view.ChartView("p", values, list(range(len(values))),
+                           [""] * (len(values) - 1) + ["we1"], steps=True, sizes=sizes)
+    for k, n in enumerate(sizes):  # pbar ± 3 sqrt(pbar (1 - pbar) / n) (Montgomery, p chart)
+        s = (pbar * (1 - pbar) / n) ** 0.5
+        chart.phase_limits.append((k, pbar, pbar + 3 * s, max(0.0, pbar - 3 * s), s))
+    chart.center, chart.ucl, chart.lcl, chart.sigma = chart.phase_limits[-1][1:]
+    last_ucl = chart.phase_limits[-1][2]
+    cv = view.CharacteristicView(
+        name=name, state=view.STATE_ALARM, points=sum(int(n) for n in sizes),
+        last_value=values[-1], decimals=4, location=chart, open_alarms=1,
+        attribute=view.AttributeFigures(
+            "p", "proportion nonconforming", values[-1], pbar, last_ucl, 0.0, overall=0.05,
+            lower95=0.04, upper95=0.06, ppm=50_000, events=64, exposure=1350.0,
+            not_applicable="Cp and Cpk do not apply to attribute data"))
+    return dataclasses.replace(line, characteristics=[cv, *line.characteristics])
+
+
+@pytest.mark.parametrize("size", [(80, 24), (160, 48)])
+@pytest.mark.parametrize("name", HOSTILE)
+async def test_a_hostile_attribute_characteristic_is_shown_literally(name: str, size) -> None:
+    source = FakeSource(picture=attribute_line(name))
+    app = LinewatchApp(source, FakeActions(), bell=False, title="t", clock=fixed_clock,
+                       ascii_only=False)
+    shown = visible(name)
+    async with app.run_test(size=size) as pilot:
+        await settle(pilot)
+        assert isinstance(app.screen, BoardScreen)
+        assert_shown(app, shown[:8], "33.3% UCL")  # 14 of 42 against its own limit
+        await pilot.press("enter")
+        await settle(pilot)
+        assert isinstance(app.screen, CloseUpScreen)
+        assert_shown(app, f"close-up {shown}", "(n 42)")
+        if size[1] >= 48:  # the figures sit beside the charts
+            assert_shown(app, "proportion nonconforming overall", "do not apply")
+    assert not app.crashed

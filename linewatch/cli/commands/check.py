@@ -133,7 +133,7 @@ def _summary(values: np.ndarray, c: CharacteristicConfig, setup: ChartSetup,
 def _with_power(record: dict[str, Any], setup: ChartSetup) -> PowerTable:
     """Add the detection power (`arl_by_shift`, and per shift of the individual values where
     subgroups are charted) to a summary record; the table for the text report."""
-    from linewatch.engine.budget.power import detection_power
+    from linewatch.present.power_cache import cached_power
     from linewatch.present.power_table import arl_by_shift, power_table, rule_set_name
 
     table = power_table(rule_set_name(setup), setup.rules, setup.detectors,
@@ -143,7 +143,7 @@ def _with_power(record: dict[str, Any], setup: ChartSetup) -> PowerTable:
         record["arl_by_shift_of_values"] = arl_by_shift(table, "values")
     record["arl_by_shift_simulated"] = table.simulated
     if setup.detectors:  # the in-control run length of the whole set, detectors included
-        zero = detection_power(setup.rules, setup.detectors, (0.0,))[0]
+        zero = cached_power(setup.rules, setup.detectors, (0.0,))[0]
         record["arl0"] = zero.arl if math.isfinite(zero.arl) else None
         record["arl0_method"] = zero.method
         record["arl0_std_error"] = zero.std_error

@@ -57,8 +57,13 @@ def screen_command(options: ServeOptions) -> tuple[list[str], dict[str, str], st
             argv += ["--state-dir", str(Path(options.state_dir).expanduser().resolve())]
         name = config_path.stem if config_path.stem != "linewatch" else config_path.parent.name
         return argv, {}, f"linewatch · {name}"
-    raise LinewatchError("serve --plant: the plant board screen is not in this version yet; "
-                         "serve a line's screen with -c CONFIG")
+    from linewatch.plant.url import ENV_URL, plant_url
+
+    # the URL goes in the screen's environment, never on a command line `ps` would show
+    url = options.plant or plant_url(None) or ""
+    if not url:
+        raise LinewatchError(f"--plant needs the central database's URL, or {ENV_URL} set")
+    return [*base, "plant", "board"], {ENV_URL: url}, "linewatch · plant"
 
 
 def run(options: ServeOptions) -> int:
@@ -78,7 +83,7 @@ def run(options: ServeOptions) -> int:
     from linewatch.faces.tui.serving import ScreenServer
 
     server = ScreenServer(
-        shlex.join(argv), host=host, port=port, title=title, users=users,
+        "exec " + shlex.join(argv), host=host, port=port, title=title, users=users,
         allow_actions=options.allow_actions, public_url=options.public_url,
         trust_forwarded=options.trust_forwarded, session_env=env,
         say=lambda line: print(line, flush=True),

@@ -21,12 +21,13 @@ from textual.binding import Binding, BindingType
 from textual.notifications import SeverityLevel
 from textual.screen import Screen
 from textual.timer import Timer
-from textual.worker import WorkerFailed, get_current_worker
+from textual.worker import get_current_worker
 
 from linewatch.domain import exit_codes
 from linewatch.domain.errors import LinewatchError
 from linewatch.domain.safe_text import visible
 from linewatch.faces.tui import messages
+from linewatch.faces.tui.crash import FATAL, ErrorConsole, crash_words
 from linewatch.faces.tui.glyphs import Glyphs, pick_glyphs
 from linewatch.faces.tui.screens.base import LineScreen
 from linewatch.faces.tui.screens.board import BoardScreen
@@ -107,7 +108,8 @@ class LinewatchApp(App[int]):
         self._drawing_since = 0.0
         self._quiet_until = 0.0  # the loop is left to keys until then after a redraw
         self.wanted_feed: str | None = None  # a file the feed pulse highlights when shown next
-        self.crashed_with: BaseException | None = None  # what took the screen down, if anything
+        # Textual's report of an error that ends the screen goes here, not over the terminal
+        self.error_console: ErrorConsole = ErrorConsole()
 
     def get_key_display(self, binding: Binding) -> str:
         """Plain key names on the Linux console, which lacks Textual's key symbols."""
@@ -131,12 +133,11 @@ class LinewatchApp(App[int]):
         super().notify(visible(message), title=visible(title), severity=severity,
                        timeout=timeout, markup=False)
 
-    def _handle_exception(self, error: Exception) -> None:
-        """A crash ends the screen with a non-zero code; the caller prints one line instead
-        of a full-screen traceback (see `run_app`). A worker's crash is told as its own error."""
-        self.crashed_with = error.error if isinstance(error, WorkerFailed) else error
-        super()._handle_exception(error)
-        self._exit_renderables.clear()
+    @property
+    def crashed(self) -> bool:
+        """True once an unhandled error ended the screen (the caller tells it in one line, see
+        `exit_code`)."""
+        return self.return_code == FATAL
 
     async def on_load(self) -> None:
         # before the terminal driver starts, so a hang-up at any later moment is handled
@@ -422,24 +423,13 @@ def run_app(
 
 
 def exit_code(app: LinewatchApp, code: int | None) -> int:
-    """The code to leave with once `app` has stopped; a crash is told in one line on stderr."""
-    if app.crashed_with is not None:
+    """The code to leave with once `app` has stopped; a crash is told in one line on stderr
+    (its traceback goes to a file named there); anything else Textual had to say is passed on."""
+    report = app.error_console.text
+    if app.crashed:
         sys.stderr.write(f"linewatch: the screen stopped on an internal error: "
-                         f"{visible(crash_words(app.crashed_with))}\n")
+                         f"{visible(crash_words(report))}\n")
         return EXIT_CRASH
+    if report.strip():
+        sys.stderr.write(visible(report.rstrip()) + "\n")
     return int(code or app.return_code or 0)
-
-
-def crash_words(error: BaseException) -> str:
-    """`Type: message` of a crash, and where its full traceback was written for a bug report."""
-    import tempfile
-    import traceback
-
-    words = f"{type(error).__name__}: {error}"
-    try:
-        with tempfile.NamedTemporaryFile("w", prefix="linewatch-crash-", suffix=".txt",
-                                         delete=False, encoding="utf-8") as f:
-            f.write("".join(traceback.format_exception(error)))
-        return f"{words} (traceback in {f.name})"
-    except OSError:
-        return words

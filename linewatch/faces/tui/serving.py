@@ -33,6 +33,7 @@ from linewatch.present.browser_session import READ_ONLY_TITLE, BrowserSession
 
 PAGES = Path(__file__).with_name("web_pages")
 COOKIE = "linewatch_session"
+SCREEN_GRACE = 10.0  # seconds a screen may take to quit when the server stops
 SESSION_SECONDS = 12 * 3600.0  # a signed-in browser stays signed in for a long shift
 REFUSED_PAUSE = 1.0  # seconds a refused sign-in waits before answering (slows guessing)
 OPEN_PATHS = ("/sign-in", "/static/")
@@ -94,6 +95,7 @@ class ScreenServer(Server):
         self.clock = clock
         self.signed_in: dict[str, SignedIn] = {}
         self.screens_open = 0
+        self.screens: set[SessionScreen] = set()
 
     # -- the web application ------------------------------------------------------------------
     def initialize_logging(self) -> None:
@@ -112,7 +114,21 @@ class ScreenServer(Server):
             web.static("/static", self.statics_path, name="static"),
         ])
         app.on_startup.append(self.on_startup)
+        app.on_shutdown.append(self.on_shutdown)
         return app
+
+    async def on_shutdown(self, app: web.Application) -> None:
+        """Stopping the server ends every browser's screen (SIGTERM: each quits the normal way
+        and gives its collector lease up), so none goes on running without its browser."""
+        processes = [s._process for s in self.screens if s._process is not None]
+        for process in processes:
+            if process.returncode is None:
+                process.terminate()
+        for process in processes:
+            try:
+                await asyncio.wait_for(process.wait(), SCREEN_GRACE)
+            except TimeoutError:
+                process.kill()
 
     async def on_startup(self, app: web.Application) -> None:
         mode = "acting as the signed-in user" if self.allow_actions else READ_ONLY_TITLE
@@ -255,6 +271,7 @@ class ScreenServer(Server):
                 close=websocket.close, download_manager=self.download_manager,
             )
             await screen.start(width, height)
+            self.screens.add(screen)
             try:
                 await self._process_messages(websocket, screen)
             finally:
@@ -265,6 +282,7 @@ class ScreenServer(Server):
             log.warning("screen for %s ended: %s", session.address, error)
         finally:
             if screen is not None:
+                self.screens.discard(screen)
                 await screen.stop()
             self.screens_open -= 1
             self.say(f"linewatch serve: screen closed for {user or 'a browser'} from "

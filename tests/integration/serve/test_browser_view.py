@@ -93,13 +93,26 @@ class Served:
                 time.sleep(0.1)
         raise AssertionError("the server did not start")
 
+    def screens(self) -> list[int]:
+        """Process ids of the screens this server started (its children)."""
+        import psutil
+
+        return [c.pid for c in psutil.Process(self.proc.pid).children(recursive=True)]
+
     def stop(self) -> str:
+        import psutil
+
+        children = [psutil.Process(p) for p in self.screens()]
         self.proc.terminate()
         try:
             out, _ = self.proc.communicate(timeout=20)
         except subprocess.TimeoutExpired:
             self.proc.kill()
             out, _ = self.proc.communicate()
+        _gone, alive = psutil.wait_procs(children, timeout=15)
+        for p in alive:
+            p.kill()
+        assert alive == [], "a screen outlived the server"
         return out
 
     def audit(self) -> list[dict[str, object]]:
@@ -177,6 +190,7 @@ def test_without_actions_the_board_shows_and_an_acknowledgement_is_refused(
     try:
         browser.get(served.url)  # type: ignore[attr-defined]
         wait_for_text(browser, "bore-dia")  # the board's row of the characteristic
+        assert len(served.screens()) == 1  # one screen process for the one browser
         from selenium.webdriver.common.by import By
 
         header = browser.find_element(By.ID, "who").text  # type: ignore[attr-defined]

@@ -44,6 +44,12 @@ def test_a_sustained_shift_raises_one_alarm_on_the_location_chart(tmp_path: Path
         tailer.close()
         charts = {r["chart"] for r in out.records if r.get("type") == "signal"}
         assert {"ewma", "cusum"} <= charts  # the records name the detector's chart
+        sides = {r.get("side") for r in out.records
+                 if r.get("type") == "signal" and r["chart"] == "cusum"}
+        assert "up" in sides and sides <= {"up", "down"}  # the shift is upwards
+        limits = {r["chart"]: r for r in out.records if r.get("type") == "limits"}
+        assert limits["cusum"]["ucl"] == 5.0 and limits["cusum"]["lcl"] is None  # h·σ, σ = 1
+        assert limits["ewma"]["varies"] is True
         every = [r[0] for r in store.query("SELECT chart FROM alarms")]
         assert "ewma" not in every and "cusum" not in every
         rows = store.query("SELECT chart, rules FROM alarms WHERE active = 1 "

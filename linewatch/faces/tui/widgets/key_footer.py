@@ -147,6 +147,7 @@ class KeyFooter(Footer):
     _fitted_for = -1
     _drawn: tuple[object, ...] | None = None  # the keys on show, as `_keys` gave them
     _update_asked = False
+    _keys_known = False  # the screen has told its bindings (the keys are drawn from then on)
 
     def _keys(self) -> tuple[list[tuple[Binding, str, bool, str]], bool]:
         """(binding, key shown, enabled, tooltip) of each key that fits, and whether compactly."""
@@ -169,7 +170,7 @@ class KeyFooter(Footer):
                            for b, shown, enabled, tooltip in keys))
 
     def compose(self) -> ComposeResult:
-        if not getattr(self, "_bindings_ready", True):
+        if not self._keys_known:
             return
         keys, compact = self._keys()
         self._drawn = self._signature(keys, compact)
@@ -179,7 +180,7 @@ class KeyFooter(Footer):
                          disabled=not enabled, tooltip=tooltip).data_bind(compact=Footer.compact)
 
     def bindings_changed(self, screen: Screen[object]) -> None:
-        self._bindings_ready = True
+        self._keys_known = True
         if screen.app.app_focus and self.is_attached and screen is self.screen:
             self._ask_update()
 
