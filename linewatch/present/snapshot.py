@@ -101,6 +101,25 @@ def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsR
     return out
 
 
+def _last_two_compared(values: np.ndarray, first_index: int, limits_hist: list[LimitsRecord],
+                       c: CharacteristicConfig, n: int) -> str:
+    """The comparison of the last two phases of limits in two sentences ('' with one phase)."""
+    from linewatch.engine.phase_compare import compare, sentence, spread_sentence
+
+    loc_chart = chart_names(n, c.effective_dispersion)[0]
+    phases = sorted({(r.limits.phase, r.limits.start_index, r.limits.sigma)
+                     for r in limits_hist if r.limits.chart == loc_chart})
+    if len(phases) < 2:
+        return ""
+    (pa, sa, sigma_a), (pb, sb, _) = phases[-2], phases[-1]
+    a = values[max(0, sa * n - first_index):max(0, sb * n - first_index)]
+    b = values[max(0, sb * n - first_index):]
+    share = c.practical_share / 100.0
+    cmp = compare(a, b, a=f"phase {pa}", b=f"phase {pb}", lsl=c.lsl, usl=c.usl,
+                  sigma=sigma_a * np.sqrt(n), practical_share=share)
+    return sentence(cmp, unit=c.unit) + " " + spread_sentence(cmp)
+
+
 RESOLUTION_READINGS = 200  # recent readings that show the gauge's resolution
 
 
@@ -158,6 +177,7 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
                 v.margin_sigma = min(margins)
         if detail:
             v.phases = _phase_stats(values, first, limits_hist, c, n)
+            v.phase_comparison = _last_two_compared(values, first, limits_hist, c, n)
             v.recent_values = values[-RECENT_VALUES:].tolist()
         v.stale = v.last_row_age is not None and v.last_row_age > stale_after
     from linewatch.present.figures import reading_decimals

@@ -168,6 +168,8 @@ class CharacteristicView:
     recent_values: list[float] = field(default_factory=list)  # latest individual readings
     pending_phase_start: int | None = None  # a new phase was asked for; its limits are not in
     figures: CloseUpFigures | None = None  # box plot and trend, in a detail read only
+    # the last two phases of limits compared (means and spread, and whether it matters), in words
+    phase_comparison: str = ""
     attribute: AttributeFigures | None = None  # counts or pass/fail results (else None)
     # the EWMA / CUSUM charts and the rule set's detection power, in a detail read only
     detectors: list[DetectorChartView] = field(default_factory=list)

@@ -263,6 +263,7 @@ class CloseUpScreen(LineScreen):
             Text("phases of limits", "bold"),
             phase_table(cv.phases) if cv.phases else Text(
                 "no limits: refused" if cv.limits_refused else "no limits yet", palette.LABEL),
+            *([Text(visible(cv.phase_comparison))] if cv.phase_comparison else []),
         ))
 
     def _draw_box(self, cv: view.CharacteristicView, width: int) -> None:
