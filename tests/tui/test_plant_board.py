@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import asyncio
 import threading
+import time
 from collections.abc import Callable
 from typing import Any
 
@@ -64,6 +65,7 @@ async def test_a_burst_of_notifications_redraws_at_most_ten_times_a_second() -> 
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause(0.3)
         before = app.redraws
+        started = time.perf_counter()
         assert source.callback is not None
         stop = threading.Event()
 
@@ -78,7 +80,9 @@ async def test_a_burst_of_notifications_redraws_at_most_ten_times_a_second() -> 
         stop.set()
         thread.join()
         await pilot.pause(0.3)
-        assert 1 <= app.redraws - before <= 12  # 10/s over ~1.3 s, one in flight at the end
+        elapsed = time.perf_counter() - started
+        # 10 a second over the time it took (the first may come at once), however slow the machine
+        assert 1 <= app.redraws - before <= int(elapsed * 10) + 1
 
 
 async def test_enter_says_the_line_board_is_opened_on_the_line_pc() -> None:

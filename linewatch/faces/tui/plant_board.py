@@ -73,6 +73,7 @@ class PlantBoardApp(App[int]):
         self._reading = False
         self._again = False
         self._last_read = -1.0
+        self._timer_set = False
         self.redraws = 0
 
     def compose(self) -> ComposeResult:
@@ -101,11 +102,17 @@ class PlantBoardApp(App[int]):
             return
         due = self._last_read + 1.0 / REFRESH_HZ - time.perf_counter()
         if due > 0:
-            self.set_timer(due, self._changed)
+            if not self._timer_set:  # one pending wake-up, however many notifications
+                self._timer_set = True
+                self.set_timer(due, self._timer_due)
             return
         self._reading = True
         self._last_read = time.perf_counter()
         self._read()
+
+    def _timer_due(self) -> None:
+        self._timer_set = False
+        self._changed()
 
     @work(thread=True, exclusive=True, group="plant")
     def _read(self) -> None:
