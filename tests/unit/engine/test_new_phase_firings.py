@@ -55,8 +55,8 @@ def test_any_new_baseline_and_chunking_reports_each_firing_once(values, start, c
     eng.new_baseline(start)
     _check(eng.settle(), seen)
     rest, k = x[60:], 0
-    for size in chunks * 10:
-        if k >= rest.shape[0]:
-            break
+    sizes = iter(chunks * rest.shape[0])  # the chunk sizes again and again: enough for any rest
+    while k < rest.shape[0]:
+        size = next(sizes)
         _check(eng.push(rest[k:k + size]), seen)
         k += size

@@ -47,6 +47,9 @@ def test_nothing_happening_means_no_wake_up(tmp_path: Path) -> None:
     try:
         quiet(w)
         assert w.wait(0.3) is False
+        # the same waker is not deaf: a real write wakes it (so the quiet above means something)
+        (tmp_path / "new.csv").write_text("time,od\n06:00,25.0\n")
+        assert w.wait(30.0) is True
     finally:
         w.close()
 
@@ -62,6 +65,9 @@ def test_our_own_reading_does_not_wake_us(tmp_path: Path) -> None:
         for _ in range(3):
             t.poll()  # lists the folder, stats and reads the file
             assert w.wait(0.3) is False
+        with open(log, "a") as fh:  # someone else's append still wakes us
+            fh.write("06:01,25.1\n")
+        assert w.wait(30.0) is True
     finally:
         w.close()
         t.close()
