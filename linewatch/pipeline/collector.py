@@ -348,19 +348,8 @@ class Collector:
             self.store.requests.refused(req.id, problem, now)
             out.records.append({"type": "baseline", "characteristic": name, "problem": problem})
             return
-        try:
-            eng.new_baseline(req.start_index)
-        except ValueError as exc:
-            self.store.requests.refused(req.id, str(exc), now)
-            out.records.append({"type": "baseline", "characteristic": name, "problem": str(exc)})
+        if not self._begin_phase(req, eng, now, out):
             return
-        self.store.audit.append(
-            "new-baseline", name,
-            {"start_index": eng.phase_start, "phase": eng.phase, "reason": req.reason},
-            at=now, actor=req.actor,
-        )
-        self.store.requests.carried_out(req.id, eng.phase, eng.phase_start, now)
-        self.store.ingest.set_limits_refused(name, "")  # judged afresh
         live = eng.settle()  # the new phase may already hold enough points for limits
         if live.problem is not None:  # ... or be refused again
             self.store.ingest.set_limits_refused(name, live.problem)
@@ -375,23 +364,32 @@ class Collector:
         out.records.append({"type": "baseline", "characteristic": name,
                             "start_index": eng.phase_start, "reason": req.reason})
 
-    def _carry_out_stepped(self, req: BaselineRequest, now: float, out: Outcome) -> None:
-        """`_carry_out` for a chart whose limits step."""
+    def _begin_phase(self, req: BaselineRequest, eng: CharacteristicEngine | SteppedEngine,
+                     now: float, out: Outcome) -> bool:
+        """Start the requested phase on either kind of engine, audited and answered; False
+        (and the request refused with the reason) when the engine cannot start it there."""
         name = req.characteristic
-        eng = self._stepped_engine(name)
         try:
             eng.new_baseline(req.start_index)
         except ValueError as exc:
             self.store.requests.refused(req.id, str(exc), now)
             out.records.append({"type": "baseline", "characteristic": name, "problem": str(exc)})
-            return
+            return False
         self.store.audit.append(
             "new-baseline", name,
             {"start_index": eng.phase_start, "phase": eng.phase, "reason": req.reason},
             at=now, actor=req.actor,
         )
         self.store.requests.carried_out(req.id, eng.phase, eng.phase_start, now)
-        self.store.ingest.set_limits_refused(name, "")
+        self.store.ingest.set_limits_refused(name, "")  # the new phase is judged afresh
+        return True
+
+    def _carry_out_stepped(self, req: BaselineRequest, now: float, out: Outcome) -> None:
+        """`_carry_out` for a chart whose limits step."""
+        name = req.characteristic
+        eng = self._stepped_engine(name)
+        if not self._begin_phase(req, eng, now, out):
+            return
         self._take_stepped(name, eng, eng.settle(), now, out)
         self._save_engine(name, now)
         out.records.append({"type": "baseline", "characteristic": name,
