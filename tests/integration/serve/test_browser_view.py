@@ -205,6 +205,8 @@ def test_without_actions_the_board_shows_and_an_acknowledgement_is_refused(
 def test_sign_in_refuses_a_wrong_password_and_a_right_one_acts_as_that_user(
         line: Path, browser: object) -> None:
     from selenium.webdriver.common.by import By
+    from selenium.webdriver.support.expected_conditions import presence_of_element_located
+    from selenium.webdriver.support.wait import WebDriverWait
 
     users = line.parent / "users"
     made = linewatch("browser-user", "add", "maria", "--users", str(users), "--password-stdin",
@@ -219,7 +221,9 @@ def test_sign_in_refuses_a_wrong_password_and_a_right_one_acts_as_that_user(
         browser.find_element(By.ID, "user").send_keys("maria")  # type: ignore[attr-defined]
         browser.find_element(By.ID, "password").send_keys("not-her-password")  # type: ignore[attr-defined]
         browser.find_element(By.ID, "sign-in").click()  # type: ignore[attr-defined]
-        problem = browser.find_element(By.ID, "problem").text  # type: ignore[attr-defined]
+        # the refusal page comes after the password is hashed and checked: wait for it
+        problem = WebDriverWait(browser, WAIT).until(  # type: ignore[arg-type]
+            presence_of_element_located((By.ID, "problem"))).text
         assert "do not match" in problem
         assert seen(browser) == ""
 
