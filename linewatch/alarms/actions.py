@@ -17,7 +17,7 @@ from linewatch.domain.errors import LinewatchError
 from linewatch.store.actor import Actor, who
 
 if TYPE_CHECKING:
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.db import Store
 
 
@@ -176,7 +176,7 @@ class OperatorActions:
                 f"(alarms.shelve_max), got {format_duration(seconds)}"
             )
 
-    def _shelve_one(self, events: list[AlarmEvent], alarm: AlarmRecord, until: float,
+    def _shelve_one(self, events: list[AlarmEvent], alarm: StoredAlarm, until: float,
                     seconds: float, reason: str, now: float, actor: str) -> None:
         self.store.alarms.update(alarm.id, shelved_until=until, shelved_by=actor,
                                  shelve_reason=reason, updated_at=now)

@@ -29,7 +29,7 @@ from linewatch.store.actor import Actor
 
 if TYPE_CHECKING:
     from linewatch.config.model import Config
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.db import Store
 
 
@@ -189,16 +189,16 @@ class AlarmBook:
             "SELECT DISTINCT characteristic FROM alarms"))  # files too: their feed alarms
         return sorted(names)
 
-    def alarms(self, include_closed: bool = False) -> list[AlarmRecord]:
+    def alarms(self, include_closed: bool = False) -> list[StoredAlarm]:
         """Open alarms (or all), oldest first."""
         return self.store.alarms.all() if include_closed else self.store.alarms.open()
 
-    def ranked(self, include_closed: bool = False, now: float | None = None) -> list[AlarmRecord]:
+    def ranked(self, include_closed: bool = False, now: float | None = None) -> list[StoredAlarm]:
         """Open alarms (or all), most urgent first: the order of the queue and `alarms list`."""
         now = time.time() if now is None else now
         return ranked(self.alarms(include_closed), now)
 
-    def view(self, alarm: AlarmRecord, now: float | None = None) -> AlarmView:
+    def view(self, alarm: StoredAlarm, now: float | None = None) -> AlarmView:
         """What the faces show for one alarm."""
         return self.listing.view(alarm, now)
 
@@ -206,18 +206,18 @@ class AlarmBook:
         """Alarm views, most urgent first."""
         return self.listing.views(self.alarms(include_closed), now)
 
-    def list_record(self, alarm: AlarmRecord, now: float | None = None) -> dict[str, Any]:
+    def list_record(self, alarm: StoredAlarm, now: float | None = None) -> dict[str, Any]:
         """One alarm with exactly the keys of `alarms list --format jsonl`."""
         return self.listing.list_record(alarm, now)
 
-    def hook_payload(self, alarm: AlarmRecord, now: float | None = None) -> dict[str, Any]:
+    def hook_payload(self, alarm: StoredAlarm, now: float | None = None) -> dict[str, Any]:
         """What the alarm hook receives on stdin."""
         return self.listing.hook_payload(alarm, now)
 
-    def describe(self, alarm: AlarmRecord) -> str:
+    def describe(self, alarm: StoredAlarm) -> str:
         """The alarm's condition in plain words."""
         return self.listing.describe(alarm)
 
-    def reaction_plan(self, alarm: AlarmRecord) -> str:
+    def reaction_plan(self, alarm: StoredAlarm) -> str:
         """The configured text telling the operator what to do about this alarm."""
         return self.policy.reaction_plan(alarm)

@@ -3,7 +3,7 @@ return alarms, following the episode definition of `linewatch.engine.episodes`.
 
 States follow ISA-18.2 / IEC 62682. Each alarm keeps two facts — is its condition present
 (`active`) and has a person acknowledged it — plus `shelved_until`; the state is derived (see
-`AlarmRecord.state`), and an alarm both returned to normal and acknowledged is closed.
+`StoredAlarm.state`), and an alarm both returned to normal and acknowledged is closed.
 
 Every transition is appended to the audit trail in the same transaction as the change itself.
 The transitions that operator actions also cause (closing, the end of a shelf) are public here
@@ -26,7 +26,7 @@ from linewatch.engine.episodes import DEFAULT_CLEAR_AFTER, returns_at, same_epis
 from linewatch.engine.spec import out_of_spec
 
 if TYPE_CHECKING:
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.db import Store
 
 SYSTEM_ACTOR = "linewatch"  # the actor of automatic transitions (raised, returned, expired)
@@ -46,7 +46,7 @@ class AlarmEvent:
     """A transition that happened: action is one of the audit actions about alarms."""
 
     action: str
-    alarm: AlarmRecord | None  # None for events about all alarms (flood-started, flood-ended)
+    alarm: StoredAlarm | None  # None for events about all alarms (flood-started, flood-ended)
 
 
 class Lifecycle:
@@ -152,13 +152,13 @@ class Lifecycle:
 
     # -- transitions operator actions share --------------------------------------------------
 
-    def get(self, alarm_id: int) -> AlarmRecord:
+    def get(self, alarm_id: int) -> StoredAlarm:
         """An alarm known to exist (just written in this transaction)."""
         alarm = self.store.alarms.get(alarm_id)
         assert alarm is not None
         return alarm
 
-    def open_alarm(self, alarm_id: int) -> AlarmRecord:
+    def open_alarm(self, alarm_id: int) -> StoredAlarm:
         """An alarm a person names: it must exist and not be closed."""
         alarm = self.store.alarms.get(alarm_id)
         if alarm is None:
@@ -190,7 +190,7 @@ class Lifecycle:
         for alarm in self.store.alarms.shelf_expired(now):
             self.end_shelf(events, alarm, now, expired=True, actor=SYSTEM_ACTOR)
 
-    def end_shelf(self, events: list[AlarmEvent], alarm: AlarmRecord, now: float,
+    def end_shelf(self, events: list[AlarmEvent], alarm: StoredAlarm, now: float,
                   expired: bool, actor: str) -> None:
         """Back in annunciation, with what happened meanwhile; an alarm acknowledged and
         returned while shelved closes now."""
@@ -263,7 +263,7 @@ class Lifecycle:
     def _count(
         self,
         events: list[AlarmEvent],
-        alarm: AlarmRecord,
+        alarm: StoredAlarm,
         index: int,
         rules: list[str],
         kind_of: Callable[[Iterable[str]], AlarmKind],
@@ -303,7 +303,7 @@ class Lifecycle:
         """The most urgent of the kinds of `rules`."""
         return self.policy.most_urgent(kind_of([rule]) for rule in rules)
 
-    def _flush(self, alarm: AlarmRecord, now: float) -> None:
+    def _flush(self, alarm: StoredAlarm, now: float) -> None:
         """Write the counts `_count` gathered in memory."""
         self.store.alarms.update(
             alarm.id, last_index=alarm.last_index, signals=alarm.signals, rules=alarm.rules,
@@ -323,7 +323,7 @@ class Lifecycle:
         file: str | None = None,
         detail: str = "",
         priority: int | None = None,
-    ) -> AlarmRecord:
+    ) -> StoredAlarm:
         """A new alarm row; born shelved (and silent) while its characteristic is shelved."""
         priority = self.policy.priority(kind) if priority is None else priority
         shelf = self.store.alarms.shelf(characteristic, now)
@@ -362,9 +362,9 @@ class Lifecycle:
         return alarm
 
     def _reraise(
-        self, events: list[AlarmEvent], alarm: AlarmRecord, rule: str, index: int | None,
+        self, events: list[AlarmEvent], alarm: StoredAlarm, rule: str, index: int | None,
         now: float,
-    ) -> AlarmRecord:
+    ) -> StoredAlarm:
         """The next episode of an alarm not yet closed: the same row, unacknowledged again."""
         shelved = alarm.state(now) == AlarmState.SHELVED
         self.store.alarms.update(
@@ -402,8 +402,8 @@ class Lifecycle:
         self.store.alarms.update(alarm.id, signals=1)
 
     def _return(
-        self, events: list[AlarmEvent], alarm: AlarmRecord, now: float
-    ) -> AlarmRecord | None:
+        self, events: list[AlarmEvent], alarm: StoredAlarm, now: float
+    ) -> StoredAlarm | None:
         """The condition is gone: returned to normal, and closed when it was acknowledged and is
         not shelved. Returns the alarm, or None when it closed."""
         self.store.alarms.update(alarm.id, active=0, returned_at=now, updated_at=now)

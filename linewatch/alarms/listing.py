@@ -14,7 +14,7 @@ from linewatch.domain.clock import iso_time
 from linewatch.domain.records import AlarmView
 
 if TYPE_CHECKING:
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
 
 # Keys of `linewatch alarms list --format jsonl`, in order.
 LIST_KEYS = (
@@ -42,7 +42,7 @@ LIST_KEYS = (
 )
 
 
-def ranked(alarms: Iterable[AlarmRecord], now: float) -> list[AlarmRecord]:
+def ranked(alarms: Iterable[StoredAlarm], now: float) -> list[StoredAlarm]:
     """`alarms` most urgent first (see `linewatch.domain.alarm_states.urgency`)."""
     return sorted(alarms, key=lambda a: urgency(a.state(now), a.priority, a.raised_at, a.id))
 
@@ -53,11 +53,11 @@ class AlarmListing:
     def __init__(self, policy: AlarmPolicy) -> None:
         self.policy = policy
 
-    def describe(self, alarm: AlarmRecord) -> str:
+    def describe(self, alarm: StoredAlarm) -> str:
         """The alarm's condition in plain words."""
         return describe(alarm, self.policy.config)
 
-    def view(self, alarm: AlarmRecord, now: float | None = None) -> AlarmView:
+    def view(self, alarm: StoredAlarm, now: float | None = None) -> AlarmView:
         """What the faces show for one alarm."""
         now = time.time() if now is None else now
         state = alarm.state(now)
@@ -88,12 +88,12 @@ class AlarmListing:
             above_usl=alarm.above_usl,
         )
 
-    def views(self, alarms: Iterable[AlarmRecord], now: float | None = None) -> list[AlarmView]:
+    def views(self, alarms: Iterable[StoredAlarm], now: float | None = None) -> list[AlarmView]:
         """Views of `alarms`, most urgent first."""
         now = time.time() if now is None else now
         return [self.view(a, now) for a in ranked(alarms, now)]
 
-    def list_record(self, alarm: AlarmRecord, now: float | None = None) -> dict[str, Any]:
+    def list_record(self, alarm: StoredAlarm, now: float | None = None) -> dict[str, Any]:
         """One alarm with exactly the keys of `alarms list --format jsonl` (times in ISO 8601)."""
         now = time.time() if now is None else now
         state = alarm.state(now)
@@ -123,7 +123,7 @@ class AlarmListing:
         }
         return record
 
-    def hook_payload(self, alarm: AlarmRecord, now: float | None = None) -> dict[str, Any]:
+    def hook_payload(self, alarm: StoredAlarm, now: float | None = None) -> dict[str, Any]:
         """What the alarm hook receives on stdin: the list record plus words and the plan."""
         return {
             **self.list_record(alarm, now),

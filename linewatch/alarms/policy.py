@@ -21,7 +21,7 @@ from linewatch.engine.rulebook import BEYOND, RULES
 
 if TYPE_CHECKING:
     from linewatch.config.model import Config
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.points import CharacteristicSettings
 
 DEFAULT_REASONS: tuple[str, ...] = (
@@ -61,7 +61,7 @@ def plan_for(source: HasPlans, key: str | None) -> str:
     return source.reaction_plan
 
 
-def plan_key(alarm: AlarmRecord) -> str:
+def plan_key(alarm: StoredAlarm) -> str:
     """Which reaction plan an alarm looks up: a control-chart alarm its first-out rule, the
     others their kind."""
     return alarm.rule if alarm.kind in CONTROL_KINDS else alarm.kind
@@ -140,7 +140,7 @@ class AlarmPolicy:
                 return choice
         raise LinewatchError(f"unknown reason {text!r} for {characteristic} (choose: {menu})")
 
-    def reaction_plan(self, alarm: AlarmRecord) -> str:
+    def reaction_plan(self, alarm: StoredAlarm) -> str:
         """The configured text telling the operator what to do about this alarm."""
         key = plan_key(alarm)
         if self.config is not None:

@@ -18,7 +18,7 @@ from linewatch.engine.rulebook import (
 
 if TYPE_CHECKING:
     from linewatch.config.model import Config
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
 
 _SPEC_WORDS = {
     "usl": "a measurement above the upper specification limit",
@@ -33,7 +33,7 @@ _FEED_WORDS = {
 }
 
 
-def describe(alarm: AlarmRecord, config: Config | None = None) -> str:
+def describe(alarm: StoredAlarm, config: Config | None = None) -> str:
     """The alarm's condition in plain words; a run rule with a run length the config sets for
     the characteristic is described with that length."""
     if alarm.kind == AlarmKind.OUT_OF_SPEC:
@@ -53,7 +53,7 @@ def describe(alarm: AlarmRecord, config: Config | None = None) -> str:
     return f"{spec.describe()} ({alarm.chart} chart)"
 
 
-def _detector_words(alarm: AlarmRecord, config: Config | None) -> str:
+def _detector_words(alarm: StoredAlarm, config: Config | None) -> str:
     """An EWMA or CUSUM alarm, with the characteristic's parameters when the config is known."""
     spec = DETECTORS[alarm.rule]
     c = config.characteristic(alarm.characteristic) if config is not None else None
@@ -63,7 +63,7 @@ def _detector_words(alarm: AlarmRecord, config: Config | None) -> str:
     return f"{spec.describe()} (on the {alarm.chart} chart's points)"
 
 
-def rule_summary(alarm: AlarmRecord) -> str:
+def rule_summary(alarm: StoredAlarm) -> str:
     """The alarm's counts in a few words: "we2 ×44 we3 ×37" (most frequent first)."""
     counts = alarm.rule_counts
     if not counts:

@@ -36,7 +36,7 @@ from linewatch.engine.stepped_live_state import restore_stepped, save_stepped
 from linewatch.feeds.health import FeedHealth
 from linewatch.pipeline.plan import Characteristics, WatchPlan
 from linewatch.pipeline.stepped_rows import is_stepped, stepped_rows
-from linewatch.store.stepped_points import SteppedRecord
+from linewatch.store.stepped_points import StoredSteppedPoint
 
 if TYPE_CHECKING:
     from linewatch.engine.limits import LimitSet
@@ -265,7 +265,7 @@ class Collector:
         for p in live.points:
             tag = cast("list[Any] | None", p.meta)
             file, line, when = tag if tag else (None, -1, None)
-            records.append(SteppedRecord(name, p.chart, p.index, p.value, p.n, p.center, p.ucl,
+            records.append(StoredSteppedPoint(name, p.chart, p.index, p.value, p.n, p.center, p.ucl,
                                          p.lcl, p.sigma, p.phase, int(line), file, when))
         self.store.stepped.put(records)
         if live.problem is not None:
@@ -275,7 +275,7 @@ class Collector:
                 self.store.ingest.set_limits_refused(name, eng.problem)
         if live.model is not None:
             self.store.ingest.set_limits_refused(name, "")
-            firsts: dict[str, SteppedRecord] = {}
+            firsts: dict[str, StoredSteppedPoint] = {}
             for r in records:
                 if r.center is not None and r.chart not in firsts:
                     firsts[r.chart] = r

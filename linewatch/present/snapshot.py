@@ -41,9 +41,9 @@ from linewatch.present.view import (
 if TYPE_CHECKING:
     from linewatch.alarms.book import AlarmBook
     from linewatch.config.model import CharacteristicConfig
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.db import Store
-    from linewatch.store.points import LimitsRecord, PointRecord
+    from linewatch.store.points import StoredLimits, StoredPoint
 
 OVERVIEW_POINTS = 120  # raw readings per characteristic on the overview
 DETAIL_POINTS = 1500  # raw readings per characteristic in the detail view
@@ -52,7 +52,7 @@ RECENT_VALUES = 100  # individual readings for the detail's box plot
 
 
 def _chart_view(chart: str, values: np.ndarray, indices: np.ndarray,
-                limits_hist: list[LimitsRecord], marks: dict[int, list[str]]) -> ChartView:
+                limits_hist: list[StoredLimits], marks: dict[int, list[str]]) -> ChartView:
     cv = ChartView(chart, values.tolist(), indices.tolist(),
                    [",".join(marks.get(int(i), [])) for i in indices])
     mine = [r.limits for r in limits_hist if r.limits.chart == chart]
@@ -81,7 +81,7 @@ def _plotted(
     return loc.values, loc.indices + base, disp.values, disp.indices + base
 
 
-def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsRecord],
+def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[StoredLimits],
                  c: CharacteristicConfig, n: int) -> list[PhaseStats]:
     from linewatch.engine.summary import capability, describe
 
@@ -101,7 +101,7 @@ def _phase_stats(values: np.ndarray, first_index: int, limits_hist: list[LimitsR
     return out
 
 
-def _last_two_compared(values: np.ndarray, first_index: int, limits_hist: list[LimitsRecord],
+def _last_two_compared(values: np.ndarray, first_index: int, limits_hist: list[StoredLimits],
                        c: CharacteristicConfig, n: int) -> str:
     """The comparison of the last two phases of limits in two sentences ('' with one phase)."""
     from linewatch.engine.phase_compare import compare, sentence, spread_sentence
@@ -126,7 +126,7 @@ RESOLUTION_READINGS = 200  # recent readings that show the gauge's resolution
 def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig, now: float,
                         points: int = OVERVIEW_POINTS, detail: bool = False,
                         stale_after: float = 600.0,
-                        open_now: list[AlarmRecord] | None = None) -> CharacteristicView:
+                        open_now: list[StoredAlarm] | None = None) -> CharacteristicView:
     """One characteristic as the overview (or, with detail, the detail screen) shows it.
     `open_now`: the line's open alarms, when the caller has read them already."""
     from linewatch.engine.summary import capability
@@ -204,13 +204,13 @@ def characteristic_view(store: Store, alarms: AlarmBook, c: CharacteristicConfig
     return v
 
 
-def _pending_phase(store: Store, name: str, limits_hist: list[LimitsRecord]) -> int | None:
+def _pending_phase(store: Store, name: str, limits_hist: list[StoredLimits]) -> int | None:
     """Where a new phase asked for starts, while its limits are not in yet (else None)."""
     newest_phase = max((r.limits.phase for r in limits_hist), default=0)
     return store.requests.waiting_start(name, newest_phase)
 
 
-def _seconds_per_point(recs: list[PointRecord], n: int) -> float | None:
+def _seconds_per_point(recs: list[StoredPoint], n: int) -> float | None:
     """Mean time between plotted points over the recent readings, from the rows' own time
     stamps when they parse, else from when they were received."""
     from datetime import datetime
@@ -227,7 +227,7 @@ def _seconds_per_point(recs: list[PointRecord], n: int) -> float | None:
     return (last - first) / span if span > 0 and last > first else None
 
 
-def _state(v: CharacteristicView, open_alarms: list[AlarmRecord], has_limits: bool,
+def _state(v: CharacteristicView, open_alarms: list[StoredAlarm], has_limits: bool,
            now: float) -> str:
     states = [a.state(now) for a in open_alarms]
     if UNACKNOWLEDGED in states or RETURNED_UNACKNOWLEDGED in states:

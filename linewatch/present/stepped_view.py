@@ -16,7 +16,7 @@ from linewatch.present.view import AttributeFigures, CharacteristicView, ChartVi
 if TYPE_CHECKING:
     from linewatch.config.model import CharacteristicConfig
     from linewatch.store.db import Store
-    from linewatch.store.stepped_points import SteppedRecord
+    from linewatch.store.stepped_points import StoredSteppedPoint
 
 
 def chart_names_of(c: CharacteristicConfig) -> tuple[str, ...]:
@@ -27,7 +27,7 @@ def chart_names_of(c: CharacteristicConfig) -> tuple[str, ...]:
     return SizeModel(0.0, 1.0, c.effective_dispersion, "").charts
 
 
-def stepped_chart(recs: list[SteppedRecord], chart: str, marks: dict[int, list[str]],
+def stepped_chart(recs: list[StoredSteppedPoint], chart: str, marks: dict[int, list[str]],
                   phase_starts: list[int]) -> ChartView:
     """One chart's points; every change of limits becomes an entry of `phase_limits`, which
     the chart draws from that point on: steps."""

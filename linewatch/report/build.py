@@ -22,7 +22,7 @@ LOCATION_CHARTS = (CHART_INDIVIDUALS, CHART_XBAR)  # charts on the readings' own
 if TYPE_CHECKING:
     from linewatch.config.model import CharacteristicConfig, Config
     from linewatch.report.alarm_performance import AlarmPerformance, Episode
-    from linewatch.store.alarm_rows import AlarmRecord
+    from linewatch.store.alarm_rows import StoredAlarm
     from linewatch.store.audit import Verdict
     from linewatch.store.db import Store
 
@@ -282,7 +282,7 @@ def _limits_at(history: list[Limits], index: int) -> Limits | None:
 
 def _trace(
     chart: str, values: list[float], first_index: int, n: int, history: list[Limits],
-    alarms: list[AlarmRecord], episodes: list[Episode],
+    alarms: list[StoredAlarm], episodes: list[Episode],
 ) -> ChartTrace:
     """Plotted location statistic (individuals, or means of complete subgroups) with limits."""
     trace = ChartTrace(chart)
@@ -304,7 +304,7 @@ def _trace(
     return trace
 
 
-def _flag(trace: ChartTrace, alarms: list[AlarmRecord], episodes: list[Episode]) -> None:
+def _flag(trace: ChartTrace, alarms: list[StoredAlarm], episodes: list[Episode]) -> None:
     """Mark the points inside an alarm's episodes on `trace`."""
     chart = trace.chart
     # Flag each episode's points (first to last firing), not all between an alarm's first and
@@ -324,7 +324,7 @@ STEPPED_POINTS = 5000  # newest stored points of a stepped chart a report looks 
 
 
 def _stepped_trace(store: Store, cfg: CharacteristicConfig, since: float,
-                   alarms: list[AlarmRecord], episodes: list[Episode]) -> ChartTrace:
+                   alarms: list[StoredAlarm], episodes: list[Episode]) -> ChartTrace:
     """The location (or attribute) chart of a characteristic whose limits step, from the
     points stored with their own limits: each point's limits, drawn as steps. The period's
     points are those at or after the first point its readings closed (a point's line is its

@@ -13,7 +13,7 @@ if TYPE_CHECKING:
 
 
 @dataclass(slots=True)
-class AlarmRecord:
+class StoredAlarm:
     """One alarm as stored. `active`: the condition is present; `acknowledged`: a person has
     acknowledged it; the state shown is derived from these and `shelved_until`."""
 
@@ -85,15 +85,15 @@ class Shelf:
     reason: str
 
 
-_COLUMNS = tuple(f.name for f in fields(AlarmRecord))
+_COLUMNS = tuple(f.name for f in fields(StoredAlarm))
 _SELECT = f"SELECT {', '.join(_COLUMNS)} FROM alarms"
 
 
-def _record(row: Any) -> AlarmRecord:
-    record = AlarmRecord(*tuple(row))
-    record.active = bool(record.active)
-    record.acknowledged = bool(record.acknowledged)
-    return record
+def _stored_alarm(row: Any) -> StoredAlarm:
+    alarm = StoredAlarm(*tuple(row))
+    alarm.active = bool(alarm.active)
+    alarm.acknowledged = bool(alarm.acknowledged)
+    return alarm
 
 
 class AlarmRows:
@@ -126,12 +126,12 @@ class AlarmRows:
                 f"UPDATE alarms SET {assignments} WHERE id = ?", [*values.values(), alarm_id]
             )
 
-    def get(self, alarm_id: int) -> AlarmRecord | None:
+    def get(self, alarm_id: int) -> StoredAlarm | None:
         """One alarm by id."""
         rows = self.store.query(f"{_SELECT} WHERE id = ?", (alarm_id,))
-        return _record(rows[0]) if rows else None
+        return _stored_alarm(rows[0]) if rows else None
 
-    def open(self, characteristic: str | None = None) -> list[AlarmRecord]:
+    def open(self, characteristic: str | None = None) -> list[StoredAlarm]:
         """Alarms not yet closed (optionally of one characteristic), oldest first."""
         if characteristic is None:
             rows = self.store.query(f"{_SELECT} WHERE closed_at IS NULL ORDER BY id")
@@ -140,20 +140,20 @@ class AlarmRows:
                 f"{_SELECT} WHERE closed_at IS NULL AND characteristic = ? ORDER BY id",
                 (characteristic,),
             )
-        return [_record(r) for r in rows]
+        return [_stored_alarm(r) for r in rows]
 
-    def active(self, characteristic: str, chart: str, rule: str) -> AlarmRecord | None:
+    def active(self, characteristic: str, chart: str, rule: str) -> StoredAlarm | None:
         """The alarm whose condition is still present for this characteristic, chart and rule."""
         rows = self.store.query(
             f"{_SELECT} WHERE closed_at IS NULL AND active = 1 AND characteristic = ? "
             "AND chart = ? AND rule = ? ORDER BY id DESC LIMIT 1",
             (characteristic, chart, rule),
         )
-        return _record(rows[0]) if rows else None
+        return _stored_alarm(rows[0]) if rows else None
 
     def open_on_chart(
         self, characteristic: str, chart: str, kinds: tuple[str, ...]
-    ) -> AlarmRecord | None:
+    ) -> StoredAlarm | None:
         """The open alarm of one condition (one chart, alarms of `kinds`): there is at most one."""
         marks = ", ".join("?" * len(kinds))
         rows = self.store.query(
@@ -161,7 +161,7 @@ class AlarmRows:
             f"AND kind IN ({marks}) ORDER BY id DESC LIMIT 1",
             (characteristic, chart, *kinds),
         )
-        return _record(rows[0]) if rows else None
+        return _stored_alarm(rows[0]) if rows else None
 
     def raised_since(self, since: float) -> int:
         """How many alarms were raised or re-raised (annunciated) since `since`."""
@@ -199,14 +199,14 @@ class AlarmRows:
                 conn.execute("DELETE FROM shelves WHERE until <= ?", (now,))
         return [str(r[0]) for r in rows]
 
-    def shelf_expired(self, now: float) -> list[AlarmRecord]:
+    def shelf_expired(self, now: float) -> list[StoredAlarm]:
         """Alarms whose shelving time has passed but that still carry it."""
         rows = self.store.query(
             f"{_SELECT} WHERE closed_at IS NULL AND shelved_until IS NOT NULL "
             "AND shelved_until <= ? ORDER BY id",
             (now,),
         )
-        return [_record(r) for r in rows]
+        return [_stored_alarm(r) for r in rows]
 
     def add_signals(self, characteristic: str, chart: str,
                     firings: list[tuple[int, str]]) -> None:
@@ -231,15 +231,15 @@ class AlarmRows:
             marks.setdefault(str(chart), {}).setdefault(int(idx), []).append(str(rule))
         return marks
 
-    def all(self) -> list[AlarmRecord]:
+    def all(self) -> list[StoredAlarm]:
         """Every alarm, oldest first."""
-        return [_record(r) for r in self.store.query(f"{_SELECT} ORDER BY id")]
+        return [_stored_alarm(r) for r in self.store.query(f"{_SELECT} ORDER BY id")]
 
-    def between(self, since: float, until: float) -> list[AlarmRecord]:
+    def between(self, since: float, until: float) -> list[StoredAlarm]:
         """Alarms that were open at some moment of [since, until): raised before `until` and not
         closed before `since`. Oldest first."""
         rows = self.store.query(
             f"{_SELECT} WHERE raised_at < ? AND (closed_at IS NULL OR closed_at >= ?) ORDER BY id",
             (until, since),
         )
-        return [_record(r) for r in rows]
+        return [_stored_alarm(r) for r in rows]

@@ -25,7 +25,7 @@ PRUNE_EVERY = 3600.0  # seconds between automatic prunes while points are being 
 
 
 @dataclass(frozen=True, slots=True)
-class PointRecord:
+class StoredPoint:
     """One stored reading; `index` is its 0-based position in the characteristic's series."""
 
     characteristic: str
@@ -38,8 +38,8 @@ class PointRecord:
 
 
 @dataclass(frozen=True, slots=True)
-class LimitsRecord:
-    """One entry of the limits history."""
+class StoredLimits:
+    """One stored limit set: the limits, why they were set and when."""
 
     limits: Limits
     reason: str
@@ -47,8 +47,8 @@ class LimitsRecord:
 
 
 @dataclass(frozen=True, slots=True)
-class FeedEventRecord:
-    """A feed event with the time it was recorded."""
+class StoredFeedEvent:
+    """A stored feed event with the time it was stored."""
 
     at: float
     event: FeedEvent
@@ -119,7 +119,7 @@ class History:
 
     def points(
         self, characteristic: str, since: float | None = None, until: float | None = None
-    ) -> list[PointRecord]:
+    ) -> list[StoredPoint]:
         """Points of one characteristic received in [since, until), oldest first."""
         rows = self.store.query(
             "SELECT characteristic, idx, value, line, file, time, received_at FROM points "
@@ -127,16 +127,16 @@ class History:
             "WHERE characteristic = ? AND received_at >= ? AND received_at < ? ORDER BY idx",
             (characteristic, -1e300 if since is None else since, 1e300 if until is None else until),
         )
-        return [PointRecord(*tuple(r)) for r in rows]
+        return [StoredPoint(*tuple(r)) for r in rows]
 
-    def last_points(self, characteristic: str, n: int) -> list[PointRecord]:
+    def last_points(self, characteristic: str, n: int) -> list[StoredPoint]:
         """The newest `n` points of one characteristic, oldest first."""
         rows = self.store.query(
             "SELECT characteristic, idx, value, line, file, time, received_at FROM points "
             "WHERE characteristic = ? ORDER BY idx DESC LIMIT ?",
             (characteristic, max(0, n)),
         )
-        return [PointRecord(*tuple(r)) for r in reversed(rows)]
+        return [StoredPoint(*tuple(r)) for r in reversed(rows)]
 
     def characteristics_with_points(self) -> list[str]:
         """Names of characteristics that have stored points, sorted. Each step is one index
@@ -230,7 +230,7 @@ class History:
     def limits_history(
         self, characteristic: str | None = None, since: float | None = None,
         until: float | None = None,
-    ) -> list[LimitsRecord]:
+    ) -> list[StoredLimits]:
         """Limits set in [since, until), for one characteristic or all, oldest first."""
         sql = (
             "SELECT characteristic, chart, center, ucl, lcl, sigma, phase, start_index, reason, "
@@ -243,7 +243,7 @@ class History:
             sql += " AND characteristic = ?"
             params.append(characteristic)
         rows = self.store.query(sql + " ORDER BY set_at, id", params)
-        return [LimitsRecord(Limits(*tuple(r)[:8]), r["reason"], r["set_at"]) for r in rows]
+        return [StoredLimits(Limits(*tuple(r)[:8]), r["reason"], r["set_at"]) for r in rows]
 
     def current_limits(self, characteristic: str) -> dict[str, Limits]:
         """The newest limits of each chart of one characteristic."""
@@ -264,14 +264,14 @@ class History:
 
     def feed_events(
         self, since: float | None = None, until: float | None = None
-    ) -> list[FeedEventRecord]:
+    ) -> list[StoredFeedEvent]:
         """Feed events recorded in [since, until), oldest first."""
         rows = self.store.query(
             "SELECT at, kind, file, detail FROM feed_events WHERE at >= ? AND at < ? "
             "ORDER BY at, id",
             (-1e300 if since is None else since, 1e300 if until is None else until),
         )
-        return [FeedEventRecord(r[0], FeedEvent(r[1], r[2], r[3])) for r in rows]
+        return [StoredFeedEvent(r[0], FeedEvent(r[1], r[2], r[3])) for r in rows]
 
     # -- characteristic settings ------------------------------------------------------------
 

@@ -14,7 +14,7 @@ if TYPE_CHECKING:
 
 
 @dataclass(frozen=True, slots=True)
-class SteppedRecord:
+class StoredSteppedPoint:
     """One stored point with its own limits."""
 
     characteristic: str
@@ -38,7 +38,7 @@ class SteppedPoints:
     def __init__(self, store: Store) -> None:
         self.store = store
 
-    def put(self, records: Iterable[SteppedRecord]) -> None:
+    def put(self, records: Iterable[StoredSteppedPoint]) -> None:
         """Write points (inside the caller's transaction); a point judged later replaces its
         first, limitless form."""
         rows = [(r.characteristic, r.chart, r.index, r.value, r.n, r.center, r.ucl, r.lcl,
@@ -51,13 +51,13 @@ class SteppedPoints:
                 "center, ucl, lcl, sigma, phase, line, file, time) "
                 "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", rows)
 
-    def last(self, characteristic: str, chart: str, count: int) -> list[SteppedRecord]:
+    def last(self, characteristic: str, chart: str, count: int) -> list[StoredSteppedPoint]:
         """The newest `count` points of one chart, oldest first."""
         rows = self.store.query(
             "SELECT characteristic, chart, idx, value, n, center, ucl, lcl, sigma, phase, line, "
             "file, time FROM stepped_points WHERE characteristic = ? AND chart = ? "
             "ORDER BY idx DESC LIMIT ?", (characteristic, chart, count))
-        return [SteppedRecord(*tuple(r)) for r in reversed(rows)]
+        return [StoredSteppedPoint(*tuple(r)) for r in reversed(rows)]
 
     def charts(self, characteristic: str) -> list[str]:
         """The charts of one characteristic that have points."""

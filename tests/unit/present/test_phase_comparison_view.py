@@ -8,11 +8,11 @@ from scipy import stats
 from linewatch.config.model import CharacteristicConfig
 from linewatch.domain.records import Limits
 from linewatch.present.snapshot import _last_two_compared
-from linewatch.store.points import LimitsRecord
+from linewatch.store.points import StoredLimits
 
 
-def _rec(phase: int, start: int) -> LimitsRecord:
-    return LimitsRecord(Limits("od", "individuals", 12.0, 12.03, 11.97, 0.01, phase, start),
+def _rec(phase: int, start: int) -> StoredLimits:
+    return StoredLimits(Limits("od", "individuals", 12.0, 12.03, 11.97, 0.01, phase, start),
                         "", 0.0)
 
 

@@ -8,13 +8,13 @@ from math import sqrt
 
 from linewatch.faces.tui.widgets.control_chart import phases_of, separators_of
 from linewatch.present.stepped_view import stepped_chart
-from linewatch.store.stepped_points import SteppedRecord
+from linewatch.store.stepped_points import StoredSteppedPoint
 
 
-def rec(i: int, d: int, n: int, phase: int = 0) -> SteppedRecord:
+def rec(i: int, d: int, n: int, phase: int = 0) -> StoredSteppedPoint:
     p = 0.04
     s = sqrt(p * (1 - p) / n)
-    return SteppedRecord("t", "p", i, d / n, n, p, p + 3 * s, max(0.0, p - 3 * s), s, phase,
+    return StoredSteppedPoint("t", "p", i, d / n, n, p, p + 3 * s, max(0.0, p - 3 * s), s, phase,
                          i + 1, "f", None)
 
 
@@ -29,6 +29,6 @@ def test_limits_step_where_the_size_changes_and_only_phases_separate():
 
 
 def test_points_of_a_forming_baseline_have_no_limits_yet():
-    recs = [SteppedRecord("t", "p", 0, 0.05, 40, None, None, None, None, 0, 1, "f", None)]
+    recs = [StoredSteppedPoint("t", "p", 0, 0.05, 40, None, None, None, None, 0, 1, "f", None)]
     cv = stepped_chart(recs, "p", {}, [])
     assert cv.phase_limits == [] and cv.ucl is None and cv.values == [0.05]
